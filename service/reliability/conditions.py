@@ -1,0 +1,435 @@
+"""Operating conditions: supply voltage and switching cycle as life, light and power factors.
+
+Formulas and sources:
+
+- Filament lamps (incandescent, halogen), r = V / V_rated [practice; the inverse power law
+  of accelerated life testing, Nelson, *Accelerated Testing*]:
+      life  x r^-n        (n about 13-16)
+      light x r^3.4       (halogen about r^3.0)
+      power x r^1.6
+  The relations hold only within several percent of rated voltage: results beyond the
+  technology's band (10 % for filament lamps) are still computed but warned.
+  Halogen: deep dimming stops the halogen cycle [practice], so the life gain is not extended
+  below HALOGEN_LIFE_RATIO_FLOOR x rated voltage (the factor is held at its value there).
+- Discharge lamps: the ballast sets lamp power. Lamp power ratio
+      P = 1 + g (r - 1),  clipped to at least MIN_POWER_RATIO,
+  with g = BALLAST_POWER_GAIN[ballast] (reactor about 2: +/-5 % line gives about +/-10 %
+  lamp watts [practice]; regulating about 0.5 [practice]; electronic and LED driver 0,
+  i.e. flat [memory]/[practice]). ASSUMPTION of this module (no single source): life and
+  light follow lamp power by power laws, life x P^-n_life and light x P^light_exponent, with
+  the technology's exponents. Power factor is P itself.
+- LED drivers hold output flat inside their input range [practice]; outside it the fixture
+  is flagged and nothing is extrapolated (all factors 1.0).
+- Switching [practice]: fluorescent rated life is quoted at about 3 burn hours per start;
+  makers also publish life at 12 h per start, often 20-30 % more. The life multiplier is
+  interpolated linearly in ln(hours per start) between (rated h/start, 1.0) and
+  (second h/start, second life ratio), and extrapolation is bounded and flagged. Without a
+  second point the default slope gives +25 % at 12 h vs 3 h per start.
+
+Voltages are volts, times are burn hours. Labels: [published] a named source, [practice] a
+rule of the trade, [memory] recalled and only a default a user can override.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+FloatArray = NDArray[np.float64]
+BoolArray = NDArray[np.bool_]
+
+TECHNOLOGIES: tuple[str, ...] = (
+    "incandescent",
+    "halogen",
+    "linear_fluorescent",
+    "compact_fluorescent",
+    "metal_halide",
+    "high_pressure_sodium",
+    "mercury_vapour",
+    "led",
+)
+
+# Ballast or driver behaviour; "none" is for filament lamps that run straight off the line.
+BALLASTS: tuple[str, ...] = ("none", "reactor", "regulating", "electronic", "led_driver")
+
+# d(lamp watts / rated lamp watts) / d(line volts / rated volts).
+# NaN for "none": filament lamps use their own power exponent instead.
+BALLAST_POWER_GAIN: dict[str, float] = {
+    "none": math.nan,
+    "reactor": 2.0,  # [practice] +/-5 % line gives about +/-9-12 % lamp watts
+    "regulating": 0.5,  # [practice] +/-10 % line gives about +/-5 % lamp watts
+    "electronic": 0.0,  # [memory] electronic ballasts hold lamp power nearly flat
+    "led_driver": 0.0,  # [practice] flat inside the driver's rated input range
+}
+
+# Fractional line-voltage band inside which the model is trusted, by ballast.
+BALLAST_VOLTAGE_BAND: dict[str, float] = {
+    "none": 0.10,  # [practice] filament power laws hold within about +/-10 %
+    "reactor": 0.05,  # [practice] makers limit reactor types to about +/-5 %
+    "regulating": 0.10,  # [practice] makers limit regulating types to about +/-10 %
+    "electronic": 0.10,  # [memory] typical electronic ballast input tolerance
+    "led_driver": 0.10,  # [memory] used only when no driver input range is given
+}
+
+# Halogen life gain is not extended below this voltage ratio (halogen cycle stops) [practice;
+# the exact ratio 0.90 is this module's choice].
+HALOGEN_LIFE_RATIO_FLOOR: float = 0.90
+
+# Lamp power ratio never goes below this (keeps P^-n finite far outside any valid band).
+MIN_POWER_RATIO: float = 0.05
+
+# Default switching slope: life ratio gained per unit of ln(hours per start).
+# [practice] about +25 % life at 12 h/start vs 3 h/start: 0.25 / ln(12 / 3).
+DEFAULT_SWITCHING_SLOPE: float = 0.25 / math.log(4.0)
+
+# Tolerance when comparing a voltage deviation with its band (floating-point noise only).
+_BAND_TOL = 1e-9
+
+
+@dataclass(frozen=True)
+class TechnologyDefaults:
+    """Catalogue-free defaults for one lamp technology; every value can be overridden."""
+
+    shape: float  # Weibull beta of catastrophic failures
+    life_exponent: float  # n: filament life x r^-n; discharge life x P^-n
+    light_exponent: float  # filament light x r^k; discharge light x P^k
+    power_exponent: float  # filament power x r^m (unused for ballasted lamps: power = P)
+    rated_percentile: float  # percent failed at the rated life (50 = B50, median)
+    rated_hours_per_start: float | None  # burn hours per start of the rated cycle
+    default_ballast: str
+    contains_mercury: bool
+    rupture_risk: bool  # non-passive end-of-life failure (metal halide)
+    voltage_band: float  # fractional band of trusted line voltage for the default ballast
+    life_ratio_floor: float | None = None  # halogen: life gain held below this voltage ratio
+    switching_slope: float | None = None  # life ratio per unit ln(h/start) without 2nd point
+    typical_rated_life_h: float = 10_000.0  # hours; only for default lumen curves
+
+    @property
+    def is_filament(self) -> bool:
+        """True for lamps that run straight off the line (no ballast or driver)."""
+        return self.default_ballast == "none"
+
+
+TECHNOLOGY_DEFAULTS: dict[str, TechnologyDefaults] = {
+    "incandescent": TechnologyDefaults(
+        shape=3.5,  # [memory] incandescent beta 3-4
+        life_exponent=13.0,  # [practice] life x V^-13 to V^-16
+        light_exponent=3.4,  # [practice]
+        power_exponent=1.6,  # [practice]
+        rated_percentile=50.0,  # [published] rated life = 50 % survivors (IES definition)
+        rated_hours_per_start=None,  # no switching model for filament lamps
+        default_ballast="none",
+        contains_mercury=False,
+        rupture_risk=False,
+        voltage_band=0.10,  # [practice] clamp or warn outside about +/-10 %
+        typical_rated_life_h=1_000.0,  # [practice] 750-2,000 h
+    ),
+    "halogen": TechnologyDefaults(
+        shape=3.5,  # [memory] as incandescent, beta 3-4
+        life_exponent=14.0,  # [practice] life about V^-14
+        light_exponent=3.0,  # [practice] light about V^3
+        power_exponent=1.6,  # [practice] as incandescent
+        rated_percentile=50.0,  # [published] IES definition
+        rated_hours_per_start=None,
+        default_ballast="none",
+        contains_mercury=False,
+        rupture_risk=False,
+        voltage_band=0.10,  # [practice]
+        life_ratio_floor=HALOGEN_LIFE_RATIO_FLOOR,  # [practice] deep dimming stops the cycle
+        typical_rated_life_h=3_000.0,  # [practice] 2,000-4,000 h
+    ),
+    "linear_fluorescent": TechnologyDefaults(
+        shape=5.0,  # [memory] fluorescent beta 4-7
+        life_exponent=2.0,  # [memory] assumption: life x P^-2 with lamp power
+        light_exponent=1.0,  # [memory] assumption: light roughly proportional to lamp watts
+        power_exponent=1.0,  # unused (ballasted)
+        rated_percentile=50.0,  # [published] IES definition
+        rated_hours_per_start=3.0,  # [practice] standard cycle about 3 h per start
+        default_ballast="electronic",
+        contains_mercury=True,
+        rupture_risk=False,
+        voltage_band=0.10,  # [memory] electronic ballast tolerance
+        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [practice] +25 % at 12 h vs 3 h
+        typical_rated_life_h=24_000.0,  # [practice] 20,000-36,000 h
+    ),
+    "compact_fluorescent": TechnologyDefaults(
+        shape=4.0,  # [memory] fluorescent beta 4-7 (CFL at the low end)
+        life_exponent=2.0,  # [memory] assumption, as linear fluorescent
+        light_exponent=1.0,  # [memory] assumption
+        power_exponent=1.0,  # unused (ballasted)
+        rated_percentile=50.0,  # [published] IES definition
+        rated_hours_per_start=3.0,  # [practice]
+        default_ballast="electronic",
+        contains_mercury=True,
+        rupture_risk=False,
+        voltage_band=0.10,  # [memory]
+        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [practice]
+        typical_rated_life_h=10_000.0,  # [practice] about 10,000 h
+    ),
+    "metal_halide": TechnologyDefaults(
+        shape=4.0,  # [memory] HID beta 3-5
+        life_exponent=3.0,  # [memory] assumption: over-wattage shortens arc-tube life
+        light_exponent=1.0,  # [memory] assumption
+        power_exponent=1.0,  # unused (ballasted)
+        rated_percentile=50.0,  # [published] IES definition
+        rated_hours_per_start=10.0,  # [practice] HID tested at 10 h or more per start
+        default_ballast="reactor",
+        contains_mercury=True,
+        rupture_risk=True,  # [practice] can rupture at end of life
+        voltage_band=0.05,  # [practice] reactor types limited to about +/-5 %
+        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption: as fluorescent
+        typical_rated_life_h=15_000.0,  # [practice] 10,000-30,000 h
+    ),
+    "high_pressure_sodium": TechnologyDefaults(
+        shape=4.0,  # [memory] HID beta 3-5
+        life_exponent=3.0,  # [memory] assumption
+        light_exponent=1.0,  # [memory] assumption
+        power_exponent=1.0,  # unused (ballasted)
+        rated_percentile=50.0,  # [published] IES definition
+        rated_hours_per_start=10.0,  # [practice]
+        default_ballast="reactor",
+        contains_mercury=True,  # [practice] mercury (and sodium)
+        rupture_risk=False,
+        voltage_band=0.05,  # [practice]
+        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption
+        typical_rated_life_h=24_000.0,  # [practice] 10,000-30,000 h
+    ),
+    "mercury_vapour": TechnologyDefaults(
+        shape=3.5,  # [memory] HID beta 3-5
+        life_exponent=3.0,  # [memory] assumption
+        light_exponent=1.0,  # [memory] assumption
+        power_exponent=1.0,  # unused (ballasted)
+        rated_percentile=50.0,  # [published] IES definition
+        rated_hours_per_start=10.0,  # [practice]
+        default_ballast="reactor",
+        contains_mercury=True,
+        rupture_risk=False,
+        voltage_band=0.05,  # [practice]
+        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption
+        typical_rated_life_h=24_000.0,  # [practice] 10,000-30,000 h
+    ),
+    "led": TechnologyDefaults(
+        shape=1.5,  # [memory] LED catastrophic (driver) failures beta 1-2
+        life_exponent=1.0,  # [memory] assumption; no effect while the driver holds P = 1
+        light_exponent=1.0,  # [memory] assumption; no effect while the driver holds P = 1
+        power_exponent=1.0,  # unused (driver)
+        # LED "rated life" L70 is a lumen criterion, not a failure percentile. For the
+        # catastrophic-failure Weibull we treat the quoted life as a B50 (median) like the
+        # other lamps; lumen decay is modelled separately (lumen.py, tm21.py).
+        rated_percentile=50.0,
+        rated_hours_per_start=None,  # no switching model
+        default_ballast="led_driver",
+        contains_mercury=False,
+        rupture_risk=False,
+        voltage_band=0.10,  # [memory] used only when no driver input range is given
+        typical_rated_life_h=50_000.0,  # [practice] 25,000-100,000 h
+    ),
+}
+
+
+@dataclass(frozen=True)
+class VoltageEffect:
+    """Life, light and power multipliers at an operating voltage, with any warnings."""
+
+    life_factor: float
+    light_factor: float
+    power_factor: float
+    warnings: tuple[str, ...]
+
+
+def _arr(x: ArrayLike) -> FloatArray:
+    return np.asarray(x, dtype=np.float64)
+
+
+def _opt(x: ArrayLike | None) -> FloatArray:
+    """None becomes NaN (meaning "not given")."""
+    return np.asarray(math.nan if x is None else x, dtype=np.float64)
+
+
+def voltage_factors(
+    voltage_ratio: ArrayLike,
+    life_exponent: ArrayLike,
+    light_exponent: ArrayLike,
+    power_exponent: ArrayLike,
+    ballast_gain: ArrayLike,
+    is_filament: ArrayLike,
+    *,
+    band: ArrayLike = 0.10,
+    life_ratio_floor: ArrayLike = math.nan,
+    driver_min_ratio: ArrayLike = math.nan,
+    driver_max_ratio: ArrayLike = math.nan,
+) -> tuple[FloatArray, FloatArray, FloatArray, BoolArray]:
+    """Vectorised voltage model: (life, light, power, out_of_band) for voltage ratios V/V_rated.
+
+    ballast_gain NaN or is_filament True selects the filament power laws. life_ratio_floor
+    (NaN = none) holds the filament life gain below that ratio (halogen). driver_min_ratio /
+    driver_max_ratio (NaN = not given) replace the band check: outside them all factors are
+    1.0 (not extrapolated) and the position is flagged.
+    """
+    r = _arr(voltage_ratio)
+    if np.any(~(r > 0)):
+        raise ValueError("voltage ratio must be a positive number (volts > 0)")
+    n_life = _arr(life_exponent)
+    k_light = _arr(light_exponent)
+    m_power = _arr(power_exponent)
+    gain = _arr(ballast_gain)
+    filament = np.asarray(is_filament, dtype=bool) | np.isnan(gain)
+    floor = _arr(life_ratio_floor)
+    dmin = _arr(driver_min_ratio)
+    dmax = _arr(driver_max_ratio)
+
+    # Ballasted lamps: lamp power ratio P from the line-voltage ratio through the ballast gain.
+    p_lamp = np.maximum(1.0 + np.where(filament, 0.0, gain) * (r - 1.0), MIN_POWER_RATIO)
+    base = np.where(filament, r, p_lamp)
+    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
+    life_base = np.where(filament, np.fmax(r, floor), p_lamp)
+    life = np.power(life_base, -n_life)
+    light = np.power(base, k_light)
+    power = np.where(filament, np.power(base, m_power), p_lamp)
+
+    has_range = ~np.isnan(dmin) | ~np.isnan(dmax)
+    outside_range = (r < dmin) | (r > dmax)  # NaN bounds compare False
+    life = np.where(outside_range, 1.0, life)
+    light = np.where(outside_range, 1.0, light)
+    power = np.where(outside_range, 1.0, power)
+
+    out_band = np.abs(r - 1.0) > _arr(band) + _BAND_TOL
+    below_floor = filament & (r < floor)
+    out = np.where(has_range, outside_range, out_band) | below_floor
+    return life, light, power, np.asarray(out, dtype=bool)
+
+
+def voltage_effect(
+    voltage: float,
+    rated_voltage: float,
+    technology: str,
+    ballast: str | None = None,
+    *,
+    life_exponent: float | None = None,
+    light_exponent: float | None = None,
+    power_exponent: float | None = None,
+    driver_range: tuple[float, float] | None = None,
+    ballast_gain: float | None = None,
+    band: float | None = None,
+) -> VoltageEffect:
+    """Life, light and power factors for one lamp type at one operating voltage (volts)."""
+    if technology not in TECHNOLOGY_DEFAULTS:
+        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
+    d = TECHNOLOGY_DEFAULTS[technology]
+    ballast = d.default_ballast if ballast is None else ballast
+    if ballast not in BALLAST_POWER_GAIN:
+        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
+    if d.is_filament != (ballast == "none"):
+        raise ValueError(
+            f"ballast {ballast!r} does not fit {technology}: "
+            "'none' is for filament lamps only, and filament lamps take no ballast"
+        )
+    if not (math.isfinite(voltage) and voltage > 0):
+        raise ValueError("operating voltage must be a positive number of volts")
+    if not (math.isfinite(rated_voltage) and rated_voltage > 0):
+        raise ValueError("rated voltage must be a positive number of volts")
+    dmin = dmax = math.nan
+    if driver_range is not None:
+        if ballast not in ("led_driver", "electronic"):
+            raise ValueError("driver_range applies only to an LED driver or electronic ballast")
+        vmin, vmax = driver_range
+        if not (0 < vmin < vmax):
+            raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
+        dmin, dmax = vmin / rated_voltage, vmax / rated_voltage
+
+    n = d.life_exponent if life_exponent is None else life_exponent
+    k = d.light_exponent if light_exponent is None else light_exponent
+    m = d.power_exponent if power_exponent is None else power_exponent
+    g = BALLAST_POWER_GAIN[ballast] if ballast_gain is None else ballast_gain
+    bnd = BALLAST_VOLTAGE_BAND[ballast] if band is None else band
+    floor = d.life_ratio_floor if d.life_ratio_floor is not None else math.nan
+    ratio = voltage / rated_voltage
+
+    life, light, power, out = voltage_factors(
+        ratio,
+        n,
+        k,
+        m,
+        g,
+        d.is_filament,
+        band=bnd,
+        life_ratio_floor=floor,
+        driver_min_ratio=dmin,
+        driver_max_ratio=dmax,
+    )
+
+    warnings: list[str] = []
+    pct = (ratio - 1.0) * 100.0
+    if driver_range is not None:
+        if bool(out):
+            warnings.append(
+                f"{voltage:g} V is outside driver input range "
+                f"{driver_range[0]:g}-{driver_range[1]:g} V; not extrapolated"
+            )
+    elif abs(ratio - 1.0) > bnd + _BAND_TOL:
+        kind = "filament power laws" if d.is_filament else f"{ballast} ballast"
+        warnings.append(
+            f"supply is {pct:+.1f}% from rated voltage, outside the +/-{bnd * 100:g}% band "
+            f"for {kind}; figures are extrapolated"
+        )
+    if d.is_filament and not math.isnan(floor) and ratio < floor:
+        warnings.append(
+            f"below {floor * 100:g}% of rated voltage the halogen cycle stops; "
+            f"life gain held at its {floor * 100:g}% value"
+        )
+    return VoltageEffect(float(life), float(light), float(power), tuple(warnings))
+
+
+def switching_life_factor(
+    hours_per_start: ArrayLike,
+    rated_hours_per_start: ArrayLike | None,
+    second_hours_per_start: ArrayLike | None = None,
+    second_life_ratio: ArrayLike | None = None,
+    *,
+    max_factor: float = 1.5,
+    min_factor: float = 0.5,
+    default_slope: ArrayLike = DEFAULT_SWITCHING_SLOPE,
+) -> tuple[FloatArray, BoolArray]:
+    """Life multiplier vs the rated switching cycle, and a flag where it was bounded.
+
+    Linear in ln(hours per start) through (rated h/start, 1.0) and (second h/start, second
+    life ratio); without a second point (NaN) the slope is default_slope per unit ln(h/start)
+    (NaN there also means the default). Factor 1.0 where the rated cycle is None/NaN (no
+    switching model) or the operating cycle is NaN (assume the rated cycle). Results are
+    clipped to [min_factor, max_factor]; clipped positions are flagged.
+    """
+    if not (0 < min_factor <= 1.0 <= max_factor):
+        raise ValueError("need 0 < min_factor <= 1 <= max_factor")
+    h = _arr(hours_per_start)
+    hr = _opt(rated_hours_per_start)
+    h2 = _opt(second_hours_per_start)
+    q2 = _opt(second_life_ratio)
+    slope0 = _arr(default_slope)
+    if np.any(h <= 0) or np.any(hr <= 0) or np.any(h2 <= 0):
+        raise ValueError("hours per start must be positive burn hours")
+    if np.any(q2 <= 0):
+        raise ValueError("second life ratio must be positive")
+    if np.any(np.isnan(h2) != np.isnan(q2)):
+        raise ValueError("second switching point needs both hours per start and life ratio")
+    if np.any(h2 == hr):
+        raise ValueError("second switching point must be at a different hours per start")
+
+    no_model = np.isnan(hr)
+    hr_safe = np.where(no_model, 1.0, hr)
+    h_eff = np.where(np.isnan(h), hr_safe, h)
+    has_second = ~np.isnan(h2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope_2 = (q2 - 1.0) / (np.log(np.where(has_second, h2, 2.0)) - np.log(hr_safe))
+        slope = np.where(
+            has_second, slope_2, np.where(np.isnan(slope0), DEFAULT_SWITCHING_SLOPE, slope0)
+        )
+        x = np.log(h_eff) - np.log(hr_safe)  # ln of (operating / rated) hours per start
+        raw = np.where(slope == 0.0, 1.0, 1.0 + slope * x)  # 0*inf guard (continuous burning)
+    factor = np.clip(raw, min_factor, max_factor)
+    warn = (raw < min_factor - _BAND_TOL) | (raw > max_factor + _BAND_TOL)
+    factor = np.where(no_model, 1.0, factor)
+    warn = warn & ~no_model
+    return np.asarray(factor, dtype=np.float64), np.asarray(warn, dtype=bool)
