@@ -1,0 +1,1 @@
+"""What every router shares: errors as problem+json, API-key scopes, pagination."""

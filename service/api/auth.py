@@ -1,0 +1,43 @@
+"""Bearer API keys and scopes, enforced on every route but the probes."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Annotated
+
+from fastapi import Depends, Request
+from sqlalchemy.orm import Session
+
+from service.api.errors import Forbidden, Unauthorized
+from service.db.session import get_session
+from service.keys import service as keys
+from service.keys.models import ApiKey
+
+SessionDep = Annotated[Session, Depends(get_session, scope="function")]
+
+
+def _bearer(request: Request) -> str:
+    header = request.headers.get("authorization", "")
+    scheme, _, token = header.partition(" ")
+    if scheme.lower() != "bearer" or not token.strip():
+        raise Unauthorized("Send an API key as 'Authorization: Bearer <key>'.")
+    return token.strip()
+
+
+def require(scope: str) -> Callable[..., ApiKey]:
+    """Dependency factory: the caller's key must hold `scope` (read < write < admin)."""
+
+    def check(request: Request, session: SessionDep) -> ApiKey:
+        key = keys.find_active(session, _bearer(request))
+        if key is None:
+            raise Unauthorized("The API key is unknown or revoked.")
+        if not keys.scope_allows(key.scope, scope):
+            raise Forbidden(f"This route needs the '{scope}' scope; the key has '{key.scope}'.")
+        return key
+
+    return check
+
+
+ReadKey = Annotated[ApiKey, Depends(require("read"))]
+WriteKey = Annotated[ApiKey, Depends(require("write"))]
+AdminKey = Annotated[ApiKey, Depends(require("admin"))]

@@ -1,0 +1,177 @@
+"""Domain errors that carry their HTTP status, rendered as RFC 9457 problem+json."""
+
+from __future__ import annotations
+
+import logging
+from typing import Any
+
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import JSONResponse
+from sqlalchemy.exc import IntegrityError
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+log = logging.getLogger(__name__)
+
+PROBLEM_MEDIA_TYPE = "application/problem+json"
+# Our own problem-type URIs; relative references are allowed by RFC 9457 §3.1.1.
+TYPE_BASE = "/problems/"
+
+
+class DomainError(Exception):
+    """Base of every error a service raises on purpose; subclasses set status and title."""
+
+    status: int = 400
+    title: str = "Bad request"
+    kind: str = "bad-request"
+
+    def __init__(self, detail: str, *, errors: list[dict[str, Any]] | None = None, **extra: Any):
+        super().__init__(detail)
+        self.detail = detail
+        self.errors = errors
+        self.extra = extra
+
+
+class NotFound(DomainError):
+    """A referenced resource does not exist (404)."""
+
+    status, title, kind = 404, "Not found", "not-found"
+
+
+class Conflict(DomainError):
+    """The request clashes with stored state: duplicates, resources in use, lifecycle (409)."""
+
+    status, title, kind = 409, "Conflict", "conflict"
+
+
+class Invalid(DomainError):
+    """Values that parse but break a rule of the domain (422)."""
+
+    status, title, kind = 422, "Invalid value", "invalid-value"
+
+
+class Unauthorized(DomainError):
+    """No API key, or one we do not know (401)."""
+
+    status, title, kind = 401, "Not authenticated", "not-authenticated"
+
+
+class Forbidden(DomainError):
+    """The API key lacks the scope a route needs (403)."""
+
+    status, title, kind = 403, "Not allowed", "not-allowed"
+
+
+class TooLarge(DomainError):
+    """A bulk upload beyond the configured row limit (413)."""
+
+    status, title, kind = 413, "Too large", "too-large"
+
+
+def problem(
+    status: int,
+    title: str,
+    detail: str,
+    *,
+    kind: str,
+    instance: str | None = None,
+    headers: dict[str, str] | None = None,
+    **members: Any,
+) -> JSONResponse:
+    """Build a problem+json response."""
+    body: dict[str, Any] = {"type": TYPE_BASE + kind, "title": title, "status": status}
+    body["detail"] = detail
+    if instance:
+        body["instance"] = instance
+    body.update({k: v for k, v in members.items() if v is not None})
+    return JSONResponse(body, status_code=status, media_type=PROBLEM_MEDIA_TYPE, headers=headers)
+
+
+def _field_name(loc: tuple[Any, ...] | list[Any]) -> str:
+    # Drop the "body"/"query"/"path" prefix so the field reads as a client named it.
+    parts = [str(p) for p in loc]
+    if parts and parts[0] in {"body", "query", "path", "header"}:
+        parts = parts[1:]
+    return ".".join(parts) or "body"
+
+
+def validation_errors(raw: list[Any]) -> list[dict[str, Any]]:
+    """Turn pydantic errors into {field, message, type, in} items."""
+    items = []
+    for err in raw:
+        loc = err.get("loc", ())
+        items.append(
+            {
+                "field": _field_name(loc),
+                "in": str(loc[0]) if loc else "body",
+                "message": err.get("msg", "invalid"),
+                "type": err.get("type", "value_error"),
+            }
+        )
+    return items
+
+
+def install_error_handlers(app: FastAPI) -> None:
+    """Register the handlers that render every error as problem+json."""
+
+    @app.exception_handler(DomainError)
+    async def _domain(request: Request, exc: DomainError) -> JSONResponse:
+        headers = {"WWW-Authenticate": "Bearer"} if exc.status == 401 else None
+        return problem(
+            exc.status,
+            exc.title,
+            exc.detail,
+            kind=exc.kind,
+            instance=request.url.path,
+            headers=headers,
+            errors=exc.errors,
+            **exc.extra,
+        )
+
+    @app.exception_handler(RequestValidationError)
+    async def _validation(request: Request, exc: RequestValidationError) -> JSONResponse:
+        errors = validation_errors(list(exc.errors()))
+        fields = ", ".join(sorted({e["field"] for e in errors}))
+        return problem(
+            422,
+            "Invalid request",
+            f"The request has invalid or missing fields: {fields}.",
+            kind="validation",
+            instance=request.url.path,
+            errors=errors,
+        )
+
+    @app.exception_handler(StarletteHTTPException)
+    async def _http(request: Request, exc: StarletteHTTPException) -> JSONResponse:
+        titles = {404: "Not found", 405: "Method not allowed", 413: "Too large"}
+        return problem(
+            exc.status_code,
+            titles.get(exc.status_code, "Error"),
+            str(exc.detail),
+            kind=f"http-{exc.status_code}",
+            instance=request.url.path,
+            headers=getattr(exc, "headers", None),
+        )
+
+    @app.exception_handler(IntegrityError)
+    async def _integrity(request: Request, exc: IntegrityError) -> JSONResponse:
+        # Services check clashes first; this catches races between two requests.
+        log.info("integrity error on %s: %s", request.url.path, exc.orig)
+        return problem(
+            409,
+            "Conflict",
+            "The change clashes with stored data (a duplicate or a record still in use).",
+            kind="conflict",
+            instance=request.url.path,
+        )
+
+    @app.exception_handler(Exception)
+    async def _unexpected(request: Request, exc: Exception) -> JSONResponse:
+        log.exception("unexpected error on %s", request.url.path)
+        return problem(
+            500,
+            "Internal error",
+            "The service failed to handle the request; nothing was saved.",
+            kind="internal",
+            instance=request.url.path,
+        )

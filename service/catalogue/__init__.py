@@ -1,0 +1,1 @@
+"""The lamp-type catalogue."""

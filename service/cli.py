@@ -1,0 +1,158 @@
+"""The `lampkeeper` console script: serve, migrate, keys, demo data, import/export, runs."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+
+from sqlalchemy.orm import Session
+
+from service.config import get_settings
+from service.db.session import session_factory
+
+Handler = Callable[[argparse.Namespace], int]
+
+
+@contextmanager
+def transaction() -> Iterator[Session]:
+    """One transaction for a CLI command: committed on success, rolled back on error."""
+    session = session_factory()()
+    try:
+        yield session
+        session.commit()
+    except BaseException:
+        session.rollback()
+        raise
+    finally:
+        session.close()
+
+
+def cmd_migrate(args: argparse.Namespace) -> int:
+    """Bring the database schema to the newest migration."""
+    from alembic import command
+
+    from service.api.health import alembic_config
+
+    cfg = alembic_config()
+    cfg.set_main_option("sqlalchemy.url", get_settings().database_url)
+    command.upgrade(cfg, args.revision)
+    print(f"database at migration {args.revision}")
+    return 0
+
+
+def cmd_serve(args: argparse.Namespace) -> int:
+    """Serve the API with uvicorn."""
+    import uvicorn
+
+    settings = get_settings()
+    host = args.host or settings.host
+    port = args.port or settings.port
+    if args.print_demo_key:
+        from service.seed.loader import demo_key
+
+        with transaction() as session:
+            key = demo_key(session)
+        print(f"\nLampKeeper is serving at http://{host}:{port}  (API docs: /docs)")
+        if key:
+            print(f"Demo API key (admin scope): {key}")
+            print(
+                f"  try: curl -H 'Authorization: Bearer {key}' http://{host}:{port}/api/v1/fixtures\n"
+            )
+    uvicorn.run(
+        "service.main:create_app",
+        factory=True,
+        host=host,
+        port=port,
+        log_level=settings.log_level.lower(),
+    )
+    return 0
+
+
+def cmd_keys_create(args: argparse.Namespace) -> int:
+    """Create an API key and print its secret once."""
+    from service.keys import service
+
+    with transaction() as session:
+        row, secret = service.create_key(session, args.name, args.scope)
+        print(f"created key {row.id} '{row.name}' with scope {row.scope}")
+    print(secret)
+    return 0
+
+
+def cmd_keys_list(args: argparse.Namespace) -> int:
+    """List API keys (never their secrets)."""
+    from service.keys import service
+
+    with transaction() as session:
+        for k in service.list_keys(session):
+            state = "revoked" if k.revoked_at else "active"
+            print(f"{k.id}\t{k.name}\t{k.scope}\t{k.prefix}...\t{state}")
+    return 0
+
+
+def cmd_keys_revoke(args: argparse.Namespace) -> int:
+    """Revoke an API key by id."""
+    from service.keys import service
+
+    with transaction() as session:
+        service.revoke_key(session, args.id)
+    print(f"revoked key {args.id}")
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every subcommand."""
+    parser = argparse.ArgumentParser(prog="lampkeeper", description=__doc__)
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    p = sub.add_parser("migrate", help="apply database migrations")
+    p.add_argument("revision", nargs="?", default="head")
+    p.set_defaults(func=cmd_migrate)
+
+    p = sub.add_parser("serve", help="serve the HTTP API")
+    p.add_argument("--host")
+    p.add_argument("--port", type=int)
+    p.add_argument("--print-demo-key", action="store_true", help="print the demo admin key")
+    p.set_defaults(func=cmd_serve)
+
+    keys = sub.add_parser("keys", help="manage API keys").add_subparsers(
+        dest="action", required=True
+    )
+    p = keys.add_parser("create", help="create a key")
+    p.add_argument("--name", required=True)
+    p.add_argument("--scope", required=True, choices=["read", "write", "admin"])
+    p.set_defaults(func=cmd_keys_create)
+    p = keys.add_parser("list", help="list keys")
+    p.set_defaults(func=cmd_keys_list)
+    p = keys.add_parser("revoke", help="revoke a key")
+    p.add_argument("id", type=int)
+    p.set_defaults(func=cmd_keys_revoke)
+
+    for register in EXTRA_COMMANDS:
+        register(sub)
+    return parser
+
+
+# Domains add their own subcommands here: each entry receives the subparsers object.
+EXTRA_COMMANDS: list[Callable[[argparse._SubParsersAction[argparse.ArgumentParser]], None]] = []
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the console script."""
+    args = build_parser().parse_args(argv)
+    handler: Handler = args.func
+    try:
+        return handler(args)
+    except Exception as exc:  # a CLI prints the problem instead of a traceback
+        from service.api.errors import DomainError
+
+        if isinstance(exc, DomainError):
+            print(f"error: {exc.detail}", file=sys.stderr)
+            return 2
+        raise
+
+
+if __name__ == "__main__":
+    sys.exit(main())

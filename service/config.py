@@ -1,0 +1,30 @@
+"""Settings read from the environment (prefix LAMPKEEPER_) or a .env file."""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from pydantic import Field
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+
+class Settings(BaseSettings):
+    """Runtime configuration; every field can be set as LAMPKEEPER_<NAME>."""
+
+    model_config = SettingsConfigDict(env_prefix="LAMPKEEPER_", env_file=".env", extra="ignore")
+
+    # SQLite file by default; PostgreSQL as postgresql+psycopg://user@host:5432/dbname
+    database_url: str = "sqlite:///var/lampkeeper.sqlite3"
+    host: str = "127.0.0.1"
+    port: int = Field(default=8000, ge=1, le=65535)
+    log_level: str = "info"
+    # The weekly relamping run; off in tests and for one-off CLI commands.
+    scheduler_enabled: bool = True
+    # Rows accepted in one bulk upload before the request is refused (413).
+    max_bulk_rows: int = Field(default=2_000_000, ge=1)
+
+
+@lru_cache
+def get_settings() -> Settings:
+    """The process-wide settings, read once."""
+    return Settings()

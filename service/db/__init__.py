@@ -1,0 +1,1 @@
+"""Database plumbing: declarative base, engine, per-request session."""

@@ -1,0 +1,8 @@
+"""Imports every domain's models so Base.metadata knows all tables (Alembic, tests)."""
+
+from service.catalogue import models as catalogue_models
+from service.events import models as events_models
+from service.keys import models as keys_models
+from service.register import models as register_models
+
+__all__ = ["catalogue_models", "events_models", "keys_models", "register_models"]

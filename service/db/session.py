@@ -1,0 +1,63 @@
+"""Engine, session factory and the one-transaction-per-request dependency."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+from sqlalchemy import Engine, create_engine, event
+from sqlalchemy.engine import make_url
+from sqlalchemy.orm import Session, sessionmaker
+
+from service.config import get_settings
+
+
+def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
+    # Let SQLAlchemy, not the sqlite3 module, decide when transactions begin, so that
+    # savepoints and transactional DDL behave as on PostgreSQL.
+    dbapi_connection.isolation_level = None
+    cur = dbapi_connection.cursor()
+    # SQLite ignores foreign keys unless asked, per connection.
+    cur.execute("PRAGMA foreign_keys=ON")
+    cur.execute("PRAGMA journal_mode=WAL")
+    cur.execute("PRAGMA synchronous=NORMAL")
+    cur.close()
+
+
+def make_engine(url: str) -> Engine:
+    """Create an engine for a database URL, with SQLite made safe for a web server."""
+    parsed = make_url(url)
+    if parsed.get_backend_name() == "sqlite":
+        if parsed.database and parsed.database != ":memory:":
+            Path(parsed.database).parent.mkdir(parents=True, exist_ok=True)
+        engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30})
+        event.listen(engine, "connect", _sqlite_pragmas)
+        event.listen(engine, "begin", lambda conn: conn.exec_driver_sql("BEGIN"))
+        return engine
+    return create_engine(url, pool_pre_ping=True, pool_size=10, max_overflow=10)
+
+
+@lru_cache
+def get_engine() -> Engine:
+    """The process-wide engine built from the settings."""
+    return make_engine(get_settings().database_url)
+
+
+def session_factory(engine: Engine | None = None) -> sessionmaker[Session]:
+    """A session factory bound to an engine (the settings' engine by default)."""
+    return sessionmaker(bind=engine or get_engine(), expire_on_commit=False, autoflush=False)
+
+
+def get_session() -> Iterator[Session]:
+    """FastAPI dependency: one transaction per request, committed on success, else rolled back."""
+    session = session_factory()()
+    try:
+        yield session
+        session.commit()
+    except BaseException:
+        session.rollback()
+        raise
+    finally:
+        session.close()

@@ -1,0 +1,1 @@
+"""Burnout reports and lamp removals, which become survival observations."""

@@ -1,0 +1,1 @@
+"""API keys: created by an administrator, stored hashed, each with one scope."""

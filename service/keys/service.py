@@ -1,0 +1,69 @@
+"""Creating, checking and revoking API keys."""
+
+from __future__ import annotations
+
+import hashlib
+import secrets
+from collections.abc import Sequence
+from datetime import timedelta
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from service.api.errors import Conflict, NotFound
+from service.db.base import utcnow
+from service.keys.models import ApiKey
+
+SCOPE_RANK = {"read": 1, "write": 2, "admin": 3}
+KEY_PREFIX = "lk_"
+
+
+def digest(key: str) -> str:
+    """SHA-256 hex digest of a presented key (keys are random, so no salt is needed)."""
+    return hashlib.sha256(key.encode()).hexdigest()
+
+
+def scope_allows(held: str, needed: str) -> bool:
+    """True when a key's scope covers a needed one (admin > write > read)."""
+    return SCOPE_RANK.get(held, 0) >= SCOPE_RANK[needed]
+
+
+def create_key(session: Session, name: str, scope: str) -> tuple[ApiKey, str]:
+    """Store a new key and return it with its secret (shown once)."""
+    if scope not in SCOPE_RANK:
+        raise ValueError(f"unknown scope {scope!r}")
+    if session.scalar(select(ApiKey.id).where(ApiKey.name == name)) is not None:
+        raise Conflict(f"An API key named '{name}' already exists.")
+    secret = KEY_PREFIX + secrets.token_urlsafe(32)
+    row = ApiKey(name=name, prefix=secret[:10], digest=digest(secret), scope=scope)
+    session.add(row)
+    session.flush()
+    return row, secret
+
+
+def find_active(session: Session, presented: str) -> ApiKey | None:
+    """The active key matching a presented secret, or None."""
+    row = session.scalar(select(ApiKey).where(ApiKey.digest == digest(presented)))
+    if row is None or row.revoked_at is not None:
+        return None
+    now = utcnow()
+    # Touch last_used_at at most once a minute so reads stay cheap.
+    if row.last_used_at is None or now - row.last_used_at > timedelta(minutes=1):
+        row.last_used_at = now
+    return row
+
+
+def list_keys(session: Session) -> Sequence[ApiKey]:
+    """All keys, oldest first."""
+    return session.scalars(select(ApiKey).order_by(ApiKey.id)).all()
+
+
+def revoke_key(session: Session, key_id: int) -> ApiKey:
+    """Revoke a key; it stops working at once."""
+    row = session.get(ApiKey, key_id)
+    if row is None:
+        raise NotFound(f"API key {key_id} does not exist.")
+    if row.revoked_at is None:
+        row.revoked_at = utcnow()
+    session.flush()
+    return row

@@ -1,0 +1,57 @@
+"""The FastAPI application: routers under /api/v1, problem+json errors, probes."""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+
+from fastapi import APIRouter, FastAPI
+
+from service import __version__
+from service.api.errors import install_error_handlers
+from service.api.health import router as health_router
+from service.config import get_settings
+from service.keys.router import router as keys_router
+from service.register.router import router as register_router
+
+API_PREFIX = "/api/v1"
+
+# Every domain router, in the order /docs shows them.
+DOMAIN_ROUTERS: list[APIRouter] = [
+    register_router,
+    keys_router,
+]
+
+
+@asynccontextmanager
+async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+    """Start background work (the weekly scheduler) with the app, stop it after."""
+    yield
+
+
+def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
+    """Build the application."""
+    settings = get_settings()
+    logging.basicConfig(level=settings.log_level.upper())
+    app = FastAPI(
+        title="LampKeeper",
+        version=__version__,
+        summary="Lamp inventory, failure and light-loss forecasts, group relamping.",
+        description=(
+            "Keeps a building portfolio's lamp register, predicts burnouts and light loss "
+            "from survival curves scaled for each fixture's supply voltage and switching, "
+            "plans group relamping and issues work orders. Send an API key as "
+            "`Authorization: Bearer <key>`. Relamping work is hazardous: follow local codes "
+            "and licensed practice."
+        ),
+        lifespan=lifespan,
+    )
+    app.state.start_scheduler = (
+        settings.scheduler_enabled if start_scheduler is None else start_scheduler
+    )
+    install_error_handlers(app)
+    app.include_router(health_router)
+    for router in DOMAIN_ROUTERS:
+        app.include_router(router, prefix=API_PREFIX)
+    return app

@@ -1,0 +1,1 @@
+"""The asset register: sites, areas, fixtures and their lamp positions."""

@@ -1,0 +1,59 @@
+"""HTTP routes for the asset register."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Query, Response, status
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.pagination import Page, PageDep, paginate
+from service.register import repository as repo
+from service.register import service
+from service.register.models import Site
+from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
+
+router = APIRouter(tags=["register"])
+
+
+@router.get("/sites", response_model=Page[SiteRead])
+def list_sites(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
+    time_zone: Annotated[str | None, Query(description="Exact IANA time zone.")] = None,
+) -> Page[SiteRead]:
+    """List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v)."""
+    rows, total = paginate(session, repo.site_query(name, time_zone), page, repo.SITE_SORT, Site.id)
+    return Page(
+        items=[SiteRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.post("/sites", response_model=SiteRead, status_code=status.HTTP_201_CREATED)
+def create_site(body: SiteCreate, session: SessionDep, _: WriteKey) -> SiteRead:
+    """Create a site."""
+    return SiteRead.model_validate(service.create_site(session, body))
+
+
+@router.get("/sites/{site_id}", response_model=SiteRead)
+def get_site(site_id: int, session: SessionDep, _: ReadKey) -> SiteRead:
+    """Read one site."""
+    return SiteRead.model_validate(service.get_site(session, site_id))
+
+
+@router.patch("/sites/{site_id}", response_model=SiteRead)
+def update_site(site_id: int, body: SiteUpdate, session: SessionDep, _: WriteKey) -> SiteRead:
+    """Change some fields of a site."""
+    return SiteRead.model_validate(service.update_site(session, site_id, body))
+
+
+@router.delete("/sites/{site_id}", status_code=status.HTTP_204_NO_CONTENT)
+def delete_site(site_id: int, session: SessionDep, _: WriteKey) -> Response:
+    """Delete a site and everything in it."""
+    service.delete_site(session, site_id)
+    return Response(status_code=status.HTTP_204_NO_CONTENT)

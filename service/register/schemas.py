@@ -1,0 +1,228 @@
+"""Request and response bodies for sites, areas, fixtures and lamp positions."""
+
+from __future__ import annotations
+
+import re
+from datetime import date, datetime
+from typing import Annotated, Literal
+from zoneinfo import ZoneInfo, ZoneInfoNotFoundError, available_timezones
+
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
+
+AccessMethod = Literal["floor", "ladder", "scaffold", "lift"]
+Volts = Annotated[float, Field(gt=0, le=1000, description="Volts, in (0, 1000].")]
+Money = Annotated[float, Field(ge=0)]
+Fraction = Annotated[float, Field(gt=0, lt=1)]
+
+
+def _check_zone(name: str) -> str:
+    # ZoneInfo also accepts file paths such as "../x"; insist on a listed IANA name.
+    try:
+        ZoneInfo(name)
+    except (ZoneInfoNotFoundError, ValueError) as exc:
+        raise ValueError(f"unknown IANA time zone '{name}'") from exc
+    if name not in available_timezones() and name != "UTC":
+        raise ValueError(f"unknown IANA time zone '{name}'")
+    return name
+
+
+def _check_hhmm(value: str) -> str:
+    if not re.fullmatch(r"([01]\d|2[0-3]):[0-5]\d", value):
+        raise ValueError("time must be HH:MM (24-hour)")
+    return value
+
+
+TimeZone = Annotated[str, AfterValidator(_check_zone)]
+ClockTime = Annotated[str, AfterValidator(_check_hhmm)]
+Currency = Annotated[str, Field(pattern=r"^[A-Z]{3}$", description="ISO 4217 code, e.g. EUR.")]
+
+
+class SiteFields(BaseModel):
+    """Fields a client may set on a site."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    name: str = Field(min_length=1, max_length=200)
+    time_zone: TimeZone
+    nominal_voltage_v: Volts
+    currency: Currency
+    energy_price_per_kwh: Money
+    labour_rate_per_h: Money
+    disposal_fee_per_mercury_lamp: Money = 0.0
+    weekly_run_weekday: int = Field(default=0, ge=0, le=6, description="0 = Monday.")
+    weekly_run_time: ClockTime = "06:00"
+    lookahead_weeks: int = Field(default=4, ge=1, le=52)
+    notes: str | None = Field(default=None, max_length=2000)
+
+
+class SiteCreate(SiteFields):
+    """A new site."""
+
+
+class SiteUpdate(BaseModel):
+    """A partial update of a site: only the fields sent change."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    name: str | None = Field(default=None, min_length=1, max_length=200)
+    time_zone: TimeZone | None = None
+    nominal_voltage_v: Volts | None = None
+    currency: Currency | None = None
+    energy_price_per_kwh: Money | None = None
+    labour_rate_per_h: Money | None = None
+    disposal_fee_per_mercury_lamp: Money | None = None
+    weekly_run_weekday: int | None = Field(default=None, ge=0, le=6)
+    weekly_run_time: ClockTime | None = None
+    lookahead_weeks: int | None = Field(default=None, ge=1, le=52)
+    notes: str | None = Field(default=None, max_length=2000)
+
+
+class SiteRead(SiteFields):
+    """A stored site."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    created_at: datetime
+    updated_at: datetime
+
+
+class AreaFields(BaseModel):
+    """Fields a client may set on an area."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    name: str = Field(min_length=1, max_length=200)
+    floor_or_zone: str | None = Field(default=None, max_length=100)
+    mounting_height_m: float | None = Field(default=None, gt=0, le=100)
+    access_method: AccessMethod = "ladder"
+    group_minutes_per_lamp: float = Field(default=5.0, ge=0, le=600)
+    spot_minutes_per_lamp: float = Field(default=30.0, ge=0, le=600)
+    equipment_hire_per_visit: Money = 0.0
+    hours_per_day: float | None = Field(default=None, ge=0, le=24)
+    days_per_week: float | None = Field(default=None, ge=0, le=7)
+    weekly_burn_hours: float | None = Field(default=None, ge=0, le=168)
+    starts_per_day: float = Field(default=1.0, ge=0, le=1000)
+    light_floor: Fraction | None = None
+    burnout_ceiling: Fraction | None = None
+
+    @model_validator(mode="after")
+    def _schedule_pairs(self) -> AreaFields:
+        if (self.hours_per_day is None) != (self.days_per_week is None):
+            raise ValueError("give hours_per_day and days_per_week together")
+        return self
+
+
+class AreaCreate(AreaFields):
+    """A new area in a site."""
+
+    site_id: int
+
+
+class AreaUpdate(BaseModel):
+    """A partial update of an area."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    name: str | None = Field(default=None, min_length=1, max_length=200)
+    floor_or_zone: str | None = Field(default=None, max_length=100)
+    mounting_height_m: float | None = Field(default=None, gt=0, le=100)
+    access_method: AccessMethod | None = None
+    group_minutes_per_lamp: float | None = Field(default=None, ge=0, le=600)
+    spot_minutes_per_lamp: float | None = Field(default=None, ge=0, le=600)
+    equipment_hire_per_visit: Money | None = None
+    hours_per_day: float | None = Field(default=None, ge=0, le=24)
+    days_per_week: float | None = Field(default=None, ge=0, le=7)
+    weekly_burn_hours: float | None = Field(default=None, ge=0, le=168)
+    starts_per_day: float | None = Field(default=None, ge=0, le=1000)
+    light_floor: Fraction | None = None
+    burnout_ceiling: Fraction | None = None
+
+
+class AreaRead(AreaFields):
+    """A stored area, with its derived weekly burn hours."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    site_id: int
+    burn_hours_per_week: float
+    hours_per_start: float | None
+    created_at: datetime
+    updated_at: datetime
+
+
+class PositionRead(BaseModel):
+    """A lamp position and when its current lamp went in."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    fixture_id: int
+    position_no: int
+    lamp_installed_at: datetime
+    hours_at_install: float
+    starts_at_install: float
+    burned_out_at: datetime | None
+
+
+class PositionUpdate(BaseModel):
+    """Correct when a position's lamp went in and what it had then."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    lamp_installed_at: datetime | None = None
+    hours_at_install: float | None = Field(default=None, ge=0, le=1_000_000)
+    starts_at_install: float | None = Field(default=None, ge=0)
+
+
+class FixtureFields(BaseModel):
+    """Fields a client may set on a fixture."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    tag: str = Field(min_length=1, max_length=64)
+    location: str | None = Field(default=None, max_length=300)
+    lamp_type_id: int
+    lamps_per_fixture: int = Field(default=1, ge=1, le=64)
+    ballast_kind: Literal["none", "reactor", "regulating", "electronic", "led_driver"] = "none"
+    measured_voltage_v: Volts | None = None
+    installed_on: date | None = None
+
+
+class FixtureCreate(FixtureFields):
+    """A new fixture; its positions are created with it."""
+
+    area_id: int
+    # When the lamps now in it went in (default: installed_on, else now) and their age then.
+    lamps_installed_at: datetime | None = None
+    lamp_hours_at_install: float = Field(default=0.0, ge=0, le=1_000_000)
+    lamp_starts_at_install: float = Field(default=0.0, ge=0)
+
+
+class FixtureUpdate(BaseModel):
+    """A partial update of a fixture (positions follow lamps_per_fixture)."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    tag: str | None = Field(default=None, min_length=1, max_length=64)
+    location: str | None = Field(default=None, max_length=300)
+    area_id: int | None = None
+    lamp_type_id: int | None = None
+    lamps_per_fixture: int | None = Field(default=None, ge=1, le=64)
+    ballast_kind: Literal["none", "reactor", "regulating", "electronic", "led_driver"] | None = None
+    measured_voltage_v: Volts | None = None
+    installed_on: date | None = None
+
+
+class FixtureRead(FixtureFields):
+    """A stored fixture with its positions."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    site_id: int
+    area_id: int
+    positions: list[PositionRead]
+    created_at: datetime
+    updated_at: datetime

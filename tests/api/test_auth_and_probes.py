@@ -1,0 +1,53 @@
+"""API keys and scopes on every route; liveness and readiness probes."""
+
+from __future__ import annotations
+
+from fastapi.testclient import TestClient
+
+from service.main import create_app
+
+
+def test_probes_need_no_key(client: TestClient) -> None:
+    assert client.get("/healthz").json() == {"status": "ok"}
+
+
+def test_missing_wrong_and_underscoped_keys(client: TestClient, reader: dict[str, str]) -> None:
+    r = client.get("/api/v1/sites")
+    assert r.status_code == 401 and r.headers["content-type"].startswith("application/problem+json")
+    assert r.headers["www-authenticate"] == "Bearer"
+    r = client.get("/api/v1/sites", headers={"Authorization": "Bearer lk_not-a-key"})
+    assert r.status_code == 401
+    r = client.get("/api/v1/sites", headers={"Authorization": "Basic abc"})
+    assert r.status_code == 401
+    assert client.get("/api/v1/sites", headers=reader).status_code == 200
+    r = client.post("/api/v1/sites", json={}, headers=reader)
+    assert r.status_code == 403 and "write" in r.json()["detail"]
+
+
+def test_every_api_route_demands_a_key() -> None:
+    app = create_app(start_scheduler=False)
+    for route in app.routes:
+        path = getattr(route, "path", "")
+        if not path.startswith("/api/v1"):
+            continue
+        names = {d.call.__name__ for d in route.dependant.dependencies}  # type: ignore[attr-defined]
+        assert "check" in names, f"{path} has no key check"
+
+
+def test_keys_admin_routes(
+    client: TestClient, admin: dict[str, str], writer: dict[str, str]
+) -> None:
+    r = client.post("/api/v1/keys", json={"name": "cmms", "scope": "read"}, headers=admin)
+    assert r.status_code == 201
+    secret, key_id = r.json()["key"], r.json()["id"]
+    assert (
+        client.get("/api/v1/sites", headers={"Authorization": f"Bearer {secret}"}).status_code
+        == 200
+    )
+    assert client.get("/api/v1/keys", headers=writer).status_code == 403
+    assert all("key" not in k for k in client.get("/api/v1/keys", headers=admin).json())
+    assert client.delete(f"/api/v1/keys/{key_id}", headers=admin).status_code == 200
+    assert (
+        client.get("/api/v1/sites", headers={"Authorization": f"Bearer {secret}"}).status_code
+        == 401
+    )
