@@ -1,0 +1,233 @@
+"""Group (block) and age replacement planning checks."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy import stats
+
+from service.reliability.renewal import weibull_renewal
+from service.reliability.replacement import (
+    age_cost_rate,
+    block_cost_rate,
+    cost_per_megalumen_hour,
+    plan_age_replacement,
+    plan_block_replacement,
+)
+from service.reliability.weibull import Weibull
+
+# Demo costs per position (invented): a group relamp visit vs a spot call-out.
+C_GROUP = 10.0
+C_SPOT = 40.0
+
+
+def _lives(w: Weibull, n: int, k: int, seed: int) -> np.ndarray:
+    rng = np.random.default_rng(seed)
+    return w.scale * rng.weibull(w.shape, size=(n, k))
+
+
+def _cycle_costs(arrivals: np.ndarray, T: float) -> np.ndarray:
+    """Cost per hour of one cycle of length T per simulated position: group + spot calls."""
+    spot_calls = (arrivals <= T).sum(axis=1)
+    return (C_GROUP + C_SPOT * spot_calls) / T
+
+
+def test_block_plan_matches_monte_carlo_cost() -> None:
+    # Independent check (field notes §9): simulate 10^5 positions over a cycle of length T with
+    # spot replacements and estimate the cost per hour; Barlow & Proschan's cost rate at the
+    # chosen T must agree within 3 standard errors.
+    w = Weibull.from_rated_life(12000.0, 3.5)
+    plan = plan_block_replacement(w, C_GROUP, C_SPOT)
+    assert plan.binding == "cost_optimum" and plan.interval_h is not None
+    T = plan.interval_h
+    arrivals = np.cumsum(_lives(w, 100_000, 8, seed=7), axis=1)
+    assert np.all(arrivals[:, -1] > 1.3 * T)
+    at_opt = _cycle_costs(arrivals, T)
+    se = at_opt.std(ddof=1) / np.sqrt(at_opt.size)
+    assert abs(plan.cost_rate - at_opt.mean()) <= 3 * se
+    # The chosen T must not be beaten by nearby intervals in the same simulation (common random
+    # numbers make the paired difference precise).
+    for factor in (0.7, 0.85, 1.15, 1.3):
+        diff = at_opt - _cycle_costs(arrivals, factor * T)
+        assert diff.mean() <= 3 * diff.std(ddof=1) / np.sqrt(diff.size), factor
+    # and group relamping really does beat spot only here
+    assert plan.saving_rate > 0
+    assert plan.spot_only_rate == pytest.approx(C_SPOT / w.mean())
+
+
+def test_grid_cost_is_block_cost_rate() -> None:
+    # Barlow & Proschan: C(T) = (c_group + c_spot M(T)) / T on the reported grid.
+    w = Weibull(4.0, 10000.0)
+    plan = plan_block_replacement(w, C_GROUP, C_SPOT)
+    curve = weibull_renewal(4.0, 10000.0, 3 * w.mean())
+    np.testing.assert_allclose(plan.grid_cost, block_cost_rate(plan.grid_t, curve, C_GROUP, C_SPOT))
+    assert plan.cost_rate <= plan.grid_cost.min() + 1e-15
+    assert plan.expected_spot_per_position == pytest.approx(float(curve.at(plan.interval_h)))
+
+
+def test_exponential_life_is_spot_only() -> None:
+    # Cox: exponential life has M(T) = T/mu, so C(T) = c_group/T + c_spot/mu falls for ever:
+    # no finite optimum, spot replacement only (field notes §5).
+    w = Weibull(1.0, 9000.0)
+    plan = plan_block_replacement(w, C_GROUP, C_SPOT)
+    assert plan.interval_h is None
+    assert plan.binding == "spot_only"
+    assert plan.cost_rate == pytest.approx(C_SPOT / 9000.0)
+    assert plan.saving_rate == 0.0
+    assert plan.unconstrained_optimum_h is None
+    np.testing.assert_allclose(plan.grid_cost, C_GROUP / plan.grid_t + C_SPOT / 9000.0, rtol=1e-6)
+
+
+def test_group_cost_not_below_spot_cost_is_spot_only() -> None:
+    # Barlow & Proschan (via Wald: M(T) + 1 >= T/mu): with c_group >= c_spot, C(T) >= c_spot/mu.
+    w = Weibull(5.0, 10000.0)
+    plan = plan_block_replacement(w, 45.0, 40.0)
+    assert plan.binding == "spot_only" and plan.interval_h is None
+    assert np.all(plan.grid_cost >= 40.0 / w.mean() * (1 - 1e-6))
+
+
+def test_light_floor_binds_below_cost_optimum() -> None:
+    # Field notes §5: the light floor caps the interval; C(T) falls towards the optimum, so the
+    # capped plan sits at the cap.
+    w = Weibull.from_rated_life(10000.0, 4.0)
+    free = plan_block_replacement(w, C_GROUP, C_SPOT)
+    assert free.interval_h is not None
+    floor = 0.6 * free.interval_h
+    plan = plan_block_replacement(w, C_GROUP, C_SPOT, light_floor_h=floor)
+    assert plan.binding == "light_floor"
+    assert plan.interval_h == pytest.approx(floor)
+    assert plan.unconstrained_optimum_h == pytest.approx(free.interval_h)
+    assert plan.cost_rate > free.cost_rate
+    # A floor above the optimum does not bind.
+    loose = plan_block_replacement(w, C_GROUP, C_SPOT, light_floor_h=1.5 * free.interval_h)
+    assert loose.binding == "cost_optimum"
+    assert loose.interval_h == pytest.approx(free.interval_h)
+
+
+def test_burnout_ceiling_uses_weibull_percentile() -> None:
+    # Abernethy: B-life t_p = eta (-ln(1-p))^(1/beta); cross-checked with scipy.stats.weibull_min.
+    w = Weibull.from_rated_life(10000.0, 4.0)
+    plan = plan_block_replacement(w, C_GROUP, C_SPOT, burnout_ceiling=0.05)
+    assert plan.binding == "burnout_ceiling"
+    assert plan.interval_h == pytest.approx(stats.weibull_min.ppf(0.05, 4.0, scale=w.scale))
+    assert w.cdf(plan.interval_h) == pytest.approx(0.05)
+
+
+def test_smallest_cap_binds() -> None:
+    # Field notes §5: several caps, the tightest one sets the interval.
+    w = Weibull.from_rated_life(10000.0, 4.0)
+    plan = plan_block_replacement(
+        w, C_GROUP, C_SPOT, light_floor_h=5500.0, burnout_ceiling=0.10, rupture_cap_h=5000.0
+    )
+    assert plan.binding == "rupture_cap"
+    assert plan.interval_h == pytest.approx(5000.0)
+
+
+def test_rupture_cap_forces_group_relamp_even_when_spot_is_cheaper() -> None:
+    # Field notes §7: lamps that can rupture are group relamped at or before the cap. With
+    # exponential life (Cox: M(T) = T/mu) spot only would be cheaper, yet the plan must group
+    # relamp at the cap, at cost (c_group + c_spot T/mu)/T.
+    mu, cap = 9000.0, 6300.0
+    plan = plan_block_replacement(Weibull(1.0, mu), C_GROUP, C_SPOT, rupture_cap_h=cap)
+    assert plan.binding == "rupture_cap"
+    assert plan.interval_h == pytest.approx(cap)
+    assert plan.cost_rate == pytest.approx(C_GROUP / cap + C_SPOT / mu, rel=1e-6)
+    assert plan.safety_premium_rate == pytest.approx(C_GROUP / cap, rel=1e-5)
+    assert plan.saving_rate == 0.0
+
+
+def test_plan_rejects_bad_inputs() -> None:
+    w = Weibull(3.0, 1000.0)
+    with pytest.raises(ValueError):
+        plan_block_replacement(w, 0.0, 10.0)
+    with pytest.raises(ValueError):
+        plan_block_replacement(w, 1.0, 10.0, burnout_ceiling=1.5)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    shape=st.floats(1.0, 8.0),
+    scale=st.floats(100.0, 1e5),
+    c_group=st.floats(0.1, 100.0),
+    c_spot=st.floats(0.1, 100.0),
+    frac=st.floats(0.01, 3.0),
+)
+def test_cost_rates_finite_and_positive(
+    shape: float, scale: float, c_group: float, c_spot: float, frac: float
+) -> None:
+    # Barlow & Proschan: both cost rates are positive finite for positive costs and T > 0, and
+    # the block rate is at least c_group/T + c_spot F(T)/T since M(T) >= F(T).
+    w = Weibull(shape, scale)
+    T = frac * w.mean()
+    curve = weibull_renewal(shape, scale, 3 * w.mean(), n=300)
+    c = float(block_cost_rate(T, curve, c_group, c_spot))
+    assert np.isfinite(c) and c > 0
+    assert c >= (c_group + c_spot * float(w.cdf(T))) / T * (1 - 1e-6)
+    a = float(age_cost_rate(T, w, c_group, c_spot))
+    assert np.isfinite(a) and a > 0
+
+
+@pytest.mark.parametrize(("beta", "c_pm", "c_cm"), [(3.0, 1.0, 5.0), (5.5, 20.0, 70.0)])
+def test_age_replacement_matches_reliability_package(beta: float, c_pm: float, c_cm: float) -> None:
+    # Barlow & Proschan age replacement; reference: reliability's optimal_replacement_time with
+    # q=0 (as good as new), a grid search on 10,000 points over [1, 3 alpha] (field notes §9).
+    from reliability.Repairable_systems import optimal_replacement_time
+
+    alpha = 1000.0
+    ref = optimal_replacement_time(
+        c_pm, c_cm, alpha, beta, show_time_plot=False, show_ratio_plot=False,
+        print_results=False, q=0,
+    )
+    plan = plan_age_replacement(Weibull(beta, alpha), c_pm, c_cm)
+    assert plan.interval_h is not None
+    step = (3 * alpha - 1) / 9999
+    # A grid argmin of a unimodal function lies within one step of the true minimiser.
+    assert abs(plan.interval_h - ref.ORT) <= 1.01 * step
+    assert plan.cost_rate <= ref.min_cost * (1 + 1e-9)
+    assert plan.cost_rate == pytest.approx(ref.min_cost, rel=1e-5)
+    assert plan.run_to_failure_rate == pytest.approx(c_cm / Weibull(beta, alpha).mean())
+
+
+def test_age_replacement_exponential_runs_to_failure() -> None:
+    # Barlow & Proschan: with constant hazard, preventive replacement never pays.
+    plan = plan_age_replacement(Weibull(1.0, 5000.0), 1.0, 5.0)
+    assert plan.interval_h is None
+    assert plan.cost_rate == pytest.approx(5.0 / 5000.0)
+
+
+def test_megalumen_identity_with_constant_light() -> None:
+    # Renewal identity (Cox): S(t) + integral m(s) S(t-s) ds = 1, so with no lumen depreciation
+    # the mean light is 100% and the cost per Mlm.h is the hand formula.
+    w = Weibull(3.5, 10000.0)
+    curve = weibull_renewal(3.5, 10000.0, 3 * w.mean())
+    T = np.array([2000.0, 6000.0, 9000.0])
+    res = cost_per_megalumen_hour(
+        T, curve, C_GROUP, C_SPOT, lamp_watts=100.0, tariff_per_kwh=0.2,
+        initial_lumens=9000.0, lumen_fraction=lambda u: np.ones_like(u), survival=w.sf,
+    )
+    np.testing.assert_allclose(res.mean_light_fraction, 1.0, atol=1e-4)
+    expected = (C_GROUP + C_SPOT * curve.at(T) + 0.2 * 0.1 * T) / (9000.0 * T / 1e6)
+    np.testing.assert_allclose(res.cost_per_mlmh, expected, rtol=1e-4)
+
+
+def test_megalumen_mean_light_matches_monte_carlo() -> None:
+    # Independent Monte Carlo: each simulated position integrates exp(-age/tau) exactly lamp by
+    # lamp over a cycle; the mean over 10^5 positions must match within 3 standard errors.
+    w = Weibull(3.0, 8000.0)
+    tau = 30000.0  # demo lumen decay constant, hours
+    curve = weibull_renewal(3.0, 8000.0, 3 * w.mean())
+    T = 6000.0
+    res = cost_per_megalumen_hour(
+        np.array([T]), curve, C_GROUP, C_SPOT, lamp_watts=50.0, tariff_per_kwh=0.1,
+        initial_lumens=5000.0, lumen_fraction=lambda u: np.exp(-u / tau), survival=w.sf,
+    )
+    rng = np.random.default_rng(11)
+    lives = w.scale * rng.weibull(w.shape, size=(100_000, 8))
+    starts = np.concatenate([np.zeros((lives.shape[0], 1)), np.cumsum(lives, axis=1)], axis=1)
+    assert np.all(starts[:, -1] > T)
+    seg = np.clip(np.minimum(starts[:, 1:], T) - starts[:, :-1], 0.0, None)
+    light = (tau * (1.0 - np.exp(-seg / tau))).sum(axis=1) / T
+    se = light.std(ddof=1) / np.sqrt(light.size)
+    assert abs(res.mean_light_fraction[0] - light.mean()) <= 3 * se + 1e-5
