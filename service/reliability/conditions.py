@@ -348,26 +348,31 @@ def voltage_effect(
     floor = d.life_ratio_floor if d.life_ratio_floor is not None else math.nan
     ratio = voltage / rated_voltage
 
+    # One-element arrays take the same numpy code path as a fleet (numpy special-cases some
+    # scalar exponents), so scalar and vectorised results agree exactly.
+    def one(v: float) -> FloatArray:
+        return np.array([v], dtype=np.float64)
+
     life, light, power, out = voltage_factors(
-        ratio,
-        n,
-        k,
-        m,
-        g,
-        d.is_filament,
-        band=bnd,
-        life_ratio_floor=floor,
-        driver_min_ratio=dmin,
-        driver_max_ratio=dmax,
+        one(ratio),
+        one(n),
+        one(k),
+        one(m),
+        one(g),
+        np.array([d.is_filament]),
+        band=one(bnd),
+        life_ratio_floor=one(floor),
+        driver_min_ratio=one(dmin),
+        driver_max_ratio=one(dmax),
     )
 
     warnings: list[str] = []
     pct = (ratio - 1.0) * 100.0
     if driver_range is not None:
-        if bool(out):
+        if bool(out[0]):
             warnings.append(
-                f"{voltage:g} V is outside driver input range "
-                f"{driver_range[0]:g}-{driver_range[1]:g} V; not extrapolated"
+                "outside driver input range; not extrapolated "
+                f"({voltage:g} V vs {driver_range[0]:g}-{driver_range[1]:g} V)"
             )
     elif abs(ratio - 1.0) > bnd + _BAND_TOL:
         kind = "filament power laws" if d.is_filament else f"{ballast} ballast"
@@ -380,7 +385,7 @@ def voltage_effect(
             f"below {floor * 100:g}% of rated voltage the halogen cycle stops; "
             f"life gain held at its {floor * 100:g}% value"
         )
-    return VoltageEffect(float(life), float(light), float(power), tuple(warnings))
+    return VoltageEffect(float(life[0]), float(light[0]), float(power[0]), tuple(warnings))
 
 
 def switching_life_factor(
