@@ -1,0 +1,249 @@
+"""The resolved model numbers of a lamp type: catalogue values, fits and technology defaults.
+
+resolve_lamp_model() turns one LampType row into the numbers the forecasts use, and says
+for each where it came from ("catalogue", "fit" or "default"). lamp_type_table() stacks
+resolved models into the numeric core's LampTypeTable for fleet evaluation.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Protocol
+
+import numpy as np
+
+from service.catalogue.mortality import fit_mortality_points
+from service.reliability.conditions import (
+    BALLAST_POWER_GAIN,
+    BALLAST_VOLTAGE_BAND,
+    DEFAULT_SWITCHING_SLOPE,
+    TECHNOLOGY_DEFAULTS,
+)
+from service.reliability.fleet import LampTypeTable
+from service.reliability.lumen import LumenCurve, default_lumen_curve
+from service.reliability.weibull import scale_from_rated_life
+
+CATALOGUE = "catalogue"
+FIT = "fit"
+DEFAULT = "default"
+
+
+class LampTypeLike(Protocol):
+    """The LampType columns the resolver reads (an ORM row or any object with them)."""
+
+    id: int
+    code: str
+    technology: str
+    rated_watts: float
+    rated_volts: float
+    rated_life_h: float
+    rated_percentile: float
+    rated_hours_per_start: float | None
+    second_hours_per_start: float | None
+    second_cycle_life_h: float | None
+    weibull_shape: float | None
+    mortality_points: list[list[float]] | None
+    lumen_points: list[list[float]] | None
+    lumen_basis: str
+    initial_lumens: float | None
+    life_exponent: float | None
+    light_exponent: float | None
+    power_exponent: float | None
+    ballast_behaviour: str | None
+    driver_min_volts: float | None
+    driver_max_volts: float | None
+    unit_price: float
+    contains_mercury: bool
+    rupture_risk: bool
+
+
+@dataclass(frozen=True)
+class LampModel:
+    """A lamp type's resolved model numbers (hours, volts, watts, lumens) and their sources."""
+
+    lamp_type_id: int | None
+    code: str
+    technology: str
+    shape: float  # Weibull beta
+    scale_h: float  # Weibull eta at rated volts and rated cycle, burn hours
+    rated_life_h: float  # burn hours at rated_percentile failed
+    rated_percentile: float  # percent failed at rated life (50 = B50)
+    rated_volts: float
+    life_exponent: float
+    light_exponent: float
+    power_exponent: float
+    ballast_behaviour: str
+    ballast_gain: float  # NaN for filament lamps
+    is_filament: bool
+    rated_hours_per_start: float | None  # burn hours per start; None = no switching model
+    second_hours_per_start: float | None
+    second_life_ratio: float | None  # second_cycle_life_h / rated_life_h
+    driver_min_volts: float | None
+    driver_max_volts: float | None
+    lumen_curve: LumenCurve
+    initial_lumens: float | None
+    rated_watts: float
+    unit_price: float
+    contains_mercury: bool
+    rupture_risk: bool
+    voltage_band: float  # fraction of rated volts inside which the voltage model is trusted
+    life_ratio_floor: float | None  # halogen: life gain held below this voltage ratio
+    switching_slope: float  # life ratio per unit ln(h/start) without a second point
+    sources: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def driver_range(self) -> tuple[float, float] | None:
+        """LED driver input range in volts, when both ends are given."""
+        if self.driver_min_volts is None or self.driver_max_volts is None:
+            return None
+        return (self.driver_min_volts, self.driver_max_volts)
+
+
+def _pick(value: float | None, default: float, name: str, sources: dict[str, str]) -> float:
+    if value is None:
+        sources[name] = DEFAULT
+        return float(default)
+    sources[name] = CATALOGUE
+    return float(value)
+
+
+def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
+    """Resolve a lamp type's model numbers: catalogue value, else a fit, else the default."""
+    tech = lt.technology
+    if tech not in TECHNOLOGY_DEFAULTS:
+        raise ValueError(f"unknown technology {tech!r}")
+    d = TECHNOLOGY_DEFAULTS[tech]
+    src: dict[str, str] = {}
+
+    # Shape: catalogue beta, else fitted to the maker's mortality points, else the default.
+    if lt.weibull_shape is not None:
+        shape = float(lt.weibull_shape)
+        src["shape"] = CATALOGUE
+    elif lt.mortality_points and len(lt.mortality_points) >= 2:
+        shape = fit_mortality_points(lt.mortality_points).shape
+        src["shape"] = FIT
+    else:
+        shape = d.shape
+        src["shape"] = DEFAULT
+    pct = float(lt.rated_percentile)
+    src["rated_percentile"] = CATALOGUE
+    rated_life = float(lt.rated_life_h)
+    src["rated_life_h"] = CATALOGUE
+    scale_h = float(scale_from_rated_life(rated_life, shape, pct))
+    src["scale_h"] = src["shape"]  # rated life is catalogue; the shape decides the scale
+
+    life_exp = _pick(lt.life_exponent, d.life_exponent, "life_exponent", src)
+    light_exp = _pick(lt.light_exponent, d.light_exponent, "light_exponent", src)
+    power_exp = _pick(lt.power_exponent, d.power_exponent, "power_exponent", src)
+
+    if lt.ballast_behaviour is None:
+        ballast = d.default_ballast
+        src["ballast_behaviour"] = DEFAULT
+    else:
+        ballast = lt.ballast_behaviour
+        src["ballast_behaviour"] = CATALOGUE
+    if ballast not in BALLAST_POWER_GAIN:
+        raise ValueError(f"unknown ballast behaviour {ballast!r}")
+    gain = BALLAST_POWER_GAIN[ballast]
+    src["ballast_gain"] = DEFAULT
+    is_filament = d.is_filament
+
+    if lt.rated_hours_per_start is not None:
+        rhps: float | None = float(lt.rated_hours_per_start)
+        src["rated_hours_per_start"] = CATALOGUE
+    else:
+        rhps = d.rated_hours_per_start
+        src["rated_hours_per_start"] = DEFAULT
+    second_hps: float | None = None
+    second_ratio: float | None = None
+    if lt.second_hours_per_start is not None and lt.second_cycle_life_h is not None:
+        second_hps = float(lt.second_hours_per_start)
+        second_ratio = float(lt.second_cycle_life_h) / rated_life
+        src["second_life_ratio"] = CATALOGUE
+    else:
+        src["second_life_ratio"] = DEFAULT  # default switching slope applies
+
+    dmin = None if lt.driver_min_volts is None else float(lt.driver_min_volts)
+    dmax = None if lt.driver_max_volts is None else float(lt.driver_max_volts)
+    src["driver_range"] = CATALOGUE if dmin is not None and dmax is not None else DEFAULT
+
+    if lt.lumen_points:
+        pts = sorted((float(p[0]), float(p[1])) for p in lt.lumen_points)
+        curve = LumenCurve(
+            tuple(p[0] for p in pts),
+            tuple(p[1] for p in pts),
+            lt.lumen_basis or "hours",
+            False,
+            "catalogue lumen points",
+        )
+        src["lumen_curve"] = CATALOGUE
+    else:
+        curve = default_lumen_curve(tech, None if is_filament else rated_life)
+        src["lumen_curve"] = DEFAULT
+
+    return LampModel(
+        lamp_type_id=getattr(lt, "id", None),
+        code=lt.code,
+        technology=tech,
+        shape=shape,
+        scale_h=scale_h,
+        rated_life_h=rated_life,
+        rated_percentile=pct,
+        rated_volts=float(lt.rated_volts),
+        life_exponent=life_exp,
+        light_exponent=light_exp,
+        power_exponent=power_exp,
+        ballast_behaviour=ballast,
+        ballast_gain=gain,
+        is_filament=is_filament,
+        rated_hours_per_start=rhps,
+        second_hours_per_start=second_hps,
+        second_life_ratio=second_ratio,
+        driver_min_volts=dmin,
+        driver_max_volts=dmax,
+        lumen_curve=curve,
+        initial_lumens=None if lt.initial_lumens is None else float(lt.initial_lumens),
+        rated_watts=float(lt.rated_watts),
+        unit_price=float(lt.unit_price or 0.0),
+        contains_mercury=bool(lt.contains_mercury),
+        rupture_risk=bool(lt.rupture_risk),
+        voltage_band=BALLAST_VOLTAGE_BAND[ballast],
+        life_ratio_floor=d.life_ratio_floor,
+        switching_slope=(
+            DEFAULT_SWITCHING_SLOPE if d.switching_slope is None else d.switching_slope
+        ),
+        sources=src,
+    )
+
+
+def _nan(v: float | None) -> float:
+    return math.nan if v is None else float(v)
+
+
+def lamp_type_table(models: Sequence[LampModel]) -> LampTypeTable:
+    """Stack resolved lamp models into the numeric core's LampTypeTable (index = position)."""
+
+    def col(values: list[float]) -> np.ndarray:
+        return np.asarray(values, dtype=np.float64)
+
+    return LampTypeTable(
+        shape=col([m.shape for m in models]),
+        scale_h=col([m.scale_h for m in models]),
+        rated_voltage=col([m.rated_volts for m in models]),
+        life_exponent=col([m.life_exponent for m in models]),
+        light_exponent=col([m.light_exponent for m in models]),
+        power_exponent=col([m.power_exponent for m in models]),
+        ballast_gain=col([m.ballast_gain for m in models]),
+        is_filament=np.asarray([m.is_filament for m in models], dtype=bool),
+        rated_hours_per_start=col([_nan(m.rated_hours_per_start) for m in models]),
+        second_hours_per_start=col([_nan(m.second_hours_per_start) for m in models]),
+        second_life_ratio=col([_nan(m.second_life_ratio) for m in models]),
+        lumen_curves=tuple(m.lumen_curve for m in models),
+        voltage_band=col([m.voltage_band for m in models]),
+        life_ratio_floor=col([_nan(m.life_ratio_floor) for m in models]),
+        switching_slope=col([m.switching_slope for m in models]),
+        driver_min_v=col([_nan(m.driver_min_volts) for m in models]),
+        driver_max_v=col([_nan(m.driver_max_volts) for m in models]),
+    )
