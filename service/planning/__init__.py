@@ -1,0 +1,1 @@
+"""Relamp plans per area and per site: group interval, due date, costs and the binding reason."""

@@ -1,0 +1,1 @@
+"""Work orders (group relamp, spot replacement): lifecycle, completion, exports, print page."""
