@@ -73,7 +73,7 @@ class LampTypeSpec:
     lumen_curve: LumenCurve | None = None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class LampTypeTable:
     """K lamp types as parallel numpy arrays (length K) plus one lumen curve per type."""
 
@@ -230,7 +230,7 @@ class LampTypeTable:
         )
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class FleetResult:
     """Per-position results (arrays of length N) and the fleet's expected failures."""
 
@@ -258,6 +258,8 @@ def evaluate_fleet(
 ) -> FleetResult:
     """Evaluate N lamp positions at once (voltage NaN = rated; hours_per_start NaN = rated)."""
     k = np.asarray(type_index)
+    if k.size == 0:
+        k = k.astype(np.intp)
     if k.ndim != 1 or not np.issubdtype(k.dtype, np.integer):
         raise ValueError("type_index must be a 1-D integer array")
     n = k.size

@@ -171,3 +171,11 @@ def test_fleet_outputs_are_probabilities_and_fractions(seed: int, n: int) -> Non
     assert np.all((res.p_fail_horizon >= 0) & (res.p_fail_horizon <= 1))
     assert np.all(res.lumen_fraction_end <= res.lumen_fraction + 1e-15)
     assert np.all(res.lumen_fraction_end >= 0)
+
+
+def test_empty_fleet() -> None:
+    # Interface contract: no positions means no expected failures (an empty sum is 0).
+    table = LampTypeTable.from_specs(SPECS[:1])
+    res = evaluate_fleet(table, np.array([], dtype=int), np.array([]), 120.0, math.nan, 100.0)
+    assert res.expected_failures_horizon == 0.0
+    assert res.survival.shape == (0,)
