@@ -11,6 +11,8 @@ from fastapi import APIRouter, FastAPI
 from service import __version__
 from service.api.errors import install_error_handlers
 from service.api.health import router as health_router
+from service.api.home import router as home_router
+from service.catalogue.router import router as catalogue_router
 from service.config import get_settings
 from service.keys.router import router as keys_router
 from service.register.router import router as register_router
@@ -20,6 +22,7 @@ API_PREFIX = "/api/v1"
 # Every domain router, in the order /docs shows them.
 DOMAIN_ROUTERS: list[APIRouter] = [
     register_router,
+    catalogue_router,
     keys_router,
 ]
 
@@ -52,6 +55,7 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     )
     install_error_handlers(app)
     app.include_router(health_router)
+    app.include_router(home_router)
     for router in DOMAIN_ROUTERS:
         app.include_router(router, prefix=API_PREFIX)
     return app

@@ -51,3 +51,8 @@ def test_keys_admin_routes(
         client.get("/api/v1/sites", headers={"Authorization": f"Bearer {secret}"}).status_code
         == 401
     )
+
+
+def test_home_page_carries_the_cautions(client: TestClient) -> None:
+    r = client.get("/")
+    assert r.status_code == 200 and "lock out" in r.text and "/docs" in r.text
