@@ -1,0 +1,111 @@
+"""HTTP routes for the lamp catalogue."""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from fastapi import APIRouter, Query, Response, status
+from pydantic import BaseModel
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
+from service.api.pagination import Page, PageDep, paginate
+from service.catalogue import bulk, service
+from service.catalogue import repository as repo
+from service.catalogue.models import LampType
+from service.catalogue.schemas import (
+    LAMP_TYPE_FIELDS,
+    LampTypeCreate,
+    LampTypeRead,
+    LampTypeUpdate,
+)
+
+router = APIRouter(prefix="/lamp-types", tags=["lamp catalogue"])
+
+TechnologyQ = Annotated[str | None, Query(description="Exact technology, e.g. led.")]
+CodeQ = Annotated[str | None, Query(description="Code contains (any case).")]
+MercuryQ = Annotated[bool | None, Query(description="Only lamps with (true) or without mercury.")]
+
+
+class ImportSummary(BaseModel):
+    """Rows read, created and updated by an import (all in one transaction)."""
+
+    rows: int
+    created: int
+    updated: int
+
+
+@router.get("", response_model=Page[LampTypeRead])
+def list_lamp_types(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    technology: TechnologyQ = None,
+    code: CodeQ = None,
+    contains_mercury: MercuryQ = None,
+) -> Page[LampTypeRead]:
+    """List lamp types (sort: code, id, technology, rated_watts, rated_life_h, unit_price)."""
+    stmt = repo.lamp_type_query(technology, code, contains_mercury)
+    rows, total = paginate(session, stmt, page, repo.LAMP_TYPE_SORT, LampType.id)
+    return Page(
+        items=[service.to_read(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.post("", response_model=LampTypeRead, status_code=status.HTTP_201_CREATED)
+def create_lamp_type(body: LampTypeCreate, session: SessionDep, _: WriteKey) -> LampTypeRead:
+    """Create a lamp type; the answer shows the model numbers the forecasts will use."""
+    return service.to_read(service.create_lamp_type(session, body))
+
+
+@router.post("/import", response_model=ImportSummary, openapi_extra=UPLOAD_OPENAPI)
+def import_lamp_types(
+    body: RawBodyDep,
+    session: SessionDep,
+    _: WriteKey,
+    on_duplicate: Annotated[
+        Literal["error", "update"], Query(description="An existing code: error or update it.")
+    ] = "error",
+) -> ImportSummary:
+    """Import lamp types from CSV (text/csv) or JSON (a list): all rows or none."""
+    rows = parse_rows(body, LAMP_TYPE_FIELDS)
+    result = bulk.import_lamp_types(session, rows, on_duplicate)
+    return ImportSummary(rows=result.rows, created=result.created, updated=result.updated)
+
+
+@router.get("/export", response_class=Response)
+def export_lamp_types(
+    session: SessionDep,
+    _: ReadKey,
+    format: Annotated[Literal["csv", "json"], Query(description="csv or json.")] = "csv",
+    technology: TechnologyQ = None,
+    code: CodeQ = None,
+    contains_mercury: MercuryQ = None,
+) -> Response:
+    """Download lamp types as CSV or JSON, in the form the import takes back."""
+    rows = bulk.export_lamp_types(session, technology, code, contains_mercury)
+    return export_response(LAMP_TYPE_FIELDS, rows, format, "lamp-types")
+
+
+@router.get("/{lamp_type_id}", response_model=LampTypeRead)
+def get_lamp_type(lamp_type_id: int, session: SessionDep, _: ReadKey) -> LampTypeRead:
+    """Read one lamp type with its resolved model."""
+    return service.to_read(service.get_lamp_type(session, lamp_type_id))
+
+
+@router.patch("/{lamp_type_id}", response_model=LampTypeRead)
+def update_lamp_type(
+    lamp_type_id: int, body: LampTypeUpdate, session: SessionDep, _: WriteKey
+) -> LampTypeRead:
+    """Change some fields of a lamp type."""
+    return service.to_read(service.update_lamp_type(session, lamp_type_id, body))
+
+
+@router.delete("/{lamp_type_id}", status_code=status.HTTP_204_NO_CONTENT)
+def delete_lamp_type(lamp_type_id: int, session: SessionDep, _: WriteKey) -> Response:
+    """Delete a lamp type that no fixture uses."""
+    service.delete_lamp_type(session, lamp_type_id)
+    return Response(status_code=status.HTTP_204_NO_CONTENT)

@@ -1,0 +1,294 @@
+"""Request and response bodies for lamp types, with the resolved model block."""
+
+from __future__ import annotations
+
+import itertools
+import math
+from datetime import datetime
+from typing import Annotated, Any, Literal
+
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field
+
+from service.catalogue.model import LampModel
+from service.catalogue.mortality import check_mortality_points
+from service.reliability.conditions import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
+from service.reliability.lumen import MAX_FRACTION
+
+
+def _technology(v: str) -> str:
+    if v not in TECHNOLOGIES:
+        raise ValueError(f"unknown technology '{v}'; expected one of: {', '.join(TECHNOLOGIES)}")
+    return v
+
+
+def _ballast(v: str) -> str:
+    if v not in BALLASTS:
+        raise ValueError(f"unknown ballast behaviour '{v}'; expected one of: {', '.join(BALLASTS)}")
+    return v
+
+
+def _mortality(points: list[list[float]]) -> list[list[float]]:
+    problem = check_mortality_points(points)
+    if problem is not None:
+        raise ValueError(problem)
+    return [[float(a), float(b)] for a, b in sorted(points)]
+
+
+def _lumen(points: list[list[float]]) -> list[list[float]]:
+    if not points:
+        raise ValueError("give at least one lumen point, or leave lumen_points out")
+    for p in points:
+        if len(p) != 2:
+            raise ValueError("each lumen point is [hours or rated-life fraction, fraction]")
+        if not (math.isfinite(p[0]) and p[0] >= 0):
+            raise ValueError("lumen point x (hours or rated-life fraction) must be >= 0")
+        if not (math.isfinite(p[1]) and 0 < p[1] <= MAX_FRACTION):
+            raise ValueError(f"lumen fraction of initial light must lie in (0, {MAX_FRACTION}]")
+    pts = sorted([float(a), float(b)] for a, b in points)
+    for (x0, f0), (x1, f1) in itertools.pairwise(pts):
+        if x1 == x0:
+            raise ValueError("two lumen points have the same x")
+        if f1 > f0:
+            raise ValueError("lumen fractions must not increase with burn hours")
+    return pts
+
+
+Technology = Annotated[str, AfterValidator(_technology)]
+Ballast = Annotated[str, AfterValidator(_ballast)]
+MortalityPoints = Annotated[
+    list[Annotated[list[float], Field(min_length=2, max_length=2)]],
+    AfterValidator(_mortality),
+    Field(description="[[% of rated life > 0, % surviving in (0, 100)], ...]; 2 or more."),
+]
+LumenPoints = Annotated[
+    list[Annotated[list[float], Field(min_length=2, max_length=2)]],
+    AfterValidator(_lumen),
+    Field(description="[[hours or rated-life fraction >= 0, fraction in (0, 1.2]], ...]."),
+]
+Positive = Annotated[float, Field(gt=0, allow_inf_nan=False)]
+Volts = Annotated[float, Field(gt=0, le=1000, allow_inf_nan=False, description="Volts.")]
+Hours = Annotated[float, Field(gt=0, le=10_000_000, allow_inf_nan=False, description="Hours.")]
+Percentile = Annotated[float, Field(gt=0, lt=100, description="Percent failed, in (0, 100).")]
+Exponent = Annotated[float, Field(gt=0, le=100, allow_inf_nan=False)]
+LumenBasis = Literal["hours", "rated_life_fraction"]
+
+
+class LampTypeCreate(BaseModel):
+    """A new lamp type. Optional model fields fall back to the technology's defaults.
+
+    rated_percentile is the percent failed at rated_life_h (50 = median, B50). For LED the
+    quoted L70 life is a lumen criterion, not a failure percentile: it stays B50 for the
+    failure curve unless given, and light loss comes from lumen_points.
+    """
+
+    model_config = ConfigDict(extra="forbid")
+
+    code: str = Field(min_length=1, max_length=40)
+    description: str | None = Field(default=None, max_length=300)
+    technology: Technology
+    shape_designation: str | None = Field(default=None, max_length=20)
+    base_designation: str | None = Field(default=None, max_length=20)
+    rated_watts: Annotated[float, Field(gt=0, le=100_000, allow_inf_nan=False)]
+    rated_volts: Volts
+    rated_life_h: Hours
+    rated_percentile: Percentile | None = None
+    rated_hours_per_start: Hours | None = None
+    second_hours_per_start: Hours | None = None
+    second_cycle_life_h: Hours | None = None
+    weibull_shape: Annotated[float, Field(gt=0, le=50, allow_inf_nan=False)] | None = None
+    mortality_points: MortalityPoints | None = None
+    lumen_points: LumenPoints | None = None
+    lumen_basis: LumenBasis = "hours"
+    initial_lumens: Positive | None = None
+    life_exponent: Exponent | None = None
+    light_exponent: Exponent | None = None
+    power_exponent: Exponent | None = None
+    ballast_behaviour: Ballast | None = None
+    driver_min_volts: Volts | None = None
+    driver_max_volts: Volts | None = None
+    unit_price: float = Field(default=0.0, ge=0, allow_inf_nan=False)
+    contains_mercury: bool | None = Field(default=None, description="Default: by technology.")
+    rupture_risk: bool | None = Field(default=None, description="Default: by technology.")
+    extra: dict[str, Any] | None = None
+
+    def stored_values(self) -> dict[str, Any]:
+        """Column values with the technology defaults that are stored (percentile, flags)."""
+        d = TECHNOLOGY_DEFAULTS[self.technology]
+        values = self.model_dump()
+        if values["rated_percentile"] is None:
+            values["rated_percentile"] = d.rated_percentile
+        if values["contains_mercury"] is None:
+            values["contains_mercury"] = d.contains_mercury
+        if values["rupture_risk"] is None:
+            values["rupture_risk"] = d.rupture_risk
+        return values
+
+
+def cross_check(values: dict[str, Any]) -> list[tuple[str, str]]:
+    """Rules across fields of a whole lamp type: (field, message) for each broken one."""
+    out: list[tuple[str, str]] = []
+    tech = values.get("technology")
+    ballast = values.get("ballast_behaviour")
+    if tech in TECHNOLOGY_DEFAULTS and ballast is not None:
+        filament = TECHNOLOGY_DEFAULTS[tech].is_filament
+        if filament != (ballast == "none"):
+            need = "'none'" if filament else "a ballast or driver, not 'none'"
+            out.append(("ballast_behaviour", f"a {tech} lamp needs {need}"))
+    if (values.get("second_hours_per_start") is None) != (
+        values.get("second_cycle_life_h") is None
+    ):
+        out.append(
+            ("second_cycle_life_h", "give second_hours_per_start and second_cycle_life_h together")
+        )
+    lo, hi = values.get("driver_min_volts"), values.get("driver_max_volts")
+    if (lo is None) != (hi is None):
+        out.append(("driver_max_volts", "give driver_min_volts and driver_max_volts together"))
+    elif lo is not None and hi is not None and not lo < hi:
+        out.append(("driver_min_volts", "driver_min_volts must be below driver_max_volts"))
+    return out
+
+
+# Every column a client may set, in the order exports write them.
+LAMP_TYPE_FIELDS: tuple[str, ...] = tuple(LampTypeCreate.model_fields)
+
+
+class LampTypeUpdate(BaseModel):
+    """A partial update; the merged lamp type is checked as a whole (same rules as create)."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    code: str | None = Field(default=None, min_length=1, max_length=40)
+    description: str | None = Field(default=None, max_length=300)
+    technology: Technology | None = None
+    shape_designation: str | None = Field(default=None, max_length=20)
+    base_designation: str | None = Field(default=None, max_length=20)
+    rated_watts: Annotated[float, Field(gt=0, le=100_000, allow_inf_nan=False)] | None = None
+    rated_volts: Volts | None = None
+    rated_life_h: Hours | None = None
+    rated_percentile: Percentile | None = None
+    rated_hours_per_start: Hours | None = None
+    second_hours_per_start: Hours | None = None
+    second_cycle_life_h: Hours | None = None
+    weibull_shape: Annotated[float, Field(gt=0, le=50, allow_inf_nan=False)] | None = None
+    mortality_points: MortalityPoints | None = None
+    lumen_points: LumenPoints | None = None
+    lumen_basis: LumenBasis | None = None
+    initial_lumens: Positive | None = None
+    life_exponent: Exponent | None = None
+    light_exponent: Exponent | None = None
+    power_exponent: Exponent | None = None
+    ballast_behaviour: Ballast | None = None
+    driver_min_volts: Volts | None = None
+    driver_max_volts: Volts | None = None
+    unit_price: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+    contains_mercury: bool | None = None
+    rupture_risk: bool | None = None
+    extra: dict[str, Any] | None = None
+
+
+class LumenCurveRead(BaseModel):
+    """The lumen maintenance curve the forecasts use."""
+
+    basis: str  # "hours" or "rated_life_fraction"
+    points: list[list[float]]  # [[x, fraction of initial light], ...]
+    assumed: bool  # True when a technology default stands in for catalogue data
+    source: str
+    decay_b: float | None = None  # exact exponential B*exp(-alpha*t), when used
+    decay_alpha_per_h: float | None = None
+
+
+class LampModelRead(BaseModel):
+    """What the forecasts use for this lamp type, and where each number came from."""
+
+    shape: float
+    scale_h: float
+    rated_life_h: float
+    rated_percentile: float
+    rated_volts: float
+    life_exponent: float
+    light_exponent: float
+    power_exponent: float
+    ballast_behaviour: str
+    ballast_gain: float | None  # None for filament lamps (they follow their own power laws)
+    is_filament: bool
+    rated_hours_per_start: float | None
+    second_hours_per_start: float | None
+    second_life_ratio: float | None
+    driver_min_volts: float | None
+    driver_max_volts: float | None
+    voltage_band: float
+    lumen_curve: LumenCurveRead
+    sources: dict[str, str]
+
+    @classmethod
+    def of(cls, m: LampModel) -> LampModelRead:
+        """The read form of a resolved LampModel."""
+        c = m.lumen_curve
+        return cls(
+            shape=m.shape,
+            scale_h=m.scale_h,
+            rated_life_h=m.rated_life_h,
+            rated_percentile=m.rated_percentile,
+            rated_volts=m.rated_volts,
+            life_exponent=m.life_exponent,
+            light_exponent=m.light_exponent,
+            power_exponent=m.power_exponent,
+            ballast_behaviour=m.ballast_behaviour,
+            ballast_gain=None if math.isnan(m.ballast_gain) else m.ballast_gain,
+            is_filament=m.is_filament,
+            rated_hours_per_start=m.rated_hours_per_start,
+            second_hours_per_start=m.second_hours_per_start,
+            second_life_ratio=m.second_life_ratio,
+            driver_min_volts=m.driver_min_volts,
+            driver_max_volts=m.driver_max_volts,
+            voltage_band=m.voltage_band,
+            lumen_curve=LumenCurveRead(
+                basis=c.basis,
+                points=[[x, f] for x, f in zip(c.x, c.fraction, strict=True)],
+                assumed=c.assumed,
+                source=c.source,
+                decay_b=c.decay_b,
+                decay_alpha_per_h=c.decay_alpha,
+            ),
+            sources=dict(m.sources),
+        )
+
+
+class LampTypeRead(BaseModel):
+    """A stored lamp type with its resolved model."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    code: str
+    description: str | None
+    technology: str
+    shape_designation: str | None
+    base_designation: str | None
+    rated_watts: float
+    rated_volts: float
+    rated_life_h: float
+    rated_percentile: float
+    rated_hours_per_start: float | None
+    second_hours_per_start: float | None
+    second_cycle_life_h: float | None
+    weibull_shape: float | None
+    mortality_points: list[list[float]] | None
+    lumen_points: list[list[float]] | None
+    lumen_basis: str
+    initial_lumens: float | None
+    life_exponent: float | None
+    light_exponent: float | None
+    power_exponent: float | None
+    ballast_behaviour: str | None
+    driver_min_volts: float | None
+    driver_max_volts: float | None
+    unit_price: float
+    contains_mercury: bool
+    rupture_risk: bool
+    extra: dict[str, Any] | None
+    created_at: datetime
+    updated_at: datetime
+    model: LampModelRead | None = Field(
+        default=None, description="The numbers the forecasts use and their sources."
+    )
