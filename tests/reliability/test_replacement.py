@@ -164,7 +164,8 @@ def test_cost_rates_finite_and_positive(
     curve = weibull_renewal(shape, scale, 3 * w.mean(), n=300)
     c = float(block_cost_rate(T, curve, c_group, c_spot))
     assert np.isfinite(c) and c > 0
-    assert c >= (c_group + c_spot * float(w.cdf(T))) / T * (1 - 1e-6)
+    # (slack on the F term: in the first grid cells M ~ t^beta is interpolated to ~1% or 1e-8)
+    assert c * T >= c_group + c_spot * (float(w.cdf(T)) * (1 - 1e-2) - 1e-8)
     a = float(age_cost_rate(T, w, c_group, c_spot))
     assert np.isfinite(a) and a > 0
 
