@@ -125,6 +125,8 @@ def fit_weibull(
         lo /= 4.0
     while score(hi) < 0 and hi < 1e4:
         hi *= 4.0
+    if score(lo) > 0 or score(hi) < 0:
+        raise ValueError("no Weibull shape between 1e-6 and 1e4 fits these records")
     beta = float(brentq(score, lo, hi, xtol=1e-12, rtol=1e-12))
     log_eta = _profile_scale(log_t, beta, r)
     eta = float(np.exp(log_eta))
