@@ -102,9 +102,7 @@ def _profile_scale(log_t: FloatArray, beta: float, r: int) -> float:
     return float((logsumexp(beta * log_t) - np.log(r)) / beta)
 
 
-def fit_weibull(
-    times_h: ArrayLike, failed: ArrayLike, *, confidence: float = 0.90
-) -> WeibullFit:
+def fit_weibull(times_h: ArrayLike, failed: ArrayLike, *, confidence: float = 0.90) -> WeibullFit:
     """Maximum-likelihood Weibull with right censoring and log-Wald bounds (Fisher information)."""
     _check_confidence(confidence)
     t, f = _records(times_h, failed)
@@ -217,9 +215,7 @@ class KaplanMeier:
         return out
 
 
-def kaplan_meier(
-    times_h: ArrayLike, failed: ArrayLike, *, confidence: float = 0.95
-) -> KaplanMeier:
+def kaplan_meier(times_h: ArrayLike, failed: ArrayLike, *, confidence: float = 0.95) -> KaplanMeier:
     """Kaplan-Meier estimate with Greenwood variance and exponential (log-log) bounds."""
     _check_confidence(confidence)
     t, f = _records(times_h, failed)

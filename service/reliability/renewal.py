@@ -169,9 +169,9 @@ def _curve_from_cdf_values(t: FloatArray, f_vals: FloatArray) -> RenewalCurve:
         # Fourth-order central differences inside: the Hermite interpolant in
         # RenewalCurve.at uses these slopes, and near t = 0 (M ~ t^beta) the
         # second-order ones cost about 1e-4 relative accuracy.
-        dens[2:-2] = (
-            m_vals[:-4] - 8.0 * m_vals[1:-3] + 8.0 * m_vals[3:-1] - m_vals[4:]
-        ) / (12.0 * step)
+        dens[2:-2] = (m_vals[:-4] - 8.0 * m_vals[1:-3] + 8.0 * m_vals[3:-1] - m_vals[4:]) / (
+            12.0 * step
+        )
     dens = np.maximum(dens, 0.0)  # M is non-decreasing; clip finite-difference noise
     return RenewalCurve(t=t, m=m_vals, density=dens, cdf=f_vals)
 

@@ -172,9 +172,7 @@ def plan_block_replacement(
     # Horizon: the grid of candidate intervals.
     if isinstance(life, Weibull):
         horizon = (
-            float(max_interval_h)
-            if max_interval_h is not None
-            else _DEFAULT_HORIZON_MEANS * mu
+            float(max_interval_h) if max_interval_h is not None else _DEFAULT_HORIZON_MEANS * mu
         )
         if rupture_cap_h is not None and rupture_cap_h > horizon:
             notes.append(
@@ -300,9 +298,7 @@ def integrated_survival(T: ArrayLike, life: Weibull) -> FloatArray:
     return out
 
 
-def age_cost_rate(
-    T: ArrayLike, life: Weibull, c_preventive: float, c_failure: float
-) -> FloatArray:
+def age_cost_rate(T: ArrayLike, life: Weibull, c_preventive: float, c_failure: float) -> FloatArray:
     """Age replacement cost per burn hour, (c_p·S(T) + c_f·F(T)) / ∫_0^T S."""
     tt = np.asarray(T, dtype=np.float64)
     if np.any(tt <= 0):

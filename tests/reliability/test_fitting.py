@@ -55,8 +55,11 @@ def test_mle_and_bounds_match_reliability(
 
     t, failed = records
     ref = Fit_Weibull_2P(
-        failures=t[failed], right_censored=t[~failed], show_probability_plot=False,
-        print_results=False, CI=confidence,
+        failures=t[failed],
+        right_censored=t[~failed],
+        show_probability_plot=False,
+        print_results=False,
+        CI=confidence,
     )
     fit = fit_weibull(t, failed, confidence=confidence)
     assert fit.shape == pytest.approx(ref.beta, rel=1e-5)
@@ -104,8 +107,11 @@ def test_weibayes_matches_reliability_force_beta(records: tuple[np.ndarray, np.n
 
     t, failed = records
     ref = Fit_Weibull_2P(
-        failures=t[failed], right_censored=t[~failed], show_probability_plot=False,
-        print_results=False, force_beta=4.0,
+        failures=t[failed],
+        right_censored=t[~failed],
+        show_probability_plot=False,
+        print_results=False,
+        force_beta=4.0,
     )
     fit = weibayes(t, failed, 4.0)
     assert fit.method == "weibayes"
@@ -173,8 +179,9 @@ def test_kaplan_meier_matches_lifelines_all_failed() -> None:
 def test_kaplan_meier_step_lookup() -> None:
     # Kaplan & Meier 1958: S drops by (1 - d/n) at each failure time; censoring leaves it flat.
     km = kaplan_meier([10.0, 20.0, 30.0, 40.0], [True, False, True, False])
-    np.testing.assert_allclose(km.survival_at([0.0, 9.9, 10.0, 25.0, 30.0, 99.0]),
-                               [1.0, 1.0, 0.75, 0.75, 0.375, 0.375])
+    np.testing.assert_allclose(
+        km.survival_at([0.0, 9.9, 10.0, 25.0, 30.0, 99.0]), [1.0, 1.0, 0.75, 0.75, 0.375, 0.375]
+    )
 
 
 def _fit_with_bounds(lo: float, hi: float) -> WeibullFit:

@@ -112,7 +112,9 @@ def test_expected_in_window_is_difference_of_m() -> None:
     # Definition (Cox): expected renewals in (a, b] = M(b) - M(a); exponential: (b - a)/mu.
     mu = 5000.0
     curve = weibull_renewal(1.0, mu, 4 * mu)
-    got = curve.expected_in_window(np.array([0.0, 1000.0, 7000.0]), np.array([500.0, 4000.0, 9000.0]))
+    got = curve.expected_in_window(
+        np.array([0.0, 1000.0, 7000.0]), np.array([500.0, 4000.0, 9000.0])
+    )
     np.testing.assert_allclose(got, np.array([500.0, 3000.0, 2000.0]) / mu, rtol=1e-6)
 
 

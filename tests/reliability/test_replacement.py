@@ -178,8 +178,14 @@ def test_age_replacement_matches_reliability_package(beta: float, c_pm: float, c
 
     alpha = 1000.0
     ref = optimal_replacement_time(
-        c_pm, c_cm, alpha, beta, show_time_plot=False, show_ratio_plot=False,
-        print_results=False, q=0,
+        c_pm,
+        c_cm,
+        alpha,
+        beta,
+        show_time_plot=False,
+        show_ratio_plot=False,
+        print_results=False,
+        q=0,
     )
     plan = plan_age_replacement(Weibull(beta, alpha), c_pm, c_cm)
     assert plan.interval_h is not None
@@ -205,8 +211,15 @@ def test_megalumen_identity_with_constant_light() -> None:
     curve = weibull_renewal(3.5, 10000.0, 3 * w.mean())
     T = np.array([2000.0, 6000.0, 9000.0])
     res = cost_per_megalumen_hour(
-        T, curve, C_GROUP, C_SPOT, lamp_watts=100.0, tariff_per_kwh=0.2,
-        initial_lumens=9000.0, lumen_fraction=lambda u: np.ones_like(u), survival=w.sf,
+        T,
+        curve,
+        C_GROUP,
+        C_SPOT,
+        lamp_watts=100.0,
+        tariff_per_kwh=0.2,
+        initial_lumens=9000.0,
+        lumen_fraction=lambda u: np.ones_like(u),
+        survival=w.sf,
     )
     np.testing.assert_allclose(res.mean_light_fraction, 1.0, atol=1e-4)
     expected = (C_GROUP + C_SPOT * curve.at(T) + 0.2 * 0.1 * T) / (9000.0 * T / 1e6)
@@ -221,8 +234,15 @@ def test_megalumen_mean_light_matches_monte_carlo() -> None:
     curve = weibull_renewal(3.0, 8000.0, 3 * w.mean())
     T = 6000.0
     res = cost_per_megalumen_hour(
-        np.array([T]), curve, C_GROUP, C_SPOT, lamp_watts=50.0, tariff_per_kwh=0.1,
-        initial_lumens=5000.0, lumen_fraction=lambda u: np.exp(-u / tau), survival=w.sf,
+        np.array([T]),
+        curve,
+        C_GROUP,
+        C_SPOT,
+        lamp_watts=50.0,
+        tariff_per_kwh=0.1,
+        initial_lumens=5000.0,
+        lumen_fraction=lambda u: np.exp(-u / tau),
+        survival=w.sf,
     )
     rng = np.random.default_rng(11)
     lives = w.scale * rng.weibull(w.shape, size=(100_000, 8))
