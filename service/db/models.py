@@ -3,6 +3,7 @@
 from service.catalogue import models as catalogue_models
 from service.events import models as events_models
 from service.keys import models as keys_models
+from service.readings import models as readings_models
 from service.register import models as register_models
 from service.scheduling import models as scheduling_models
 from service.workorders import models as workorders_models
@@ -11,6 +12,7 @@ __all__ = [
     "catalogue_models",
     "events_models",
     "keys_models",
+    "readings_models",
     "register_models",
     "scheduling_models",
     "workorders_models",

@@ -32,6 +32,11 @@ class BurnoutReport(TimestampMixin, Base):
     # Set when a spot work order takes the report in (no FK: work orders come later).
     work_order_id: Mapped[int | None] = mapped_column(Integer, default=None, index=True)
     note: Mapped[str | None] = mapped_column(String(500), default=None)
+    # The failure observation this report recorded (one per lamp, never counted twice).
+    removal_id: Mapped[int | None] = mapped_column(
+        ForeignKey("lamp_removals.id", ondelete="SET NULL"), default=None
+    )
+    closed_at: Mapped[datetime | None] = mapped_column(default=None)
 
 
 class LampRemoval(Base):

@@ -1,0 +1,1 @@
+"""Burn-hour records, voltage readings and each lamp position's age."""

@@ -1,0 +1,401 @@
+"""Each lamp position's age (burn hours, starts) and operating voltage, for many at once.
+
+Method (all vectorised; a handful of queries whatever the number of positions):
+
+- Burn hours: a fixture's own records if it has any, else its area's records; outside the
+  metered span (before the first record, after the last) the area's schedule accrues hours
+  (Area.burn_hours_per_week). Age = hours_at_install + B(t_end) - B(lamp_installed_at), with
+  t_end = `at`, or the burnout time for a position reported dark (a dark lamp ages no more).
+  See service.readings.timeline.
+- Starts: the same with recorded starts and the schedule's starts (starts_per_day x
+  days_per_week / 7 per day). Hours per start: measured when the records carry starts over
+  the lamp's life, else the area's schedule, else NaN (unknown: the rated cycle is assumed).
+- Voltage, by precedence: the burn-hour-weighted mean of the readings over the lamp's life
+  (each reading holds until the next one; the last one before the lamp went in counts from
+  the install), "readings_weighted"; else the latest reading, "latest_reading"; else the
+  fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
+  A fixture's own readings win over its area's.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+from sqlalchemy import ColumnElement, or_, select
+from sqlalchemy.orm import Session
+
+from service.db.base import utcnow
+from service.readings.models import BurnHourRecord, VoltageReading
+from service.readings.timeline import Clock, Timeline
+from service.register.models import Area, Fixture, LampPosition, Site
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+BoolArray = NDArray[np.bool_]
+
+VOLTAGE_SOURCES = ("readings_weighted", "latest_reading", "fixture_measured", "site_nominal")
+_HOURS_PER_WEEK = 168.0
+# Window (days) for an area's measured burn rate when it has no schedule.
+RATE_WINDOW_DAYS = 28.0
+
+
+@dataclass(frozen=True)
+class PositionAges:
+    """Per lamp position (parallel numpy arrays): where it is, its lamp's age and voltage."""
+
+    position_id: IntArray
+    fixture_id: IntArray
+    area_id: IntArray
+    site_id: IntArray
+    lamp_type_id: IntArray
+    age_h: FloatArray  # burn hours of the lamp now in it, incl. hours_at_install
+    starts: FloatArray  # starts of that lamp, incl. starts_at_install
+    hours_per_start: FloatArray  # burn hours per start; NaN = unknown (rated cycle assumed)
+    voltage_v: FloatArray  # operating volts
+    voltage_source: NDArray[np.str_]  # one of VOLTAGE_SOURCES
+    burned_out: BoolArray  # reported dark, not yet replaced
+    installed_at_s: FloatArray  # when the lamp went in, epoch seconds (UTC)
+    burn_h_per_week: FloatArray  # the area's burn rate: schedule, else measured recently
+    at: datetime  # the moment the ages refer to (UTC)
+
+    @property
+    def size(self) -> int:
+        """Number of positions."""
+        return int(self.position_id.size)
+
+    def take(self, idx: Any) -> PositionAges:
+        """The subset at an index or boolean mask."""
+        return PositionAges(
+            **{
+                name: getattr(self, name)[idx] for name in self.__dataclass_fields__ if name != "at"
+            },
+            at=self.at,
+        )
+
+
+def _ts(values: list[datetime | None]) -> FloatArray:
+    return np.array([np.nan if v is None else v.timestamp() for v in values], dtype=np.float64)
+
+
+def _f(values: list[float | None]) -> FloatArray:
+    return np.array([np.nan if v is None else v for v in values], dtype=np.float64)
+
+
+def _scope(
+    site_id: int | None,
+    area_id: int | None,
+    fixture_id: int | None,
+    lamp_type_id: int | None,
+    position_ids: list[int] | None,
+) -> list[ColumnElement[bool]]:
+    cond: list[ColumnElement[bool]] = []
+    if site_id is not None:
+        cond.append(Fixture.site_id == site_id)
+    if area_id is not None:
+        cond.append(Fixture.area_id == area_id)
+    if fixture_id is not None:
+        cond.append(Fixture.id == fixture_id)
+    if lamp_type_id is not None:
+        cond.append(Fixture.lamp_type_id == lamp_type_id)
+    if position_ids is not None:
+        cond.append(LampPosition.id.in_(position_ids))
+    return cond
+
+
+def _target_keys(fixture_ids: IntArray, area_ids: IntArray, own: BoolArray) -> IntArray:
+    # Fixture targets are odd keys, area targets even keys.
+    return np.where(own, 2 * fixture_ids + 1, 2 * area_ids).astype(np.int64)
+
+
+def empty_ages(at: datetime) -> PositionAges:
+    """Ages of no positions."""
+    i = np.zeros(0, dtype=np.int64)
+    f = np.zeros(0, dtype=np.float64)
+    return PositionAges(
+        i, i, i, i, i, f, f, f, f, np.zeros(0, dtype="<U17"), np.zeros(0, bool), f, f, at
+    )
+
+
+def position_ages(
+    session: Session,
+    *,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    fixture_id: int | None = None,
+    at: datetime | None = None,
+    lamp_type_id: int | None = None,
+    position_ids: list[int] | None = None,
+) -> PositionAges:
+    """Ages, starts and operating voltages of every position in a scope, at a moment."""
+    at = utcnow() if at is None else at
+    t_at = at.timestamp()
+    cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
+    rows = session.execute(
+        select(
+            LampPosition.id,
+            LampPosition.fixture_id,
+            Fixture.area_id,
+            Fixture.site_id,
+            Fixture.lamp_type_id,
+            LampPosition.lamp_installed_at,
+            LampPosition.hours_at_install,
+            LampPosition.starts_at_install,
+            LampPosition.burned_out_at,
+            Fixture.measured_voltage_v,
+        )
+        .join(Fixture, Fixture.id == LampPosition.fixture_id)
+        .where(*cond)
+        .order_by(LampPosition.id)
+    ).all()
+    if not rows:
+        return empty_ages(at)
+    cols = list(zip(*rows, strict=True))
+    pos_id = np.array(cols[0], dtype=np.int64)
+    fix_id = np.array(cols[1], dtype=np.int64)
+    area_of = np.array(cols[2], dtype=np.int64)
+    site_of = np.array(cols[3], dtype=np.int64)
+    type_of = np.array(cols[4], dtype=np.int64)
+    t0 = _ts(list(cols[5]))
+    h0 = _f(list(cols[6]))
+    s0 = _f(list(cols[7]))
+    dark_at = _ts(list(cols[8]))
+    fix_v = _f(list(cols[9]))
+
+    # Areas (schedule) and their sites (nominal volts): a few rows.
+    fixture_scope = select(Fixture.id).join(LampPosition, LampPosition.fixture_id == Fixture.id)
+    fixture_scope = fixture_scope.where(*cond) if cond else fixture_scope
+    area_scope = select(Fixture.area_id).where(Fixture.id.in_(fixture_scope))
+    area_rows = session.execute(
+        select(
+            Area.id,
+            Area.weekly_burn_hours,
+            Area.hours_per_day,
+            Area.days_per_week,
+            Area.starts_per_day,
+            Site.nominal_voltage_v,
+        )
+        .join(Site, Site.id == Area.site_id)
+        .where(Area.id.in_(area_scope))
+    ).all()
+    a_ids = np.array([r[0] for r in area_rows], dtype=np.int64)
+    a_week = np.array(
+        [
+            r[1]
+            if r[1] is not None
+            else (r[2] * r[3] if r[2] is not None and r[3] is not None else 0.0)
+            for r in area_rows
+        ],
+        dtype=np.float64,
+    )
+    a_starts_week = np.array(
+        [(r[4] or 0.0) * (r[3] if r[3] is not None else 7.0) for r in area_rows], dtype=np.float64
+    )
+    a_nominal = np.array([r[5] for r in area_rows], dtype=np.float64)
+    order = np.argsort(a_ids)
+    a_ids, a_week, a_starts_week, a_nominal = (
+        a_ids[order],
+        a_week[order],
+        a_starts_week[order],
+        a_nominal[order],
+    )
+    ai = np.searchsorted(a_ids, area_of)
+    week_h = a_week[ai]
+    rate_h = week_h / _HOURS_PER_WEEK  # burn hours per calendar hour
+    rate_starts = a_starts_week[ai] / _HOURS_PER_WEEK
+    nominal_v = a_nominal[ai]
+
+    base = float(np.nanmin(np.concatenate((t0, [t_at])))) - 86_400.0
+    t_min = float(np.nanmin(t0))
+
+    # Burn-hour records: which fixtures carry their own, then the records themselves.
+    own_fixtures = np.array(
+        session.scalars(
+            select(BurnHourRecord.fixture_id)
+            .where(BurnHourRecord.fixture_id.in_(fixture_scope))
+            .distinct()
+        ).all(),
+        dtype=np.int64,
+    )
+    own = np.isin(fix_id, own_fixtures)
+    bkey = _target_keys(fix_id, area_of, own)
+    since = datetime.fromtimestamp(t_min - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo)
+    since = min(since, datetime.fromtimestamp(t_at - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo))
+    rec = session.execute(
+        select(
+            BurnHourRecord.fixture_id,
+            BurnHourRecord.area_id,
+            BurnHourRecord.period_start,
+            BurnHourRecord.period_end,
+            BurnHourRecord.hours,
+            BurnHourRecord.starts,
+        ).where(
+            or_(
+                BurnHourRecord.fixture_id.in_(fixture_scope),
+                BurnHourRecord.area_id.in_(area_scope),
+            ),
+            BurnHourRecord.period_end > since,
+            BurnHourRecord.period_start < at,
+        )
+    ).all()
+    timeline = _timeline(rec, base)
+    clock = Clock.for_keys(timeline, bkey, rate_h, rate_starts)
+
+    t_end = np.where(np.isnan(dark_at), t_at, np.minimum(dark_at, t_at))
+    t_start = np.minimum(t0, t_end)
+    h_end, s_end = clock.at(t_end)
+    h_start, s_start = clock.at(t_start)
+    life_h = np.maximum(h_end - h_start, 0.0)
+    life_starts = np.maximum(s_end - s_start, 0.0)
+    age_h = h0 + life_h
+    starts = s0 + life_starts
+
+    # Hours per start: recorded starts over the lamp's life, else the schedule.
+    rec_h_end, rec_s_end = timeline.metered(bkey, t_end)
+    rec_h_start, rec_s_start = timeline.metered(bkey, t_start)
+    rec_starts = rec_s_end - rec_s_start
+    rec_hours = rec_h_end - rec_h_start
+    sched_hps = np.where(
+        rate_starts > 0, rate_h / np.where(rate_starts > 0, rate_starts, 1.0), np.nan
+    )
+    sched_hps = np.where(sched_hps > 0, sched_hps, np.nan)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        meas_hps = np.where(rec_starts > 0, rec_hours / rec_starts, np.nan)
+    hps = np.where(np.isfinite(meas_hps) & (meas_hps > 0), meas_hps, sched_hps)
+
+    # Burn rate per week: schedule, else measured over the last RATE_WINDOW_DAYS.
+    week_rate = np.where(week_h > 0, week_h, _measured_rate(timeline, bkey, t_at))
+
+    volts, source = _voltages(
+        session, fixture_scope, area_scope, fix_id, area_of, at, t_start, t_end, clock
+    )
+    volts = np.where(np.isnan(volts) & ~np.isnan(fix_v), fix_v, volts)
+    source = np.where((source == "") & ~np.isnan(fix_v), "fixture_measured", source)
+    volts = np.where(np.isnan(volts), nominal_v, volts)
+    source = np.where(source == "", "site_nominal", source).astype("<U17")
+
+    return PositionAges(
+        position_id=pos_id,
+        fixture_id=fix_id,
+        area_id=area_of,
+        site_id=site_of,
+        lamp_type_id=type_of,
+        age_h=age_h,
+        starts=starts,
+        hours_per_start=hps,
+        voltage_v=volts,
+        voltage_source=source,
+        burned_out=~np.isnan(dark_at) & (dark_at <= t_at),
+        installed_at_s=t0,
+        burn_h_per_week=week_rate,
+        at=at,
+    )
+
+
+def _timeline(rec: Any, base: float) -> Timeline:
+    if rec:
+        rc = list(zip(*rec, strict=True))
+        fid = np.array([-1 if v is None else v for v in rc[0]], dtype=np.int64)
+        aid = np.array([-1 if v is None else v for v in rc[1]], dtype=np.int64)
+        key = _target_keys(fid, aid, fid >= 0)
+        return Timeline.build(
+            key, _ts(list(rc[2])), _ts(list(rc[3])), _f(list(rc[4])), _f(list(rc[5])), base
+        )
+    z = np.zeros(0)
+    return Timeline.build(np.zeros(0, dtype=np.int64), z, z, z, z, base)
+
+
+def _measured_rate(timeline: Timeline, key: IntArray, t_at: float) -> FloatArray:
+    """Recorded burn hours per week over the recent window (0 without records)."""
+    window = RATE_WINDOW_DAYS * 86_400.0
+    h_now, _ = timeline.metered(key, np.full(key.shape, t_at))
+    h_then, _ = timeline.metered(key, np.full(key.shape, t_at - window))
+    first, last = timeline.first_last(key)
+    covered = np.minimum(np.nan_to_num(last, nan=t_at), t_at) - np.maximum(
+        np.nan_to_num(first, nan=t_at), t_at - window
+    )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rate = np.where(covered > 0, (h_now - h_then) / covered * 3600.0 * _HOURS_PER_WEEK, 0.0)
+    return np.asarray(rate, dtype=np.float64)
+
+
+def _voltages(
+    session: Session,
+    fixture_scope: Any,
+    area_scope: Any,
+    fix_id: IntArray,
+    area_of: IntArray,
+    at: datetime,
+    t_start: FloatArray,
+    t_end: FloatArray,
+    clock: Clock,
+) -> tuple[FloatArray, NDArray[np.str_]]:
+    """Weighted-mean or latest reading per position (NaN and "" where there is none)."""
+    n = fix_id.size
+    volts = np.full(n, np.nan)
+    source = np.full(n, "", dtype="<U17")
+    rows = session.execute(
+        select(
+            VoltageReading.fixture_id,
+            VoltageReading.area_id,
+            VoltageReading.measured_at,
+            VoltageReading.volts,
+        ).where(
+            or_(
+                VoltageReading.fixture_id.in_(fixture_scope),
+                VoltageReading.area_id.in_(area_scope),
+            ),
+            VoltageReading.measured_at <= at,
+        )
+    ).all()
+    if not rows:
+        return volts, source
+    rc = list(zip(*rows, strict=True))
+    rf = np.array([-1 if v is None else v for v in rc[0]], dtype=np.int64)
+    ra = np.array([-1 if v is None else v for v in rc[1]], dtype=np.int64)
+    rkey = _target_keys(rf, ra, rf >= 0)
+    rt = _ts(list(rc[2]))
+    rv = np.array(rc[3], dtype=np.float64)
+    order = np.lexsort((rt, rkey))
+    rkey, rt, rv = rkey[order], rt[order], rv[order]
+    keys, lo, counts = np.unique(rkey, return_index=True, return_counts=True)
+    own = np.isin(fix_id, rf[rf >= 0])
+    vkey = _target_keys(fix_id, area_of, own)
+    r = np.minimum(np.searchsorted(keys, vkey), keys.size - 1)
+    has = keys[r] == vkey
+    # Latest reading per position (fallback).
+    last_idx = lo[r] + counts[r] - 1
+    latest = np.where(has, rv[last_idx], np.nan)
+
+    # One (position, reading) pair per reading of the position's voltage target.
+    pos = np.nonzero(has)[0]
+    if pos.size:
+        cnt = counts[r[pos]]
+        pair_pos = np.repeat(pos, cnt)
+        first = np.repeat(lo[r[pos]], cnt)
+        offs = np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+        j = first + offs
+        last_of_key = np.repeat(lo[r[pos]] + cnt - 1, cnt)
+        a = np.maximum(rt[j], t_start[pair_pos])
+        nxt = np.where(j < last_of_key, rt[np.minimum(j + 1, rt.size - 1)], np.inf)
+        b = np.minimum(nxt, t_end[pair_pos])
+        live = b > a
+        w = np.zeros(j.size)
+        if live.any():
+            rows_live = pair_pos[live]
+            hb, _ = clock.at(b[live], rows_live)
+            ha, _ = clock.at(a[live], rows_live)
+            w[live] = np.maximum(hb - ha, 0.0)
+        wsum = np.bincount(pair_pos, weights=w, minlength=n)
+        vsum = np.bincount(pair_pos, weights=w * rv[j], minlength=n)
+        weighted = wsum > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            volts = np.where(weighted, vsum / wsum, np.nan)
+        source = np.where(weighted, "readings_weighted", "").astype("<U17")
+    fallback = has & np.isnan(volts)
+    volts = np.where(fallback, latest, volts)
+    source = np.where(fallback, "latest_reading", source).astype("<U17")
+    return volts, source
