@@ -1,0 +1,1 @@
+"""The invented demo scenario: loading seed_data/ and the demo API key."""
