@@ -15,7 +15,10 @@ from service.api.home import router as home_router
 from service.catalogue.router import router as catalogue_router
 from service.config import get_settings
 from service.keys.router import router as keys_router
+from service.planning.router import router as planning_router
 from service.register.router import router as register_router
+from service.scheduling.router import router as runs_router
+from service.workorders.router import router as workorders_router
 
 API_PREFIX = "/api/v1"
 
@@ -24,13 +27,23 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     register_router,
     catalogue_router,
     keys_router,
+    planning_router,
+    workorders_router,
+    runs_router,
 ]
 
 
 @asynccontextmanager
 async def lifespan(app: FastAPI) -> AsyncIterator[None]:
     """Start background work (the weekly scheduler) with the app, stop it after."""
-    yield
+    from service.scheduling.scheduler import start_scheduler
+
+    scheduler = start_scheduler() if app.state.start_scheduler else None
+    try:
+        yield
+    finally:
+        if scheduler is not None:
+            scheduler.shutdown()
 
 
 def create_app(*, start_scheduler: bool | None = None) -> FastAPI:

@@ -1,0 +1,195 @@
+"""Per-position costs and the group interval for one lamp type in one area (numeric core calls).
+
+Costs per position, in the site's currency:
+- c_group = lamp price + group minutes/60 x labour rate + the area's equipment hire for
+  one visit shared over all the area's positions + disposal fee if the lamp holds mercury;
+- c_spot = lamp price + spot minutes/60 x labour rate + equipment hire for one visit per
+  spot replacement + disposal fee. ASSUMPTION: each burnout is its own visit (no sharing
+  of hire between spot lamps); spot_lamps_per_visit overrides it (the hire is then shared).
+Energy does not change the group interval under the cost objective (with prompt spot
+replacement every socket burns all the time either way); it is reported as an input.
+
+Life: the lamp model's Weibull (shape, scale at rated volts and cycle) scaled by the voltage
+life factor (conditions.voltage_effect) and the switching factor
+(conditions.switching_life_factor): accelerated-failure-time scaling, shape unchanged.
+Light floor hours: first burn hours at which the lamp lumen depreciation curve falls to the
+floor (fraction of the lamp's own initial light). Rupture cap (lamps with rupture risk):
+fraction x min(rated life, rated life x life factor): at or before rated life even when a
+low supply voltage stretches life, 0.7 by default [practice: common practice].
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from service.catalogue.model import LampModel
+from service.reliability.conditions import switching_life_factor, voltage_effect
+from service.reliability.replacement import BlockPlan, plan_block_replacement
+from service.reliability.weibull import Weibull
+
+DEFAULT_RUPTURE_FRACTION = 0.7  # [practice] common practice: group relamp metal halide near 70 %
+_LN2 = math.log(2.0)
+
+
+@dataclass(frozen=True)
+class CostInputs:
+    """What one position costs to relamp, and the parts the sum came from (currency)."""
+
+    lamp_price: float
+    labour_rate_per_h: float
+    group_minutes_per_lamp: float
+    spot_minutes_per_lamp: float
+    equipment_hire_per_visit: float
+    area_positions: int
+    spot_lamps_per_visit: float
+    disposal_fee_per_lamp: float  # charged only for mercury lamps
+    energy_price_per_kwh: float
+    lamp_watts: float  # watts at the operating voltage
+
+    @property
+    def group_labour(self) -> float:
+        """Labour per position in a group relamp."""
+        return self.group_minutes_per_lamp / 60.0 * self.labour_rate_per_h
+
+    @property
+    def spot_labour(self) -> float:
+        """Labour per spot replacement."""
+        return self.spot_minutes_per_lamp / 60.0 * self.labour_rate_per_h
+
+    @property
+    def group_equipment_share(self) -> float:
+        """Equipment hire per position of one group visit."""
+        return self.equipment_hire_per_visit / max(self.area_positions, 1)
+
+    @property
+    def spot_equipment(self) -> float:
+        """Equipment hire per spot replacement."""
+        return self.equipment_hire_per_visit / max(self.spot_lamps_per_visit, 1e-9)
+
+    @property
+    def c_group(self) -> float:
+        """Cost per position of a group relamp."""
+        return (
+            self.lamp_price + self.group_labour + self.group_equipment_share
+        ) + self.disposal_fee_per_lamp
+
+    @property
+    def c_spot(self) -> float:
+        """Cost of one spot replacement."""
+        return self.lamp_price + self.spot_labour + self.spot_equipment + self.disposal_fee_per_lamp
+
+    @property
+    def energy_per_burn_hour(self) -> float:
+        """Energy cost per position per burn hour."""
+        return self.energy_price_per_kwh * self.lamp_watts / 1000.0
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """The operating point a group plan uses."""
+
+    voltage_v: float  # volts
+    hours_per_start: float | None  # burn hours per start; None = the rated cycle
+    light_floor: float | None  # fraction of initial light
+    burnout_ceiling: float | None  # share of positions
+    rupture_fraction: float  # fraction of rated life (used only with rupture risk)
+
+
+@dataclass(frozen=True)
+class GroupPlan:
+    """A lamp type's group interval in an area, with what it was computed from."""
+
+    plan: BlockPlan
+    life: Weibull
+    life_factor: float
+    voltage_life_factor: float
+    switching_factor: float
+    light_floor_h: float | None
+    rupture_cap_h: float | None
+    warnings: tuple[str, ...] = field(default_factory=tuple)
+
+
+def light_floor_hours(model: LampModel, life: Weibull, floor: float, horizon_h: float) -> float:
+    """Burn hours at which lumen depreciation first reaches the floor (inf if never)."""
+    t = np.linspace(0.0, horizon_h, 4001)
+    life_h = life.scale * _LN2 ** (1.0 / life.shape)  # effective B50, for rated-life curves
+    lld = model.lumen_curve.at(t, life_h if model.lumen_curve.basis != "hours" else None)
+    below = np.nonzero(lld <= floor)[0]
+    if below.size == 0:
+        return math.inf
+    k = int(below[0])
+    if k == 0:
+        return float(t[1])
+    # Linear interpolation between the grid points either side of the crossing.
+    f0, f1 = float(lld[k - 1]), float(lld[k])
+    x = (f0 - floor) / (f0 - f1) if f0 != f1 else 1.0
+    return float(t[k - 1] + x * (t[k] - t[k - 1]))
+
+
+def scaled_life(model: LampModel, cond: Conditions) -> tuple[Weibull, float, float, list[str]]:
+    """Weibull life at the operating voltage and switching cycle (voltage, switching factors)."""
+    ve = voltage_effect(
+        cond.voltage_v,
+        model.rated_volts,
+        model.technology,
+        model.ballast_behaviour,
+        life_exponent=model.life_exponent,
+        light_exponent=model.light_exponent,
+        power_exponent=model.power_exponent,
+        driver_range=model.driver_range,
+    )
+    hps = math.nan if cond.hours_per_start is None else cond.hours_per_start
+    sw, warn = switching_life_factor(
+        hps,
+        model.rated_hours_per_start,
+        model.second_hours_per_start,
+        model.second_life_ratio,
+        default_slope=model.switching_slope,
+    )
+    warnings = list(ve.warnings)
+    if bool(np.asarray(warn).ravel()[0]):
+        warnings.append("switching cycle outside the modelled range; life factor bounded")
+    swf = float(np.asarray(sw).ravel()[0])
+    return Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve.life_factor, swf, warnings
+
+
+def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
+    """Cheapest group interval for one lamp type under the area's caps (numeric core)."""
+    life, vf, swf, warnings = scaled_life(model, cond)
+    horizon = 3.0 * life.mean()
+    floor_h = None
+    if cond.light_floor is not None:
+        h = light_floor_hours(model, life, cond.light_floor, horizon)
+        floor_h = h if math.isfinite(h) else None
+    cap_h = None
+    if model.rupture_risk:
+        cap_h = cond.rupture_fraction * min(model.rated_life_h, model.rated_life_h * vf * swf)
+    plan = plan_block_replacement(
+        life,
+        costs.c_group,
+        costs.c_spot,
+        light_floor_h=floor_h,
+        burnout_ceiling=cond.burnout_ceiling,
+        rupture_cap_h=cap_h,
+    )
+    return GroupPlan(plan, life, vf * swf, vf, swf, floor_h, cap_h, tuple(warnings))
+
+
+class PlanCache:
+    """Plans keyed by their exact inputs, so areas alike are computed once per run."""
+
+    def __init__(self) -> None:
+        self._plans: dict[tuple[Any, ...], GroupPlan] = {}
+
+    def get(self, model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
+        """The plan for these inputs, computed on first use."""
+        key = (model.lamp_type_id, model.code, costs.c_group, costs.c_spot, cond)
+        got = self._plans.get(key)
+        if got is None:
+            got = plan_group(model, costs, cond)
+            self._plans[key] = got
+        return got

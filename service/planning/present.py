@@ -1,0 +1,88 @@
+"""Turn computed plans into response bodies (derived figures: weeks, yearly savings)."""
+
+from __future__ import annotations
+
+from service.planning.schemas import AreaPlanRead, LampTypePlan, PlanInputs
+from service.planning.service import WEEKS_PER_YEAR, AreaPlan, TypeGroup
+
+
+def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
+    p, c, gp = g.group.plan, g.costs, g.group
+    per_year_h = weekly_h * WEEKS_PER_YEAR  # burn hours per year
+    return LampTypePlan(
+        lamp_type_id=g.lamp_type_id,
+        lamp_type_code=g.model.code,
+        positions=g.positions,
+        interval_h=p.interval_h,
+        interval_weeks=(p.interval_h / weekly_h if p.interval_h and weekly_h > 0 else None),
+        binding=p.binding,
+        unconstrained_optimum_h=p.unconstrained_optimum_h,
+        cost_rate=p.cost_rate,
+        spot_only_rate=p.spot_only_rate,
+        saving_rate=p.saving_rate,
+        yearly_saving=p.saving_rate * per_year_h * g.positions,
+        safety_premium_rate=p.safety_premium_rate,
+        expected_spot_per_position=p.expected_spot_per_position,
+        group_age_h=g.group_age_h,
+        due_on=g.due_on,
+        overdue=g.overdue,
+        notes=list(p.notes),
+        warnings=list(gp.warnings),
+        inputs=PlanInputs(
+            lamp_price=c.lamp_price,
+            labour_rate_per_h=c.labour_rate_per_h,
+            access_method=access,
+            group_minutes_per_lamp=c.group_minutes_per_lamp,
+            spot_minutes_per_lamp=c.spot_minutes_per_lamp,
+            group_labour_per_lamp=c.group_labour,
+            spot_labour_per_lamp=c.spot_labour,
+            equipment_hire_per_visit=c.equipment_hire_per_visit,
+            equipment_share_per_group_lamp=c.group_equipment_share,
+            equipment_per_spot_lamp=c.spot_equipment,
+            disposal_fee_per_lamp=c.disposal_fee_per_lamp,
+            c_group=c.c_group,
+            c_spot=c.c_spot,
+            energy_price_per_kwh=c.energy_price_per_kwh,
+            energy_cost_per_burn_hour=c.energy_per_burn_hour,
+            voltage_v=g.voltage_v,
+            voltage_basis=g.voltage_basis,
+            hours_per_start=g.hours_per_start,
+            voltage_life_factor=gp.voltage_life_factor,
+            switching_life_factor=gp.switching_factor,
+            weibull_shape=gp.life.shape,
+            weibull_scale_h=gp.life.scale,
+            mean_life_h=gp.life.mean(),
+            light_floor=g.cond.light_floor,
+            light_floor_h=gp.light_floor_h,
+            burnout_ceiling=g.cond.burnout_ceiling,
+            rupture_cap_fraction=g.cond.rupture_fraction if g.model.rupture_risk else None,
+            rupture_cap_h=gp.rupture_cap_h,
+        ),
+    )
+
+
+def area_plan_read(plan: AreaPlan) -> AreaPlanRead:
+    """The response body for one area's plan."""
+    types = [_type_plan(g, plan.weekly_burn_hours, plan.area.access_method) for g in plan.groups]
+    first = plan.first
+    ages = [g.group_age_h for g in plan.groups]
+    return AreaPlanRead(
+        area_id=plan.area.id,
+        area_name=plan.area.name,
+        site_id=plan.site.id,
+        time_zone=plan.site.time_zone,
+        currency=plan.site.currency,
+        as_of=plan.as_of,
+        positions=plan.positions,
+        weekly_burn_hours=plan.weekly_burn_hours,
+        group_age_h=(first.group_age_h if first else (max(ages) if ages else None)),
+        group_age_basis=plan.group_age_basis,
+        last_group_relamp_at=plan.last_group_relamp_at,
+        due_on=plan.due_on,
+        overdue=bool(first and first.overdue),
+        interval_h=first.group.plan.interval_h if first else None,
+        binding=first.group.plan.binding if first else "spot_only",
+        yearly_saving=sum(t.yearly_saving for t in types),
+        age_source=plan.age_source,
+        lamp_types=types,
+    )

@@ -1,0 +1,125 @@
+"""Relamp plan requests (what-if overrides) and responses."""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+
+from pydantic import BaseModel, ConfigDict, Field
+
+Money = float
+
+
+class PlanOverrides(BaseModel):
+    """What-if values for a plan; each replaces the stored or derived one, nothing is saved."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    at: datetime | None = Field(default=None, description="Plan as of this moment (default now).")
+    lamp_price: float | None = Field(default=None, ge=0, description="Per lamp, site currency.")
+    labour_rate_per_h: float | None = Field(default=None, ge=0)
+    group_minutes_per_lamp: float | None = Field(default=None, ge=0, le=600)
+    spot_minutes_per_lamp: float | None = Field(default=None, ge=0, le=600)
+    equipment_hire_per_visit: float | None = Field(default=None, ge=0)
+    spot_lamps_per_visit: float | None = Field(
+        default=None, ge=1, le=1000, description="Spot lamps sharing one equipment hire (1)."
+    )
+    disposal_fee_per_lamp: float | None = Field(default=None, ge=0)
+    energy_price_per_kwh: float | None = Field(default=None, ge=0)
+    voltage_v: float | None = Field(default=None, gt=0, le=1000, description="Volts.")
+    hours_per_start: float | None = Field(default=None, gt=0, le=10_000)
+    light_floor: float | None = Field(default=None, gt=0, lt=1)
+    burnout_ceiling: float | None = Field(default=None, gt=0, lt=1)
+    rupture_cap_fraction: float | None = Field(default=None, gt=0, le=1)
+    weekly_burn_hours: float | None = Field(default=None, gt=0, le=168)
+    group_age_h: float | None = Field(default=None, ge=0, le=1_000_000)
+
+
+class PlanInputs(BaseModel):
+    """The figures a lamp type's plan used (money in the site currency, hours, volts)."""
+
+    lamp_price: float
+    labour_rate_per_h: float
+    access_method: str
+    group_minutes_per_lamp: float
+    spot_minutes_per_lamp: float
+    group_labour_per_lamp: float
+    spot_labour_per_lamp: float
+    equipment_hire_per_visit: float
+    equipment_share_per_group_lamp: float
+    equipment_per_spot_lamp: float
+    disposal_fee_per_lamp: float
+    c_group: float = Field(description="Cost per position of a group relamp.")
+    c_spot: float = Field(description="Cost of one spot replacement.")
+    energy_price_per_kwh: float
+    energy_cost_per_burn_hour: float
+    voltage_v: float
+    voltage_basis: str
+    hours_per_start: float | None
+    voltage_life_factor: float
+    switching_life_factor: float
+    weibull_shape: float
+    weibull_scale_h: float
+    mean_life_h: float
+    light_floor: float | None
+    light_floor_h: float | None
+    burnout_ceiling: float | None
+    rupture_cap_fraction: float | None
+    rupture_cap_h: float | None
+
+
+class LampTypePlan(BaseModel):
+    """The group plan for one lamp type in an area."""
+
+    lamp_type_id: int
+    lamp_type_code: str
+    positions: int
+    interval_h: float | None = Field(description="Group interval, burn hours; null: spot only.")
+    interval_weeks: float | None
+    binding: str = Field(
+        description="cost_optimum, light_floor, burnout_ceiling, rupture_cap or spot_only."
+    )
+    unconstrained_optimum_h: float | None
+    cost_rate: float = Field(description="Per position per burn hour under the plan.")
+    spot_only_rate: float
+    saving_rate: float
+    yearly_saving: float = Field(description="All positions of this type, per year of burning.")
+    safety_premium_rate: float
+    expected_spot_per_position: float
+    group_age_h: float
+    due_on: date | None
+    overdue: bool
+    notes: list[str]
+    warnings: list[str]
+    inputs: PlanInputs
+
+
+class AreaPlanRead(BaseModel):
+    """An area's relamp plan: when, why, and at what cost."""
+
+    area_id: int
+    area_name: str
+    site_id: int
+    time_zone: str
+    currency: str
+    as_of: datetime
+    positions: int
+    weekly_burn_hours: float
+    group_age_h: float | None
+    group_age_basis: str
+    last_group_relamp_at: datetime | None
+    due_on: date | None
+    overdue: bool
+    interval_h: float | None
+    binding: str
+    yearly_saving: float
+    age_source: str
+    lamp_types: list[LampTypePlan]
+
+
+class SitePlanRead(BaseModel):
+    """Every area of a site, soonest due first (spot-only and undated areas last)."""
+
+    site_id: int
+    time_zone: str
+    as_of: datetime
+    areas: list[AreaPlanRead]

@@ -1,0 +1,277 @@
+"""Relamp plans per area and per site, computed in bulk from numpy arrays of positions.
+
+Each (area, lamp type) group gets its own group interval (engine.plan_group); an area is
+due when its first lamp-type group is. Group age: burn hours since the area's last
+completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
+schedule), else the mean age of the group's positions. The calendar date divides the
+remaining hours by the area's weekly burn hours, counted from today in the site's zone.
+Nothing here writes to the database.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import date, datetime, timedelta
+from zoneinfo import ZoneInfo
+
+import numpy as np
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from service.catalogue.model import LampModel, resolve_lamp_model
+from service.catalogue.models import LampType
+from service.db.base import utcnow
+from service.db.crud import get_or_404
+from service.planning.engine import (
+    DEFAULT_RUPTURE_FRACTION,
+    Conditions,
+    CostInputs,
+    GroupPlan,
+    PlanCache,
+)
+from service.planning.positions import PositionArrays, load_positions
+from service.planning.schemas import PlanOverrides
+from service.register.models import Area, Site
+from service.workorders.models import WorkOrder
+
+WEEKS_PER_YEAR = 365.25 / 7.0
+VOLTAGE_STEP_V = 0.1  # representative voltages are rounded to this (meters read no finer)
+
+
+@dataclass(frozen=True)
+class TypeGroup:
+    """One lamp type's positions in an area and their plan."""
+
+    lamp_type_id: int
+    model: LampModel
+    positions: int
+    voltage_v: float
+    voltage_basis: str
+    hours_per_start: float | None
+    costs: CostInputs
+    cond: Conditions
+    group: GroupPlan
+    group_age_h: float
+    due_on: date | None
+    overdue: bool
+
+
+@dataclass(frozen=True)
+class AreaPlan:
+    """An area's plan (see AreaPlanRead for the fields a client sees)."""
+
+    area: Area
+    site: Site
+    as_of: datetime
+    positions: int
+    weekly_burn_hours: float
+    group_age_basis: str
+    last_group_relamp_at: datetime | None
+    age_source: str
+    groups: list[TypeGroup]
+
+    @property
+    def first(self) -> TypeGroup | None:
+        """The lamp-type group due soonest (None when all are spot only)."""
+        dated = [g for g in self.groups if g.due_on is not None]
+        return min(dated, key=lambda g: g.due_on or date.max) if dated else None
+
+    @property
+    def due_on(self) -> date | None:
+        """The area's due date: its first group's."""
+        g = self.first
+        return g.due_on if g else None
+
+
+def local_today(site: Site, at: datetime) -> date:
+    """The calendar date at a moment in the site's time zone."""
+    return at.astimezone(ZoneInfo(site.time_zone)).date()
+
+
+def due_date(
+    today: date, interval_h: float | None, group_age_h: float, weekly_h: float
+) -> tuple[date | None, bool]:
+    """(due date, overdue) from the remaining burn hours and the weekly burn rate."""
+    if interval_h is None:
+        return None, False
+    remaining = interval_h - group_age_h
+    if remaining <= 0:
+        return today, True
+    if weekly_h <= 0:
+        return None, False
+    return today + timedelta(days=math.floor(remaining / weekly_h * 7.0)), False
+
+
+def last_group_relamps(session: Session, area_ids: Sequence[int]) -> dict[int, datetime]:
+    """When each area's last group relamp was completed."""
+    if not area_ids:
+        return {}
+    stmt = (
+        select(WorkOrder.area_id, func.max(WorkOrder.completed_at))
+        .where(WorkOrder.kind == "group_relamp", WorkOrder.state == "done")
+        .where(WorkOrder.area_id.in_(list(area_ids)))
+        .group_by(WorkOrder.area_id)
+    )
+    return {a: t for a, t in session.execute(stmt).all() if t is not None}
+
+
+def _models(session: Session, ids: np.ndarray) -> dict[int, LampModel]:
+    rows = session.scalars(select(LampType).where(LampType.id.in_([int(i) for i in ids]))).all()
+    return {r.id: resolve_lamp_model(r) for r in rows}
+
+
+def plan_areas(
+    session: Session,
+    site: Site,
+    areas: Sequence[Area],
+    pos: PositionArrays,
+    at: datetime,
+    over: PlanOverrides | None = None,
+    cache: PlanCache | None = None,
+) -> list[AreaPlan]:
+    """Plans for the given areas of one site from their positions' arrays."""
+    over = over or PlanOverrides()
+    cache = cache or PlanCache()
+    today = local_today(site, at)
+    last = last_group_relamps(session, [a.id for a in areas])
+    models = _models(session, np.unique(pos.lamp_type_id)) if pos.size else {}
+    plans: dict[int, AreaPlan] = {}
+    # Group positions by (area, lamp type) with numpy: sums by group, no per-row loop.
+    keys = np.stack([pos.area_id, pos.lamp_type_id], axis=1) if pos.size else np.empty((0, 2))
+    uniq, inv = (
+        np.unique(keys, axis=0, return_inverse=True) if pos.size else (keys, np.empty(0, int))
+    )
+    inv = np.asarray(inv).ravel()
+    ng = len(uniq)
+    count = np.bincount(inv, minlength=ng).astype(np.float64)
+    hours = np.bincount(inv, weights=pos.age_h, minlength=ng)
+    starts = np.bincount(inv, weights=pos.starts, minlength=ng)
+    volt_h = np.bincount(inv, weights=pos.age_h * pos.voltage_v, minlength=ng)
+    volt_sum = np.bincount(inv, weights=pos.voltage_v, minlength=ng)
+    area_count = np.bincount(inv, minlength=ng)
+    rate_sum = np.bincount(inv, weights=np.nan_to_num(pos.burn_h_per_week), minlength=ng)
+    by_area: dict[int, list[int]] = {}
+    for g in range(ng):
+        by_area.setdefault(int(uniq[g, 0]), []).append(g)
+    for area in areas:
+        gidx = by_area.get(area.id, [])
+        n_area = int(sum(int(area_count[g]) for g in gidx))
+        weekly = area.burn_hours_per_week
+        if weekly <= 0 and n_area > 0:  # no schedule: the measured rate, if any
+            weekly = float(sum(rate_sum[g] for g in gidx) / n_area)
+        if over.weekly_burn_hours is not None:
+            weekly = over.weekly_burn_hours
+        last_at = last.get(area.id)
+        if over.group_age_h is not None:
+            basis = "override"
+        elif last_at is not None and weekly > 0:
+            basis = "last_group_relamp"
+        else:
+            basis = "mean_position_age"
+        groups: list[TypeGroup] = []
+        for g in gidx:
+            lt_id = int(uniq[g, 1])
+            model = models[lt_id]
+            if over.voltage_v is not None:
+                volts, vbasis = over.voltage_v, "override"
+            elif hours[g] > 0:
+                volts, vbasis = volt_h[g] / hours[g], "burn_hour_weighted_mean"
+            else:
+                volts, vbasis = volt_sum[g] / count[g], "mean_of_positions"
+            volts = round(round(volts / VOLTAGE_STEP_V) * VOLTAGE_STEP_V, 6)
+            if over.hours_per_start is not None:
+                hps: float | None = over.hours_per_start
+            elif area.hours_per_start is not None:
+                hps = area.hours_per_start
+            elif starts[g] > 0 and hours[g] > 0:
+                hps = round(hours[g] / starts[g], 3)
+            else:
+                hps = None
+            mercury = model.contains_mercury
+            fee = (
+                over.disposal_fee_per_lamp
+                if over.disposal_fee_per_lamp is not None
+                else site.disposal_fee_per_mercury_lamp
+            )
+            costs = CostInputs(
+                lamp_price=over.lamp_price if over.lamp_price is not None else model.unit_price,
+                labour_rate_per_h=_pick(over.labour_rate_per_h, site.labour_rate_per_h),
+                group_minutes_per_lamp=_pick(
+                    over.group_minutes_per_lamp, area.group_minutes_per_lamp
+                ),
+                spot_minutes_per_lamp=_pick(over.spot_minutes_per_lamp, area.spot_minutes_per_lamp),
+                equipment_hire_per_visit=_pick(
+                    over.equipment_hire_per_visit, area.equipment_hire_per_visit
+                ),
+                area_positions=max(n_area, 1),
+                spot_lamps_per_visit=_pick(over.spot_lamps_per_visit, 1.0),
+                disposal_fee_per_lamp=fee if mercury else 0.0,
+                energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
+                lamp_watts=model.rated_watts,
+            )
+            cond = Conditions(
+                voltage_v=volts,
+                hours_per_start=hps,
+                light_floor=over.light_floor if over.light_floor is not None else area.light_floor,
+                burnout_ceiling=(
+                    over.burnout_ceiling
+                    if over.burnout_ceiling is not None
+                    else area.burnout_ceiling
+                ),
+                rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
+            )
+            gp = cache.get(model, costs, cond)
+            if basis == "override":
+                age = float(over.group_age_h or 0.0)
+            elif basis == "last_group_relamp" and last_at is not None:
+                age = weekly * max((at - last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
+            else:
+                age = float(hours[g] / count[g])
+            due, overdue = due_date(today, gp.plan.interval_h, age, weekly)
+            groups.append(
+                TypeGroup(
+                    lt_id,
+                    model,
+                    int(count[g]),
+                    volts,
+                    vbasis,
+                    hps,
+                    costs,
+                    cond,
+                    gp,
+                    age,
+                    due,
+                    overdue,
+                )
+            )
+        plans[area.id] = AreaPlan(
+            area, site, at, n_area, weekly, basis, last_at, pos.source, groups
+        )
+    return [plans[a.id] for a in areas]
+
+
+def _pick(value: float | None, default: float) -> float:
+    return float(default) if value is None else float(value)
+
+
+def area_plan(session: Session, area_id: int, over: PlanOverrides | None = None) -> AreaPlan:
+    """One area's plan (404 if the area is missing); overrides are what-if only."""
+    area = get_or_404(session, Area, area_id, "area")
+    site = session.get(Site, area.site_id)
+    assert site is not None  # the foreign key guarantees it
+    at = (over.at if over and over.at else None) or utcnow()
+    pos = load_positions(session, area_id=area.id, at=at)
+    return plan_areas(session, site, [area], pos, at, over)[0]
+
+
+def site_plans(
+    session: Session, site: Site, at: datetime | None = None, cache: PlanCache | None = None
+) -> list[AreaPlan]:
+    """Every area of a site, soonest due first; spot-only and undated areas last."""
+    when = at or utcnow()
+    areas = session.scalars(select(Area).where(Area.site_id == site.id).order_by(Area.id)).all()
+    pos = load_positions(session, site_id=site.id, at=when)
+    plans = plan_areas(session, site, list(areas), pos, when, None, cache)
+    return sorted(plans, key=lambda p: (p.due_on or date.max, p.area.id))

@@ -1,0 +1,76 @@
+"""HTTP routes for weekly runs: list the records, start one for a site."""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from fastapi import APIRouter, Query, status
+from sqlalchemy import select
+from sqlalchemy.orm import sessionmaker
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.errors import Invalid
+from service.api.pagination import Page, PageDep, paginate
+from service.db.crud import get_or_404
+from service.register.service import get_site
+from service.scheduling.models import WeeklyRun
+from service.scheduling.runner import run_site_week
+from service.scheduling.schemas import RunRead, RunStart
+from service.scheduling.weeks import parse_week
+
+router = APIRouter(tags=["weekly runs"])
+
+RUN_SORT = {"id": WeeklyRun.id, "started_at": WeeklyRun.started_at, "iso_week": WeeklyRun.iso_week}
+
+
+@router.get("/runs", response_model=Page[RunRead])
+def list_runs(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    iso_week: Annotated[str | None, Query(pattern=r"^\d{4}-W\d{2}$")] = None,
+    outcome: Literal["running", "succeeded", "failed"] | None = None,
+) -> Page[RunRead]:
+    """Every weekly run (scheduled, caught up, started by hand), newest first by default."""
+    stmt = select(WeeklyRun)
+    if site_id is not None:
+        stmt = stmt.where(WeeklyRun.site_id == site_id)
+    if iso_week is not None:
+        stmt = stmt.where(WeeklyRun.iso_week == iso_week)
+    if outcome is not None:
+        stmt = stmt.where(WeeklyRun.outcome == outcome)
+    rows, total = paginate(session, stmt, page, RUN_SORT, WeeklyRun.id.desc())
+    return Page(
+        items=[RunRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.get("/runs/{run_id}", response_model=RunRead)
+def get_run(run_id: int, session: SessionDep, _: ReadKey) -> RunRead:
+    """One run record."""
+    return RunRead.model_validate(get_or_404(session, WeeklyRun, run_id, "run"))
+
+
+@router.post("/sites/{site_id}/runs", response_model=RunRead, status_code=status.HTTP_201_CREATED)
+def start_run(
+    site_id: int, session: SessionDep, _: WriteKey, body: RunStart | None = None
+) -> RunRead:
+    """Run a site's weekly issue now (write scope; safe to repeat: a week never gets twice)."""
+    get_site(session, site_id)
+    week = body.week if body else None
+    if week is not None:
+        try:
+            parse_week(week)
+        except ValueError as exc:
+            raise Invalid(
+                str(exc), errors=[{"field": "week", "in": "body", "message": str(exc)}]
+            ) from exc
+    # The run commits in its own transactions, on the same database as this request.
+    factory = sessionmaker(
+        bind=session.get_bind(), expire_on_commit=False, join_transaction_mode="create_savepoint"
+    )
+    return RunRead.model_validate(run_site_week(factory, site_id, week=week, trigger="api"))

@@ -1,0 +1,137 @@
+"""APScheduler 3 set-up: one weekly cron job per site in its own time zone, plus catch-up.
+
+A background job re-reads the sites every SYNC_SECONDS and re-schedules a site whose day,
+time or time zone changed (and adds new sites, drops deleted ones), so site edits through
+any replica take effect without a restart. At start, a site whose latest scheduled run
+(after the site was created) has no successful run record for its ISO week is run at once
+("catch_up"). Jobs run in the scheduler's threads with their own sessions.
+"""
+
+from __future__ import annotations
+
+import logging
+from datetime import UTC, datetime
+from typing import Any
+
+from apscheduler.schedulers.background import BackgroundScheduler
+from sqlalchemy import select
+from sqlalchemy.orm import Session, sessionmaker
+
+from service.db.base import utcnow
+from service.register.models import Site
+from service.scheduling.runner import run_site_week, week_succeeded
+from service.scheduling.weeks import iso_week_of, last_fire_time, weekly_trigger
+
+log = logging.getLogger(__name__)
+
+SYNC_SECONDS = 60
+MISFIRE_GRACE_S = 6 * 3600  # a run up to 6 h late still fires; later ones are caught up
+
+
+def job_id(site_id: int) -> str:
+    """The scheduler job id of a site's weekly run."""
+    return f"weekly-run-site-{site_id}"
+
+
+class WeeklyScheduler:
+    """The weekly runs of every site, kept in step with the sites table."""
+
+    def __init__(self, factory: sessionmaker[Session]) -> None:
+        self.factory = factory
+        self.scheduler = BackgroundScheduler(timezone=UTC)
+        self._specs: dict[int, tuple[int, str, str]] = {}
+
+    def _sites(self) -> list[Any]:
+        with self.factory() as s:
+            rows = s.execute(
+                select(
+                    Site.id,
+                    Site.time_zone,
+                    Site.weekly_run_weekday,
+                    Site.weekly_run_time,
+                    Site.created_at,
+                )
+            ).all()
+        return list(rows)
+
+    def run_job(self, site_id: int, trigger: str = "schedule") -> None:
+        """Job body: the site's run for the current site-local week."""
+        try:
+            run = run_site_week(self.factory, site_id, trigger=trigger)
+            log.info("weekly run %s site %s: %s", run.id, site_id, run.outcome)
+        except Exception:  # a deleted site or a database outage must not kill the thread
+            log.exception("weekly run for site %s could not start", site_id)
+
+    def sync(self) -> None:
+        """Add, re-schedule or remove site jobs to match the sites table."""
+        seen = set()
+        for sid, tz, weekday, hhmm, _ in self._sites():
+            seen.add(sid)
+            spec = (weekday, hhmm, tz)
+            if self._specs.get(sid) == spec:
+                continue
+            self.scheduler.add_job(
+                self.run_job,
+                trigger=weekly_trigger(weekday, hhmm, tz),
+                args=[sid],
+                id=job_id(sid),
+                replace_existing=True,
+                coalesce=True,
+                max_instances=1,
+                misfire_grace_time=MISFIRE_GRACE_S,
+            )
+            self._specs[sid] = spec
+        for sid in set(self._specs) - seen:
+            if self.scheduler.get_job(job_id(sid)) is not None:
+                self.scheduler.remove_job(job_id(sid))
+            del self._specs[sid]
+
+    def missed(self, now: datetime | None = None) -> list[tuple[int, str]]:
+        """(site, ISO week) of scheduled runs that never succeeded (since the site existed)."""
+        when = now or utcnow()
+        out = []
+        for sid, tz, weekday, hhmm, created in self._sites():
+            fire = last_fire_time(weekday, hhmm, tz, when)
+            if created is not None and created > fire:
+                continue
+            week = iso_week_of(fire.date())
+            with self.factory() as s:
+                if not week_succeeded(s, sid, week):
+                    out.append((sid, week))
+        return out
+
+    def catch_up(self, now: datetime | None = None) -> None:
+        """Run at once every site whose latest scheduled run is missing."""
+        for sid, week in self.missed(now):
+            log.info("catching up the weekly run of site %s for %s", sid, week)
+            self.scheduler.add_job(
+                run_site_week,
+                args=[self.factory, sid],
+                kwargs={"week": week, "trigger": "catch_up"},
+                id=f"catch-up-{sid}-{week}",
+                replace_existing=True,
+                next_run_time=utcnow(),
+                misfire_grace_time=None,
+            )
+
+    def start(self) -> None:
+        """Schedule every site, start the threads, catch up missed runs."""
+        self.sync()
+        self.scheduler.add_job(
+            self.sync, "interval", seconds=SYNC_SECONDS, id="sync-sites", replace_existing=True
+        )
+        self.scheduler.start()
+        self.catch_up()
+
+    def shutdown(self) -> None:
+        """Stop the threads (a run in progress finishes its transaction or rolls back)."""
+        self.scheduler.shutdown(wait=False)
+
+
+def start_scheduler() -> WeeklyScheduler:
+    """Build and start the app's scheduler on the settings' database."""
+    from service.db.session import session_factory
+
+    sched = WeeklyScheduler(session_factory())
+    sched.start()
+    return sched

@@ -1,0 +1,162 @@
+"""HTTP routes for work orders: list and poll, lifecycle, lines as JSON/CSV, print page."""
+
+from __future__ import annotations
+
+from datetime import datetime
+from typing import Annotated
+
+from fastapi import APIRouter, Query, Response, status
+from fastapi.responses import HTMLResponse
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.errors import Invalid
+from service.api.pagination import Page, PageDep, paginate
+from service.register.models import Area, Site
+from service.workorders import exports, service
+from service.workorders import repository as repo
+from service.workorders.models import WorkOrder
+from service.workorders.schemas import (
+    CancelBody,
+    CompleteBody,
+    Kind,
+    LineRead,
+    State,
+    WorkOrderCreate,
+    WorkOrderRead,
+    WorkOrderUpdate,
+)
+
+router = APIRouter(tags=["work orders"])
+_COLUMNS = set(WorkOrder.__table__.columns.keys())
+
+
+def read(order: WorkOrder, *, lines: bool = True) -> WorkOrderRead:
+    """Shape an order for a response."""
+    fields = {c: getattr(order, c) for c in WorkOrderRead.model_fields if c in _COLUMNS}
+    body = WorkOrderRead.model_validate(
+        {**fields, "allowed_next": list(service.TRANSITIONS[order.state])}
+    )
+    if lines:
+        body.lines = [LineRead.model_validate(ln) for ln in order.lines]
+    return body
+
+
+@router.get("/work-orders", response_model=Page[WorkOrderRead])
+def list_orders(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    state: State | None = None,
+    kind: Kind | None = None,
+    iso_week: Annotated[str | None, Query(pattern=r"^\d{4}-W\d{2}$")] = None,
+    changed_since: Annotated[
+        datetime | None,
+        Query(description="ISO 8601 with offset: orders created or changed at or after it."),
+    ] = None,
+    include_lines: bool = False,
+) -> Page[WorkOrderRead]:
+    """List orders (sort: id, due_on, updated_at, created_at, state); poll with changed_since."""
+    if changed_since is not None and changed_since.tzinfo is None:
+        raise Invalid(
+            "changed_since needs a UTC offset, e.g. 2026-12-01T06:00:00Z.",
+            errors=[{"field": "changed_since", "in": "query", "message": "no offset"}],
+        )
+    stmt = repo.order_query(
+        site_id=site_id,
+        area_id=area_id,
+        state=state,
+        kind=kind,
+        iso_week=iso_week,
+        changed_since=changed_since,
+    )
+    default = WorkOrder.updated_at if changed_since is not None else WorkOrder.id
+    rows, total = paginate(session, stmt, page, repo.ORDER_SORT, default)
+    return Page(
+        items=[read(r, lines=include_lines) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.post("/work-orders", response_model=WorkOrderRead, status_code=status.HTTP_201_CREATED)
+def create_order(body: WorkOrderCreate, session: SessionDep, _: WriteKey) -> WorkOrderRead:
+    """Create a draft order by hand for one area (group: all fixtures; spot: open burnouts)."""
+    return read(service.create(session, body))
+
+
+@router.get("/work-orders/{order_id}", response_model=WorkOrderRead)
+def get_order(order_id: int, session: SessionDep, _: ReadKey) -> WorkOrderRead:
+    """One order with its lines."""
+    return read(service.get_order(session, order_id))
+
+
+@router.patch("/work-orders/{order_id}", response_model=WorkOrderRead)
+def update_order(
+    order_id: int, body: WorkOrderUpdate, session: SessionDep, _: WriteKey
+) -> WorkOrderRead:
+    """Set the external reference (from a CMMS), notes or due date."""
+    return read(service.update(session, order_id, body))
+
+
+@router.post("/work-orders/{order_id}/issue", response_model=WorkOrderRead)
+def issue_order(order_id: int, session: SessionDep, _: WriteKey) -> WorkOrderRead:
+    """draft -> issued (409 from any other state)."""
+    return read(service.issue(session, order_id))
+
+
+@router.post("/work-orders/{order_id}/start", response_model=WorkOrderRead)
+def start_order(order_id: int, session: SessionDep, _: WriteKey) -> WorkOrderRead:
+    """issued -> in_progress (409 from any other state)."""
+    return read(service.start(session, order_id))
+
+
+@router.post("/work-orders/{order_id}/complete", response_model=WorkOrderRead)
+def complete_order(
+    order_id: int, body: CompleteBody, session: SessionDep, _: WriteKey
+) -> WorkOrderRead:
+    """in_progress -> done with per-fixture outcomes; replaced lamps are recorded as removals."""
+    return read(service.complete(session, order_id, body))
+
+
+@router.post("/work-orders/{order_id}/cancel", response_model=WorkOrderRead)
+def cancel_order(
+    order_id: int, session: SessionDep, _: WriteKey, body: CancelBody | None = None
+) -> WorkOrderRead:
+    """Cancel an open order; positions stay as they were, batched reports reopen."""
+    return read(service.cancel(session, order_id, body or CancelBody()))
+
+
+@router.get("/work-orders/{order_id}/lines", response_model=list[LineRead])
+def order_lines(order_id: int, session: SessionDep, _: ReadKey) -> list[LineRead]:
+    """An order's lines as JSON (one per fixture)."""
+    return [LineRead.model_validate(ln) for ln in service.lines_of(session, order_id)]
+
+
+@router.get("/work-orders/{order_id}/lines.csv", response_class=Response)
+def order_lines_csv(order_id: int, session: SessionDep, _: ReadKey) -> Response:
+    """An order's lines as CSV (UTF-8, one row per fixture)."""
+    order = service.get_order(session, order_id)
+    text = exports.lines_csv(order, service.lines_of(session, order_id))
+    return Response(
+        text,
+        media_type="text/csv; charset=utf-8",
+        headers={"Content-Disposition": f'attachment; filename="work-order-{order_id}.csv"'},
+    )
+
+
+@router.get("/work-orders/{order_id}/print", response_class=HTMLResponse)
+def order_print(order_id: int, session: SessionDep, _: ReadKey) -> HTMLResponse:
+    """A printable page: cautions at the top, fixtures by location, a checkbox per position."""
+    order = service.get_order(session, order_id)
+    site = session.get(Site, order.site_id)
+    area = session.get(Area, order.area_id)
+    html = exports.print_page(
+        order,
+        service.lines_of(session, order_id),
+        site.name if site else "",
+        area.name if area else "",
+    )
+    return HTMLResponse(html)

@@ -1,0 +1,118 @@
+"""Work order requests and responses."""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+Kind = Literal["group_relamp", "spot_replacement"]
+State = Literal["draft", "issued", "in_progress", "done", "cancelled"]
+
+
+class WorkOrderCreate(BaseModel):
+    """A hand-made order (a draft): a group relamp of a whole area, or its open burnouts."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    area_id: int
+    kind: Kind
+    due_on: date | None = Field(default=None, description="Site-local date (default: today).")
+    notes: str | None = Field(default=None, max_length=2000)
+    external_reference: str | None = Field(default=None, min_length=1, max_length=200)
+
+
+class WorkOrderUpdate(BaseModel):
+    """What a CMMS or a planner may change on an order at any state."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    external_reference: str | None = Field(default=None, max_length=200)
+    notes: str | None = Field(default=None, max_length=2000)
+    due_on: date | None = None
+
+
+class LineRead(BaseModel):
+    """One fixture of an order."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    fixture_id: int
+    fixture_tag: str
+    location: str | None
+    lamp_type_id: int
+    lamp_type_code: str
+    quantity: int
+    position_ids: list[int]
+    position_nos: list[int]
+    report_ids: list[int] | None
+    outcome: Literal["replaced", "skipped"] | None
+    skip_reason: str | None
+
+
+class WorkOrderRead(BaseModel):
+    """A work order with its lines."""
+
+    model_config = ConfigDict(from_attributes=True)
+
+    id: int
+    site_id: int
+    area_id: int
+    kind: Kind
+    state: State
+    allowed_next: list[str]
+    iso_week: str | None
+    run_id: int | None
+    due_on: date | None
+    access_method: str
+    lamp_quantity: int
+    estimated_labour_h: float
+    disposal_instructions: str
+    safety_cautions: str
+    external_reference: str | None
+    notes: str | None
+    plan: dict[str, Any] | None
+    state_changed_at: datetime | None
+    completed_at: datetime | None
+    cancel_reason: str | None
+    created_at: datetime
+    updated_at: datetime
+    lines: list[LineRead] | None = None
+
+
+class FixtureOutcome(BaseModel):
+    """What happened at one fixture of the order."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    fixture_id: int
+    outcome: Literal["replaced", "skipped"]
+    reason: str | None = Field(default=None, min_length=1, max_length=500)
+
+    @model_validator(mode="after")
+    def _reason_for_skips(self) -> FixtureOutcome:
+        if self.outcome == "skipped" and not self.reason:
+            raise ValueError("a skipped fixture needs a reason")
+        return self
+
+
+class CompleteBody(BaseModel):
+    """Per-fixture outcomes; fixtures not listed take `others` (or the request is refused)."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    outcomes: list[FixtureOutcome] = Field(default_factory=list, max_length=100_000)
+    others: Literal["replaced"] | None = Field(
+        default=None, description="Outcome of every fixture not listed."
+    )
+    completed_at: datetime | None = Field(default=None, description="Default: now.")
+
+
+class CancelBody(BaseModel):
+    """Why an order is cancelled."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    reason: str | None = Field(default=None, max_length=500)

@@ -1,0 +1,230 @@
+"""Work order rules: lifecycle, completion, cancellation. Flushes, never commits.
+
+States (plain words of our own) and the only moves allowed:
+    draft -> issued | cancelled
+    issued -> in_progress | cancelled
+    in_progress -> done | cancelled
+    done, cancelled: final.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime, timedelta
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from service.api.errors import Conflict, Invalid
+from service.db.base import utcnow
+from service.db.crud import apply_patch, get_or_404
+from service.register.models import Area, LampPosition, Site
+from service.workorders import removals
+from service.workorders.issue import GROUP, OPEN_STATES, SPOT, issue_orders
+from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate, WorkOrderUpdate
+
+TRANSITIONS: dict[str, tuple[str, ...]] = {
+    "draft": ("issued", "cancelled"),
+    "issued": ("in_progress", "cancelled"),
+    "in_progress": ("done", "cancelled"),
+    "done": (),
+    "cancelled": (),
+}
+CLOCK_SKEW = timedelta(minutes=5)  # completion times this far ahead of our clock are accepted
+
+
+def get_order(session: Session, order_id: int) -> WorkOrder:
+    """An order by id (404 if missing)."""
+    return get_or_404(session, WorkOrder, order_id, "work order")
+
+
+def _move(order: WorkOrder, to: str, at: datetime) -> None:
+    allowed = TRANSITIONS[order.state]
+    if to not in allowed:
+        nxt = ", ".join(allowed) if allowed else "none (final state)"
+        raise Conflict(
+            f"Work order {order.id} is '{order.state}'; it cannot become '{to}'. "
+            f"Allowed next: {nxt}.",
+            current_state=order.state,
+            allowed_next=list(allowed),
+        )
+    order.state = to
+    order.state_changed_at = at
+    order.updated_at = at
+
+
+def issue(session: Session, order_id: int) -> WorkOrder:
+    """draft -> issued."""
+    order = get_order(session, order_id)
+    _move(order, "issued", utcnow())
+    session.flush()
+    return order
+
+
+def start(session: Session, order_id: int) -> WorkOrder:
+    """issued -> in_progress."""
+    order = get_order(session, order_id)
+    _move(order, "in_progress", utcnow())
+    session.flush()
+    return order
+
+
+def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
+    """Cancel an open order: positions stay as they were; batched reports go back to open."""
+    order = get_order(session, order_id)
+    _move(order, "cancelled", utcnow())
+    order.cancel_reason = body.reason
+    removals.release_reports(session, order.id, None)
+    session.flush()
+    return order
+
+
+def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
+    """Change the external reference, notes or due date (any state)."""
+    order = get_order(session, order_id)
+    apply_patch(order, body)
+    order.updated_at = utcnow()
+    session.flush()
+    return order
+
+
+def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
+    """A draft order for one area: all its fixtures (group) or its open burnouts (spot)."""
+    area = get_or_404(session, Area, body.area_id, "area")
+    site = session.get(Site, area.site_id)
+    assert site is not None
+    if body.kind == GROUP:
+        open_group = session.scalar(
+            select(WorkOrder.id).where(
+                WorkOrder.area_id == area.id,
+                WorkOrder.kind == GROUP,
+                WorkOrder.state.in_(OPEN_STATES),
+            )
+        )
+        if open_group is not None:
+            raise Conflict(
+                f"Area {area.id} already has open group order {open_group}.",
+                work_order_id=open_group,
+            )
+    result = issue_orders(
+        session,
+        site,
+        at=utcnow(),
+        iso_week=None,
+        run_id=None,
+        state="draft",
+        lookahead_weeks=0,
+        area_id=area.id,
+        kinds=(body.kind,),
+        whole_area=True,
+    )
+    if not result.created:
+        what = "lamp positions" if body.kind == GROUP else "open burnout reports"
+        raise Conflict(f"Area {area.id} has no {what} to put on an order.", field="area_id")
+    order = get_order(session, result.created[0][0])
+    order.notes = body.notes
+    order.external_reference = body.external_reference
+    if body.due_on is not None:
+        order.due_on = body.due_on
+    session.flush()
+    return order
+
+
+def _outcomes(order: WorkOrder, body: CompleteBody) -> dict[int, tuple[str, str | None]]:
+    by_fixture = {ln.fixture_id: ln for ln in order.lines}
+    got: dict[int, tuple[str, str | None]] = {}
+    errors = []
+    for i, o in enumerate(body.outcomes):
+        if o.fixture_id not in by_fixture:
+            errors.append(
+                {"field": f"outcomes.{i}.fixture_id", "in": "body", "message": "not on this order"}
+            )
+        elif o.fixture_id in got:
+            errors.append(
+                {"field": f"outcomes.{i}.fixture_id", "in": "body", "message": "given twice"}
+            )
+        else:
+            got[o.fixture_id] = (o.outcome, o.reason)
+    missing = [f for f in by_fixture if f not in got]
+    if missing and body.others is None:
+        errors.append(
+            {
+                "field": "outcomes",
+                "in": "body",
+                "message": f"no outcome for fixtures {missing[:20]}; list them or set 'others'",
+            }
+        )
+    if errors:
+        raise Invalid("Some fixture outcomes are wrong or missing.", errors=errors)
+    for f in missing:
+        got[f] = ("replaced", None)
+    return got
+
+
+def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
+    """in_progress -> done with per-fixture outcomes; replaced positions restart at zero."""
+    order = get_order(session, order_id)
+    if "done" not in TRANSITIONS[order.state]:
+        _move(order, "done", utcnow())  # raises the 409 with the allowed moves
+    now = utcnow()
+    at = body.completed_at or now
+    if at.tzinfo is None:
+        raise Invalid(
+            "completed_at needs a UTC offset.",
+            errors=[{"field": "completed_at", "in": "body", "message": "no offset"}],
+        )
+    if at > now + CLOCK_SKEW or at < order.created_at - CLOCK_SKEW:
+        raise Invalid(
+            "completed_at must lie between the order's creation and now.",
+            errors=[{"field": "completed_at", "in": "body", "message": "out of range"}],
+        )
+    outcomes = _outcomes(order, body)
+    replaced_ids = [
+        pid
+        for ln in order.lines
+        if outcomes[ln.fixture_id][0] == "replaced"
+        for pid in ln.position_ids
+    ]
+    positions = {
+        p.id: p
+        for p in session.scalars(select(LampPosition).where(LampPosition.id.in_(replaced_ids)))
+    }
+    open_reports = removals.reports_on_positions(session, replaced_ids)
+    to_close: list[int] = []
+    for ln in order.lines:
+        outcome, reason = outcomes[ln.fixture_id]
+        ln.outcome, ln.skip_reason = outcome, reason
+        if outcome != "replaced":
+            continue
+        for pid in ln.position_ids:
+            pos = positions.get(pid)
+            if pos is None:  # the position was removed from the register meanwhile
+                continue
+            dark = pos.burned_out_at is not None or pid in open_reports
+            failed = order.kind == SPOT or dark
+            removals.record_removal(
+                session,
+                pos,
+                removed_at=at,
+                failed=failed,
+                reason="burnout" if failed else "group_relamp",
+                work_order_id=order.id,
+            )
+            to_close.extend(open_reports.get(pid, []))
+    removals.close_reports(session, sorted(set(to_close)), order.id)
+    removals.release_reports(session, order.id, None)  # reports of skipped fixtures reopen
+    _move(order, "done", now)
+    order.completed_at = at
+    session.flush()
+    return order
+
+
+def lines_of(session: Session, order_id: int) -> list[WorkOrderLine]:
+    """An order's lines in print order (location, then tag)."""
+    get_order(session, order_id)
+    stmt = (
+        select(WorkOrderLine)
+        .where(WorkOrderLine.work_order_id == order_id)
+        .order_by(WorkOrderLine.location, WorkOrderLine.fixture_tag, WorkOrderLine.id)
+    )
+    return list(session.scalars(stmt).all())
