@@ -45,6 +45,16 @@ def migrate(engine: Engine, revision: str = "head") -> None:
         command.upgrade(cfg, revision)
 
 
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    """Skip tests marked postgres_only when the suite runs on SQLite."""
+    if (os.environ.get("TEST_DATABASE_URL") or "").startswith("postgresql"):
+        return
+    skip = pytest.mark.skip(reason="needs PostgreSQL: set TEST_DATABASE_URL")
+    for item in items:
+        if "postgres_only" in item.keywords:
+            item.add_marker(skip)
+
+
 @pytest.fixture(scope="session")
 def db_url(tmp_path_factory: pytest.TempPathFactory) -> str:
     """The URL of this run's database."""

@@ -74,7 +74,7 @@ def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
     order = get_order(session, order_id)
     _move(order, "cancelled", utcnow())
     order.cancel_reason = body.reason
-    removals.release_reports(session, order.id, None)
+    removals.release_reports(session, order.id)
     session.flush()
     return order
 
@@ -211,8 +211,9 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
                 work_order_id=order.id,
             )
             to_close.extend(open_reports.get(pid, []))
-    removals.close_reports(session, sorted(set(to_close)), order.id)
-    removals.release_reports(session, order.id, None)  # reports of skipped fixtures reopen
+    if to_close:
+        removals.close_reports(session, sorted(set(to_close)), order.id, closed_at=at)
+    removals.release_reports(session, order.id)  # reports of skipped fixtures reopen
     _move(order, "done", now)
     order.completed_at = at
     session.flush()
