@@ -1,0 +1,160 @@
+"""Relamp plans over the API, checked against the numeric core with the same inputs."""
+
+from __future__ import annotations
+
+import math
+from datetime import UTC, date, datetime, timedelta
+
+import pytest
+from fastapi.testclient import TestClient
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from service.reliability.conditions import switching_life_factor, voltage_effect
+from service.reliability.replacement import plan_block_replacement
+from service.reliability.weibull import Weibull
+from service.workorders.models import WorkOrder
+from tests.planning import builders as b
+
+AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)  # 2 June 08:00 in Auckland
+
+
+def _setup(db: Session, **area_over: object) -> tuple[int, int]:
+    s = b.site(db, time_zone="Pacific/Auckland")
+    lt = b.lamp_type(db, ballast_behaviour="reactor")
+    a = b.area(db, s, **area_over)
+    b.fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=240.0)
+    db.commit()
+    return a.id, lt.id
+
+
+def test_interval_matches_the_numeric_core(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    area_id, _ = _setup(db)
+    r = client.post(
+        f"/api/v1/areas/{area_id}/relamp-plan", json={"at": AT.isoformat()}, headers=reader
+    )
+    assert r.status_code == 200, r.text
+    plan = r.json()
+    (lt,) = plan["lamp_types"]
+    inp = lt["inputs"]
+    assert inp["voltage_v"] == pytest.approx(240.0)
+    hps = 60.0 / 7.0  # 60 burn hours a week, one start a day
+    assert inp["hours_per_start"] == pytest.approx(hps)
+    # Same inputs straight into the numeric core: IES B50 rated life -> Weibull scale,
+    # reactor ballast voltage factor, switching factor, then the block replacement optimum.
+    base = Weibull.from_rated_life(24_000.0, 5.0, 50.0)
+    fv = voltage_effect(240.0, 230.0, "linear_fluorescent", "reactor").life_factor
+    fs = float(switching_life_factor(hps, 3.0)[0])
+    life = Weibull(5.0, base.scale * fv * fs)
+    c_group = 4.0 + 4.0 / 60.0 * 40.0 + 0.0 + 0.5  # lamp + group labour + hire share + disposal
+    c_spot = 4.0 + 30.0 / 60.0 * 40.0 + 0.0 + 0.5
+    core = plan_block_replacement(life, c_group, c_spot)
+    assert inp["c_group"] == pytest.approx(c_group) and inp["c_spot"] == pytest.approx(c_spot)
+    assert core.interval_h is not None
+    assert lt["interval_h"] == pytest.approx(core.interval_h, rel=1e-9)
+    assert lt["binding"] == core.binding == "cost_optimum"
+    assert lt["cost_rate"] == pytest.approx(core.cost_rate, rel=1e-9)
+    assert lt["spot_only_rate"] == pytest.approx(c_spot / life.mean(), rel=1e-9)
+    # Yearly saving: per position-hour saving x burn hours a year x positions.
+    assert lt["yearly_saving"] == pytest.approx(core.saving_rate * 60 * 365.25 / 7 * 20, rel=1e-9)
+    # Due date: remaining burn hours / 60 h a week, from the Auckland calendar date.
+    age = 10 * 60.0
+    assert plan["group_age_h"] == pytest.approx(age, abs=1e-6)
+    days = math.floor((core.interval_h - age) / 60.0 * 7.0)
+    assert plan["due_on"] == (date(2026, 6, 2) + timedelta(days=days)).isoformat()
+    assert plan["overdue"] is False
+
+
+def test_light_floor_binds_at_the_lumen_curve_crossing(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    area_id, _ = _setup(db, light_floor=0.9)
+    # Dearer group labour pushes the cost optimum past the floor.
+    body = {"group_minutes_per_lamp": 12.0}
+    r = client.post(f"/api/v1/areas/{area_id}/relamp-plan", json=body, headers=reader)
+    (lt,) = r.json()["lamp_types"]
+    assert lt["unconstrained_optimum_h"] > lt["inputs"]["light_floor_h"]
+    assert lt["binding"] == "light_floor"
+    # The default fluorescent curve passes through its knot (70 % of rated life, 0.90):
+    # PCHIP interpolation goes through the data points (scipy PchipInterpolator).
+    assert lt["inputs"]["light_floor_h"] == pytest.approx(0.7 * 24_000, rel=1e-3)
+    assert lt["interval_h"] == pytest.approx(lt["inputs"]["light_floor_h"], rel=1e-6)
+
+
+def test_rupture_cap_and_spot_only(client: TestClient, db: Session, reader: dict[str, str]) -> None:
+    s = b.site(db)
+    mh = b.lamp_type(
+        db, technology="metal_halide", rated_life_h=15_000.0, weibull_shape=4.0, rupture_risk=True
+    )
+    a = b.area(db, s)
+    b.fixtures(db, a, mh, 4, lamps=1, volts=230.0)
+    db.commit()
+    url = f"/api/v1/areas/{a.id}/relamp-plan"
+    # Group labour nearly as dear as spot: cost alone would not group, the cap forces it
+    # (common practice: metal halide relamped as a group near 70 % of rated life).
+    body = {"hours_per_start": 10.0, "group_minutes_per_lamp": 29.0}
+    (lt,) = client.post(url, json=body, headers=reader).json()["lamp_types"]
+    assert lt["binding"] == "rupture_cap"
+    assert lt["inputs"]["rupture_cap_h"] == pytest.approx(0.7 * 15_000)
+    assert lt["interval_h"] == pytest.approx(0.7 * 15_000)
+    assert lt["safety_premium_rate"] >= 0.0
+
+    fl = b.lamp_type(db)
+    a2 = b.area(db, s)
+    b.fixtures(db, a2, fl, 2)
+    db.commit()
+    body = {"group_minutes_per_lamp": 30.0}  # group costs as much as spot: never pays
+    plan = client.post(f"/api/v1/areas/{a2.id}/relamp-plan", json=body, headers=reader).json()
+    assert plan["binding"] == "spot_only" and plan["interval_h"] is None
+    assert plan["due_on"] is None and plan["lamp_types"][0]["yearly_saving"] == 0.0
+
+
+def test_what_if_changes_nothing_stored(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    area_id, _ = _setup(db)
+    url = f"/api/v1/areas/{area_id}/relamp-plan"
+    before = client.get(url, headers=reader).json()
+    what_if = client.post(url, json={"lamp_price": 40.0, "voltage_v": 230.0}, headers=reader)
+    assert what_if.status_code == 200
+    wi = what_if.json()["lamp_types"][0]
+    assert wi["inputs"]["lamp_price"] == 40.0 and wi["inputs"]["voltage_basis"] == "override"
+    assert wi["interval_h"] != before["lamp_types"][0]["interval_h"]
+    after = client.get(url, headers=reader).json()
+    assert after["lamp_types"][0]["interval_h"] == before["lamp_types"][0]["interval_h"]
+    assert after["lamp_types"][0]["inputs"] == before["lamp_types"][0]["inputs"]
+    assert db.scalar(select(func.count()).select_from(WorkOrder)) == 0
+
+
+def test_site_plan_lists_areas_by_due_date(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    s = b.site(db)
+    lt = b.lamp_type(db)
+    young = b.area(db, s)
+    old = b.area(db, s)
+    b.fixtures(db, young, lt, 3)
+    b.fixtures(db, old, lt, 3, hours_at_install=12_000.0)
+    db.commit()
+    r = client.get(f"/api/v1/sites/{s.id}/relamp-plan", headers=reader)
+    assert r.status_code == 200
+    areas = r.json()["areas"]
+    assert [x["area_id"] for x in areas] == [old.id, young.id]
+    assert areas[0]["due_on"] < areas[1]["due_on"]
+
+
+def test_bad_overrides_and_unknown_area(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    area_id, _ = _setup(db)
+    r = client.post(
+        f"/api/v1/areas/{area_id}/relamp-plan",
+        json={"light_floor": 1.5, "colour": "red"},
+        headers=reader,
+    )
+    assert r.status_code == 422
+    assert {e["field"] for e in r.json()["errors"]} == {"light_floor", "colour"}
+    assert client.get("/api/v1/areas/999999/relamp-plan", headers=reader).status_code == 404
+    assert client.get(f"/api/v1/areas/{area_id}/relamp-plan").status_code == 401
