@@ -1,4 +1,4 @@
-"""HTTP routes for the asset register."""
+"""HTTP routes for the asset register: sites here, areas and fixtures in their own modules."""
 
 from __future__ import annotations
 
@@ -8,8 +8,8 @@ from fastapi import APIRouter, Query, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.pagination import Page, PageDep, paginate
+from service.register import area_router, fixture_router, service
 from service.register import repository as repo
-from service.register import service
 from service.register.models import Site
 from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
 
@@ -57,3 +57,8 @@ def delete_site(site_id: int, session: SessionDep, _: WriteKey) -> Response:
     """Delete a site and everything in it."""
     service.delete_site(session, site_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
+
+
+# One router for the whole register (service.register.router.router).
+router.include_router(area_router.router)
+router.include_router(fixture_router.router)

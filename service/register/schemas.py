@@ -171,9 +171,12 @@ class PositionUpdate(BaseModel):
 
     model_config = ConfigDict(extra="forbid")
 
-    lamp_installed_at: datetime | None = None
-    hours_at_install: float | None = Field(default=None, ge=0, le=1_000_000)
-    starts_at_install: float | None = Field(default=None, ge=0)
+    lamp_installed_at: datetime | None = None  # without an offset: UTC
+    hours_at_install: float | None = Field(default=None, ge=0, le=1_000_000, allow_inf_nan=False)
+    starts_at_install: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+
+
+BallastKind = Literal["none", "reactor", "regulating", "electronic", "led_driver"]
 
 
 class FixtureFields(BaseModel):
@@ -185,19 +188,21 @@ class FixtureFields(BaseModel):
     location: str | None = Field(default=None, max_length=300)
     lamp_type_id: int
     lamps_per_fixture: int = Field(default=1, ge=1, le=64)
-    ballast_kind: Literal["none", "reactor", "regulating", "electronic", "led_driver"] = "none"
+    # None: the lamp type's ballast behaviour (its catalogue value or technology default).
+    ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
     installed_on: date | None = None
 
 
 class FixtureCreate(FixtureFields):
-    """A new fixture; its positions are created with it."""
+    """A new fixture; its lamp positions are created with it."""
 
     area_id: int
-    # When the lamps now in it went in (default: installed_on, else now) and their age then.
+    # When the lamps now in it went in (default: installed_on at 00:00 UTC, else now) and
+    # their burn hours and starts then. A time without an offset is taken as UTC.
     lamps_installed_at: datetime | None = None
-    lamp_hours_at_install: float = Field(default=0.0, ge=0, le=1_000_000)
-    lamp_starts_at_install: float = Field(default=0.0, ge=0)
+    lamp_hours_at_install: float = Field(default=0.0, ge=0, le=1_000_000, allow_inf_nan=False)
+    lamp_starts_at_install: float = Field(default=0.0, ge=0, allow_inf_nan=False)
 
 
 class FixtureUpdate(BaseModel):
@@ -210,12 +215,12 @@ class FixtureUpdate(BaseModel):
     area_id: int | None = None
     lamp_type_id: int | None = None
     lamps_per_fixture: int | None = Field(default=None, ge=1, le=64)
-    ballast_kind: Literal["none", "reactor", "regulating", "electronic", "led_driver"] | None = None
+    ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
     installed_on: date | None = None
 
 
-class FixtureRead(FixtureFields):
+class FixtureRead(BaseModel):
     """A stored fixture with its positions."""
 
     model_config = ConfigDict(from_attributes=True)
@@ -223,6 +228,13 @@ class FixtureRead(FixtureFields):
     id: int
     site_id: int
     area_id: int
+    tag: str
+    location: str | None
+    lamp_type_id: int
+    lamps_per_fixture: int
+    ballast_kind: str
+    measured_voltage_v: float | None
+    installed_on: date | None
     positions: list[PositionRead]
     created_at: datetime
     updated_at: datetime

@@ -1,0 +1,63 @@
+"""HTTP routes for areas."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Query, Response, status
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.pagination import Page, PageDep, paginate
+from service.register import areas
+from service.register import repository as repo
+from service.register.models import ACCESS_METHODS, Area
+from service.register.schemas import AreaCreate, AreaRead, AreaUpdate
+
+router = APIRouter(prefix="/areas", tags=["register"])
+
+
+@router.get("", response_model=Page[AreaRead])
+def list_areas(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: Annotated[int | None, Query(description="Only areas of this site.")] = None,
+    access_method: Annotated[
+        str | None, Query(description=f"One of {', '.join(ACCESS_METHODS)}.")
+    ] = None,
+    name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
+) -> Page[AreaRead]:
+    """List areas, filtered and sorted (sort: name, id, site_id, access_method, created_at)."""
+    stmt = repo.area_query(site_id, access_method, name)
+    rows, total = paginate(session, stmt, page, repo.AREA_SORT, Area.id)
+    return Page(
+        items=[AreaRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.post("", response_model=AreaRead, status_code=status.HTTP_201_CREATED)
+def create_area(body: AreaCreate, session: SessionDep, _: WriteKey) -> AreaRead:
+    """Create an area in a site."""
+    return AreaRead.model_validate(areas.create_area(session, body))
+
+
+@router.get("/{area_id}", response_model=AreaRead)
+def get_area(area_id: int, session: SessionDep, _: ReadKey) -> AreaRead:
+    """Read one area."""
+    return AreaRead.model_validate(areas.get_area(session, area_id))
+
+
+@router.patch("/{area_id}", response_model=AreaRead)
+def update_area(area_id: int, body: AreaUpdate, session: SessionDep, _: WriteKey) -> AreaRead:
+    """Change some fields of an area."""
+    return AreaRead.model_validate(areas.update_area(session, area_id, body))
+
+
+@router.delete("/{area_id}", status_code=status.HTTP_204_NO_CONTENT)
+def delete_area(area_id: int, session: SessionDep, _: WriteKey) -> Response:
+    """Delete an area with its fixtures."""
+    areas.delete_area(session, area_id)
+    return Response(status_code=status.HTTP_204_NO_CONTENT)

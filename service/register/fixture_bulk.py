@@ -1,0 +1,413 @@
+"""Bulk import and export of fixtures by site, area and lamp type names: all rows or none.
+
+Fast path for large files (100,000 rows in seconds): cells are checked with small plain
+functions (no model object per row), names are resolved with one query per table, and
+fixtures and lamp positions go in with COPY on PostgreSQL (psycopg 3) or Core executemany
+in chunks elsewhere. Fixture ids are read back with one query by (site_id, tag).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from datetime import UTC, date, datetime, time
+from typing import Any
+
+from sqlalchemy import Connection, Table, bindparam, delete, insert, select, update
+from sqlalchemy.orm import Session
+
+from service.api.bulk import Row, RowErrors
+from service.catalogue.bulk import check_on_duplicate
+from service.catalogue.models import LampType
+from service.db.base import utcnow
+from service.register.fixtures import FUTURE_SLACK, ballast_problem
+from service.register.models import Area, Fixture, LampPosition, Site
+from service.reliability.conditions import BALLASTS, TECHNOLOGY_DEFAULTS
+
+FIXTURE_COLUMNS: tuple[str, ...] = (
+    "site",
+    "area",
+    "tag",
+    "location",
+    "lamp_type",
+    "lamps_per_fixture",
+    "ballast_kind",
+    "measured_voltage_v",
+    "installed_on",
+    "lamps_installed_at",
+    "lamp_hours_at_install",
+    "lamp_starts_at_install",
+)
+CHUNK = 5000  # rows per executemany call
+
+_FIXTURES: Table = Fixture.__table__  # type: ignore[assignment]
+_POSITIONS: Table = LampPosition.__table__  # type: ignore[assignment]
+
+
+@dataclass(frozen=True)
+class FixtureImportResult:
+    """What a fixture import did."""
+
+    rows: int
+    created: int
+    updated: int
+    positions_created: int
+
+
+class CellError(ValueError):
+    """A cell that cannot be read; the message says why."""
+
+
+# Cell readers: CSV gives text, JSON gives numbers/strings; None means an empty cell.
+
+
+def _text(v: Any, max_len: int, required: bool) -> str | None:
+    if v is None or v == "":
+        if required:
+            raise CellError("is required")
+        return None
+    s = str(v).strip() if not isinstance(v, str) else v.strip()
+    if not s:
+        if required:
+            raise CellError("is required")
+        return None
+    if len(s) > max_len:
+        raise CellError(f"is longer than {max_len} characters")
+    return s
+
+
+def _number(v: Any) -> float:
+    if isinstance(v, bool):
+        raise CellError("must be a number")
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        raise CellError(f"must be a number, not '{v}'") from None
+    if not math.isfinite(x):
+        raise CellError("must be a finite number")
+    return x
+
+
+def _int_in(v: Any, lo: int, hi: int) -> int:
+    x = _number(v)
+    if x != int(x):
+        raise CellError("must be a whole number")
+    if not lo <= x <= hi:
+        raise CellError(f"must lie in [{lo}, {hi}]")
+    return int(x)
+
+
+def _date(v: Any) -> date:
+    try:
+        return date.fromisoformat(str(v).strip())
+    except ValueError:
+        raise CellError(f"must be a date YYYY-MM-DD, not '{v}'") from None
+
+
+def _datetime(v: Any) -> datetime:
+    try:
+        dt = datetime.fromisoformat(str(v).strip())
+    except ValueError:
+        raise CellError(f"must be an ISO 8601 date-time, not '{v}'") from None
+    return dt.replace(tzinfo=UTC) if dt.tzinfo is None else dt.astimezone(UTC)
+
+
+@dataclass
+class _Good:
+    """A row that passed the cell checks, with names still to resolve."""
+
+    number: int
+    site: str
+    area: str
+    lamp_type: str
+    values: dict[str, Any]  # fixture columns except ids
+    installed_at: datetime | None
+    hours: float
+    starts: float
+
+
+def _read_row(row: Row, errors: RowErrors, now: datetime) -> _Good | None:
+    d = row.data
+    n = row.number
+    bad = len(errors)
+
+    def cell(name: str, read: Callable[[Any], Any], default: Any = None) -> Any:
+        v = d.get(name)
+        if v is None or v == "":
+            return default
+        try:
+            return read(v)
+        except CellError as exc:
+            errors.add(n, name, f"{name} {exc}")
+            return default
+
+    def text(name: str, max_len: int, required: bool) -> str | None:
+        try:
+            return _text(d.get(name), max_len, required)
+        except CellError as exc:
+            errors.add(n, name, f"{name} {exc}")
+            return None
+
+    site = text("site", 200, True)
+    area = text("area", 200, True)
+    tag = text("tag", 64, True)
+    location = text("location", 300, False)
+    lamp_type = text("lamp_type", 40, True)
+    lamps = cell("lamps_per_fixture", lambda v: _int_in(v, 1, 64), 1)
+    ballast = text("ballast_kind", 20, False)
+    if ballast is not None and ballast not in BALLASTS:
+        errors.add(n, "ballast_kind", f"ballast_kind must be one of: {', '.join(BALLASTS)}")
+
+    def volts(v: Any) -> float:
+        x = _number(v)
+        if not 0 < x <= 1000:
+            raise CellError("must lie in (0, 1000] volts")
+        return x
+
+    def hours(v: Any) -> float:
+        x = _number(v)
+        if not 0 <= x <= 1_000_000:
+            raise CellError("must lie in [0, 1,000,000] hours")
+        return x
+
+    def count(v: Any) -> float:
+        x = _number(v)
+        if x < 0:
+            raise CellError("must be 0 or more")
+        return x
+
+    voltage = cell("measured_voltage_v", volts)
+    installed_on = cell("installed_on", _date)
+    installed_at = cell("lamps_installed_at", _datetime)
+    lamp_hours = cell("lamp_hours_at_install", hours, 0.0)
+    lamp_starts = cell("lamp_starts_at_install", count, 0.0)
+    if installed_at is not None and installed_at > now + FUTURE_SLACK:
+        errors.add(n, "lamps_installed_at", "lamps_installed_at is after now")
+    elif (
+        installed_at is None
+        and installed_on is not None
+        and datetime.combine(installed_on, time(0), tzinfo=UTC) > now + FUTURE_SLACK
+    ):
+        errors.add(n, "installed_on", "installed_on is after today (give lamps_installed_at)")
+    if len(errors) != bad or site is None or area is None or tag is None or lamp_type is None:
+        return None
+    return _Good(
+        number=n,
+        site=site,
+        area=area,
+        lamp_type=lamp_type,
+        values={
+            "tag": tag,
+            "location": location,
+            "lamps_per_fixture": lamps,
+            "ballast_kind": ballast,
+            "measured_voltage_v": voltage,
+            "installed_on": installed_on,
+        },
+        installed_at=installed_at,
+        hours=lamp_hours,
+        starts=lamp_starts,
+    )
+
+
+def _chunks(items: list[dict[str, Any]]) -> list[list[dict[str, Any]]]:
+    return [items[i : i + CHUNK] for i in range(0, len(items), CHUNK)]
+
+
+def bulk_insert(conn: Connection, table: Table, rows: list[dict[str, Any]]) -> None:
+    """Insert many rows: COPY on PostgreSQL (psycopg 3), else Core executemany in chunks.
+
+    Every row must carry the same keys, with values already in stored form (UTC datetimes).
+    """
+    if not rows:
+        return
+    cols = list(rows[0])
+    raw: Any = conn.connection.driver_connection
+    if conn.dialect.name == "postgresql" and conn.dialect.driver == "psycopg":
+        names = ", ".join(f'"{c}"' for c in cols)
+        with raw.cursor() as cur, cur.copy(f'COPY "{table.name}" ({names}) FROM STDIN') as cp:
+            for r in rows:
+                cp.write_row([r[c] for c in cols])
+        return
+    for chunk in _chunks(rows):
+        conn.execute(insert(table), chunk)
+
+
+def import_fixtures(
+    session: Session, rows: Sequence[Row], on_duplicate: str = "error"
+) -> FixtureImportResult:
+    """Validate every row, then insert (and with on_duplicate='update' change) fixtures."""
+    check_on_duplicate(on_duplicate)
+    errors = RowErrors()
+    now = utcnow()
+    good = [g for g in (_read_row(r, errors, now) for r in rows) if g is not None]
+
+    # One query per table to resolve names.
+    sites = {name: i for i, name in session.execute(select(Site.id, Site.name))}
+    areas = {
+        (s, name): i for i, s, name in session.execute(select(Area.id, Area.site_id, Area.name))
+    }
+    types = {
+        code: (i, tech, ballast or TECHNOLOGY_DEFAULTS[tech].default_ballast)
+        for i, code, tech, ballast in session.execute(
+            select(LampType.id, LampType.code, LampType.technology, LampType.ballast_behaviour)
+        )
+    }
+    site_ids = {sites[g.site] for g in good if g.site in sites}
+    existing: dict[tuple[int, str], tuple[int, int]] = {}
+    if site_ids:
+        stmt = select(Fixture.id, Fixture.site_id, Fixture.tag, Fixture.lamps_per_fixture).where(
+            Fixture.site_id.in_(site_ids)
+        )
+        existing = {(s, t): (i, k) for i, s, t, k in session.execute(stmt)}
+
+    seen: dict[tuple[int, str], int] = {}
+    new_fixtures: list[dict[str, Any]] = []
+    new_meta: list[tuple[int, str, int, datetime, float, float]] = []
+    changed: list[dict[str, Any]] = []
+    grow: list[dict[str, Any]] = []  # positions to add to updated fixtures
+    shrink: list[dict[str, Any]] = []  # positions to drop from updated fixtures
+    for g in good:
+        site_id = sites.get(g.site)
+        if site_id is None:
+            errors.add(g.number, "site", f"no site named '{g.site}'")
+            continue
+        area_id = areas.get((site_id, g.area))
+        if area_id is None:
+            errors.add(g.number, "area", f"site '{g.site}' has no area named '{g.area}'")
+        lt = types.get(g.lamp_type)
+        if lt is None:
+            errors.add(g.number, "lamp_type", f"no lamp type with code '{g.lamp_type}'")
+        if area_id is None or lt is None:
+            continue
+        v = g.values
+        ballast = v["ballast_kind"] or lt[2]
+        problem = ballast_problem(lt[1], ballast)
+        if problem:
+            errors.add(g.number, "ballast_kind", problem)
+            continue
+        key = (site_id, v["tag"])
+        if key in seen:
+            errors.add(g.number, "tag", f"tag also on row {seen[key]} of this file")
+            continue
+        seen[key] = g.number
+        at = g.installed_at
+        if at is None:
+            on = v["installed_on"]
+            at = datetime.combine(on, time(0), tzinfo=UTC) if on is not None else now
+        values = {
+            **v,
+            "ballast_kind": ballast,
+            "site_id": site_id,
+            "area_id": area_id,
+            "lamp_type_id": lt[0],
+        }
+        if key in existing:
+            if on_duplicate == "error":
+                errors.add(g.number, "tag", f"site '{g.site}' already has this tag", conflict=True)
+                continue
+            fid, old_count = existing[key]
+            changed.append({**values, "b_id": fid, "updated_at": now})
+            k = v["lamps_per_fixture"]
+            if k > old_count:
+                grow.extend(_positions(fid, old_count + 1, k, at, g.hours, g.starts))
+            elif k < old_count:
+                shrink.append({"b_fid": fid, "b_keep": k})
+        else:
+            new_fixtures.append({**values, "created_at": now, "updated_at": now})
+            new_meta.append((site_id, v["tag"], v["lamps_per_fixture"], at, g.hours, g.starts))
+    errors.raise_if_any("fixture import")
+
+    session.flush()
+    conn = session.connection()
+    bulk_insert(conn, _FIXTURES, new_fixtures)
+    positions: list[dict[str, Any]] = list(grow)
+    if new_meta:
+        ids = {
+            (s, t): i
+            for i, s, t in conn.execute(
+                select(_FIXTURES.c.id, _FIXTURES.c.site_id, _FIXTURES.c.tag).where(
+                    _FIXTURES.c.site_id.in_({m[0] for m in new_meta})
+                )
+            )
+        }
+        for site_id, tag, k, at, hrs, starts in new_meta:
+            positions.extend(_positions(ids[(site_id, tag)], 1, k, at, hrs, starts))
+    if changed:
+        stmt_u = update(_FIXTURES).where(_FIXTURES.c.id == bindparam("b_id"))
+        for chunk in _chunks(changed):
+            conn.execute(stmt_u, chunk)
+    if shrink:
+        stmt_d = delete(_POSITIONS).where(
+            _POSITIONS.c.fixture_id == bindparam("b_fid"),
+            _POSITIONS.c.position_no > bindparam("b_keep"),
+        )
+        conn.execute(stmt_d, shrink)
+    bulk_insert(conn, _POSITIONS, positions)
+    session.expire_all()  # rows changed behind the ORM's back
+    return FixtureImportResult(
+        rows=len(rows),
+        created=len(new_fixtures),
+        updated=len(changed),
+        positions_created=len(positions),
+    )
+
+
+def _positions(
+    fixture_id: int, first: int, last: int, at: datetime, hours: float, starts: float
+) -> list[dict[str, Any]]:
+    return [
+        {
+            "fixture_id": fixture_id,
+            "position_no": n,
+            "lamp_installed_at": at,
+            "hours_at_install": hours,
+            "starts_at_install": starts,
+            "burned_out_at": None,
+        }
+        for n in range(first, last + 1)
+    ]
+
+
+def export_fixtures(
+    session: Session,
+    *,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    lamp_type_id: int | None = None,
+    tag_contains: str | None = None,
+) -> list[dict[str, Any]]:
+    """Fixtures as import rows; the lamp columns describe position 1's lamp."""
+    f, p = _FIXTURES, _POSITIONS
+    stmt = (
+        select(
+            Site.name.label("site"),
+            Area.name.label("area"),
+            f.c.tag,
+            f.c.location,
+            LampType.code.label("lamp_type"),
+            f.c.lamps_per_fixture,
+            f.c.ballast_kind,
+            f.c.measured_voltage_v,
+            f.c.installed_on,
+            p.c.lamp_installed_at.label("lamps_installed_at"),
+            p.c.hours_at_install.label("lamp_hours_at_install"),
+            p.c.starts_at_install.label("lamp_starts_at_install"),
+        )
+        .select_from(f)
+        .join(Site, Site.id == f.c.site_id)
+        .join(Area, Area.id == f.c.area_id)
+        .join(LampType, LampType.id == f.c.lamp_type_id)
+        .outerjoin(p, (p.c.fixture_id == f.c.id) & (p.c.position_no == 1))
+        .order_by(Site.name, f.c.tag)
+    )
+    if site_id is not None:
+        stmt = stmt.where(f.c.site_id == site_id)
+    if area_id is not None:
+        stmt = stmt.where(f.c.area_id == area_id)
+    if lamp_type_id is not None:
+        stmt = stmt.where(f.c.lamp_type_id == lamp_type_id)
+    if tag_contains:
+        stmt = stmt.where(f.c.tag.ilike(f"%{tag_contains}%"))
+    return [dict(r._mapping) for r in session.execute(stmt)]

@@ -1,0 +1,138 @@
+"""HTTP routes for fixtures and lamp positions."""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from fastapi import APIRouter, Query, Response, status
+from pydantic import BaseModel
+
+import service.register.fixture_bulk as fixture_bulk
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
+from service.api.pagination import Page, PageDep, paginate
+from service.register import fixtures
+from service.register import repository as repo
+from service.register.models import Fixture
+from service.register.schemas import (
+    FixtureCreate,
+    FixtureRead,
+    FixtureUpdate,
+    PositionRead,
+    PositionUpdate,
+)
+
+router = APIRouter(tags=["register"])
+
+SiteQ = Annotated[int | None, Query(description="Only fixtures of this site.")]
+AreaQ = Annotated[int | None, Query(description="Only fixtures of this area.")]
+LampTypeQ = Annotated[int | None, Query(description="Only fixtures of this lamp type.")]
+TagQ = Annotated[str | None, Query(description="Tag contains (any case).")]
+
+
+class FixtureImportSummary(BaseModel):
+    """Rows read, fixtures created and updated, lamp positions added by an import."""
+
+    rows: int
+    created: int
+    updated: int
+    positions_created: int
+
+
+@router.get("/fixtures", response_model=Page[FixtureRead])
+def list_fixtures(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: SiteQ = None,
+    area_id: AreaQ = None,
+    lamp_type_id: LampTypeQ = None,
+    tag: TagQ = None,
+) -> Page[FixtureRead]:
+    """List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on)."""
+    stmt = repo.fixture_query(site_id, area_id, lamp_type_id, tag)
+    rows, total = paginate(session, stmt, page, repo.FIXTURE_SORT, Fixture.id)
+    return Page(
+        items=[FixtureRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.post("/fixtures", response_model=FixtureRead, status_code=status.HTTP_201_CREATED)
+def create_fixture(body: FixtureCreate, session: SessionDep, _: WriteKey) -> FixtureRead:
+    """Create a fixture and its lamp positions."""
+    return FixtureRead.model_validate(fixtures.create_fixture(session, body))
+
+
+@router.post("/fixtures/import", response_model=FixtureImportSummary, openapi_extra=UPLOAD_OPENAPI)
+def import_fixtures(
+    body: RawBodyDep,
+    session: SessionDep,
+    _: WriteKey,
+    on_duplicate: Annotated[
+        Literal["error", "update"], Query(description="A tag the site has: error or update it.")
+    ] = "error",
+) -> FixtureImportSummary:
+    """Import fixtures from CSV (text/csv) or JSON (a list), by site, area and lamp type names.
+
+    All rows or none: any bad row answers 422 listing every bad row.
+    """
+    rows = parse_rows(body, fixture_bulk.FIXTURE_COLUMNS)
+    r = fixture_bulk.import_fixtures(session, rows, on_duplicate)
+    return FixtureImportSummary(
+        rows=r.rows, created=r.created, updated=r.updated, positions_created=r.positions_created
+    )
+
+
+@router.get("/fixtures/export", response_class=Response)
+def export_fixtures(
+    session: SessionDep,
+    _: ReadKey,
+    format: Annotated[Literal["csv", "json"], Query(description="csv or json.")] = "csv",
+    site_id: SiteQ = None,
+    area_id: AreaQ = None,
+    lamp_type_id: LampTypeQ = None,
+    tag: TagQ = None,
+) -> Response:
+    """Download fixtures as CSV or JSON, in the form the import takes back."""
+    rows = fixture_bulk.export_fixtures(
+        session, site_id=site_id, area_id=area_id, lamp_type_id=lamp_type_id, tag_contains=tag
+    )
+    return export_response(fixture_bulk.FIXTURE_COLUMNS, rows, format, "fixtures")
+
+
+@router.get("/fixtures/{fixture_id}", response_model=FixtureRead)
+def get_fixture(fixture_id: int, session: SessionDep, _: ReadKey) -> FixtureRead:
+    """Read one fixture with its positions."""
+    return FixtureRead.model_validate(fixtures.get_fixture(session, fixture_id))
+
+
+@router.patch("/fixtures/{fixture_id}", response_model=FixtureRead)
+def update_fixture(
+    fixture_id: int, body: FixtureUpdate, session: SessionDep, _: WriteKey
+) -> FixtureRead:
+    """Change some fields of a fixture; positions follow lamps_per_fixture."""
+    return FixtureRead.model_validate(fixtures.update_fixture(session, fixture_id, body))
+
+
+@router.delete("/fixtures/{fixture_id}", status_code=status.HTTP_204_NO_CONTENT)
+def delete_fixture(fixture_id: int, session: SessionDep, _: WriteKey) -> Response:
+    """Delete a fixture with its positions."""
+    fixtures.delete_fixture(session, fixture_id)
+    return Response(status_code=status.HTTP_204_NO_CONTENT)
+
+
+@router.get("/fixtures/{fixture_id}/positions", response_model=list[PositionRead])
+def list_positions(fixture_id: int, session: SessionDep, _: ReadKey) -> list[PositionRead]:
+    """The lamp positions of a fixture and when their lamps went in."""
+    return [PositionRead.model_validate(p) for p in fixtures.list_positions(session, fixture_id)]
+
+
+@router.patch("/positions/{position_id}", response_model=PositionRead)
+def update_position(
+    position_id: int, body: PositionUpdate, session: SessionDep, _: WriteKey
+) -> PositionRead:
+    """Correct when a position's lamp went in and the burn hours it had then."""
+    return PositionRead.model_validate(fixtures.update_position(session, position_id, body))
