@@ -14,8 +14,11 @@ from service.api.health import router as health_router
 from service.api.home import router as home_router
 from service.catalogue.router import router as catalogue_router
 from service.config import get_settings
+from service.events.router import router as events_router
+from service.forecasting.router import router as forecasting_router
 from service.keys.router import router as keys_router
 from service.planning.router import router as planning_router
+from service.readings.router import router as readings_router
 from service.register.router import router as register_router
 from service.scheduling.router import router as runs_router
 from service.workorders.router import router as workorders_router
@@ -27,6 +30,9 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     register_router,
     catalogue_router,
     keys_router,
+    readings_router,
+    events_router,
+    forecasting_router,
     planning_router,
     workorders_router,
     runs_router,
