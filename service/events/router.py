@@ -1,0 +1,102 @@
+"""HTTP routes for burnout reports and lamp removals."""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from fastapi import APIRouter, status
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.pagination import Page, PageDep, paginate
+from service.db.crud import get_or_404
+from service.events import repository as repo
+from service.events import service
+from service.events.models import BurnoutReport, LampRemoval
+from service.events.schemas import (
+    BurnoutReportCreate,
+    BurnoutReportRead,
+    LampRemovalCreate,
+    LampRemovalRead,
+)
+from service.register.models import LampPosition
+
+router = APIRouter(tags=["events"])
+
+
+@router.post(
+    "/burnout-reports", response_model=BurnoutReportRead, status_code=status.HTTP_201_CREATED
+)
+def create_burnout_report(
+    body: BurnoutReportCreate, session: SessionDep, _: WriteKey
+) -> BurnoutReportRead:
+    """Report a dark lamp: records one failure observation; open until replaced."""
+    report = service.report_burnout(session, **body.model_dump())
+    return BurnoutReportRead.model_validate(report)
+
+
+@router.get("/burnout-reports", response_model=Page[BurnoutReportRead])
+def list_burnout_reports(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    status: Literal["open", "ordered", "closed"] | None = None,
+    position_id: int | None = None,
+) -> Page[BurnoutReportRead]:
+    """List burnout reports (sort: id, reported_at)."""
+    stmt = repo.report_query(site_id, area_id, status, position_id)
+    rows, total = paginate(session, stmt, page, repo.REPORT_SORT, BurnoutReport.id)
+    return Page(
+        items=[BurnoutReportRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.get("/burnout-reports/{report_id}", response_model=BurnoutReportRead)
+def get_burnout_report(report_id: int, session: SessionDep, _: ReadKey) -> BurnoutReportRead:
+    """Read one burnout report."""
+    return BurnoutReportRead.model_validate(
+        get_or_404(session, BurnoutReport, report_id, "burnout report")
+    )
+
+
+@router.post("/lamp-removals", response_model=LampRemovalRead, status_code=status.HTTP_201_CREATED)
+def create_lamp_removal(
+    body: LampRemovalCreate, session: SessionDep, _: WriteKey
+) -> LampRemovalRead:
+    """Record a lamp taken out (failed or still burning); the position restarts at zero."""
+    position = get_or_404(session, LampPosition, body.position_id, "lamp position")
+    removal = service.record_removal(
+        session,
+        position,
+        removed_at=body.removed_at,
+        failed=body.failed,
+        reason=body.reason,
+        work_order_id=body.work_order_id,
+        burn_hours=body.burn_hours,
+    )
+    return LampRemovalRead.model_validate(removal)
+
+
+@router.get("/lamp-removals", response_model=Page[LampRemovalRead])
+def list_lamp_removals(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    lamp_type_id: int | None = None,
+    failed: bool | None = None,
+    position_id: int | None = None,
+) -> Page[LampRemovalRead]:
+    """List lamp removals, the field fit's observations (sort: id, removed_at)."""
+    stmt = repo.removal_query(site_id, lamp_type_id, failed, position_id)
+    rows, total = paginate(session, stmt, page, repo.REMOVAL_SORT, LampRemoval.id)
+    return Page(
+        items=[LampRemovalRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )

@@ -1,0 +1,292 @@
+"""Forecasts for a fixture, area, site or lamp type, from the register and the readings.
+
+Per position (numeric core: service.reliability.fleet.evaluate_fleet, with each lamp
+type's curve chosen by the field fit, see forecasting.types / forecasting.fit):
+
+- survival now: S(age) of the lamp in the socket (0 for a dark position);
+- P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
+  hours w with the area's burn rate (schedule, else measured);
+- expected burnouts with spot replacement over the horizon: per-position delayed renewal
+  from the lamp's current age (forecasting.ahead); a dark position counts as a new lamp
+  going in now;
+- lumen fraction now (dark = 0) and at the horizon end (dark positions relamped), each
+  the lamp lumen depreciation at the age times the voltage light factor;
+- per area, the dates it crosses its light floor (mean lumen fraction of its lamps, burnouts
+  spot-replaced, falls below Area.light_floor) and its burnout ceiling (share of positions
+  whose current lamp has burned out if none were replaced, 1 - mean S(age + t), rises above
+  Area.burnout_ceiling), found by bisection in burn hours and turned into dates with the
+  area's burn rate, in the site's time zone; None when not within CROSSING_YEARS.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from datetime import datetime, timedelta
+from typing import Any
+from zoneinfo import ZoneInfo
+
+import numpy as np
+from numpy.typing import NDArray
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from service.db.base import utcnow
+from service.forecasting.ahead import expected_replacements
+from service.forecasting.types import CurveInUse, TypeTable, load_types
+from service.readings.ages import PositionAges, position_ages
+from service.register.models import Area, Site
+from service.reliability.fleet import FleetResult, evaluate_fleet
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+CROSSING_YEARS = 10.0  # look this far ahead for floor and ceiling crossings
+_BISECT = 40
+_H_PER_WEEK = 168.0
+
+
+@dataclass(frozen=True)
+class PositionForecast:
+    """Per-position arrays of a forecast (aligned with ages)."""
+
+    ages: PositionAges
+    fleet: FleetResult
+    survival: FloatArray
+    p_fail: FloatArray
+    expected_burnouts: FloatArray
+    lumen_now: FloatArray
+    lumen_end: FloatArray
+    horizon_h: FloatArray
+
+
+@dataclass(frozen=True)
+class Summary:
+    """Aggregates over a group of positions."""
+
+    positions: int
+    burning: int
+    dark: int
+    mean_age_h: float
+    survival_now: float
+    p_fail_horizon: float
+    expected_failures_no_replacement: float
+    expected_burnouts_spot: float
+    lumen_fraction_now: float
+    lumen_fraction_end: float
+    voltage_warnings: int
+    switching_warnings: int
+
+
+@dataclass(frozen=True)
+class AreaForecast:
+    """An area's summary and its floor and ceiling crossing dates."""
+
+    area_id: int
+    name: str
+    burn_h_per_week: float
+    light_floor: float | None
+    burnout_ceiling: float | None
+    light_floor_date: datetime | None
+    burnout_ceiling_date: datetime | None
+    summary: Summary
+
+
+@dataclass(frozen=True)
+class Forecast:
+    """A forecast over a scope: totals, areas, curves in use and per-position arrays."""
+
+    at: datetime
+    horizon_weeks: float
+    time_zone: str
+    summary: Summary
+    areas: list[AreaForecast]
+    curves: dict[int, CurveInUse]
+    positions: PositionForecast
+    extra: dict[str, Any] = field(default_factory=dict)
+
+
+def evaluate_positions(
+    ages: PositionAges, types: TypeTable, horizon_weeks: float
+) -> PositionForecast:
+    """Run the numeric core over positions (dark positions as new lamps going in now)."""
+    k = types.index(ages.lamp_type_id)
+    dark = ages.burned_out
+    age = np.where(dark, 0.0, ages.age_h)
+    horizon_h = horizon_weeks * ages.burn_h_per_week
+    res = evaluate_fleet(types.table, k, age, ages.voltage_v, ages.hours_per_start, horizon_h)
+    ahead = expected_replacements(types.table.shape, k, res.scale_h, age, horizon_h)
+    return PositionForecast(
+        ages=ages,
+        fleet=res,
+        survival=np.where(dark, 0.0, res.survival),
+        p_fail=res.p_fail_horizon,
+        expected_burnouts=ahead,
+        lumen_now=np.where(dark, 0.0, res.lumen_fraction),
+        lumen_end=res.lumen_fraction_end,
+        horizon_h=horizon_h,
+    )
+
+
+def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
+    dark = pf.ages.burned_out[sel]
+    n = int(dark.size)
+    burning = ~dark
+    nb = int(burning.sum())
+
+    def mean(x: FloatArray) -> float:
+        return float(x.mean()) if x.size else 0.0
+
+    p_fail = pf.p_fail[sel]
+    return Summary(
+        positions=n,
+        burning=nb,
+        dark=n - nb,
+        mean_age_h=mean(pf.ages.age_h[sel]),
+        survival_now=mean(pf.survival[sel]),
+        p_fail_horizon=mean(p_fail[burning]),
+        expected_failures_no_replacement=float(p_fail[burning].sum()),
+        expected_burnouts_spot=float(pf.expected_burnouts[sel].sum()),
+        lumen_fraction_now=mean(pf.lumen_now[sel]),
+        lumen_fraction_end=mean(pf.lumen_end[sel]),
+        voltage_warnings=int(pf.fleet.warn_voltage[sel].sum()),
+        switching_warnings=int(pf.fleet.warn_switching[sel].sum()),
+    )
+
+
+def _light_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatArray:
+    """Lumen fraction of each position's lamp tau burn hours ahead (dark: new lamp)."""
+    age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
+    k = types.index(pf.ages.lamp_type_id)
+    out = np.empty(age.size)
+    for j in np.unique(k).tolist():
+        idx = np.nonzero(k == j)[0]
+        curve = types.table.lumen_curves[j]
+        life = pf.fleet.life_h[idx] if curve.basis == "rated_life_fraction" else None
+        out[idx] = curve.at(age[idx], life)
+    return out * pf.fleet.light_factor
+
+
+def _burned_share_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatArray:
+    """1 where dark, else F(age + tau): the lamp burned out by then if none replaced."""
+    k = types.index(pf.ages.lamp_type_id)
+    beta = types.table.shape[k]
+    f = -np.expm1(-np.power((pf.ages.age_h + tau) / pf.fleet.scale_h, beta))
+    return np.where(pf.ages.burned_out, 1.0, f)
+
+
+def _crossings(
+    pf: PositionForecast,
+    types: TypeTable,
+    group: IntArray,
+    n_groups: int,
+    limit: FloatArray,
+    rate_week: FloatArray,
+    kind: str,
+) -> FloatArray:
+    """Burn hours ahead at which each group crosses its limit (NaN: none / not in range)."""
+    counts = np.maximum(np.bincount(group, minlength=n_groups), 1)
+
+    def metric(tau_g: FloatArray) -> FloatArray:
+        tau = tau_g[group]
+        vals = _light_at(pf, types, tau) if kind == "light" else _burned_share_at(pf, types, tau)
+        return np.bincount(group, weights=vals, minlength=n_groups) / counts
+
+    def crossed(v: FloatArray) -> NDArray[np.bool_]:
+        return v < limit if kind == "light" else v >= limit
+
+    hi = rate_week * 52.18 * CROSSING_YEARS  # burn hours in the look-ahead span
+    valid = ~np.isnan(limit) & (hi > 0)
+    now = crossed(metric(np.zeros(n_groups)))
+    end = crossed(metric(hi))
+    lo = np.zeros(n_groups)
+    top = hi.copy()
+    for _ in range(_BISECT):
+        mid = 0.5 * (lo + top)
+        c = crossed(metric(mid))
+        top = np.where(c, mid, top)
+        lo = np.where(c, lo, mid)
+    out = np.where(now, 0.0, np.where(end, top, np.nan))
+    return np.where(valid, out, np.nan)
+
+
+def _to_date(at: datetime, hours_ahead: float, rate_week: float, zone: ZoneInfo) -> datetime | None:
+    if np.isnan(hours_ahead) or rate_week <= 0:
+        return None
+    return (at + timedelta(hours=hours_ahead / rate_week * _H_PER_WEEK)).astimezone(zone)
+
+
+def forecast(
+    session: Session,
+    *,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    fixture_id: int | None = None,
+    lamp_type_id: int | None = None,
+    horizon_weeks: float = 13.0,
+    at: datetime | None = None,
+) -> Forecast:
+    """Forecast every position of a scope, with per-area totals and crossing dates."""
+    at = utcnow() if at is None else at
+    ages = position_ages(
+        session,
+        site_id=site_id,
+        area_id=area_id,
+        fixture_id=fixture_id,
+        lamp_type_id=lamp_type_id,
+        at=at,
+    )
+    types = load_types(session, ages.lamp_type_id, field_fit=True)
+    pf = evaluate_positions(ages, types, horizon_weeks)
+    curves = {int(i): c for i, c in zip(types.ids.tolist(), types.curves, strict=True)}
+
+    area_ids, group = np.unique(ages.area_id, return_inverse=True)
+    rows = (
+        session.execute(
+            select(Area.id, Area.name, Area.light_floor, Area.burnout_ceiling, Site.time_zone)
+            .join(Site, Site.id == Area.site_id)
+            .where(Area.id.in_(area_ids.tolist()))
+        ).all()
+        if area_ids.size
+        else []
+    )
+    info = {int(r[0]): r for r in rows}
+    zones = {r[4] for r in rows}
+    zone_name = zones.pop() if len(zones) == 1 else "UTC"
+    n_g = int(area_ids.size)
+    rate = np.bincount(group, weights=ages.burn_h_per_week, minlength=n_g) / np.maximum(
+        np.bincount(group, minlength=n_g), 1
+    )
+    floor = np.array(
+        [np.nan if info[a][2] is None else info[a][2] for a in area_ids.tolist()], dtype=float
+    )
+    ceiling = np.array(
+        [np.nan if info[a][3] is None else info[a][3] for a in area_ids.tolist()], dtype=float
+    )
+    group = group.astype(np.int64)
+    floor_h = _crossings(pf, types, group, n_g, floor, rate, "light") if n_g else floor
+    ceil_h = _crossings(pf, types, group, n_g, ceiling, rate, "burnout") if n_g else ceiling
+
+    areas: list[AreaForecast] = []
+    for g, a in enumerate(area_ids.tolist()):
+        zone = ZoneInfo(info[a][4])
+        areas.append(
+            AreaForecast(
+                area_id=int(a),
+                name=str(info[a][1]),
+                burn_h_per_week=float(rate[g]),
+                light_floor=info[a][2],
+                burnout_ceiling=info[a][3],
+                light_floor_date=_to_date(at, float(floor_h[g]), float(rate[g]), zone),
+                burnout_ceiling_date=_to_date(at, float(ceil_h[g]), float(rate[g]), zone),
+                summary=_summary(pf, group == g),
+            )
+        )
+    return Forecast(
+        at=at.astimezone(ZoneInfo(zone_name)),
+        horizon_weeks=horizon_weeks,
+        time_zone=zone_name,
+        summary=_summary(pf),
+        areas=areas,
+        curves=curves,
+        positions=pf,
+    )

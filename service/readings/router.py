@@ -1,0 +1,181 @@
+"""HTTP routes for burn-hour records, voltage readings and position ages."""
+
+from __future__ import annotations
+
+import math
+from datetime import UTC, datetime
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Query, status
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
+from service.api.errors import Invalid
+from service.api.pagination import Page, PageDep, paginate
+from service.readings import service
+from service.readings.ages import position_ages
+from service.readings.columns import read_columns
+from service.readings.models import BurnHourRecord, VoltageReading
+from service.readings.schemas import (
+    BulkResult,
+    BurnHourCreate,
+    BurnHourRead,
+    PositionAgeRead,
+    PositionAgesPage,
+    VoltageReadingCreate,
+    VoltageReadingRead,
+)
+
+router = APIRouter(tags=["readings"])
+
+BURN_SORT = {"id": BurnHourRecord.id, "period_end": BurnHourRecord.period_end}
+VOLT_SORT = {"id": VoltageReading.id, "measured_at": VoltageReading.measured_at}
+
+
+def _filters(model: Any, site_id: int | None, area_id: int | None, fixture_id: int | None) -> Any:
+    stmt = select(model)
+    if site_id is not None:
+        stmt = stmt.where(model.site_id == site_id)
+    if area_id is not None:
+        stmt = stmt.where(model.area_id == area_id)
+    if fixture_id is not None:
+        stmt = stmt.where(model.fixture_id == fixture_id)
+    return stmt
+
+
+def _latest(session: Session, model: Any, body: BurnHourCreate | VoltageReadingCreate) -> Any:
+    stmt = _filters(model, None, body.area_id, body.fixture_id)
+    if body.area_id is None:
+        stmt = stmt.where(model.area_id.is_(None))
+    return session.scalars(stmt.order_by(model.id.desc()).limit(1)).one()
+
+
+@router.post("/burn-hours", response_model=BurnHourRead, status_code=status.HTTP_201_CREATED)
+def create_burn_hours(body: BurnHourCreate, session: SessionDep, _: WriteKey) -> BurnHourRead:
+    """Record burn hours for a fixture or an area: a period total or a meter reading."""
+    cols = service.columns_from_dicts([body.model_dump()], service.BURN_COLUMNS)
+    service.ingest_burn_hours(session, cols)
+    return BurnHourRead.model_validate(_latest(session, BurnHourRecord, body))
+
+
+@router.post(
+    "/burn-hours/bulk",
+    response_model=BulkResult,
+    status_code=status.HTTP_201_CREATED,
+    openapi_extra=UPLOAD_OPENAPI,
+)
+def upload_burn_hours(body: RawBodyDep, session: SessionDep, _: WriteKey) -> BulkResult:
+    """Upload burn-hour rows as CSV or a JSON list (columns as in POST /burn-hours); all or none."""
+    cols = read_columns(body, service.BURN_COLUMNS)
+    return BulkResult(stored=service.ingest_burn_hours(session, cols))
+
+
+@router.get("/burn-hours", response_model=Page[BurnHourRead])
+def list_burn_hours(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    fixture_id: int | None = None,
+) -> Page[BurnHourRead]:
+    """List burn-hour records (sort: id, period_end)."""
+    stmt = _filters(BurnHourRecord, site_id, area_id, fixture_id)
+    rows, total = paginate(session, stmt, page, BURN_SORT, BurnHourRecord.id)
+    return Page(
+        items=[BurnHourRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.post(
+    "/voltage-readings", response_model=VoltageReadingRead, status_code=status.HTTP_201_CREATED
+)
+def create_voltage_reading(
+    body: VoltageReadingCreate, session: SessionDep, _: WriteKey
+) -> VoltageReadingRead:
+    """Record a supply voltage measured at a fixture or on an area's circuit."""
+    cols = service.columns_from_dicts([body.model_dump()], service.VOLTAGE_COLUMNS)
+    service.ingest_voltages(session, cols)
+    return VoltageReadingRead.model_validate(_latest(session, VoltageReading, body))
+
+
+@router.post(
+    "/voltage-readings/bulk",
+    response_model=BulkResult,
+    status_code=status.HTTP_201_CREATED,
+    openapi_extra=UPLOAD_OPENAPI,
+)
+def upload_voltage_readings(body: RawBodyDep, session: SessionDep, _: WriteKey) -> BulkResult:
+    """Upload voltage readings as CSV or a JSON list (fixture_id or area_id, measured_at, volts)."""
+    cols = read_columns(body, service.VOLTAGE_COLUMNS)
+    return BulkResult(stored=service.ingest_voltages(session, cols))
+
+
+@router.get("/voltage-readings", response_model=Page[VoltageReadingRead])
+def list_voltage_readings(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    fixture_id: int | None = None,
+) -> Page[VoltageReadingRead]:
+    """List voltage readings (sort: id, measured_at)."""
+    stmt = _filters(VoltageReading, site_id, area_id, fixture_id)
+    rows, total = paginate(session, stmt, page, VOLT_SORT, VoltageReading.id)
+    return Page(
+        items=[VoltageReadingRead.model_validate(r) for r in rows],
+        total=total,
+        limit=page.limit,
+        offset=page.offset,
+    )
+
+
+@router.get("/position-ages", response_model=PositionAgesPage)
+def list_position_ages(
+    session: SessionDep,
+    _: ReadKey,
+    page: PageDep,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    fixture_id: int | None = None,
+    at: Annotated[datetime | None, Query(description="Moment (default now).")] = None,
+) -> PositionAgesPage:
+    """Each lamp position's age, starts and operating voltage (with its source), by id."""
+    if site_id is None and area_id is None and fixture_id is None:
+        raise Invalid(
+            "Give site_id, area_id or fixture_id.",
+            errors=[{"field": "site_id", "in": "query", "message": "a scope is required"}],
+        )
+    if at is not None and at.tzinfo is None:
+        at = at.replace(tzinfo=UTC)
+    ages = position_ages(session, site_id=site_id, area_id=area_id, fixture_id=fixture_id, at=at)
+    sl = slice(page.offset, page.offset + page.limit)
+    items = [
+        PositionAgeRead(
+            position_id=int(ages.position_id[i]),
+            fixture_id=int(ages.fixture_id[i]),
+            area_id=int(ages.area_id[i]),
+            site_id=int(ages.site_id[i]),
+            lamp_type_id=int(ages.lamp_type_id[i]),
+            lamp_installed_at=datetime.fromtimestamp(float(ages.installed_at_s[i]), UTC),
+            age_h=float(ages.age_h[i]),
+            starts=float(ages.starts[i]),
+            hours_per_start=None
+            if math.isnan(ages.hours_per_start[i])
+            else float(ages.hours_per_start[i]),
+            voltage_v=float(ages.voltage_v[i]),
+            voltage_source=str(ages.voltage_source[i]),
+            burned_out=bool(ages.burned_out[i]),
+            burn_h_per_week=float(ages.burn_h_per_week[i]),
+        )
+        for i in range(ages.size)[sl]
+    ]
+    return PositionAgesPage(
+        at=ages.at, items=items, total=ages.size, limit=page.limit, offset=page.offset
+    )
