@@ -151,10 +151,10 @@ def issue_orders(
         pos = load_positions(session, site_id=site.id, area_id=area_id, at=at)
         for plan in plan_areas(session, site, list(areas.values()), pos, at, None, cache):
             aid = plan.area.id
-            if aid in busy:
-                continue
             if (aid, GROUP) in existing:
                 result.already_there += 1
+                continue
+            if aid in busy:  # an earlier week's group order is still open
                 continue
             due_groups = [g for g in plan.groups if g.due_on is not None and g.due_on <= horizon]
             if whole_area:
