@@ -38,6 +38,10 @@ LAMP: dict[str, Any] = {
     "rated_life_h": 24000,
 }
 LAMP_CSV_HEADER = "code,technology,rated_watts,rated_volts,rated_life_h,rated_percentile\n"
+FIXTURE_CSV_HEADER = (
+    "site,area,tag,location,lamp_type,lamps_per_fixture,ballast_kind,measured_voltage_v,"
+    "installed_on,lamps_installed_at,lamp_hours_at_install,lamp_starts_at_install\n"
+)
 
 
 def table_counts(db: Session) -> dict[str, int]:
@@ -84,12 +88,19 @@ def world(db: Session) -> dict[str, Any]:
     )
     db.add(fixture)
     db.flush()
-    db.add_all(
+    positions = [
         LampPosition(fixture_id=fixture.id, position_no=n, lamp_installed_at=utcnow())
         for n in (1, 2)
-    )
+    ]
+    db.add_all(positions)
     db.commit()
-    return {"site": site.id, "area": area.id, "lamp": lamp.id, "fixture": fixture.id}
+    return {
+        "site": site.id,
+        "area": area.id,
+        "lamp": lamp.id,
+        "fixture": fixture.id,
+        "position": positions[0].id,
+    }
 
 
 Call = Callable[[TestClient, dict[str, str], dict[str, Any]], Response]
@@ -251,6 +262,105 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
         lambda c, h, w: c.delete(f"/api/v1/lamp-types/{w['lamp']}", headers=h),
         set(),
     ),
+    # The register: areas, fixtures and lamp positions
+    (
+        "area reached by a crane",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/areas",
+            json={"site_id": w["site"], "name": "Roof", "access_method": "crane"},
+            headers=h,
+        ),
+        {"access_method"},
+    ),
+    (
+        "area in an unknown site",
+        404,
+        lambda c, h, w: c.post(
+            "/api/v1/areas", json={"site_id": 987654, "name": "Roof"}, headers=h
+        ),
+        set(),
+    ),
+    (
+        "fixture with lamps_per_fixture as a word",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures",
+            json={
+                "area_id": w["area"],
+                "lamp_type_id": w["lamp"],
+                "tag": "A-02",
+                "lamps_per_fixture": "two",
+            },
+            headers=h,
+        ),
+        {"lamps_per_fixture"},
+    ),
+    (
+        "fixture without a tag",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures", json={"area_id": w["area"], "lamp_type_id": w["lamp"]}, headers=h
+        ),
+        {"tag"},
+    ),
+    (
+        "fixture in an unknown area",
+        404,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures",
+            json={"area_id": 987654, "lamp_type_id": w["lamp"], "tag": "A-09"},
+            headers=h,
+        ),
+        {"area_id"},
+    ),
+    (
+        "fixture with an unknown lamp type",
+        404,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures",
+            json={"area_id": w["area"], "lamp_type_id": 987654, "tag": "A-09"},
+            headers=h,
+        ),
+        {"lamp_type_id"},
+    ),
+    (
+        "duplicate fixture tag in the site",
+        409,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures",
+            json={
+                "area_id": w["area"],
+                "lamp_type_id": w["lamp"],
+                "tag": "A-01",
+                "ballast_kind": "electronic",
+            },
+            headers=h,
+        ),
+        set(),
+    ),
+    (
+        "fixture measured at 0 V",
+        422,
+        lambda c, h, w: c.patch(
+            f"/api/v1/fixtures/{w['fixture']}", json={"measured_voltage_v": 0}, headers=h
+        ),
+        {"measured_voltage_v"},
+    ),
+    (
+        "read an unknown fixture",
+        404,
+        lambda c, h, w: c.get("/api/v1/fixtures/987654", headers=h),
+        set(),
+    ),
+    (
+        "position with negative burn hours",
+        422,
+        lambda c, h, w: c.patch(
+            f"/api/v1/positions/{w['position']}", json={"hours_at_install": -1}, headers=h
+        ),
+        {"hours_at_install"},
+    ),
     # Bulk: one bad row among good ones writes nothing
     (
         "lamp type CSV with a bad row among good ones",
@@ -266,6 +376,47 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
             headers={**h, "content-type": "text/csv"},
         ),
         {"rated_watts"},
+    ),
+    (
+        "fixture CSV with a bad row among good ones",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures/import",
+            content=(
+                FIXTURE_CSV_HEADER
+                + "Tour Depot,Hall A,B-01,,TOUR-T8-36,2,electronic,,,,,\n"
+                + "Tour Depot,Hall A,B-02,,TOUR-T8-36,lots,electronic,,,,,\n"
+                + "Tour Depot,Hall A,B-03,,TOUR-T8-36,2,electronic,,,,,\n"
+            ).encode(),
+            headers={**h, "content-type": "text/csv"},
+        ),
+        {"lamps_per_fixture"},
+    ),
+    (
+        "fixture CSV naming an unknown lamp type and area",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures/import",
+            content=(
+                FIXTURE_CSV_HEADER
+                + "Tour Depot,Hall A,B-01,,NO-SUCH-LAMP,1,electronic,,,,,\n"
+                + "Tour Depot,Cellar,B-02,,TOUR-T8-36,1,electronic,,,,,\n"
+            ).encode(),
+            headers={**h, "content-type": "text/csv"},
+        ),
+        {"lamp_type", "area"},
+    ),
+    (
+        "fixture CSV repeating a stored tag",
+        409,
+        lambda c, h, w: c.post(
+            "/api/v1/fixtures/import",
+            content=(
+                FIXTURE_CSV_HEADER + "Tour Depot,Hall A,A-01,,TOUR-T8-36,1,electronic,,,,,\n"
+            ).encode(),
+            headers={**h, "content-type": "text/csv"},
+        ),
+        {"tag"},
     ),
     (
         "lamp type JSON upload repeating a code",
@@ -315,6 +466,9 @@ KEY_CASES: list[tuple[str, int, str, str, str]] = [
     ("not a bearer header", 401, "basic", "GET", "/api/v1/sites"),
     ("read key writes a site", 403, "read", "POST", "/api/v1/sites"),
     ("read key deletes a lamp type", 403, "read", "DELETE", "/api/v1/lamp-types/{lamp}"),
+    ("read key deletes a fixture", 403, "read", "DELETE", "/api/v1/fixtures/{fixture}"),
+    ("read key imports fixtures", 403, "read", "POST", "/api/v1/fixtures/import"),
+    ("revoked-looking key reads fixtures", 401, "wrong", "GET", "/api/v1/fixtures"),
     ("write key lists API keys", 403, "write", "GET", "/api/v1/keys"),
     ("write key makes an API key", 403, "write", "POST", "/api/v1/keys"),
     ("read key imports lamp types", 403, "read", "POST", "/api/v1/lamp-types/import"),
@@ -344,6 +498,9 @@ def test_missing_wrong_and_underscoped_keys_write_nothing(
         "/api/v1/sites": SITE | {"name": "Sneaky"},
         "/api/v1/keys": {"name": "sneaky", "scope": "admin"},
         "/api/v1/lamp-types/import": [LAMP | {"code": "SNEAKY"}],
+        "/api/v1/fixtures/import": [
+            {"site": "Tour Depot", "area": "Hall A", "tag": "SNEAKY", "lamp_type": "TOUR-T8-36"}
+        ],
     }
     before = table_counts(db)
     r = client.request(

@@ -229,15 +229,11 @@ def test_demo_key_lists_the_demo_fixtures(db: Session, client: TestClient, tmp_p
     db.commit()
     assert key == summary.key
     headers = {"Authorization": f"Bearer {key}"}
-    if "/api/v1/fixtures" in client.app.openapi()["paths"]:  # type: ignore[attr-defined]
-        r = client.get("/api/v1/fixtures?limit=5", headers=headers)
-        assert r.status_code == 200, r.text
-        assert r.json()["total"] == len(_csv(files.FIXTURES))
-        tags = {row["tag"] for row in _csv(files.FIXTURES)}
-        assert {item["tag"] for item in r.json()["items"]} <= tags
-    else:  # until the fixtures routes land: the demo sites
-        r = client.get("/api/v1/sites", headers=headers)
-        assert r.status_code == 200 and r.json()["total"] == 3
+    r = client.get("/api/v1/fixtures?limit=5", headers=headers)
+    assert r.status_code == 200, r.text
+    assert r.json()["total"] == len(_csv(files.FIXTURES))
+    tags = {row["tag"] for row in _csv(files.FIXTURES)}
+    assert {item["tag"] for item in r.json()["items"]} <= tags
     assert client.get("/api/v1/keys", headers=headers).status_code == 200  # admin scope
 
 
