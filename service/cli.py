@@ -11,6 +11,7 @@ from sqlalchemy.orm import Session
 
 from service.config import get_settings
 from service.db.session import session_factory
+from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
 
@@ -141,6 +142,7 @@ def build_parser() -> argparse.ArgumentParser:
 EXTRA_COMMANDS: list[Callable[[argparse._SubParsersAction[argparse.ArgumentParser]], None]] = []
 EXTRA_COMMANDS.append(seed_cli.register)
 EXTRA_COMMANDS.append(runs_cli.register)
+EXTRA_COMMANDS.append(register_cli.register)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -199,16 +199,17 @@ def parse_json(data: bytes | str, columns: Collection[str] | None = None) -> lis
 
 def parse_rows(body: RawBody, columns: Collection[str] | None = None) -> list[Row]:
     """Parse an upload by its media type: text/csv or application/json (415 otherwise)."""
-    if body.media_type in JSON_TYPES or body.media_type.endswith("+json"):
+    media = body.media_type.split(";")[0].strip().lower()
+    if media in JSON_TYPES or media.endswith("+json"):
         return parse_json(body.data, columns)
-    if body.media_type in CSV_TYPES:
+    if media in CSV_TYPES:
         try:
             text = body.data.decode("utf-8-sig")
         except UnicodeDecodeError as exc:
             raise Invalid(f"The CSV upload must be UTF-8 text: {exc}.") from None
         return parse_csv(text, columns)
     raise UnsupportedMediaType(
-        f"Send the rows as text/csv or application/json, not '{body.media_type or 'nothing'}'."
+        f"Send the rows as text/csv or application/json, not '{media or 'nothing'}'."
     )
 
 

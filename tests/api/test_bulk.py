@@ -1,0 +1,96 @@
+"""The shared CSV/JSON upload helper: parsing, row numbers, row errors, writers."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from service.api.bulk import (
+    RawBody,
+    RowErrors,
+    UnsupportedMediaType,
+    as_bool,
+    parse_rows,
+    to_csv,
+    to_json,
+)
+from service.api.errors import Conflict, Invalid, TooLarge
+
+
+def test_csv_rows_are_numbered_as_lines_of_the_file() -> None:
+    text = "\ufeffa,b\n1, x \n\n,\n3,\n"
+    rows = parse_rows(RawBody(text.encode(), "text/csv"), ["a", "b"])
+    # Line 3 is blank and line 4 has only empty cells: skipped, numbers keep counting.
+    assert [(r.number, r.data) for r in rows] == [
+        (2, {"a": "1", "b": "x"}),
+        (5, {"a": "3", "b": None}),
+    ]
+
+
+def test_quoted_cells_with_commas_and_quotes() -> None:
+    text = 'a,b\n"x, y","say ""hi"""\n'
+    (row,) = parse_rows(RawBody(text.encode(), "text/csv; charset=utf-8"))
+    assert row.data == {"a": "x, y", "b": 'say "hi"'}
+
+
+def test_json_rows_are_numbered_from_one() -> None:
+    rows = parse_rows(RawBody(json.dumps([{"a": 1}, {"a": 2}]).encode(), "application/json"))
+    assert [(r.number, r.data["a"]) for r in rows] == [(1, 1), (2, 2)]
+
+
+@pytest.mark.parametrize(
+    ("body", "media"),
+    [
+        (b"a,b\n1,2,3\n", "text/csv"),  # more cells than columns
+        (b"a,a\n1,2\n", "text/csv"),  # a column twice
+        (b"a,zz\n1,2\n", "text/csv"),  # unknown column
+        (b"", "text/csv"),
+        (b"\xff\xfe", "text/csv"),
+        (b'{"a": 1}', "application/json"),
+        (b"[1, 2]", "application/json"),
+        (b'[{"zz": 1}]', "application/json"),
+        (b"[", "application/json"),
+    ],
+)
+def test_bad_uploads_are_422(body: bytes, media: str) -> None:
+    with pytest.raises(Invalid):
+        parse_rows(RawBody(body, media), ["a", "b"])
+
+
+def test_other_media_types_are_415() -> None:
+    with pytest.raises(UnsupportedMediaType):
+        parse_rows(RawBody(b"<a/>", "application/xml"))
+
+
+def test_row_limit_is_413(monkeypatch: pytest.MonkeyPatch) -> None:
+    from service.config import get_settings
+
+    monkeypatch.setattr(get_settings(), "max_bulk_rows", 2)
+    with pytest.raises(TooLarge):
+        parse_rows(RawBody(b"a\n1\n2\n3\n", "text/csv"))
+
+
+def test_row_errors_cap_sort_and_kind() -> None:
+    errors = RowErrors(cap=3)
+    for row in (9, 4, 7, 5):
+        errors.add(row, "x", "bad")
+    with pytest.raises(Invalid) as info:
+        errors.raise_if_any()
+    exc = info.value
+    assert [e["row"] for e in exc.errors or []] == [4, 7, 9]  # first 3 kept, sorted
+    assert exc.extra["error_count"] == 4 and exc.extra["bad_rows"] == 4
+    clash = RowErrors()
+    clash.add(2, "tag", "exists", conflict=True)
+    with pytest.raises(Conflict):
+        clash.raise_if_any()
+    RowErrors().raise_if_any()  # nothing to raise
+
+
+def test_writers_and_bool_cells() -> None:
+    rows = [{"a": [[1, 2]], "b": None, "c": True}]
+    assert to_csv(["a", "b", "c"], rows) == 'a,b,c\n"[[1,2]]",,true\n'
+    assert json.loads(to_json(["a", "c"], rows)) == [{"a": [[1, 2]], "c": True}]
+    assert as_bool("Yes") and not as_bool("0")
+    with pytest.raises(ValueError):
+        as_bool("maybe")
