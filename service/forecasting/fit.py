@@ -130,15 +130,14 @@ def fit_field(
 
 def curves_in_use(session: Session, models: dict[int, LampModel]) -> dict[int, CurveInUse]:
     """The curve each lamp type's forecasts use (all sites); catalogue without failures."""
-    counts = dict(
+    rows = list(
         session.execute(
             select(LampRemoval.lamp_type_id, func.count())
             .where(LampRemoval.lamp_type_id.in_(list(models)), LampRemoval.failed.is_(True))
             .group_by(LampRemoval.lamp_type_id)
-        )
-        .tuples()
-        .all()
+        ).all()
     )
+    counts = {int(r[0]): int(r[1]) for r in rows}
     out: dict[int, CurveInUse] = {}
     for type_id, n in counts.items():
         if n > 0:
