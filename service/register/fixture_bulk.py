@@ -8,16 +8,23 @@ in chunks elsewhere. Fixture ids are read back with one query by (site_id, tag).
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from datetime import UTC, date, datetime, time
+from datetime import UTC, datetime, time
 from typing import Any
 
 from sqlalchemy import Connection, Table, bindparam, delete, insert, select, update
 from sqlalchemy.orm import Session
 
 from service.api.bulk import Row, RowErrors
+from service.api.cells import (
+    CellError,
+    date_cell,
+    datetime_cell,
+    int_cell,
+    number_cell,
+    text_cell,
+)
 from service.catalogue.bulk import check_on_duplicate
 from service.catalogue.models import LampType
 from service.db.base import utcnow
@@ -55,64 +62,6 @@ class FixtureImportResult:
     positions_created: int
 
 
-class CellError(ValueError):
-    """A cell that cannot be read; the message says why."""
-
-
-# Cell readers: CSV gives text, JSON gives numbers/strings; None means an empty cell.
-
-
-def _text(v: Any, max_len: int, required: bool) -> str | None:
-    if v is None or v == "":
-        if required:
-            raise CellError("is required")
-        return None
-    s = str(v).strip() if not isinstance(v, str) else v.strip()
-    if not s:
-        if required:
-            raise CellError("is required")
-        return None
-    if len(s) > max_len:
-        raise CellError(f"is longer than {max_len} characters")
-    return s
-
-
-def _number(v: Any) -> float:
-    if isinstance(v, bool):
-        raise CellError("must be a number")
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        raise CellError(f"must be a number, not '{v}'") from None
-    if not math.isfinite(x):
-        raise CellError("must be a finite number")
-    return x
-
-
-def _int_in(v: Any, lo: int, hi: int) -> int:
-    x = _number(v)
-    if x != int(x):
-        raise CellError("must be a whole number")
-    if not lo <= x <= hi:
-        raise CellError(f"must lie in [{lo}, {hi}]")
-    return int(x)
-
-
-def _date(v: Any) -> date:
-    try:
-        return date.fromisoformat(str(v).strip())
-    except ValueError:
-        raise CellError(f"must be a date YYYY-MM-DD, not '{v}'") from None
-
-
-def _datetime(v: Any) -> datetime:
-    try:
-        dt = datetime.fromisoformat(str(v).strip())
-    except ValueError:
-        raise CellError(f"must be an ISO 8601 date-time, not '{v}'") from None
-    return dt.replace(tzinfo=UTC) if dt.tzinfo is None else dt.astimezone(UTC)
-
-
 @dataclass
 class _Good:
     """A row that passed the cell checks, with names still to resolve."""
@@ -144,7 +93,7 @@ def _read_row(row: Row, errors: RowErrors, now: datetime) -> _Good | None:
 
     def text(name: str, max_len: int, required: bool) -> str | None:
         try:
-            return _text(d.get(name), max_len, required)
+            return text_cell(d.get(name), max_len, required)
         except CellError as exc:
             errors.add(n, name, f"{name} {exc}")
             return None
@@ -154,32 +103,32 @@ def _read_row(row: Row, errors: RowErrors, now: datetime) -> _Good | None:
     tag = text("tag", 64, True)
     location = text("location", 300, False)
     lamp_type = text("lamp_type", 40, True)
-    lamps = cell("lamps_per_fixture", lambda v: _int_in(v, 1, 64), 1)
+    lamps = cell("lamps_per_fixture", lambda v: int_cell(v, 1, 64), 1)
     ballast = text("ballast_kind", 20, False)
     if ballast is not None and ballast not in BALLASTS:
         errors.add(n, "ballast_kind", f"ballast_kind must be one of: {', '.join(BALLASTS)}")
 
     def volts(v: Any) -> float:
-        x = _number(v)
+        x = number_cell(v)
         if not 0 < x <= 1000:
             raise CellError("must lie in (0, 1000] volts")
         return x
 
     def hours(v: Any) -> float:
-        x = _number(v)
+        x = number_cell(v)
         if not 0 <= x <= 1_000_000:
             raise CellError("must lie in [0, 1,000,000] hours")
         return x
 
     def count(v: Any) -> float:
-        x = _number(v)
+        x = number_cell(v)
         if x < 0:
             raise CellError("must be 0 or more")
         return x
 
     voltage = cell("measured_voltage_v", volts)
-    installed_on = cell("installed_on", _date)
-    installed_at = cell("lamps_installed_at", _datetime)
+    installed_on = cell("installed_on", date_cell)
+    installed_at = cell("lamps_installed_at", datetime_cell)
     lamp_hours = cell("lamp_hours_at_install", hours, 0.0)
     lamp_starts = cell("lamp_starts_at_install", count, 0.0)
     if installed_at is not None and installed_at > now + FUTURE_SLACK:

@@ -94,3 +94,35 @@ def test_writers_and_bool_cells() -> None:
     assert as_bool("Yes") and not as_bool("0")
     with pytest.raises(ValueError):
         as_bool("maybe")
+
+
+def test_cell_readers() -> None:
+    from datetime import UTC, date, datetime
+
+    from service.api.cells import (
+        CellError,
+        date_cell,
+        datetime_cell,
+        int_cell,
+        number_cell,
+        text_cell,
+    )
+
+    assert text_cell("  a ", 5) == "a" and text_cell(" ", 5) is None
+    assert int_cell("3", 1, 4) == 3 and int_cell(2.0, 1, 4) == 2
+    assert number_cell("1e3") == 1000.0
+    assert date_cell("2024-02-29") == date(2024, 2, 29)
+    assert datetime_cell("2024-01-01T02:00:00+02:00") == datetime(2024, 1, 1, tzinfo=UTC)
+    assert datetime_cell("2024-01-01 00:00") == datetime(2024, 1, 1, tzinfo=UTC)
+    for call in (
+        lambda: text_cell("", 5, required=True),
+        lambda: text_cell("toolong", 3),
+        lambda: int_cell("2.5", 1, 4),
+        lambda: int_cell("9", 1, 4),
+        lambda: number_cell("nan"),
+        lambda: number_cell(True),
+        lambda: date_cell("2023-02-30"),
+        lambda: datetime_cell("noon"),
+    ):
+        with pytest.raises(CellError):
+            call()
