@@ -142,8 +142,7 @@ def read_scenario(directory: Path | None = None, today: date | None = None) -> S
             values["installed_on"] = values["installed_on"] + shift
         values["lamps_installed_at"] = _when(row["lamps_installed_at"], shift)
         fixtures.append(
-            {"site": row["site"], "area": row["area"], "lamp_type_code": row["lamp_type"]}
-            | values
+            {"site": row["site"], "area": row["area"], "lamp_type_code": row["lamp_type"]} | values
         )
 
     removals = [

@@ -51,7 +51,8 @@ def test_counts_match_the_data_files(db: Session, tmp_path: Path) -> None:
         "lamp_types": len(json.loads((SEED / files.LAMP_TYPES).read_text())),
         "fixtures": len(fixtures),
         "lamp_positions": sum(int(f["lamps_per_fixture"]) for f in fixtures),
-        "lamp_removals": len(_csv(files.REMOVALS)),
+        # Past removals, plus the failure record each open burnout report writes.
+        "lamp_removals": len(_csv(files.REMOVALS)) + len(_csv(files.BURNOUTS)),
         "burnout_reports": len(_csv(files.BURNOUTS)),
     }
     for table, n in expected.items():
@@ -117,6 +118,11 @@ def test_references_resolve(db: Session, tmp_path: Path) -> None:
     dark = db.scalars(select(LampPosition).where(LampPosition.burned_out_at.is_not(None))).all()
     assert {r.position_id for r in reports} == {p.id for p in dark}
     assert all(r.status == "open" for r in reports)
+    # Each report carries one failure record of the dark lamp, at the report's time.
+    for r in reports:
+        failure = db.get(LampRemoval, r.removal_id)
+        assert failure is not None and failure.failed and failure.position_id == r.position_id
+        assert failure.removed_at == r.reported_at and failure.burn_hours == r.burn_hours
     # A lamp is never removed before it went in, and none went in after now.
     removals = db.scalars(select(LampRemoval)).all()
     assert all(r.installed_at < r.removed_at for r in removals)
@@ -172,7 +178,7 @@ def test_removal_hours_are_normalised_to_rated_voltage(db: Session, tmp_path: Pa
 
 
 def test_timestamps_shift_with_the_load_day(db: Session, tmp_path: Path) -> None:
-    day = _as_of() + timedelta(days=10)
+    day = _as_of() - timedelta(days=10)
     load_demo(db, key_file=tmp_path / "key.txt", today=day)
     db.commit()
     swapped = {(r["site"], r["tag"]) for r in _csv(files.REMOVALS)}
@@ -180,9 +186,9 @@ def test_timestamps_shift_with_the_load_day(db: Session, tmp_path: Path) -> None
     fx = db.scalar(select(Fixture).where(Fixture.tag == first["tag"]))
     assert fx is not None and fx.installed_on == date.fromisoformat(
         first["installed_on"]
-    ) + timedelta(days=10)
+    ) - timedelta(days=10)
     stamped = datetime.fromisoformat(first["lamps_installed_at"].replace("Z", "+00:00"))
-    assert [p.lamp_installed_at for p in fx.positions] == [stamped + timedelta(days=10)] * len(
+    assert [p.lamp_installed_at for p in fx.positions] == [stamped - timedelta(days=10)] * len(
         fx.positions
     )
 
