@@ -9,6 +9,7 @@ the same after the request as before it.
 from __future__ import annotations
 
 from collections.abc import Callable
+from datetime import timedelta
 from typing import Any
 
 import pytest
@@ -20,7 +21,10 @@ from sqlalchemy.orm import Session
 import service.db.models  # noqa: F401  (every domain's tables on the metadata)
 from service.catalogue.models import LampType
 from service.db.base import Base, utcnow
+from service.events import service as events
 from service.register.models import Area, Fixture, LampPosition, Site
+from service.workorders import service as workorders
+from service.workorders.schemas import WorkOrderCreate
 
 SITE: dict[str, Any] = {
     "name": "Tour Depot",
@@ -70,7 +74,7 @@ def error_fields(body: dict[str, Any]) -> set[str]:
 
 @pytest.fixture()
 def world(db: Session) -> dict[str, Any]:
-    """Two sites, an area, a lamp type and a fixture with two lamps, committed."""
+    """Two sites, an area, a lamp type, a fixture with one lit and one dark lamp, a draft order."""
     site = Site(**SITE)
     lamp = LampType(**LAMP)
     db.add_all([site, lamp, Site(**SITE | {"name": "Second"})])
@@ -88,11 +92,16 @@ def world(db: Session) -> dict[str, Any]:
     )
     db.add(fixture)
     db.flush()
+    installed = utcnow() - timedelta(days=60)
     positions = [
-        LampPosition(fixture_id=fixture.id, position_no=n, lamp_installed_at=utcnow())
+        LampPosition(fixture_id=fixture.id, position_no=n, lamp_installed_at=installed)
         for n in (1, 2)
     ]
     db.add_all(positions)
+    db.flush()
+    now = utcnow() - timedelta(minutes=1)
+    events.report_burnout(db, position_id=positions[1].id, reported_at=now - timedelta(days=1))
+    order = workorders.create(db, WorkOrderCreate(area_id=area.id, kind="group_relamp"))
     db.commit()
     return {
         "site": site.id,
@@ -100,6 +109,9 @@ def world(db: Session) -> dict[str, Any]:
         "lamp": lamp.id,
         "fixture": fixture.id,
         "position": positions[0].id,
+        "dark_position": positions[1].id,
+        "order": order.id,
+        "now": now.isoformat(),
     }
 
 
@@ -361,6 +373,169 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
         ),
         {"hours_at_install"},
     ),
+    # Readings and events
+    (
+        "negative burn hours",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/burn-hours",
+            json={
+                "fixture_id": w["fixture"],
+                "period_start": "2026-01-05T00:00:00Z",
+                "period_end": "2026-01-12T00:00:00Z",
+                "hours": -4,
+            },
+            headers=h,
+        ),
+        {"hours"},
+    ),
+    (
+        "burn hours for an unknown fixture (a row error, like the bulk upload)",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/burn-hours",
+            json={
+                "fixture_id": 987654,
+                "period_start": "2026-01-05T00:00:00Z",
+                "period_end": "2026-01-12T00:00:00Z",
+                "hours": 40,
+            },
+            headers=h,
+        ),
+        {"fixture_id"},
+    ),
+    (
+        "voltage reading of 1500 V",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/voltage-readings",
+            json={"fixture_id": w["fixture"], "measured_at": "2026-01-05T10:00:00Z", "volts": 1500},
+            headers=h,
+        ),
+        {"volts"},
+    ),
+    (
+        "voltage reading without a time",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/voltage-readings", json={"fixture_id": w["fixture"], "volts": 231}, headers=h
+        ),
+        {"measured_at"},
+    ),
+    (
+        "burnout of an unknown position",
+        404,
+        lambda c, h, w: c.post(
+            "/api/v1/burnout-reports",
+            json={"position_id": 987654, "reported_at": "2026-01-05T10:00:00Z"},
+            headers=h,
+        ),
+        set(),
+    ),
+    (
+        "burnout reported in the future",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/burnout-reports",
+            json={"position_id": w["position"], "reported_at": "2999-01-01T00:00:00Z"},
+            headers=h,
+        ),
+        {"reported_at"},
+    ),
+    (
+        "burnout of a lamp already reported dark",
+        409,
+        lambda c, h, w: c.post(
+            "/api/v1/burnout-reports",
+            json={"position_id": w["dark_position"], "reported_at": w["now"]},
+            headers=h,
+        ),
+        set(),
+    ),
+    (
+        "removal for a reason the service does not know",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/lamp-removals",
+            json={
+                "position_id": w["position"],
+                "removed_at": w["now"],
+                "failed": False,
+                "reason": "bored",
+            },
+            headers=h,
+        ),
+        {"reason"},
+    ),
+    (
+        "forecast of an unknown site",
+        404,
+        lambda c, h, w: c.get("/api/v1/forecasts/sites/987654", headers=h),
+        set(),
+    ),
+    (
+        "curve without a lamp type and at negative volts",
+        422,
+        lambda c, h, w: c.get("/api/v1/forecasts/curve?voltage_v=-5", headers=h),
+        {"lamp_type_id", "voltage_v"},
+    ),
+    # Plans, work orders and runs
+    (
+        "what-if plan with a light floor above 1",
+        422,
+        lambda c, h, w: c.post(
+            f"/api/v1/areas/{w['area']}/relamp-plan", json={"light_floor": 1.5}, headers=h
+        ),
+        {"light_floor"},
+    ),
+    (
+        "plan of an unknown area",
+        404,
+        lambda c, h, w: c.get("/api/v1/areas/987654/relamp-plan", headers=h),
+        set(),
+    ),
+    (
+        "work order of an unknown kind",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/work-orders", json={"area_id": w["area"], "kind": "urgent"}, headers=h
+        ),
+        {"kind"},
+    ),
+    (
+        "work order for an unknown area",
+        404,
+        lambda c, h, w: c.post(
+            "/api/v1/work-orders", json={"area_id": 987654, "kind": "group_relamp"}, headers=h
+        ),
+        set(),
+    ),
+    (
+        "issue an unknown work order",
+        404,
+        lambda c, h, w: c.post("/api/v1/work-orders/987654/issue", headers=h),
+        set(),
+    ),
+    (
+        "start a work order that was never issued",
+        409,
+        lambda c, h, w: c.post(f"/api/v1/work-orders/{w['order']}/start", headers=h),
+        set(),
+    ),
+    (
+        "weekly run of an unknown site",
+        404,
+        lambda c, h, w: c.post("/api/v1/sites/987654/runs", headers=h),
+        set(),
+    ),
+    (
+        "weekly run for a week written wrong",
+        422,
+        lambda c, h, w: c.post(
+            f"/api/v1/sites/{w['site']}/runs", json={"week": "week 49"}, headers=h
+        ),
+        {"week"},
+    ),
     # Bulk: one bad row among good ones writes nothing
     (
         "lamp type CSV with a bad row among good ones",
@@ -417,6 +592,34 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
             headers={**h, "content-type": "text/csv"},
         ),
         {"tag"},
+    ),
+    (
+        "burn-hour CSV with a bad row among good ones",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/burn-hours/bulk",
+            content=(
+                "fixture_id,period_start,period_end,hours\n"
+                f"{w['fixture']},2026-01-05T00:00:00Z,2026-01-12T00:00:00Z,40\n"
+                f"{w['fixture']},2026-01-12T00:00:00Z,2026-01-19T00:00:00Z,many\n"
+                f"{w['fixture']},2026-01-19T00:00:00Z,2026-01-26T00:00:00Z,40\n"
+            ).encode(),
+            headers={**h, "content-type": "text/csv"},
+        ),
+        {"hours"},
+    ),
+    (
+        "voltage JSON upload with a bad row among good ones",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/voltage-readings/bulk",
+            json=[
+                {"fixture_id": w["fixture"], "measured_at": "2026-01-05T10:00:00Z", "volts": 231},
+                {"fixture_id": w["fixture"], "measured_at": "2026-01-06T10:00:00Z", "volts": -1},
+            ],
+            headers=h,
+        ),
+        {"volts"},
     ),
     (
         "lamp type JSON upload repeating a code",
