@@ -22,16 +22,20 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
 
 from service.catalogue.model import LampModel
 from service.reliability.conditions import switching_life_factor, voltage_effect
+from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.replacement import BlockPlan, plan_block_replacement
 from service.reliability.weibull import Weibull
 
 DEFAULT_RUPTURE_FRACTION = 0.7  # [practice] common practice: group relamp metal halide near 70 %
+HORIZON_MEANS = 3.0  # longest interval considered, in mean lives (the core's default)
+RENEWAL_STEPS = 2000  # renewal grid steps (the core's default)
 _LN2 = math.log(2.0)
 
 
@@ -157,10 +161,30 @@ def scaled_life(model: LampModel, cond: Conditions) -> tuple[Weibull, float, flo
     return Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve.life_factor, swf, warnings
 
 
+@lru_cache(maxsize=512)
+def _unit_renewal(shape: float, horizon_ratio: float, n: int) -> RenewalCurve:
+    return weibull_renewal(shape, 1.0, horizon_ratio, n)
+
+
+def weibull_renewal_scaled(life: Weibull, horizon_h: float, n: int = RENEWAL_STEPS) -> RenewalCurve:
+    """The renewal curve of a Weibull life, from a cached unit-scale curve of the same shape.
+
+    F(t) depends on t/eta only, so on the grid t_k = k * horizon / n the renewal values M(t_k)
+    are those of the eta = 1 curve on t_k / eta, and the density scales by 1/eta. With the
+    horizon a fixed multiple of the mean life this equals weibull_renewal(shape, scale,
+    horizon, n) to rounding, and areas differing only in voltage share one solve.
+    """
+    unit = _unit_renewal(life.shape, horizon_h / life.scale, n)
+    return RenewalCurve(
+        t=unit.t * life.scale, m=unit.m, density=unit.density / life.scale, cdf=unit.cdf
+    )
+
+
 def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
     """Cheapest group interval for one lamp type under the area's caps (numeric core)."""
     life, vf, swf, warnings = scaled_life(model, cond)
-    horizon = 3.0 * life.mean()
+    mean_h = life.mean()
+    horizon = HORIZON_MEANS * mean_h
     floor_h = None
     if cond.light_floor is not None:
         h = light_floor_hours(model, life, cond.light_floor, horizon)
@@ -168,10 +192,17 @@ def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPl
     cap_h = None
     if model.rupture_risk:
         cap_h = cond.rupture_fraction * min(model.rated_life_h, model.rated_life_h * vf * swf)
+    # The core's own grid for a Weibull (horizon 3 mean lives, RENEWAL_STEPS steps), solved
+    # once per shape; a rupture cap past that horizon takes the core's Weibull path instead.
+    # (With a curve the burnout ceiling hours come from F on the grid, linearly interpolated.)
+    life_in: Weibull | RenewalCurve = life
+    if cap_h is None or cap_h <= horizon:
+        life_in = weibull_renewal_scaled(life, horizon)
     plan = plan_block_replacement(
-        life,
+        life_in,
         costs.c_group,
         costs.c_spot,
+        mean_life_h=mean_h,
         light_floor_h=floor_h,
         burnout_ceiling=cond.burnout_ceiling,
         rupture_cap_h=cap_h,
