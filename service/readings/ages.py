@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from sqlalchemy import ColumnElement, or_, select
+from sqlalchemy import ColumnElement, Float, cast, func, or_, select
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
@@ -134,36 +134,35 @@ def position_ages(
     at = utcnow() if at is None else at
     t_at = at.timestamp()
     cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
-    rows = session.execute(
+    conn = session.connection()
+    dialect = conn.dialect.name
+    matrix = _matrix(
+        session,
         select(
             LampPosition.id,
             LampPosition.fixture_id,
             Fixture.area_id,
             Fixture.site_id,
             Fixture.lamp_type_id,
-            LampPosition.lamp_installed_at,
+            epoch(LampPosition.lamp_installed_at, dialect),
             LampPosition.hours_at_install,
             LampPosition.starts_at_install,
-            LampPosition.burned_out_at,
+            epoch(LampPosition.burned_out_at, dialect),
             Fixture.measured_voltage_v,
         )
         .join(Fixture, Fixture.id == LampPosition.fixture_id)
         .where(*cond)
-        .order_by(LampPosition.id)
-    ).all()
-    if not rows:
+        .order_by(LampPosition.id),
+        10,
+    )
+    if matrix.shape[0] == 0:
         return empty_ages(at)
-    cols = list(zip(*rows, strict=True))
-    pos_id = np.array(cols[0], dtype=np.int64)
-    fix_id = np.array(cols[1], dtype=np.int64)
-    area_of = np.array(cols[2], dtype=np.int64)
-    site_of = np.array(cols[3], dtype=np.int64)
-    type_of = np.array(cols[4], dtype=np.int64)
-    t0 = _ts(list(cols[5]))
-    h0 = _f(list(cols[6]))
-    s0 = _f(list(cols[7]))
-    dark_at = _ts(list(cols[8]))
-    fix_v = _f(list(cols[9]))
+    pos_id, fix_id, area_of, site_of, type_of = (matrix[:, j].astype(np.int64) for j in range(5))
+    t0 = matrix[:, 5]
+    h0 = matrix[:, 6]
+    s0 = matrix[:, 7]
+    dark_at = matrix[:, 8]
+    fix_v = matrix[:, 9]
 
     # Areas (schedule) and their sites (nominal volts): a few rows.
     fixture_scope = select(Fixture.id).join(LampPosition, LampPosition.fixture_id == Fixture.id)
@@ -224,12 +223,12 @@ def position_ages(
     bkey = _target_keys(fix_id, area_of, own)
     since = datetime.fromtimestamp(t_min - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo)
     since = min(since, datetime.fromtimestamp(t_at - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo))
-    rec = session.execute(
+    rec = _matrix(
+        session,
         select(
-            BurnHourRecord.fixture_id,
-            BurnHourRecord.area_id,
-            BurnHourRecord.period_start,
-            BurnHourRecord.period_end,
+            func.coalesce(BurnHourRecord.fixture_id * 2 + 1, BurnHourRecord.area_id * 2),
+            epoch(BurnHourRecord.period_start, dialect),
+            epoch(BurnHourRecord.period_end, dialect),
             BurnHourRecord.hours,
             BurnHourRecord.starts,
         ).where(
@@ -239,8 +238,9 @@ def position_ages(
             ),
             BurnHourRecord.period_end > since,
             BurnHourRecord.period_start < at,
-        )
-    ).all()
+        ),
+        5,
+    )
     timeline = _timeline(rec, base)
     clock = Clock.for_keys(timeline, bkey, rate_h, rate_starts)
 
@@ -295,17 +295,27 @@ def position_ages(
     )
 
 
-def _timeline(rec: Any, base: float) -> Timeline:
-    if rec:
-        rc = list(zip(*rec, strict=True))
-        fid = np.array([-1 if v is None else v for v in rc[0]], dtype=np.int64)
-        aid = np.array([-1 if v is None else v for v in rc[1]], dtype=np.int64)
-        key = _target_keys(fid, aid, fid >= 0)
-        return Timeline.build(
-            key, _ts(list(rc[2])), _ts(list(rc[3])), _f(list(rc[4])), _f(list(rc[5])), base
-        )
-    z = np.zeros(0)
-    return Timeline.build(np.zeros(0, dtype=np.int64), z, z, z, z, base)
+def _timeline(rec: FloatArray, base: float) -> Timeline:
+    return Timeline.build(
+        rec[:, 0].astype(np.int64), rec[:, 1], rec[:, 2], rec[:, 3], rec[:, 4], base
+    )
+
+
+def epoch(col: Any, dialect: str) -> ColumnElement[float]:
+    """A timestamp column as epoch seconds (float) computed by the database."""
+    if dialect == "postgresql":
+        return cast(func.extract("epoch", col), Float)
+    # SQLite keeps UTC text; julianday counts days from noon, 4714 BC.
+    return (func.julianday(col) - 2440587.5) * 86400.0
+
+
+def _matrix(session: Session, stmt: Any, width: int) -> FloatArray:
+    """Run a numeric query through Core and return its rows as a float matrix (NULL = NaN)."""
+    rows = session.connection().execute(stmt).all()
+    if not rows:
+        return np.zeros((0, width))
+    # Plain tuples: numpy probing Row objects for array attributes is slow.
+    return np.array(list(map(tuple, rows)), dtype=np.float64)
 
 
 def _measured_rate(timeline: Timeline, key: IntArray, t_at: float) -> FloatArray:
@@ -337,28 +347,29 @@ def _voltages(
     n = fix_id.size
     volts = np.full(n, np.nan)
     source = np.full(n, "", dtype="<U17")
-    rows = session.execute(
+    dialect = session.connection().dialect.name
+    m = _matrix(
+        session,
         select(
-            VoltageReading.fixture_id,
-            VoltageReading.area_id,
-            VoltageReading.measured_at,
+            func.coalesce(VoltageReading.fixture_id * 2 + 1, VoltageReading.area_id * 2),
+            epoch(VoltageReading.measured_at, dialect),
             VoltageReading.volts,
+            func.coalesce(VoltageReading.fixture_id, -1),
         ).where(
             or_(
                 VoltageReading.fixture_id.in_(fixture_scope),
                 VoltageReading.area_id.in_(area_scope),
             ),
             VoltageReading.measured_at <= at,
-        )
-    ).all()
-    if not rows:
+        ),
+        4,
+    )
+    if m.shape[0] == 0:
         return volts, source
-    rc = list(zip(*rows, strict=True))
-    rf = np.array([-1 if v is None else v for v in rc[0]], dtype=np.int64)
-    ra = np.array([-1 if v is None else v for v in rc[1]], dtype=np.int64)
-    rkey = _target_keys(rf, ra, rf >= 0)
-    rt = _ts(list(rc[2]))
-    rv = np.array(rc[3], dtype=np.float64)
+    rkey = m[:, 0].astype(np.int64)
+    rt = m[:, 1]
+    rv = m[:, 2]
+    rf = m[:, 3].astype(np.int64)
     order = np.lexsort((rt, rkey))
     rkey, rt, rv = rkey[order], rt[order], rv[order]
     keys, lo, counts = np.unique(rkey, return_index=True, return_counts=True)
@@ -370,8 +381,14 @@ def _voltages(
     last_idx = lo[r] + counts[r] - 1
     latest = np.where(has, rv[last_idx], np.nan)
 
-    # One (position, reading) pair per reading of the position's voltage target.
-    pos = np.nonzero(has)[0]
+    # One (position, reading) pair per reading of the position's voltage target, computed
+    # once per group of positions sharing target, clock and lamp life (then copied back).
+    cand = np.nonzero(has)[0]
+    sig = np.column_stack(
+        (vkey[cand], clock.key[cand], clock.rate_h[cand], t_start[cand], t_end[cand])
+    )
+    _, first_of, inverse = np.unique(sig, axis=0, return_index=True, return_inverse=True)
+    pos = cand[first_of]
     if pos.size:
         cnt = counts[r[pos]]
         pair_pos = np.repeat(pos, cnt)
@@ -391,10 +408,11 @@ def _voltages(
             w[live] = np.maximum(hb - ha, 0.0)
         wsum = np.bincount(pair_pos, weights=w, minlength=n)
         vsum = np.bincount(pair_pos, weights=w * rv[j], minlength=n)
-        weighted = wsum > 0
+        rep = pos[np.ravel(inverse)]  # each candidate's group representative
+        weighted = wsum[rep] > 0
         with np.errstate(divide="ignore", invalid="ignore"):
-            volts = np.where(weighted, vsum / wsum, np.nan)
-        source = np.where(weighted, "readings_weighted", "").astype("<U17")
+            volts[cand] = np.where(weighted, vsum[rep] / wsum[rep], np.nan)
+        source[cand] = np.where(weighted, "readings_weighted", "")
     fallback = has & np.isnan(volts)
     volts = np.where(fallback, latest, volts)
     source = np.where(fallback, "latest_reading", source).astype("<U17")

@@ -119,11 +119,8 @@ def _flag(
     *,
     conflict: bool = False,
 ) -> None:
-    for i in np.nonzero(mask)[0][: errors.cap]:
+    for i in np.nonzero(mask)[0].tolist():
         errors.add(int(c.numbers[i]), field, message, conflict=conflict)
-    extra = int(mask.sum()) - errors.cap
-    if extra > 0:
-        errors.count += extra
 
 
 def _last_per_target(
@@ -317,12 +314,12 @@ def ingest_burn_hours(session: Session, c: Columns, *, now: float | None = None)
     prev_end = np.full(n, -np.inf)
     prev_end[1:] = end[order][:-1]
     stored_end = np.array([last_end.get(int(x), -np.inf) for x in k.tolist()])
-    bound = np.where(same, prev_end, stored_end)
-    overlap = start[order] < bound - 1e-3
+    in_upload = same & (start[order] < prev_end - 1e-3)
+    with_stored = start[order] < stored_end - 1e-3
     _flag(
         errors,
         c,
-        _scatter(n, order, overlap & same),
+        _scatter(n, order, in_upload & ~with_stored),
         "period_start",
         "overlaps another row of the upload for the same fixture or area",
         conflict=True,
@@ -330,7 +327,7 @@ def ingest_burn_hours(session: Session, c: Columns, *, now: float | None = None)
     _flag(
         errors,
         c,
-        _scatter(n, order, overlap & ~same),
+        _scatter(n, order, with_stored),
         "period_start",
         "overlaps burn hours already stored for this fixture or area",
         conflict=True,

@@ -1,0 +1,228 @@
+"""Time a whole-site forecast through the HTTP API: 100,000 lamp positions, database included.
+
+The site: 200 areas, 50,000 fixtures with 2 lamps each (3 lamp types), a year of daily
+area burn-hour records (73,000 rows) and a monthly voltage reading per area. The timed part
+is GET /api/v1/forecasts/sites/{id} through FastAPI's TestClient on a fresh app: every query,
+the position ages, fleet evaluation, per-position renewal and crossing dates. Scratch
+databases only (bench_forecast), never the test database.
+
+Run: python benchmarks/bench_forecast.py [sqlite|postgresql|both]
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import tempfile
+import time
+from datetime import UTC, datetime, timedelta
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+PG_ADMIN = "postgresql+psycopg://postgres@127.0.0.1:5432/postgres"
+PG_URL = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_forecast"
+N_AREAS = 200
+N_FIXTURES = 50_000
+LAMPS = 2
+RUNS = 3
+
+
+def prepare(url: str) -> None:
+    """Fresh schema by the migrations."""
+    from sqlalchemy import create_engine, text
+
+    if url.startswith("postgresql"):
+        admin = create_engine(PG_ADMIN, isolation_level="AUTOCOMMIT")
+        with admin.connect() as c:
+            c.execute(text("DROP DATABASE IF EXISTS bench_forecast"))
+            c.execute(text("CREATE DATABASE bench_forecast"))
+        admin.dispose()
+    from service.db.session import make_engine
+    from tests.conftest import migrate
+
+    eng = make_engine(url)
+    migrate(eng)
+    eng.dispose()
+
+
+def load(url: str) -> tuple[int, str]:
+    """Insert the site and its readings with Core executemany; returns (site id, API key)."""
+    from sqlalchemy import insert
+    from sqlalchemy.orm import Session
+
+    from service.catalogue.models import LampType
+    from service.db.session import make_engine
+    from service.keys import service as keys
+    from service.readings.models import BurnHourRecord, VoltageReading
+    from service.register.models import Area, Fixture, LampPosition, Site
+
+    eng = make_engine(url)
+    t0 = datetime(2025, 1, 1, tzinfo=UTC)
+    with Session(eng) as s:
+        site = Site(
+            name="Benchmark Campus",
+            time_zone="Europe/Lisbon",
+            nominal_voltage_v=230.0,
+            currency="EUR",
+            energy_price_per_kwh=0.2,
+            labour_rate_per_h=40.0,
+        )
+        s.add(site)
+        types = [
+            LampType(
+                code="B-INC",
+                technology="incandescent",
+                rated_watts=100,
+                rated_volts=230,
+                rated_life_h=1000.0,
+            ),
+            LampType(
+                code="B-T8",
+                technology="linear_fluorescent",
+                rated_watts=32,
+                rated_volts=230,
+                rated_life_h=24000.0,
+            ),
+            LampType(
+                code="B-MH",
+                technology="metal_halide",
+                rated_watts=250,
+                rated_volts=230,
+                rated_life_h=15000.0,
+            ),
+        ]
+        s.add_all(types)
+        s.flush()
+        s.execute(
+            insert(Area),
+            [
+                {
+                    "site_id": site.id,
+                    "name": f"Area {i:03d}",
+                    "hours_per_day": 10.0 + i % 10,
+                    "days_per_week": 5.0 + i % 3,
+                    "starts_per_day": 2.0,
+                    "light_floor": 0.8,
+                    "burnout_ceiling": 0.15,
+                }
+                for i in range(N_AREAS)
+            ],
+        )
+        area_ids = [a.id for a in s.query(Area).order_by(Area.id)]
+        s.execute(
+            insert(Fixture),
+            [
+                {
+                    "site_id": site.id,
+                    "area_id": area_ids[i % N_AREAS],
+                    "tag": f"F{i:06d}",
+                    "lamp_type_id": types[i % 3].id,
+                    "lamps_per_fixture": LAMPS,
+                    "ballast_kind": "none" if i % 3 == 0 else "electronic",
+                }
+                for i in range(N_FIXTURES)
+            ],
+        )
+        fixture_ids = [r[0] for r in s.query(Fixture.id).order_by(Fixture.id)]
+        s.execute(
+            insert(LampPosition),
+            [
+                {
+                    "fixture_id": f,
+                    "position_no": n,
+                    "lamp_installed_at": t0 + timedelta(days=i % 90),
+                    "hours_at_install": 0.0,
+                    "starts_at_install": 0.0,
+                }
+                for i, f in enumerate(fixture_ids)
+                for n in range(1, LAMPS + 1)
+            ],
+        )
+        s.execute(
+            insert(BurnHourRecord),
+            [
+                {
+                    "site_id": site.id,
+                    "area_id": a,
+                    "kind": "period",
+                    "period_start": t0 + timedelta(days=d),
+                    "period_end": t0 + timedelta(days=d + 1),
+                    "hours": 11.0,
+                    "starts": 2.0,
+                    "counter_reset": False,
+                }
+                for a in area_ids
+                for d in range(365)
+            ],
+        )
+        s.execute(
+            insert(VoltageReading),
+            [
+                {
+                    "site_id": site.id,
+                    "area_id": a,
+                    "measured_at": t0 + timedelta(days=30 * m),
+                    "volts": 224.0 + (a % 13),
+                }
+                for a in area_ids
+                for m in range(12)
+            ],
+        )
+        _, secret = keys.create_key(s, "bench-reader", "read")
+        s.commit()
+        site_id = site.id
+    eng.dispose()
+    return site_id, secret
+
+
+def run(label: str, url: str) -> None:
+    """Load, then time the site forecast through the API."""
+    t = time.perf_counter()
+    prepare(url)
+    site_id, key = load(url)
+    print(f"[{label}] load: {time.perf_counter() - t:.1f} s ({N_FIXTURES * LAMPS:,} positions)")
+    os.environ["LAMPKEEPER_DATABASE_URL"] = url
+    from fastapi.testclient import TestClient
+
+    from service.config import get_settings
+    from service.db.session import get_engine
+    from service.main import create_app
+
+    get_settings.cache_clear()
+    get_engine.cache_clear()
+    client = TestClient(create_app(start_scheduler=False))
+    headers = {"Authorization": f"Bearer {key}"}
+    at = "2026-01-01T00:00:00+00:00"
+    times = []
+    for _ in range(RUNS):
+        t = time.perf_counter()
+        r = client.get(
+            f"/api/v1/forecasts/sites/{site_id}",
+            params={"horizon_weeks": 13, "at": at},
+            headers=headers,
+        )
+        times.append(time.perf_counter() - t)
+        assert r.status_code == 200, r.text
+    body = r.json()
+    s = body["summary"]
+    print(
+        f"[{label}] GET /forecasts/sites/{site_id}: best {min(times):.2f} s, "
+        f"runs {', '.join(f'{x:.2f}' for x in times)} s; positions {s['positions']:,}, "
+        f"expected burnouts (13 weeks) {s['expected_burnouts_spot']:.0f}, "
+        f"areas {len(body['areas'])}"
+    )
+    get_engine().dispose()
+
+
+def main() -> None:
+    which = sys.argv[1] if len(sys.argv) > 1 else "both"
+    if which in ("sqlite", "both"):
+        with tempfile.TemporaryDirectory() as tmp:
+            run("sqlite", f"sqlite:///{tmp}/bench_forecast.sqlite3")
+    if which in ("postgresql", "both"):
+        run("postgresql", PG_URL)
+
+
+if __name__ == "__main__":
+    main()
