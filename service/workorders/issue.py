@@ -147,15 +147,16 @@ def issue_orders(
     # Which lamp types of which areas get a group relamp.
     group_types: dict[int, tuple[set[int], date, AreaPlan]] = {}
     if GROUP in kinds:
-        busy = _busy_areas(session, site.id)
-        pos = load_positions(session, site_id=site.id, area_id=area_id, at=at)
-        for plan in plan_areas(session, site, list(areas.values()), pos, at, None, cache):
+        busy = _busy_areas(session, site.id)  # an earlier group order is still open
+        done = {a for a in areas if (a, GROUP) in existing}  # this week has it already
+        result.already_there += len(done)
+        todo = [a for a in areas.values() if a.id not in busy and a.id not in done]
+        plans = []
+        if todo:
+            pos = load_positions(session, site_id=site.id, area_id=area_id, at=at)
+            plans = plan_areas(session, site, todo, pos, at, None, cache)
+        for plan in plans:
             aid = plan.area.id
-            if (aid, GROUP) in existing:
-                result.already_there += 1
-                continue
-            if aid in busy:  # an earlier week's group order is still open
-                continue
             due_groups = [g for g in plan.groups if g.due_on is not None and g.due_on <= horizon]
             if whole_area:
                 due_groups = list(plan.groups)
