@@ -36,7 +36,6 @@ def upgrade() -> None:
     sa.CheckConstraint('(area_id IS NULL) <> (fixture_id IS NULL)', name=op.f('ck_burn_hour_records_one_target')),
     sa.ForeignKeyConstraint(['area_id'], ['areas.id'], name=op.f('fk_burn_hour_records_area_id_areas'), ondelete='CASCADE'),
     sa.ForeignKeyConstraint(['fixture_id'], ['fixtures.id'], name=op.f('fk_burn_hour_records_fixture_id_fixtures'), ondelete='CASCADE'),
-    sa.ForeignKeyConstraint(['site_id'], ['sites.id'], name=op.f('fk_burn_hour_records_site_id_sites'), ondelete='CASCADE'),
     sa.PrimaryKeyConstraint('id', name=op.f('pk_burn_hour_records'))
     )
     with op.batch_alter_table('burn_hour_records', schema=None) as batch_op:

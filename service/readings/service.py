@@ -363,7 +363,7 @@ def ingest_burn_hours(session: Session, c: Columns, *, now: float | None = None)
             cs,
             reset,
         ),
-        ("int", "int", "int", "str", "ts", "ts", "float", "float", "float", "float", "bool"),
+        ("int", "int", "int", "word", "ts", "ts", "float", "float", "float", "float", "bool"),
     )
 
 

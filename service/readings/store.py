@@ -25,7 +25,7 @@ def _escape(text: str) -> str:
 
 
 def _copy_text(columns: Sequence[np.ndarray | list[Any]], kinds: Sequence[str]) -> str:
-    """COPY text format: tab separated, \\N for NULL; kinds: int, float, ts, bool, str."""
+    """COPY text format: tab separated, \\N for NULL; kinds: int, float, ts, bool, word, str."""
     rendered: list[list[str]] = []
     for col, kind in zip(columns, kinds, strict=True):
         if kind == "ts":
@@ -41,6 +41,8 @@ def _copy_text(columns: Sequence[np.ndarray | list[Any]], kinds: Sequence[str]) 
             rendered.append(["\\N" if v < 0 else str(v) for v in np.asarray(col).tolist()])
         elif kind == "bool":
             rendered.append(["t" if v else "f" for v in np.asarray(col).tolist()])
+        elif kind == "word":  # known safe words (no tabs, newlines or backslashes)
+            rendered.append([str(v) for v in col])
         else:
             rendered.append(["\\N" if v is None else _escape(str(v)) for v in col])
     buf = io.StringIO()
