@@ -141,16 +141,13 @@ def parse_csv(text: str, columns: Collection[str] | None = None) -> list[Row]:
     try:
         for cells in reader:
             number += 1
-            if not cells or all(not c.strip() for c in cells):
+            if not cells or not "".join(cells).strip():
                 continue  # blank line
             if len(cells) > width:
                 errors.add(number, None, f"{len(cells)} cells but the header has {width} columns")
                 continue
-            data: dict[str, Any] = {}
-            for name, cell in zip(names, cells, strict=False):
-                v = cell.strip()
-                data[name] = v if v else None
-            rows.append(Row(number, data))
+            values = [c.strip() or None for c in cells]
+            rows.append(Row(number, dict(zip(names, values, strict=False))))  # short: None
     except csv.Error as exc:
         errors.add(number, None, f"cannot read the line: {exc}")
     errors.raise_if_any("CSV upload")

@@ -11,6 +11,7 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime, time
+from operator import itemgetter
 from typing import Any
 
 from sqlalchemy import Connection, Table, bindparam, delete, insert, select, update
@@ -165,22 +166,64 @@ def _chunks(items: list[dict[str, Any]]) -> list[list[dict[str, Any]]]:
 
 
 def bulk_insert(conn: Connection, table: Table, rows: list[dict[str, Any]]) -> None:
-    """Insert many rows: COPY on PostgreSQL (psycopg 3), else Core executemany in chunks.
+    """Insert many rows fast: COPY on PostgreSQL (psycopg 3), the driver's executemany on
+    SQLite, else Core executemany in chunks.
 
-    Every row must carry the same keys, with values already in stored form (UTC datetimes).
+    Every row must carry the same keys. Values go through each column type's own bind
+    processor (memoised: many rows share one timestamp), so they are stored exactly as an
+    ORM insert would store them.
     """
     if not rows:
         return
     cols = list(rows[0])
     raw: Any = conn.connection.driver_connection
-    if conn.dialect.name == "postgresql" and conn.dialect.driver == "psycopg":
+    name = conn.dialect.name
+    if name == "postgresql" and conn.dialect.driver == "psycopg":
         names = ", ".join(f'"{c}"' for c in cols)
         with raw.cursor() as cur, cur.copy(f'COPY "{table.name}" ({names}) FROM STDIN') as cp:
             for r in rows:
                 cp.write_row([r[c] for c in cols])
         return
+    if name == "sqlite":
+        dialect = conn.dialect
+        procs = [
+            (i, _memo(proc))
+            for i, c in enumerate(cols)
+            if (proc := table.c[c].type.dialect_impl(dialect).bind_processor(dialect))
+        ]
+        sql = 'INSERT INTO "{}" ({}) VALUES ({})'.format(
+            table.name, ", ".join(f'"{c}"' for c in cols), ", ".join("?" for _ in cols)
+        )
+        get = itemgetter(*cols)
+
+        def values(r: dict[str, Any]) -> list[Any]:
+            v = list(get(r)) if len(cols) > 1 else [get(r)]
+            for i, p in procs:
+                v[i] = p(v[i])
+            return v
+
+        cur = raw.cursor()
+        try:
+            cur.executemany(sql, map(values, rows))
+        finally:
+            cur.close()
+        return
     for chunk in _chunks(rows):
         conn.execute(insert(table), chunk)
+
+
+def _memo(proc: Callable[[Any], Any]) -> Callable[[Any], Any]:
+    """A bind processor that remembers its answers."""
+    seen: dict[Any, Any] = {}
+
+    def run(v: Any) -> Any:
+        try:
+            return seen[v]
+        except KeyError:
+            seen[v] = out = proc(v)
+            return out
+
+    return run
 
 
 def import_fixtures(

@@ -7,6 +7,8 @@ from datetime import UTC, datetime
 from typing import Any
 
 from fastapi.testclient import TestClient
+from sqlalchemy import text
+from sqlalchemy.orm import Session
 
 from tests.register.helpers import make_fixture, world
 
@@ -193,3 +195,28 @@ def test_upload_shape_errors(client: TestClient, writer: dict[str, str]) -> None
     assert post(client, writer, "{not json", "application/json").status_code == 422
     assert post(client, writer, '{"tag": "x"}', "application/json").status_code == 422
     assert post(client, writer, "", "text/csv").status_code == 422
+
+
+def test_imported_timestamps_are_stored_like_orm_ones(
+    client: TestClient, writer: dict[str, str], db: Session
+) -> None:
+    w = world(client, writer)
+    at = "2024-01-05T10:00:00+02:00"
+    make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="ORM", lamps_installed_at=at)
+    assert (
+        post(client, writer, csv_of(f"{SITE},Main Hall,BULK,,T8-58,1,,,,{at},,")).status_code == 200
+    )
+    # Raw stored text of both rows: the same value must be stored the same way, so that
+    # SQL comparisons and ordering on timestamps work across imported and API-made rows.
+    stored = db.execute(
+        text(
+            "SELECT f.tag, CAST(p.lamp_installed_at AS VARCHAR(60)) FROM lamp_positions p "
+            "JOIN fixtures f ON f.id = p.fixture_id ORDER BY f.tag"
+        )
+    ).all()
+    assert [t for t, _ in stored] == ["BULK", "ORM"] and stored[0][1] == stored[1][1]
+    later = db.scalar(
+        text("SELECT COUNT(*) FROM lamp_positions WHERE lamp_installed_at >= :t"),
+        {"t": datetime(2024, 1, 5, 8, tzinfo=UTC)},
+    )
+    assert later == 2
