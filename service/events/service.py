@@ -190,6 +190,83 @@ def record_removal(
     return removal
 
 
+def record_removals(
+    session: Session,
+    positions: Sequence[LampPosition],
+    *,
+    removed_at: datetime,
+    failed: bool | Sequence[bool],
+    reason: str,
+    work_order_id: int | None = None,
+) -> list[LampRemoval]:
+    """record_removal for many positions at once (a group relamp): a few queries in all.
+
+    Dark positions keep their one failure record, as in record_removal; the others get one
+    observation each at their age at removed_at. Every position restarts at zero.
+    """
+    if reason not in REMOVAL_REASONS:
+        raise Invalid(
+            f"Unknown removal reason '{reason}'; use one of {', '.join(REMOVAL_REASONS)}.",
+            errors=[{"field": "reason", "in": "body", "message": "unknown reason"}],
+        )
+    check_not_future(removed_at, "removed_at")
+    at = _aware(removed_at)
+    flags = [failed] * len(positions) if isinstance(failed, bool) else list(failed)
+    if len(flags) != len(positions):
+        raise ValueError("give one failed flag per position")
+    out: list[LampRemoval] = []
+    burning = [(p, f) for p, f in zip(positions, flags, strict=True) if p.burned_out_at is None]
+    for p, f in zip(positions, flags, strict=True):
+        if p.burned_out_at is not None:
+            out.append(
+                record_removal(
+                    session, p, removed_at=at, failed=f, reason=reason, work_order_id=work_order_id
+                )
+            )
+    for p, _ in burning:
+        _check_after_install(p, at, "removed_at")
+    for lo in range(0, len(burning), 5000):
+        part = burning[lo : lo + 5000]
+        by_id = {p.id: (p, f) for p, f in part}
+        ages = position_ages(session, position_ids=list(by_id), at=at)
+        types = load_types(session, ages.lamp_type_id, field_fit=False)
+        res = evaluate_fleet(
+            types.table,
+            types.index(ages.lamp_type_id),
+            ages.age_h,
+            ages.voltage_v,
+            ages.hours_per_start,
+            0.0,
+        )
+        rows = []
+        for i in range(ages.size):
+            p, f = by_id[int(ages.position_id[i])]
+            hours = float(ages.age_h[i])
+            rows.append(
+                LampRemoval(
+                    site_id=int(ages.site_id[i]),
+                    fixture_id=p.fixture_id,
+                    position_id=p.id,
+                    lamp_type_id=int(ages.lamp_type_id[i]),
+                    installed_at=p.lamp_installed_at,
+                    removed_at=at,
+                    burn_hours=hours,
+                    starts=float(ages.starts[i]),
+                    operating_voltage_v=float(ages.voltage_v[i]),
+                    normalised_hours=hours / float(res.life_factor[i]),
+                    failed=bool(f),
+                    reason=reason,
+                    work_order_id=work_order_id,
+                    created_at=utcnow(),
+                )
+            )
+            _reset(p, at)
+        session.add_all(rows)
+        out.extend(rows)
+    session.flush()
+    return out
+
+
 def report_burnout(
     session: Session,
     *,

@@ -157,3 +157,20 @@ def test_bad_events_are_refused(
     assert r.status_code == 403
     assert client.get("/api/v1/lamp-removals", headers=reader).json()["total"] == 0
     assert client.get("/api/v1/burnout-reports", headers=reader).json()["total"] == 0
+
+
+def test_group_removal_matches_one_by_one(db: Session) -> None:
+    p = _positions(db, n_fixtures=3)
+    events.report_burnout(db, position_id=p[0].id, reported_at=T0 + timedelta(days=5))
+    when = T0 + timedelta(days=30)
+    removals = events.record_removals(
+        db, p, removed_at=when, failed=False, reason="group_relamp", work_order_id=3
+    )
+    by_pos = {r.position_id: r for r in removals}
+    assert by_pos[p[0].id].failed and by_pos[p[0].id].burn_hours == pytest.approx(60.0)
+    for q in p[1:]:
+        assert not by_pos[q.id].failed
+        assert by_pos[q.id].burn_hours == pytest.approx(360.0)  # 30 days x 12 h
+        assert by_pos[q.id].normalised_hours == pytest.approx(360.0)  # rated voltage
+    assert all(q.lamp_installed_at == when and q.burned_out_at is None for q in p)
+    assert len(db.scalars(select(LampRemoval)).all()) == 3  # one per lamp
