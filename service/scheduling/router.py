@@ -69,7 +69,10 @@ def start_run(
             raise Invalid(
                 str(exc), errors=[{"field": "week", "in": "body", "message": str(exc)}]
             ) from exc
-    # The run commits in its own transactions, on the same database as this request.
+    # The run commits in its own transactions on the same database. End this request's
+    # transaction first (it may hold the key's last-use stamp): on SQLite a read transaction
+    # left open across another connection's commit could no longer write.
+    session.commit()
     factory = sessionmaker(
         bind=session.get_bind(), expire_on_commit=False, join_transaction_mode="create_savepoint"
     )
