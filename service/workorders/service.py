@@ -201,6 +201,8 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
             if pos is None:  # the position was removed from the register meanwhile
                 continue
             dark = pos.burned_out_at is not None or pid in open_reports
+            if order.kind == SPOT and not dark:
+                continue  # another order (e.g. this week's group relamp) already replaced it
             failed = order.kind == SPOT or dark
             removals.record_removal(
                 session,

@@ -256,3 +256,24 @@ def test_second_open_group_order_and_empty_spot_order_are_refused(
     spot = {"area_id": area_id, "kind": "spot_replacement"}
     assert client.post("/api/v1/work-orders", json=spot, headers=writer).status_code == 409
     assert client.post("/api/v1/work-orders", json=body, headers=reader).status_code == 403
+
+
+def test_spot_order_after_a_group_relamp_records_nothing_twice(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    area_id, fx = _area(db, n=2)
+    dark = fx[0].positions[0]
+    events.report_burnout(db, position_id=dark.id, reported_at=utcnow() - timedelta(hours=4))
+    db.commit()
+    spot = _in_progress(client, writer, area_id, "spot_replacement")
+    group = _in_progress(client, writer, area_id, "group_relamp")
+    url = "/api/v1/work-orders/{}/complete"
+    r = client.post(url.format(group["id"]), json={"others": "replaced"}, headers=writer)
+    assert r.status_code == 200
+    r = client.post(url.format(spot["id"]), json={"others": "replaced"}, headers=writer)
+    assert r.status_code == 200
+    recs = db.scalars(select(LampRemoval).where(LampRemoval.position_id == dark.id)).all()
+    assert len(recs) == 1 and recs[0].failed  # the one failure, not a second at zero hours
+    assert (
+        db.scalars(select(LampRemoval).where(LampRemoval.work_order_id == spot["id"])).all() == []
+    )
