@@ -77,87 +77,117 @@ class _Good:
     starts: float
 
 
-def _read_row(row: Row, errors: RowErrors, now: datetime) -> _Good | None:
+def _volts(v: Any) -> float:
+    x = number_cell(v)
+    if not 0 < x <= 1000:
+        raise CellError("must lie in (0, 1000] volts")
+    return x
+
+
+def _hours(v: Any) -> float:
+    x = number_cell(v)
+    if not 0 <= x <= 1_000_000:
+        raise CellError("must lie in [0, 1,000,000] hours")
+    return x
+
+
+def _count(v: Any) -> float:
+    x = number_cell(v)
+    if x < 0:
+        raise CellError("must be 0 or more")
+    return x
+
+
+def _lamps(v: Any) -> int:
+    return int_cell(v, 1, 64)
+
+
+def _ballast(v: Any) -> str:
+    s = str(v).strip()
+    if s not in BALLASTS:
+        raise CellError(f"must be one of: {', '.join(BALLASTS)}")
+    return s
+
+
+def _text_reader(max_len: int) -> Callable[[Any], str | None]:
+    return lambda v: text_cell(v, max_len)
+
+
+# column: (reader, value when empty, required). Readers raise CellError.
+_SPECS: tuple[tuple[str, Callable[[Any], Any], Any, bool], ...] = (
+    ("site", _text_reader(200), None, True),
+    ("area", _text_reader(200), None, True),
+    ("tag", _text_reader(64), None, True),
+    ("location", _text_reader(300), None, False),
+    ("lamp_type", _text_reader(40), None, True),
+    ("lamps_per_fixture", _lamps, 1, False),
+    ("ballast_kind", _ballast, None, False),
+    ("measured_voltage_v", _volts, None, False),
+    ("installed_on", date_cell, None, False),
+    ("lamps_installed_at", datetime_cell, None, False),
+    ("lamp_hours_at_install", _hours, 0.0, False),
+    ("lamp_starts_at_install", _count, 0.0, False),
+)
+_CACHED = ("installed_on", "lamps_installed_at")  # many rows repeat the same dates
+
+
+def _read_row(
+    row: Row, errors: RowErrors, now: datetime, cache: dict[tuple[str, Any], Any]
+) -> _Good | None:
     d = row.data
     n = row.number
-    bad = len(errors)
-
-    def cell(name: str, read: Callable[[Any], Any], default: Any = None) -> Any:
+    ok = True
+    got: dict[str, Any] = {}
+    for name, read, default, required in _SPECS:
         v = d.get(name)
-        if v is None or v == "":
-            return default
+        if v is None or (isinstance(v, str) and not v.strip()):
+            if required:
+                errors.add(n, name, f"{name} is required")
+                ok = False
+            got[name] = default
+            continue
         try:
-            return read(v)
+            if name in _CACHED and isinstance(v, str):
+                key = (name, v)
+                if key not in cache:
+                    cache[key] = read(v)
+                got[name] = cache[key]
+            else:
+                got[name] = read(v)
         except CellError as exc:
             errors.add(n, name, f"{name} {exc}")
-            return default
-
-    def text(name: str, max_len: int, required: bool) -> str | None:
-        try:
-            return text_cell(d.get(name), max_len, required)
-        except CellError as exc:
-            errors.add(n, name, f"{name} {exc}")
-            return None
-
-    site = text("site", 200, True)
-    area = text("area", 200, True)
-    tag = text("tag", 64, True)
-    location = text("location", 300, False)
-    lamp_type = text("lamp_type", 40, True)
-    lamps = cell("lamps_per_fixture", lambda v: int_cell(v, 1, 64), 1)
-    ballast = text("ballast_kind", 20, False)
-    if ballast is not None and ballast not in BALLASTS:
-        errors.add(n, "ballast_kind", f"ballast_kind must be one of: {', '.join(BALLASTS)}")
-
-    def volts(v: Any) -> float:
-        x = number_cell(v)
-        if not 0 < x <= 1000:
-            raise CellError("must lie in (0, 1000] volts")
-        return x
-
-    def hours(v: Any) -> float:
-        x = number_cell(v)
-        if not 0 <= x <= 1_000_000:
-            raise CellError("must lie in [0, 1,000,000] hours")
-        return x
-
-    def count(v: Any) -> float:
-        x = number_cell(v)
-        if x < 0:
-            raise CellError("must be 0 or more")
-        return x
-
-    voltage = cell("measured_voltage_v", volts)
-    installed_on = cell("installed_on", date_cell)
-    installed_at = cell("lamps_installed_at", datetime_cell)
-    lamp_hours = cell("lamp_hours_at_install", hours, 0.0)
-    lamp_starts = cell("lamp_starts_at_install", count, 0.0)
+            got[name] = default
+            ok = False
+    installed_at = got["lamps_installed_at"]
+    installed_on = got["installed_on"]
     if installed_at is not None and installed_at > now + FUTURE_SLACK:
         errors.add(n, "lamps_installed_at", "lamps_installed_at is after now")
+        ok = False
     elif (
         installed_at is None
         and installed_on is not None
         and datetime.combine(installed_on, time(0), tzinfo=UTC) > now + FUTURE_SLACK
     ):
         errors.add(n, "installed_on", "installed_on is after today (give lamps_installed_at)")
-    if len(errors) != bad or site is None or area is None or tag is None or lamp_type is None:
+        ok = False
+    if not ok:
         return None
     return _Good(
         number=n,
-        site=site,
-        area=area,
-        lamp_type=lamp_type,
+        site=got["site"],
+        area=got["area"],
+        lamp_type=got["lamp_type"],
         values={
-            "tag": tag,
-            "location": location,
-            "lamps_per_fixture": lamps,
-            "ballast_kind": ballast,
-            "measured_voltage_v": voltage,
+            "tag": got["tag"],
+            "location": got["location"],
+            "lamps_per_fixture": got["lamps_per_fixture"],
+            "ballast_kind": got["ballast_kind"],
+            "measured_voltage_v": got["measured_voltage_v"],
             "installed_on": installed_on,
         },
         installed_at=installed_at,
-        hours=lamp_hours,
-        starts=lamp_starts,
+        hours=got["lamp_hours_at_install"],
+        starts=got["lamp_starts_at_install"],
     )
 
 
@@ -233,7 +263,8 @@ def import_fixtures(
     check_on_duplicate(on_duplicate)
     errors = RowErrors()
     now = utcnow()
-    good = [g for g in (_read_row(r, errors, now) for r in rows) if g is not None]
+    cache: dict[tuple[str, Any], Any] = {}
+    good = [g for g in (_read_row(r, errors, now, cache) for r in rows) if g is not None]
 
     # One query per table to resolve names.
     sites = {name: i for i, name in session.execute(select(Site.id, Site.name))}
