@@ -233,13 +233,10 @@ def ingest_burn_hours(session: Session, c: Columns, *, now: float | None = None)
     start = np.where(has_day, d_start, p_start)
     end = np.where(has_day, d_end, p_end)
     end = np.where(counter, read_at, end)
-    _flag(
-        errors,
-        c,
-        end > now + FUTURE_SKEW_S,
-        "period_end" if not counter.any() else "read_at",
-        "is in the future",
-    )
+    future = end > now + FUTURE_SKEW_S
+    _flag(errors, c, future & counter, "read_at", "is in the future")
+    _flag(errors, c, future & ~counter & has_day, "day", "is in the future")
+    _flag(errors, c, future & ~counter & ~has_day, "period_end", "is in the future")
     _flag(errors, c, ~counter & (end <= start), "period_end", "must be after period_start")
 
     key = np.where(fid > 0, 2 * fid + 1, 2 * aid)

@@ -205,3 +205,16 @@ def test_bulk_csv_is_all_or_nothing(
         "/api/v1/burn-hours/bulk", content=b"x", headers={**writer, "content-type": "image/png"}
     )
     assert r.status_code == 415
+
+
+def test_future_meter_reading_names_read_at(
+    db: Session, client: TestClient, writer: dict[str, str]
+) -> None:
+    _, _, _, fixtures = _setup(db)
+    rows = [
+        {"fixture_id": fixtures[0].id, "read_at": "2999-01-01T00:00:00Z", "counter_hours": 5},
+        {"fixture_id": fixtures[1].id, "day": "2999-01-01", "hours": 5},
+    ]
+    r = client.post("/api/v1/burn-hours/bulk", json=rows, headers=writer)
+    assert r.status_code == 422
+    assert {(e["row"], e["field"]) for e in r.json()["errors"]} == {(1, "read_at"), (2, "day")}
