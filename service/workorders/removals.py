@@ -1,8 +1,9 @@
 """The events service calls a completed or cancelled order makes, plus a bulk report lookup.
 
-record_removal (service.events.service) writes one survival observation per removed lamp
-(failed or censored), reuses the failure record a burnout report already wrote for a dark
-lamp, closes that position's reports, and restarts the position at zero hours.
+record_removals (service.events.service, record_removal for many positions in a few
+queries) writes one survival observation per removed lamp (failed or censored), reuses the
+failure record a burnout report already wrote for a dark lamp, closes that position's
+reports, and restarts the position at zero hours.
 """
 
 from __future__ import annotations
@@ -15,7 +16,7 @@ from sqlalchemy.orm import Session
 from service.events import service as events
 from service.events.models import BurnoutReport
 
-record_removal = events.record_removal
+record_removals = events.record_removals
 close_reports = events.close_reports
 
 

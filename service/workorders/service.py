@@ -191,6 +191,8 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
     }
     open_reports = removals.reports_on_positions(session, replaced_ids)
     to_close: list[int] = []
+    dark_positions: list[LampPosition] = []
+    burning_positions: list[LampPosition] = []
     for ln in order.lines:
         outcome, reason = outcomes[ln.fixture_id]
         ln.outcome, ln.skip_reason = outcome, reason
@@ -203,16 +205,28 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
             dark = pos.burned_out_at is not None or pid in open_reports
             if order.kind == SPOT and not dark:
                 continue  # another order (e.g. this week's group relamp) already replaced it
-            failed = order.kind == SPOT or dark
-            removals.record_removal(
-                session,
-                pos,
-                removed_at=at,
-                failed=failed,
-                reason="burnout" if failed else "group_relamp",
-                work_order_id=order.id,
-            )
+            (dark_positions if dark else burning_positions).append(pos)
             to_close.extend(open_reports.get(pid, []))
+    # Burned-out lamps are failures (their report already wrote the record: it is reused);
+    # lamps still burning at a group relamp are censored observations.
+    if dark_positions:
+        removals.record_removals(
+            session,
+            dark_positions,
+            removed_at=at,
+            failed=True,
+            reason="burnout",
+            work_order_id=order.id,
+        )
+    if burning_positions:
+        removals.record_removals(
+            session,
+            burning_positions,
+            removed_at=at,
+            failed=False,
+            reason="group_relamp",
+            work_order_id=order.id,
+        )
     if to_close:
         removals.close_reports(session, sorted(set(to_close)), order.id, closed_at=at)
     removals.release_reports(session, order.id)  # reports of skipped fixtures reopen
