@@ -116,9 +116,15 @@ def run_service(url: str, data: bytes) -> tuple[float, int, int]:
     with Session(engine) as s:
         t0 = time.perf_counter()
         rows = parse_rows(RawBody(data, "text/csv"), FIXTURE_COLUMNS)
+        t1 = time.perf_counter()
         result = import_fixtures(s, rows)
+        t2 = time.perf_counter()
         s.commit()
-        dt = time.perf_counter() - t0
+        t3 = time.perf_counter()
+        dt = t3 - t0
+        print(
+            f"  phases: parse {t1 - t0:.2f} s, check+insert {t2 - t1:.2f} s, commit {t3 - t2:.2f} s"
+        )
         lamps = s.scalar(select(func.count()).select_from(LampPosition)) or 0
     engine.dispose()
     return dt, result.created, int(lamps)

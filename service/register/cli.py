@@ -58,7 +58,8 @@ def cmd_export(args: argparse.Namespace) -> int:
     from service.catalogue.bulk import export_lamp_types
     from service.catalogue.schemas import LAMP_TYPE_FIELDS
     from service.cli import transaction
-    from service.register.fixture_bulk import FIXTURE_COLUMNS, export_fixtures
+    from service.register.fixture_bulk import FIXTURE_COLUMNS
+    from service.register.fixture_export import export_fixtures
     from service.register.models import Site
 
     rows: list[dict[str, Any]]

@@ -2,8 +2,8 @@
 
 Fast path for large files (100,000 rows in seconds): cells are checked with small plain
 functions (no model object per row), names are resolved with one query per table, and
-fixtures and lamp positions go in with COPY on PostgreSQL (psycopg 3) or Core executemany
-in chunks elsewhere. Fixture ids are read back with one query by (site_id, tag).
+fixtures and lamp positions go in through service.api.bulk_insert (COPY on PostgreSQL,
+the driver's executemany on SQLite). Fixture ids are read back with one query by (site_id, tag).
 """
 
 from __future__ import annotations
@@ -11,13 +11,13 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime, time
-from operator import itemgetter
 from typing import Any
 
-from sqlalchemy import Connection, Table, bindparam, delete, insert, select, update
+from sqlalchemy import Table, bindparam, delete, select, update
 from sqlalchemy.orm import Session
 
 from service.api.bulk import Row, RowErrors
+from service.api.bulk_insert import bulk_insert, chunks
 from service.api.cells import (
     CellError,
     date_cell,
@@ -47,7 +47,6 @@ FIXTURE_COLUMNS: tuple[str, ...] = (
     "lamp_hours_at_install",
     "lamp_starts_at_install",
 )
-CHUNK = 5000  # rows per executemany call
 
 _FIXTURES: Table = Fixture.__table__  # type: ignore[assignment]
 _POSITIONS: Table = LampPosition.__table__  # type: ignore[assignment]
@@ -191,71 +190,6 @@ def _read_row(
     )
 
 
-def _chunks(items: list[dict[str, Any]]) -> list[list[dict[str, Any]]]:
-    return [items[i : i + CHUNK] for i in range(0, len(items), CHUNK)]
-
-
-def bulk_insert(conn: Connection, table: Table, rows: list[dict[str, Any]]) -> None:
-    """Insert many rows fast: COPY on PostgreSQL (psycopg 3), the driver's executemany on
-    SQLite, else Core executemany in chunks.
-
-    Every row must carry the same keys. Values go through each column type's own bind
-    processor (memoised: many rows share one timestamp), so they are stored exactly as an
-    ORM insert would store them.
-    """
-    if not rows:
-        return
-    cols = list(rows[0])
-    raw: Any = conn.connection.driver_connection
-    name = conn.dialect.name
-    if name == "postgresql" and conn.dialect.driver == "psycopg":
-        names = ", ".join(f'"{c}"' for c in cols)
-        with raw.cursor() as cur, cur.copy(f'COPY "{table.name}" ({names}) FROM STDIN') as cp:
-            for r in rows:
-                cp.write_row([r[c] for c in cols])
-        return
-    if name == "sqlite":
-        dialect = conn.dialect
-        procs = [
-            (i, _memo(proc))
-            for i, c in enumerate(cols)
-            if (proc := table.c[c].type.dialect_impl(dialect).bind_processor(dialect))
-        ]
-        sql = 'INSERT INTO "{}" ({}) VALUES ({})'.format(
-            table.name, ", ".join(f'"{c}"' for c in cols), ", ".join("?" for _ in cols)
-        )
-        get = itemgetter(*cols)
-
-        def values(r: dict[str, Any]) -> list[Any]:
-            v = list(get(r)) if len(cols) > 1 else [get(r)]
-            for i, p in procs:
-                v[i] = p(v[i])
-            return v
-
-        cur = raw.cursor()
-        try:
-            cur.executemany(sql, map(values, rows))
-        finally:
-            cur.close()
-        return
-    for chunk in _chunks(rows):
-        conn.execute(insert(table), chunk)
-
-
-def _memo(proc: Callable[[Any], Any]) -> Callable[[Any], Any]:
-    """A bind processor that remembers its answers."""
-    seen: dict[Any, Any] = {}
-
-    def run(v: Any) -> Any:
-        try:
-            return seen[v]
-        except KeyError:
-            seen[v] = out = proc(v)
-            return out
-
-    return run
-
-
 def import_fixtures(
     session: Session, rows: Sequence[Row], on_duplicate: str = "error"
 ) -> FixtureImportResult:
@@ -359,7 +293,7 @@ def import_fixtures(
             positions.extend(_positions(ids[(site_id, tag)], 1, k, at, hrs, starts))
     if changed:
         stmt_u = update(_FIXTURES).where(_FIXTURES.c.id == bindparam("b_id"))
-        for chunk in _chunks(changed):
+        for chunk in chunks(changed):
             conn.execute(stmt_u, chunk)
     if shrink:
         stmt_d = delete(_POSITIONS).where(
@@ -391,46 +325,3 @@ def _positions(
         }
         for n in range(first, last + 1)
     ]
-
-
-def export_fixtures(
-    session: Session,
-    *,
-    site_id: int | None = None,
-    area_id: int | None = None,
-    lamp_type_id: int | None = None,
-    tag_contains: str | None = None,
-) -> list[dict[str, Any]]:
-    """Fixtures as import rows; the lamp columns describe position 1's lamp."""
-    f, p = _FIXTURES, _POSITIONS
-    stmt = (
-        select(
-            Site.name.label("site"),
-            Area.name.label("area"),
-            f.c.tag,
-            f.c.location,
-            LampType.code.label("lamp_type"),
-            f.c.lamps_per_fixture,
-            f.c.ballast_kind,
-            f.c.measured_voltage_v,
-            f.c.installed_on,
-            p.c.lamp_installed_at.label("lamps_installed_at"),
-            p.c.hours_at_install.label("lamp_hours_at_install"),
-            p.c.starts_at_install.label("lamp_starts_at_install"),
-        )
-        .select_from(f)
-        .join(Site, Site.id == f.c.site_id)
-        .join(Area, Area.id == f.c.area_id)
-        .join(LampType, LampType.id == f.c.lamp_type_id)
-        .outerjoin(p, (p.c.fixture_id == f.c.id) & (p.c.position_no == 1))
-        .order_by(Site.name, f.c.tag)
-    )
-    if site_id is not None:
-        stmt = stmt.where(f.c.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(f.c.area_id == area_id)
-    if lamp_type_id is not None:
-        stmt = stmt.where(f.c.lamp_type_id == lamp_type_id)
-    if tag_contains:
-        stmt = stmt.where(f.c.tag.ilike(f"%{tag_contains}%"))
-    return [dict(r._mapping) for r in session.execute(stmt)]

@@ -8,6 +8,7 @@ from fastapi import APIRouter, Query, Response, status
 from pydantic import BaseModel
 
 import service.register.fixture_bulk as fixture_bulk
+import service.register.fixture_export as fixture_export
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
 from service.api.pagination import Page, PageDep, paginate
@@ -97,7 +98,7 @@ def export_fixtures(
     tag: TagQ = None,
 ) -> Response:
     """Download fixtures as CSV or JSON, in the form the import takes back."""
-    rows = fixture_bulk.export_fixtures(
+    rows = fixture_export.export_fixtures(
         session, site_id=site_id, area_id=area_id, lamp_type_id=lamp_type_id, tag_contains=tag
     )
     return export_response(fixture_bulk.FIXTURE_COLUMNS, rows, format, "fixtures")
