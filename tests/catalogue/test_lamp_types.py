@@ -187,3 +187,11 @@ def test_patch_is_checked_as_a_whole(client: TestClient, writer: dict[str, str])
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "rated_volts"
     assert client.patch("/api/v1/lamp-types/999999", json={}, headers=writer).status_code == 404
     assert client.get(url, headers=writer).json()["driver_max_volts"] == 250  # unchanged
+
+
+def test_unknown_ids_are_404(client: TestClient, writer: dict[str, str]) -> None:
+    for method in ("get", "delete"):
+        r = getattr(client, method)("/api/v1/lamp-types/424242", headers=writer)
+        assert r.status_code == 404 and r.json()["status"] == 404
+    r = client.patch("/api/v1/lamp-types/424242", json={"rated_watts": 5}, headers=writer)
+    assert r.status_code == 404

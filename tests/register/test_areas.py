@@ -76,3 +76,8 @@ def test_bad_values_name_the_field(client: TestClient, writer: dict[str, str]) -
     r = client.patch(f"/api/v1/areas/{area['id']}", json={"name": None}, headers=writer)
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "name"
     assert client.patch("/api/v1/areas/999999", json={}, headers=writer).status_code == 404
+
+
+def test_unknown_area_ids_are_404(client: TestClient, writer: dict[str, str]) -> None:
+    assert client.get("/api/v1/areas/424242", headers=writer).status_code == 404
+    assert client.delete("/api/v1/areas/424242", headers=writer).status_code == 404
