@@ -13,15 +13,22 @@ PYTEST_ARGS ?=
 
 .PHONY: run test lint typecheck bench install clean
 
-$(VENV)/.installed: pyproject.toml
+# The service alone for `make run`; with the test and lint tools for everything else.
+$(VENV)/.installed-run: pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e .
+	touch $@
+
+$(VENV)/.installed-dev: pyproject.toml
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install --quiet --upgrade pip
 	$(PY) -m pip install --quiet -e '.[dev]'
-	touch $@
+	touch $@ $(VENV)/.installed-run
 
-install: $(VENV)/.installed
+install: $(VENV)/.installed-dev
 
-run: install
+run: $(VENV)/.installed-run
 	$(VENV)/bin/lampkeeper migrate
 	$(VENV)/bin/lampkeeper demo load --if-empty
 	$(VENV)/bin/lampkeeper serve --host $(HOST) --port $(PORT) --print-demo-key

@@ -13,6 +13,7 @@ from pathlib import Path
 
 import pytest
 from alembic import command
+from fastapi import FastAPI
 from fastapi.testclient import TestClient
 from sqlalchemy import Engine, text
 from sqlalchemy.orm import Session
@@ -86,10 +87,15 @@ def db(engine: Engine) -> Iterator[Session]:
         conn.close()
 
 
+@pytest.fixture(scope="session")
+def app() -> FastAPI:
+    """One application for the run (building it is not free); tests override its session."""
+    return create_app(start_scheduler=False)
+
+
 @pytest.fixture()
-def client(db: Session) -> Iterator[TestClient]:
+def client(app: FastAPI, db: Session) -> Iterator[TestClient]:
     """An API client whose requests share the test's rolled-back transaction."""
-    app = create_app(start_scheduler=False)
 
     def session_override() -> Iterator[Session]:
         # Same contract as the real dependency: commit (a savepoint here) or roll back.
@@ -101,8 +107,11 @@ def client(db: Session) -> Iterator[TestClient]:
             raise
 
     app.dependency_overrides[get_session] = session_override
-    with TestClient(app, raise_server_exceptions=False) as c:
-        yield c
+    try:
+        with TestClient(app, raise_server_exceptions=False) as c:
+            yield c
+    finally:
+        app.dependency_overrides.clear()
 
 
 @pytest.fixture()
