@@ -120,8 +120,13 @@ def _check_size(n: int) -> None:
         raise TooLarge(f"The upload has {n} rows; at most {limit} are accepted at once.")
 
 
-def parse_csv(text: str, columns: Collection[str] | None = None) -> list[Row]:
-    """CSV text (header first) into rows; cells stripped, empty cells become None."""
+def parse_csv(
+    text: str, columns: Collection[str] | None = None, required: Collection[str] = ()
+) -> list[Row]:
+    """CSV text (header first) into rows; cells stripped, empty cells become None.
+
+    columns: the allowed header names (None: any); required: names the header must have.
+    """
     reader = csv.reader(io.StringIO(text))
     try:
         header = next(reader)
@@ -133,7 +138,7 @@ def parse_csv(text: str, columns: Collection[str] | None = None) -> list[Row]:
     except csv.Error as exc:
         raise Invalid(f"The CSV header cannot be read: {exc}.") from None
     names = [h.strip().lstrip("\ufeff") for h in header]
-    _check_header(names, columns)
+    _check_header(names, columns, required)
     width = len(names)
     rows: list[Row] = []
     errors = RowErrors()
@@ -155,8 +160,13 @@ def parse_csv(text: str, columns: Collection[str] | None = None) -> list[Row]:
     return rows
 
 
-def _check_header(names: Sequence[str], columns: Collection[str] | None) -> None:
+def _check_header(
+    names: Sequence[str], columns: Collection[str] | None, required: Collection[str]
+) -> None:
     errors = RowErrors()
+    for name in required:
+        if name not in names:
+            errors.add(1, name, "required column is missing from the header")
     seen: set[str] = set()
     for name in names:
         if not name:
@@ -194,7 +204,9 @@ def parse_json(data: bytes | str, columns: Collection[str] | None = None) -> lis
     return rows
 
 
-def parse_rows(body: RawBody, columns: Collection[str] | None = None) -> list[Row]:
+def parse_rows(
+    body: RawBody, columns: Collection[str] | None = None, required: Collection[str] = ()
+) -> list[Row]:
     """Parse an upload by its media type: text/csv or application/json (415 otherwise)."""
     media = body.media_type.split(";")[0].strip().lower()
     if media in JSON_TYPES or media.endswith("+json"):
@@ -204,18 +216,20 @@ def parse_rows(body: RawBody, columns: Collection[str] | None = None) -> list[Ro
             text = body.data.decode("utf-8-sig")
         except UnicodeDecodeError as exc:
             raise Invalid(f"The CSV upload must be UTF-8 text: {exc}.") from None
-        return parse_csv(text, columns)
+        return parse_csv(text, columns, required)
     raise UnsupportedMediaType(
         f"Send the rows as text/csv or application/json, not '{media or 'nothing'}'."
     )
 
 
-def read_file(path: str, columns: Collection[str] | None = None) -> list[Row]:
+def read_file(
+    path: str, columns: Collection[str] | None = None, required: Collection[str] = ()
+) -> list[Row]:
     """Parse a CSV or JSON file from disk (by suffix .json, else CSV) for the CLI."""
     with open(path, "rb") as fh:
         data = fh.read()
     media = "application/json" if path.lower().endswith(".json") else "text/csv"
-    return parse_rows(RawBody(data, media), columns)
+    return parse_rows(RawBody(data, media), columns, required)
 
 
 def _cell(v: Any) -> Any:

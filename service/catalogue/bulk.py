@@ -18,6 +18,8 @@ from service.catalogue.schemas import LAMP_TYPE_FIELDS, LampTypeCreate, cross_ch
 from service.db.base import utcnow
 
 ON_DUPLICATE = ("error", "update")
+# Columns a CSV header must have (the others may be left out).
+LAMP_TYPE_REQUIRED = ("code", "technology", "rated_watts", "rated_volts", "rated_life_h")
 _JSON_FIELDS = ("mortality_points", "lumen_points", "extra")
 
 

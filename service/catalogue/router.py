@@ -71,7 +71,7 @@ def import_lamp_types(
     ] = "error",
 ) -> ImportSummary:
     """Import lamp types from CSV (text/csv) or JSON (a list): all rows or none."""
-    rows = parse_rows(body, LAMP_TYPE_FIELDS)
+    rows = parse_rows(body, LAMP_TYPE_FIELDS, bulk.LAMP_TYPE_REQUIRED)
     result = bulk.import_lamp_types(session, rows, on_duplicate)
     return ImportSummary(rows=result.rows, created=result.created, updated=result.updated)
 

@@ -26,19 +26,19 @@ def _print_errors(exc: DomainError) -> int:
 
 def cmd_import(args: argparse.Namespace) -> int:
     """Import lamp types or fixtures from a CSV or JSON (.json) file."""
-    from service.catalogue.bulk import import_lamp_types
+    from service.catalogue.bulk import LAMP_TYPE_REQUIRED, import_lamp_types
     from service.catalogue.schemas import LAMP_TYPE_FIELDS
     from service.cli import transaction
-    from service.register.fixture_bulk import FIXTURE_COLUMNS, import_fixtures
+    from service.register.fixture_bulk import FIXTURE_COLUMNS, FIXTURE_REQUIRED, import_fixtures
 
     try:
         with transaction() as session:
             if args.what == "lamp-types":
-                rows = read_file(args.file, LAMP_TYPE_FIELDS)
+                rows = read_file(args.file, LAMP_TYPE_FIELDS, LAMP_TYPE_REQUIRED)
                 lt = import_lamp_types(session, rows, args.on_duplicate)
                 line = f"{lt.rows} rows: {lt.created} lamp types created, {lt.updated} updated"
             else:
-                rows = read_file(args.file, FIXTURE_COLUMNS)
+                rows = read_file(args.file, FIXTURE_COLUMNS, FIXTURE_REQUIRED)
                 fx = import_fixtures(session, rows, args.on_duplicate)
                 line = (
                     f"{fx.rows} rows: {fx.created} fixtures created, {fx.updated} updated, "

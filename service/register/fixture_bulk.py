@@ -127,6 +127,8 @@ _SPECS: tuple[tuple[str, Callable[[Any], Any], Any, bool], ...] = (
     ("lamp_hours_at_install", _hours, 0.0, False),
     ("lamp_starts_at_install", _count, 0.0, False),
 )
+# Columns a CSV header must have (the others may be left out).
+FIXTURE_REQUIRED: tuple[str, ...] = ("site", "area", "tag", "lamp_type")
 _CACHED = ("installed_on", "lamps_installed_at")  # many rows repeat the same dates
 
 

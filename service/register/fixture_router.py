@@ -80,7 +80,7 @@ def import_fixtures(
 
     All rows or none: any bad row answers 422 listing every bad row.
     """
-    rows = parse_rows(body, fixture_bulk.FIXTURE_COLUMNS)
+    rows = parse_rows(body, fixture_bulk.FIXTURE_COLUMNS, fixture_bulk.FIXTURE_REQUIRED)
     r = fixture_bulk.import_fixtures(session, rows, on_duplicate)
     return FixtureImportSummary(
         rows=r.rows, created=r.created, updated=r.updated, positions_created=r.positions_created

@@ -220,3 +220,14 @@ def test_imported_timestamps_are_stored_like_orm_ones(
         {"t": datetime(2024, 1, 5, 8, tzinfo=UTC)},
     )
     assert later == 2
+
+
+def test_missing_required_column_is_one_header_error(
+    client: TestClient, writer: dict[str, str]
+) -> None:
+    world(client, writer)
+    r = post(client, writer, "site,area,lamp_type\n" + f"{SITE},Main Hall,T8-58\n" * 50)
+    assert r.status_code == 422
+    assert r.json()["errors"] == [
+        {"row": 1, "field": "tag", "message": "required column is missing from the header"}
+    ]
