@@ -3,6 +3,7 @@
 No web framework, no database: everything here can be called from a notebook.
 
 - weibull      survival, hazard, percentiles, conditional failure; scale from a rated life
+- mortality    Weibull shape from a maker's mortality curve (probability plot), rated-life scale
 - conditions   supply voltage and switching as life, light and power factors
 - lumen        lamp lumen depreciation curves, technology defaults
 - tm21         IES TM-21 projection of LED lumen maintenance from LM-80-style data
