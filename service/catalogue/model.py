@@ -3,6 +3,12 @@
 resolve_lamp_model() turns one LampType row into the numbers the forecasts use, and says
 for each where it came from ("catalogue", "fit" or "default"). lamp_type_table() stacks
 resolved models into the numeric core's LampTypeTable for fleet evaluation.
+
+Life law: shape = the catalogue weibull_shape, else the slope of the maker's mortality points
+on the Weibull probability plot (service.reliability.mortality), else the technology default.
+Scale, always: eta = L_p / (-ln(1 - p))^(1/beta) from the catalogue rated life L_p at its
+percentile p (the maker's headline figure), never the mortality curve's own scale; that one is
+reported beside it (LampModel.mortality_fit) with its disagreement from the rated life.
 """
 
 from __future__ import annotations
@@ -14,7 +20,7 @@ from typing import Protocol
 
 import numpy as np
 
-from service.catalogue.mortality import fit_mortality_points
+from service.catalogue.mortality import check_mortality_points, fit_mortality_points
 from service.reliability.conditions import (
     BALLAST_POWER_GAIN,
     BALLAST_VOLTAGE_BAND,
@@ -23,6 +29,7 @@ from service.reliability.conditions import (
 )
 from service.reliability.fleet import LampTypeTable
 from service.reliability.lumen import LumenCurve, default_lumen_curve
+from service.reliability.mortality import MortalityFit
 from service.reliability.weibull import scale_from_rated_life
 
 CATALOGUE = "catalogue"
@@ -92,6 +99,8 @@ class LampModel:
     life_ratio_floor: float | None  # halogen: life gain held below this voltage ratio
     switching_slope: float  # life ratio per unit ln(h/start) without a second point
     sources: dict[str, str] = field(default_factory=dict)
+    mortality_fit: MortalityFit | None = None  # the maker's curve fitted, when given
+    mortality_fit_used: bool = False  # True when its shape is the model's shape
 
     @property
     def driver_range(self) -> tuple[float, float] | None:
@@ -117,20 +126,30 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
     d = TECHNOLOGY_DEFAULTS[tech]
     src: dict[str, str] = {}
 
-    # Shape: catalogue beta, else fitted to the maker's mortality points, else the default.
-    if lt.weibull_shape is not None:
-        shape = float(lt.weibull_shape)
-        src["shape"] = CATALOGUE
-    elif lt.mortality_points and len(lt.mortality_points) >= 2:
-        shape = fit_mortality_points(lt.mortality_points).shape
-        src["shape"] = FIT
-    else:
-        shape = d.shape
-        src["shape"] = DEFAULT
     pct = float(lt.rated_percentile)
     src["rated_percentile"] = CATALOGUE
     rated_life = float(lt.rated_life_h)
     src["rated_life_h"] = CATALOGUE
+    # The maker's mortality curve, fitted whenever given (shown even when not used). Points
+    # stored before a check existed and no longer fit are set aside, never a failure here.
+    mfit: MortalityFit | None = None
+    if lt.mortality_points:
+        problem = check_mortality_points(lt.mortality_points)
+        if problem is None:
+            mfit = fit_mortality_points(lt.mortality_points, rated_life, pct)
+        else:
+            src["mortality_points"] = f"not used: {problem}"
+    # Shape: catalogue beta, else the mortality curve's slope, else the technology default.
+    if lt.weibull_shape is not None:
+        shape = float(lt.weibull_shape)
+        src["shape"] = CATALOGUE
+    elif mfit is not None:
+        shape = mfit.shape
+        src["shape"] = FIT
+    else:
+        shape = d.shape
+        src["shape"] = DEFAULT
+    # Scale: from the rated life with that shape (the curve's own scale is only reported).
     scale_h = float(scale_from_rated_life(rated_life, shape, pct))
     src["scale_h"] = src["shape"]  # rated life is catalogue; the shape decides the scale
 
@@ -215,6 +234,8 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
             DEFAULT_SWITCHING_SLOPE if d.switching_slope is None else d.switching_slope
         ),
         sources=src,
+        mortality_fit=mfit,
+        mortality_fit_used=mfit is not None and src["shape"] == FIT,
     )
 
 

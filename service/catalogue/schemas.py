@@ -10,7 +10,7 @@ from typing import Annotated, Any, Literal
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
 from service.catalogue.model import LampModel
-from service.catalogue.mortality import check_mortality_points
+from service.catalogue.mortality import MortalityFitRead, check_mortality_points
 from service.reliability.conditions import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 from service.reliability.lumen import MAX_FRACTION
 
@@ -219,6 +219,7 @@ class LampModelRead(BaseModel):
     voltage_band: float
     lumen_curve: LumenCurveRead
     sources: dict[str, str]
+    mortality_fit: MortalityFitRead | None = None  # the maker's curve as fitted, when given
 
     @classmethod
     def of(cls, m: LampModel) -> LampModelRead:
@@ -251,6 +252,11 @@ class LampModelRead(BaseModel):
                 decay_alpha_per_h=c.decay_alpha,
             ),
             sources=dict(m.sources),
+            mortality_fit=(
+                MortalityFitRead.of(m.mortality_fit, m.mortality_fit_used)
+                if m.mortality_fit
+                else None
+            ),
         )
 
 

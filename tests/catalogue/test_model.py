@@ -10,10 +10,11 @@ import numpy as np
 import pytest
 
 from service.catalogue.model import lamp_type_table, resolve_lamp_model
-from service.catalogue.mortality import fit_mortality_points
+from service.catalogue.mortality import check_mortality_points, fit_mortality_points
 from service.reliability.conditions import BALLAST_POWER_GAIN, TECHNOLOGY_DEFAULTS
 from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.lumen import LumenCurve, default_lumen_curve
+from service.reliability.mortality import fit_mortality_points as core_fit
 from service.reliability.weibull import scale_from_rated_life
 
 
@@ -103,18 +104,42 @@ def test_filament_lamp_has_no_ballast_gain_and_rated_life_basis_curve() -> None:
     assert m.life_ratio_floor == TECHNOLOGY_DEFAULTS["halogen"].life_ratio_floor
 
 
-def test_mortality_points_fit_recovers_the_generating_weibull() -> None:
-    # Points read off an exact Weibull S(t) = exp(-(t/eta)^beta), t in % of rated life.
+def test_mortality_points_set_the_shape_and_rated_life_the_scale() -> None:
+    # Points read off an exact Weibull S(t) = exp(-(t/eta)^beta), t in % of rated life, whose
+    # own median sits at eta (ln 2)^(1/beta) = 1.0 x rated life (closed form).
     beta, eta = 4.2, 1.09
     pct = np.array([40.0, 70.0, 100.0, 130.0])
     surv = 100.0 * np.exp(-((pct / 100.0 / eta) ** beta))
     pts = [[float(a), float(b)] for a, b in zip(pct, surv, strict=True)]
-    fit = fit_mortality_points(pts)
+    fit = fit_mortality_points(pts)  # catalogue adapter, hours as rated-life fractions
     assert fit.shape == pytest.approx(beta, rel=1e-9)
-    assert fit.scale_fraction == pytest.approx(eta, rel=1e-9)
+    assert fit.curve_scale_h == pytest.approx(eta, rel=1e-9)
     m = resolve_lamp_model(lamp_type(mortality_points=pts))
     assert m.shape == pytest.approx(beta, rel=1e-9) and m.sources["shape"] == "fit"
+    # Scale from the catalogue rated life (B50, weibull.scale_from_rated_life), not the curve.
     assert m.scale_h == pytest.approx(float(scale_from_rated_life(20_000.0, m.shape, 50.0)))
+    assert m.mortality_fit is not None and m.mortality_fit_used
+    assert m.mortality_fit.curve_scale_h == pytest.approx(eta * 20_000.0, rel=1e-9)
+    assert m.mortality_fit.scale_h == pytest.approx(m.scale_h, rel=1e-12)
+    # The core fit with the same points and rated life is what the model holds.
+    core = core_fit(pct, surv, 20_000.0, 50.0)
+    assert m.mortality_fit == core
+
+
+def test_catalogue_shape_wins_over_mortality_points_which_are_still_shown() -> None:
+    pts = [[50.0, 96.0], [100.0, 50.0], [125.0, 20.0]]
+    m = resolve_lamp_model(lamp_type(mortality_points=pts, weibull_shape=6.0))
+    assert m.shape == 6.0 and m.sources["shape"] == "catalogue"
+    assert m.mortality_fit is not None and not m.mortality_fit_used
+    assert m.mortality_fit.shape != 6.0
+
+
+def test_stored_points_that_no_longer_fit_fall_back_to_the_default_shape() -> None:
+    # Survival rising with hours cannot be a mortality curve (slope <= 0 on the plot).
+    m = resolve_lamp_model(lamp_type(mortality_points=[[50.0, 40.0], [100.0, 60.0]]))
+    assert m.shape == TECHNOLOGY_DEFAULTS["linear_fluorescent"].shape
+    assert m.sources["shape"] == "default" and m.mortality_fit is None
+    assert "falling" in m.sources["mortality_points"]
 
 
 def test_mortality_fit_matches_least_squares_on_the_probability_plot() -> None:
@@ -135,9 +160,12 @@ def test_mortality_fit_matches_least_squares_on_the_probability_plot() -> None:
         [[50.0, 90.0], [50.0, 80.0]],
         [[0.0, 90.0], [50.0, 80.0]],
         [[50, 100], [80, 50]],
+        [[50.0, 90.0, 1.0], [80.0, 50.0]],
+        [[50.0, 40.0], [100.0, 60.0]],
     ],
 )
 def test_mortality_fit_rejects_unusable_points(pts: list[list[float]]) -> None:
+    assert check_mortality_points(pts) is not None
     with pytest.raises(ValueError):
         fit_mortality_points(pts)
 
