@@ -15,6 +15,9 @@ Maintained light [published: CIE 97 maintenance factor method]:
 (the survivor fraction applies while burnouts stay unreplaced; dirt depreciation is applied
 elsewhere).
 
+Initial lumens, when a catalogue gives none: rated watts x DEFAULT_EFFICACY_LM_PER_W for the
+technology ([memory] round figures in [practice] ranges), labelled assumed wherever used.
+
 Default curves are rough [memory] shapes fitted to the [practice] anchor figures in the
 comments, and carry assumed=True so the interface can say so.
 """
@@ -177,6 +180,20 @@ _DEFAULT_POINTS: dict[str, tuple[tuple[float, float], ...]] = {
     "high_pressure_sodium": ((0.0, 1.0), (0.1, 0.96), (0.5, 0.90), (1.0, 0.83)),
     # [practice] mercury vapour steep; [memory] figures.
     "mercury_vapour": ((0.0, 1.0), (0.1, 0.90), (0.5, 0.75), (1.0, 0.62)),
+}
+
+# Typical initial efficacy, lumens per rated lamp watt, by technology: the fallback for initial
+# lumens when a catalogue entry gives none. [memory] round figures inside the [practice] ranges
+# commonly quoted for each family; results that use them are labelled assumed.
+DEFAULT_EFFICACY_LM_PER_W: dict[str, float] = {
+    "incandescent": 12.0,  # [practice] about 10-17 lm/W
+    "halogen": 18.0,  # [practice] about 15-25 lm/W
+    "linear_fluorescent": 85.0,  # [practice] T8/T5 about 75-100 lm/W
+    "compact_fluorescent": 60.0,  # [practice] about 50-70 lm/W
+    "metal_halide": 80.0,  # [practice] about 65-100 lm/W
+    "high_pressure_sodium": 105.0,  # [practice] about 80-140 lm/W
+    "mercury_vapour": 45.0,  # [practice] about 35-55 lm/W
+    "led": 110.0,  # [memory] retrofit lamps about 90-150 lm/W
 }
 
 

@@ -46,7 +46,12 @@ renewal argument [Cox, ch. 4]: the lamp burning there is either the original one
 which is exactly 1 when L ≡ 1 (a lamp is always burning). Delivered light over
 the cycle is Φ0 ∫_0^T E[...] dt (Φ0 initial lumens at the actual voltage). The
 only approximation is the numerical convolution on the renewal grid (trapezoid
-rule); lamp power is taken as constant over life.
+rule); lamp power is taken as constant over life. Spot replacement alone is the
+stationary limit: each position holds a lamp of age u with density S(u)/μ
+(renewal-reward, equilibrium age), so the mean light is ∫S·L/∫S and the cost per
+megalumen-hour (c_spot/μ + energy rate) / (Φ0 ∫S·L/∫S). The best interval is the
+minimiser over (0, cap] (the caps as above); "spot only" when it does not beat the
+spot-only figure or when the cost per megalumen-hour still falls at the horizon.
 """
 
 from __future__ import annotations
@@ -355,9 +360,16 @@ class MegalumenCost:
     interval_h: FloatArray  # the requested intervals, hours
     cost_per_mlmh: FloatArray  # money per megalumen-hour at each interval
     mean_light_fraction: FloatArray  # mean light per position over a cycle, share of initial
-    best_interval_h: float | None  # grid minimiser on the renewal grid; None: spot only
-    best_cost_per_mlmh: float
+    best_interval_h: float | None  # minimiser in (0, limit] that beats spot only; None: spot only
+    best_cost_per_mlmh: float  # at best_interval_h, or the spot-only figure
     spot_only_cost_per_mlmh: float  # stationary spot-replacement limit
+    spot_only_mean_light_fraction: float = 1.0  # stationary mean light under spot only
+    limited_interval_h: float = 0.0  # minimiser in (0, limit] whether or not it beats spot only
+    limited_cost_per_mlmh: float = 0.0
+    at_limit: bool = False  # the minimum over (0, limit] sits at the limit itself
+    limit_h: float = 0.0  # max_interval_h, or the renewal curve's horizon
+    grid_t: FloatArray = field(default_factory=_empty)  # renewal grid intervals, hours
+    grid_cost_per_mlmh: FloatArray = field(default_factory=_empty)
 
 
 def cost_per_megalumen_hour(
@@ -371,11 +383,14 @@ def cost_per_megalumen_hour(
     initial_lumens: float,
     lumen_fraction: Callable[[FloatArray], FloatArray],
     survival: Callable[[FloatArray], FloatArray],
+    max_interval_h: float | None = None,
 ) -> MegalumenCost:
     """Cost per delivered megalumen-hour of block replacement (lamp, labour and energy)."""
     # `survival` (age hours -> S) must be the life law the renewal curve was built
     # from; `lumen_fraction` (age hours -> share of initial light) is the lamp's
     # lumen depreciation at the actual voltage. Intervals must lie on the curve.
+    # The best interval is searched in (0, max_interval_h] (a cap: light floor, burnout
+    # ceiling, rupture cap), on the grid then by a bounded Brent step around the grid minimum.
     if lamp_watts < 0 or tariff_per_kwh < 0 or not initial_lumens > 0:
         raise ValueError("watts and tariff must be >= 0 and initial lumens > 0")
     t = renewal_curve.t
@@ -393,30 +408,57 @@ def cost_per_megalumen_hour(
     num = c_group + c_spot * renewal_curve.m[1:] + energy_rate * tt
     den = initial_lumens * cum_light[1:] / 1e6  # megalumen-hours per cycle
     grid_cost = num / den
-    k = int(np.argmin(grid_cost))
+
+    def at(x: ArrayLike) -> FloatArray:
+        xx = np.asarray(x, dtype=np.float64)
+        num_x = c_group + c_spot * renewal_curve.at(xx) + energy_rate * xx
+        out: FloatArray = num_x / (initial_lumens * np.interp(xx, t, cum_light) / 1e6)
+        return out
 
     # Spot-only limit: stationary age density S(u)/μ, so mean light = ∫ S L / ∫ S
     # (both truncated at the grid horizon, which should span several mean lives).
     s_vals = np.asarray(survival(t), dtype=np.float64)
     int_s = float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1])))
     int_g = float(np.sum(0.5 * h * (g[1:] + g[:-1])))
-    spot_cost = (c_spot / int_s + energy_rate) / (initial_lumens * (int_g / int_s) / 1e6)
+    spot_light = int_g / int_s
+    spot_cost = (c_spot / int_s + energy_rate) / (initial_lumens * spot_light / 1e6)
 
-    best: float | None = float(tt[k])
-    best_cost = float(grid_cost[k])
-    if k == tt.size - 1 or best_cost >= spot_cost:
+    horizon = float(t[-1])
+    limit = horizon if max_interval_h is None else min(float(max_interval_h), horizon)
+    if not limit > 0:
+        raise ValueError("max_interval_h must be positive hours")
+    mask = tt < limit
+    cand_t = np.append(tt[mask], limit)
+    cand_c = np.append(grid_cost[mask], float(at(limit)))
+    k = int(np.argmin(cand_c))
+    at_limit = k == cand_t.size - 1
+    lim_t, lim_c = float(cand_t[k]), float(cand_c[k])
+    if not at_limit:
+        lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
+        lim_t, lim_c = _refine(lambda v: float(at(v)), lo, float(cand_t[k + 1]), lim_t, lim_c)
+        at_limit = lim_t >= limit * (1 - 1e-9)
+
+    best: float | None = lim_t
+    best_cost = lim_c
+    no_finite_optimum = at_limit and limit >= horizon * (1 - 1e-12)
+    if no_finite_optimum or best_cost >= spot_cost * (1 - _MIN_REL_SAVING):
         best, best_cost = None, spot_cost
 
     x = np.asarray(interval_h, dtype=np.float64)
     if np.any(x <= 0) or np.any(x > t[-1]):
         raise ValueError("intervals must lie in (0, renewal curve horizon]")
-    num_x = c_group + c_spot * renewal_curve.at(x) + energy_rate * x
-    den_x = initial_lumens * np.interp(x, t, cum_light) / 1e6
     return MegalumenCost(
         interval_h=x,
-        cost_per_mlmh=num_x / den_x,
+        cost_per_mlmh=at(x),
         mean_light_fraction=np.interp(x, t, cum_light) / x,
         best_interval_h=best,
         best_cost_per_mlmh=best_cost,
         spot_only_cost_per_mlmh=spot_cost,
+        spot_only_mean_light_fraction=spot_light,
+        limited_interval_h=lim_t,
+        limited_cost_per_mlmh=lim_c,
+        at_limit=at_limit,
+        limit_h=limit,
+        grid_t=tt,
+        grid_cost_per_mlmh=grid_cost,
     )

@@ -152,3 +152,15 @@ def test_interpolated_curve_monotone(curve: LumenCurve) -> None:
     assert np.all(np.diff(f) <= 1e-12)
     assert np.all(f >= 0.0) and f[0] <= max(1.0, curve.fraction[0]) + 1e-12
     assert not math.isnan(float(f.sum()))
+
+
+def test_default_efficacy_for_every_technology_within_its_family_range() -> None:
+    # The fallback initial lumens (rated watts x lm/W) exist for every technology, and rank as
+    # the families are commonly ranked [practice]: filament < mercury < fluorescent < sodium.
+    from service.reliability.lumen import DEFAULT_EFFICACY_LM_PER_W
+
+    eff = DEFAULT_EFFICACY_LM_PER_W
+    assert set(eff) == set(TECHNOLOGIES)
+    assert eff["incandescent"] < eff["halogen"] < eff["mercury_vapour"]
+    assert eff["mercury_vapour"] < eff["compact_fluorescent"] < eff["linear_fluorescent"]
+    assert eff["linear_fluorescent"] < eff["high_pressure_sodium"]

@@ -252,3 +252,88 @@ def test_megalumen_mean_light_matches_monte_carlo() -> None:
     light = (tau * (1.0 - np.exp(-seg / tau))).sum(axis=1) / T
     se = light.std(ddof=1) / np.sqrt(light.size)
     assert abs(res.mean_light_fraction[0] - light.mean()) <= 3 * se + 1e-5
+
+
+def _mlm(w: Weibull, tau: float, **kw: float) -> tuple[object, object]:
+    curve = weibull_renewal(w.shape, w.scale, 3 * w.mean())
+    res = cost_per_megalumen_hour(
+        np.array([0.5 * w.mean()]),
+        curve,
+        C_GROUP,
+        C_SPOT,
+        lamp_watts=60.0,
+        tariff_per_kwh=0.25,
+        initial_lumens=6000.0,
+        lumen_fraction=lambda u: np.exp(-u / tau),
+        survival=w.sf,
+        **kw,
+    )
+    return curve, res
+
+
+def test_megalumen_spot_only_limit_matches_quadrature() -> None:
+    # Stationary (equilibrium) age density S(u)/mu under spot replacement (renewal-reward):
+    # mean light = int S L / int S, by scipy.integrate.quad to 3 mean lives (S is ~0 there).
+    from scipy.integrate import quad
+
+    w = Weibull(3.5, 9000.0)
+    tau = 20000.0
+    _, res = _mlm(w, tau)
+    h = 3 * w.mean()
+    num = quad(lambda u: float(w.sf(u)) * np.exp(-u / tau), 0.0, h)[0]
+    den = quad(lambda u: float(w.sf(u)), 0.0, h)[0]
+    assert res.spot_only_mean_light_fraction == pytest.approx(num / den, rel=1e-5)
+    expected = (C_SPOT / den + 0.25 * 0.06) / (6000.0 * (num / den) / 1e6)
+    assert res.spot_only_cost_per_mlmh == pytest.approx(expected, rel=1e-5)
+
+
+def test_megalumen_best_interval_is_the_dense_minimum_below_a_cap() -> None:
+    # Brute force: evaluate the same objective on a dense grid of intervals and take the
+    # smallest; the refined optimum must match it, and under a cap below it, sit at the cap.
+    w = Weibull(4.0, 10000.0)
+    curve, free = _mlm(w, 15000.0)
+    dense = np.linspace(200.0, 2.5 * w.mean(), 20_000)
+    full = cost_per_megalumen_hour(
+        dense,
+        curve,
+        C_GROUP,
+        C_SPOT,
+        lamp_watts=60.0,
+        tariff_per_kwh=0.25,
+        initial_lumens=6000.0,
+        lumen_fraction=lambda u: np.exp(-u / 15000.0),
+        survival=w.sf,
+    )
+    k = int(np.argmin(full.cost_per_mlmh))
+    assert free.best_interval_h is not None and not free.at_limit
+    assert free.best_interval_h == pytest.approx(dense[k], abs=2 * (dense[1] - dense[0]))
+    assert free.best_cost_per_mlmh <= full.cost_per_mlmh[k] * (1 + 1e-9)
+    assert free.best_cost_per_mlmh < free.spot_only_cost_per_mlmh
+    cap = 0.5 * free.best_interval_h
+    _, capped = _mlm(w, 15000.0, max_interval_h=cap)
+    assert capped.at_limit and capped.limited_interval_h == pytest.approx(cap)
+    below = full.cost_per_mlmh[dense <= cap]
+    assert capped.limited_cost_per_mlmh <= below.min() * (1 + 1e-9)
+
+
+def test_megalumen_exponential_life_without_light_loss_is_spot_only() -> None:
+    # Constant hazard and no lumen loss: group relamping buys nothing (Barlow & Proschan), so
+    # the best answer is spot only and the spot-only figure is the hand formula.
+    w = Weibull(1.0, 5000.0)
+    curve = weibull_renewal(1.0, 5000.0, 3 * w.mean())
+    res = cost_per_megalumen_hour(
+        [1000.0],
+        curve,
+        C_GROUP,
+        C_SPOT,
+        lamp_watts=40.0,
+        tariff_per_kwh=0.2,
+        initial_lumens=3000.0,
+        lumen_fraction=lambda u: np.ones_like(u),
+        survival=w.sf,
+    )
+    assert res.best_interval_h is None
+    s_int = 5000.0 * (1 - np.exp(-3.0))  # int_0^3mu exp(-t/mu) dt, truncated as the core does
+    assert res.spot_only_cost_per_mlmh == pytest.approx(
+        (C_SPOT / s_int + 0.2 * 0.04) / (3000.0 / 1e6), rel=1e-6
+    )
