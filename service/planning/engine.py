@@ -7,7 +7,9 @@ Costs per position, in the site's currency:
   spot replacement + disposal fee. ASSUMPTION: each burnout is its own visit (no sharing
   of hire between spot lamps); spot_lamps_per_visit overrides it (the hire is then shared).
 Energy does not change the group interval under the cost objective (with prompt spot
-replacement every socket burns all the time either way); it is reported as an input.
+replacement every socket burns all the time either way); it is reported as an input, at the
+lamp's power at the operating voltage (rated watts x the voltage power factor). The cost per
+delivered megalumen-hour, which energy and light loss do change, is planning/energy.py.
 
 Life: the lamp model's Weibull (shape, scale at rated volts and cycle) scaled by the voltage
 life factor (conditions.voltage_effect) and the switching factor
@@ -28,7 +30,7 @@ from typing import Any
 import numpy as np
 
 from service.catalogue.model import LampModel
-from service.reliability.conditions import switching_life_factor, voltage_effect
+from service.reliability.conditions import VoltageEffect, switching_life_factor, voltage_effect
 from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.replacement import BlockPlan, plan_block_replacement
 from service.reliability.weibull import Weibull
@@ -52,7 +54,7 @@ class CostInputs:
     spot_lamps_per_visit: float
     disposal_fee_per_lamp: float  # charged only for mercury lamps
     energy_price_per_kwh: float
-    lamp_watts: float  # watts at the operating voltage
+    lamp_watts: float  # rated lamp watts (the plan scales them by GroupPlan.power_factor)
 
     @property
     def group_labour(self) -> float:
@@ -86,10 +88,9 @@ class CostInputs:
         """Cost of one spot replacement."""
         return self.lamp_price + self.spot_labour + self.spot_equipment + self.disposal_fee_per_lamp
 
-    @property
-    def energy_per_burn_hour(self) -> float:
-        """Energy cost per position per burn hour."""
-        return self.energy_price_per_kwh * self.lamp_watts / 1000.0
+    def energy_per_burn_hour(self, power_factor: float = 1.0) -> float:
+        """Energy cost per position per burn hour at lamp watts x power_factor."""
+        return self.energy_price_per_kwh * self.lamp_watts * power_factor / 1000.0
 
 
 @dataclass(frozen=True)
@@ -115,6 +116,11 @@ class GroupPlan:
     light_floor_h: float | None
     rupture_cap_h: float | None
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    power_factor: float = 1.0  # lamp watts at the operating voltage / rated watts
+    light_factor: float = 1.0  # initial light at the operating voltage / rated
+    horizon_h: float = 0.0  # renewal grid horizon the plan used, hours
+    objective: str = "cost"  # which objective chose plan.interval_h
+    cost_plan: BlockPlan | None = None  # the cost objective's plan, when another one chose
 
 
 def light_floor_hours(model: LampModel, life: Weibull, floor: float, horizon_h: float) -> float:
@@ -134,8 +140,10 @@ def light_floor_hours(model: LampModel, life: Weibull, floor: float, horizon_h: 
     return float(t[k - 1] + x * (t[k] - t[k - 1]))
 
 
-def scaled_life(model: LampModel, cond: Conditions) -> tuple[Weibull, float, float, list[str]]:
-    """Weibull life at the operating voltage and switching cycle (voltage, switching factors)."""
+def scaled_life(
+    model: LampModel, cond: Conditions
+) -> tuple[Weibull, VoltageEffect, float, list[str]]:
+    """Weibull life at the operating voltage and switching cycle (voltage effect, switching)."""
     ve = voltage_effect(
         cond.voltage_v,
         model.rated_volts,
@@ -158,7 +166,7 @@ def scaled_life(model: LampModel, cond: Conditions) -> tuple[Weibull, float, flo
     if bool(np.asarray(warn).ravel()[0]):
         warnings.append("switching cycle outside the modelled range; life factor bounded")
     swf = float(np.asarray(sw).ravel()[0])
-    return Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve.life_factor, swf, warnings
+    return Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve, swf, warnings
 
 
 @lru_cache(maxsize=512)
@@ -182,7 +190,8 @@ def weibull_renewal_scaled(life: Weibull, horizon_h: float, n: int = RENEWAL_STE
 
 def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
     """Cheapest group interval for one lamp type under the area's caps (numeric core)."""
-    life, vf, swf, warnings = scaled_life(model, cond)
+    life, ve, swf, warnings = scaled_life(model, cond)
+    vf = ve.life_factor
     mean_h = life.mean()
     horizon = HORIZON_MEANS * mean_h
     floor_h = None
@@ -207,7 +216,19 @@ def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPl
         burnout_ceiling=cond.burnout_ceiling,
         rupture_cap_h=cap_h,
     )
-    return GroupPlan(plan, life, vf * swf, vf, swf, floor_h, cap_h, tuple(warnings))
+    return GroupPlan(
+        plan,
+        life,
+        vf * swf,
+        vf,
+        swf,
+        floor_h,
+        cap_h,
+        tuple(warnings),
+        power_factor=ve.power_factor,
+        light_factor=ve.light_factor,
+        horizon_h=max(horizon, cap_h or 0.0),
+    )
 
 
 class PlanCache:

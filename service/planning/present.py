@@ -2,8 +2,39 @@
 
 from __future__ import annotations
 
-from service.planning.schemas import AreaPlanRead, LampTypePlan, PlanInputs
+from service.planning.energy import EnergyView
+from service.planning.schemas import AreaPlanRead, EnergyViewRead, LampTypePlan, PlanInputs
 from service.planning.service import WEEKS_PER_YEAR, AreaPlan, TypeGroup
+
+
+def _energy(g: TypeGroup, per_year_h: float) -> EnergyViewRead | None:
+    ev = g.energy
+    if not isinstance(ev, EnergyView):
+        return None
+    return EnergyViewRead(
+        objective=g.group.objective,
+        lamp_watts=ev.lamp_watts,
+        power_factor=ev.power_factor,
+        energy_price_per_kwh=g.costs.energy_price_per_kwh,
+        energy_cost_per_burn_hour=ev.energy_per_burn_hour,
+        burn_hours_per_year=per_year_h,
+        energy_cost_per_position_per_year=ev.energy_per_burn_hour * per_year_h,
+        initial_lumens=ev.initial_lumens,
+        initial_lumens_basis=ev.initial_lumens_basis,
+        assumed_efficacy_lm_per_w=ev.assumed_efficacy_lm_per_w,
+        light_factor=ev.light_factor,
+        interval_h=ev.interval_h,
+        mean_light_fraction=ev.mean_light_fraction,
+        cost_per_megalumen_hour=ev.cost_per_mlmh,
+        spot_only_mean_light_fraction=ev.spot_only_mean_light_fraction,
+        spot_only_cost_per_megalumen_hour=ev.spot_only_cost_per_mlmh,
+        cost_optimum_interval_h=ev.cost_optimum_interval_h,
+        cost_per_megalumen_hour_at_cost_optimum=ev.cost_per_mlmh_at_cost_optimum,
+        best_interval_h=ev.best_interval_h,
+        best_binding=ev.best_binding,
+        best_cost_per_megalumen_hour=ev.best_cost_per_mlmh,
+        note=ev.note,
+    )
 
 
 def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
@@ -43,7 +74,7 @@ def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
             c_group=c.c_group,
             c_spot=c.c_spot,
             energy_price_per_kwh=c.energy_price_per_kwh,
-            energy_cost_per_burn_hour=c.energy_per_burn_hour,
+            energy_cost_per_burn_hour=c.energy_per_burn_hour(gp.power_factor),
             voltage_v=g.voltage_v,
             voltage_basis=g.voltage_basis,
             hours_per_start=g.hours_per_start,
@@ -58,6 +89,9 @@ def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
             rupture_cap_fraction=g.cond.rupture_fraction if g.model.rupture_risk else None,
             rupture_cap_h=gp.rupture_cap_h,
         ),
+        objective=gp.objective,
+        energy_view=_energy(g, per_year_h),
+        energy_view_omitted=g.energy if isinstance(g.energy, str) else None,
     )
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from datetime import date, datetime
+from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
@@ -32,6 +33,11 @@ class PlanOverrides(BaseModel):
     rupture_cap_fraction: float | None = Field(default=None, gt=0, le=1)
     weekly_burn_hours: float | None = Field(default=None, gt=0, le=168)
     group_age_h: float | None = Field(default=None, ge=0, le=1_000_000)
+    objective: Literal["cost", "cost_per_megalumen_hour"] = Field(
+        default="cost",
+        description="What picks the interval: cost per position-hour (default) or cost per "
+        "delivered megalumen-hour (lamp, labour and energy over light delivered).",
+    )
 
 
 class PlanInputs(BaseModel):
@@ -67,6 +73,42 @@ class PlanInputs(BaseModel):
     rupture_cap_h: float | None
 
 
+class EnergyViewRead(BaseModel):
+    """Energy and delivered light: cost per megalumen-hour (Mlm.h) at the plan's interval."""
+
+    objective: str = Field(description="What chose interval_h: cost or cost_per_megalumen_hour.")
+    lamp_watts: float = Field(description="Lamp watts at the operating voltage.")
+    power_factor: float = Field(description="Lamp watts at the operating voltage / rated.")
+    energy_price_per_kwh: float
+    energy_cost_per_burn_hour: float = Field(description="Per position.")
+    burn_hours_per_year: float
+    energy_cost_per_position_per_year: float
+    initial_lumens: float = Field(description="Initial light at the operating voltage, lumens.")
+    initial_lumens_basis: str = Field(
+        description="catalogue, or assumed_efficacy (rated watts x a technology lm/W)."
+    )
+    assumed_efficacy_lm_per_w: float | None
+    light_factor: float = Field(description="Initial light at the operating voltage / rated.")
+    interval_h: float | None = Field(description="The plan's interval; null: spot only.")
+    mean_light_fraction: float = Field(
+        description="Mean light per position over the interval (spot only: stationary), "
+        "share of initial."
+    )
+    cost_per_megalumen_hour: float = Field(description="At interval_h (spot only: spot figure).")
+    spot_only_mean_light_fraction: float
+    spot_only_cost_per_megalumen_hour: float
+    cost_optimum_interval_h: float | None = Field(description="The cost objective's interval.")
+    cost_per_megalumen_hour_at_cost_optimum: float
+    best_interval_h: float | None = Field(
+        description="Interval minimising cost per Mlm.h under the same caps; null: spot only."
+    )
+    best_binding: str = Field(
+        description="megalumen_optimum, light_floor, burnout_ceiling, rupture_cap or spot_only."
+    )
+    best_cost_per_megalumen_hour: float
+    note: str | None = Field(description="Set when the best interval differs from the cost one.")
+
+
 class LampTypePlan(BaseModel):
     """The group plan for one lamp type in an area."""
 
@@ -91,6 +133,11 @@ class LampTypePlan(BaseModel):
     notes: list[str]
     warnings: list[str]
     inputs: PlanInputs
+    objective: str = Field(description="What chose interval_h: cost or cost_per_megalumen_hour.")
+    energy_view: EnergyViewRead | None = Field(
+        description="Energy and cost per megalumen-hour; null with energy_view_omitted."
+    )
+    energy_view_omitted: str | None = None
 
 
 class AreaPlanRead(BaseModel):

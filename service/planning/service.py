@@ -5,6 +5,9 @@ due when its first lamp-type group is. Group age: burn hours since the area's la
 completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
 schedule), else the mean age of the group's positions. The calendar date divides the
 remaining hours by the area's weekly burn hours, counted from today in the site's zone.
+What-if objective "cost_per_megalumen_hour" re-chooses each group's interval by cost per
+delivered megalumen-hour (energy.megalumen_plan); each group's energy view (energy.py) is
+computed only when asked for (TypeGroup.energy), so the weekly run never pays for it.
 Nothing here writes to the database.
 """
 
@@ -14,6 +17,7 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
+from functools import cached_property
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -24,6 +28,7 @@ from service.catalogue.model import LampModel, resolve_lamp_model
 from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.db.crud import get_or_404
+from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
 from service.planning.engine import (
     DEFAULT_RUPTURE_FRACTION,
     Conditions,
@@ -56,6 +61,14 @@ class TypeGroup:
     group_age_h: float
     due_on: date | None
     overdue: bool
+
+    @cached_property
+    def energy(self) -> EnergyView | str:
+        """The energy and megalumen view, or why it could not be computed (on first use)."""
+        try:
+            return energy_view(self.model, self.costs, self.cond, self.group)
+        except ValueError as exc:  # e.g. a grid that cannot reach the interval
+            return f"energy view not available: {exc}"
 
 
 @dataclass(frozen=True)
@@ -223,6 +236,8 @@ def plan_areas(
                 rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
             )
             gp = cache.get(model, costs, cond)
+            if over.objective == MEGALUMEN:
+                gp = megalumen_plan(model, costs, cond, gp)
             if basis == "override":
                 age = float(over.group_age_h or 0.0)
             elif basis == "last_group_relamp" and last_at is not None:
