@@ -80,6 +80,8 @@ def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
             hours_per_start=g.hours_per_start,
             voltage_life_factor=gp.voltage_life_factor,
             switching_life_factor=gp.switching_factor,
+            life_curve=g.curve.method if g.curve else "catalogue",
+            life_curve_reason=g.curve.reason if g.curve else "catalogue curve",
             weibull_shape=gp.life.shape,
             weibull_scale_h=gp.life.scale,
             mean_life_h=gp.life.mean(),

@@ -63,8 +63,15 @@ class PlanInputs(BaseModel):
     hours_per_start: float | None
     voltage_life_factor: float
     switching_life_factor: float
-    weibull_shape: float
-    weibull_scale_h: float
+    life_curve: str = Field(
+        description="Life curve used: catalogue, mle (field fit) or weibayes (catalogue shape, "
+        "field scale); the same choice the forecasts make."
+    )
+    life_curve_reason: str
+    weibull_shape: float = Field(description="Weibull shape of the curve used.")
+    weibull_scale_h: float = Field(
+        description="Weibull scale in burn hours at this area's voltage and switching."
+    )
     mean_life_h: float
     light_floor: float | None
     light_floor_h: float | None

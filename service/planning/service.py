@@ -24,10 +24,10 @@ import numpy as np
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from service.catalogue.model import LampModel, resolve_lamp_model
-from service.catalogue.models import LampType
+from service.catalogue.model import LampModel
 from service.db.base import utcnow
 from service.db.crud import get_or_404
+from service.forecasting.types import CurveInUse, load_types
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
 from service.planning.engine import (
     DEFAULT_RUPTURE_FRACTION,
@@ -61,6 +61,7 @@ class TypeGroup:
     group_age_h: float
     due_on: date | None
     overdue: bool
+    curve: CurveInUse | None = None  # which life curve (catalogue or field fit) and why
 
     @cached_property
     def energy(self) -> EnergyView | str:
@@ -130,9 +131,13 @@ def last_group_relamps(session: Session, area_ids: Sequence[int]) -> dict[int, d
     return {a: t for a, t in session.execute(stmt).all() if t is not None}
 
 
-def _models(session: Session, ids: np.ndarray) -> dict[int, LampModel]:
-    rows = session.scalars(select(LampType).where(LampType.id.in_([int(i) for i in ids]))).all()
-    return {r.id: resolve_lamp_model(r) for r in rows}
+def _models(
+    session: Session, ids: np.ndarray
+) -> tuple[dict[int, LampModel], dict[int, CurveInUse]]:
+    # The same life curves the forecasts use: the field fit where it replaces the catalogue.
+    types = load_types(session, ids, field_fit=True)
+    keys = [int(i) for i in types.ids.tolist()]
+    return dict(zip(keys, types.models, strict=True)), dict(zip(keys, types.curves, strict=True))
 
 
 def plan_areas(
@@ -149,7 +154,7 @@ def plan_areas(
     cache = cache or PlanCache()
     today = local_today(site, at)
     last = last_group_relamps(session, [a.id for a in areas])
-    models = _models(session, np.unique(pos.lamp_type_id)) if pos.size else {}
+    models, curves = _models(session, np.unique(pos.lamp_type_id)) if pos.size else ({}, {})
     plans: dict[int, AreaPlan] = {}
     # Group positions by (area, lamp type) with numpy: sums by group, no per-row loop.
     keys = np.stack([pos.area_id, pos.lamp_type_id], axis=1) if pos.size else np.empty((0, 2))
@@ -259,6 +264,7 @@ def plan_areas(
                     age,
                     due,
                     overdue,
+                    curves.get(lt_id),
                 )
             )
         plans[area.id] = AreaPlan(

@@ -5,16 +5,21 @@ from __future__ import annotations
 import math
 from datetime import UTC, date, datetime, timedelta
 
+import numpy as np
 import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
+from service.events import service as events
+from service.register.models import LampPosition
+from service.reliability import weibull
 from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.replacement import plan_block_replacement
 from service.reliability.weibull import Weibull
 from service.workorders.models import WorkOrder
 from tests.planning import builders as b
+from tests.readings import factory as fx
 
 AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)  # 2 June 08:00 in Auckland
 
@@ -158,3 +163,48 @@ def test_bad_overrides_and_unknown_area(
     assert {e["field"] for e in r.json()["errors"]} == {"light_floor", "colour"}
     assert client.get("/api/v1/areas/999999/relamp-plan", headers=reader).status_code == 404
     assert client.get(f"/api/v1/areas/{area_id}/relamp-plan").status_code == 401
+
+
+def test_plan_uses_the_field_fit_the_forecasts_use(
+    db: Session, client: TestClient, reader: dict[str, str]
+) -> None:
+    """With enough recorded burnouts the plan and the forecasts share one life curve."""
+    s = fx.site(db)
+    a = fx.area(db, s)
+    lt = fx.lamp_type(db)
+    fx.fixtures(db, a, lt, 30)
+    db.commit()
+    positions = db.query(LampPosition).order_by(LampPosition.id).all()
+    hours = np.sort(weibull.percentile(np.linspace(0.05, 0.95, 24), 3.0, 900.0))
+    at = fx.T0 + timedelta(days=100)
+    for p, h in zip(positions[:24], hours, strict=True):
+        events.report_burnout(
+            db, position_id=p.id, reported_at=at, burn_hours=float(h), replaced=True
+        )
+    db.commit()
+    fit = client.get(f"/api/v1/field-fits/lamp-types/{lt.id}", headers=reader).json()
+    assert fit["forecasts_use"]["method"] == "mle"
+    plan = client.get(f"/api/v1/areas/{a.id}/relamp-plan", headers=reader).json()
+    inputs = plan["lamp_types"][0]["inputs"]
+    assert inputs["life_curve"] == "mle"
+    assert inputs["weibull_shape"] == pytest.approx(fit["forecasts_use"]["shape"], rel=1e-6)
+    # The curve's scale at rated conditions times this area's voltage and switching factors;
+    # lamps in service are censored at their age "now", a few ms apart between the requests.
+    factor = inputs["voltage_life_factor"] * inputs["switching_life_factor"]
+    assert inputs["weibull_scale_h"] == pytest.approx(
+        fit["forecasts_use"]["scale_h"] * factor, rel=1e-6
+    )
+    # And the interval is the numeric core's for that curve and those costs.
+    ref = plan_block_replacement(
+        Weibull(inputs["weibull_shape"], inputs["weibull_scale_h"]),
+        inputs["c_group"],
+        inputs["c_spot"],
+        light_floor_h=inputs["light_floor_h"],
+        burnout_ceiling=inputs["burnout_ceiling"],
+        rupture_cap_h=inputs["rupture_cap_h"],
+    )
+    got = plan["lamp_types"][0]["interval_h"]
+    if ref.interval_h is None:
+        assert got is None
+    else:
+        assert got == pytest.approx(ref.interval_h, rel=1e-4)
