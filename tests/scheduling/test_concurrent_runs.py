@@ -6,7 +6,6 @@ import json
 import os
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -48,18 +47,24 @@ def test_two_processes_create_exactly_one_set(scratch_url: str) -> None:
     with Session(engine, expire_on_commit=False) as db:
         site_id = portfolio(db)["site"].id
     engine.dispose()
-    start_at = time.time() + 3.0
     args = [sys.executable, "-m", "tests.scheduling.concurrent_run"]
     procs = [
         subprocess.Popen(
-            [*args, scratch_url, str(site_id), "2026-W49", str(start_at)],
+            [*args, scratch_url, str(site_id), "2026-W49"],
             cwd=ROOT,
+            stdin=subprocess.PIPE,
             stdout=subprocess.PIPE,
             stderr=subprocess.PIPE,
             text=True,
         )
         for _ in range(2)
     ]
+    for p in procs:  # both imported and connected ...
+        assert p.stdout is not None and p.stdout.readline().strip() == "ready"
+    for p in procs:  # ... then both released at once
+        assert p.stdin is not None
+        p.stdin.write("go\n")
+        p.stdin.flush()
     results = []
     for p in procs:
         out, err = p.communicate(timeout=120)
