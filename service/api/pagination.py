@@ -11,6 +11,7 @@ from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
 from service.api.errors import Invalid
+from service.api.ids import MAX_ID
 
 T = TypeVar("T")
 
@@ -34,7 +35,8 @@ class PageParams(BaseModel):
 
 def page_params(
     limit: Annotated[int, Query(ge=1, le=1000, description="Items per page.")] = 50,
-    offset: Annotated[int, Query(ge=0, description="Items to skip.")] = 0,
+    # No table holds more rows than ids (MAX_ID); a larger offset could not bind on SQLite.
+    offset: Annotated[int, Query(ge=0, le=MAX_ID, description="Items to skip.")] = 0,
     sort: Annotated[
         str | None,
         Query(description="Comma-separated fields; a leading '-' sorts descending."),

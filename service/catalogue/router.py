@@ -9,6 +9,7 @@ from pydantic import BaseModel
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
+from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, paginate
 from service.catalogue import bulk, service
 from service.catalogue import repository as repo
@@ -91,21 +92,21 @@ def export_lamp_types(
 
 
 @router.get("/{lamp_type_id}", response_model=LampTypeRead)
-def get_lamp_type(lamp_type_id: int, session: SessionDep, _: ReadKey) -> LampTypeRead:
+def get_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: ReadKey) -> LampTypeRead:
     """Read one lamp type with its resolved model."""
     return service.to_read(service.get_lamp_type(session, lamp_type_id))
 
 
 @router.patch("/{lamp_type_id}", response_model=LampTypeRead)
 def update_lamp_type(
-    lamp_type_id: int, body: LampTypeUpdate, session: SessionDep, _: WriteKey
+    lamp_type_id: IdPath, body: LampTypeUpdate, session: SessionDep, _: WriteKey
 ) -> LampTypeRead:
     """Change some fields of a lamp type."""
     return service.to_read(service.update_lamp_type(session, lamp_type_id, body))
 
 
 @router.delete("/{lamp_type_id}", status_code=status.HTTP_204_NO_CONTENT)
-def delete_lamp_type(lamp_type_id: int, session: SessionDep, _: WriteKey) -> Response:
+def delete_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a lamp type that no fixture uses."""
     service.delete_lamp_type(session, lamp_type_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)

@@ -8,13 +8,15 @@ from pydantic import BaseModel
 from sqlalchemy.orm import Session
 
 from service.api.errors import NotFound
+from service.api.ids import MAX_ID
 
 M = TypeVar("M")
 
 
 def get_or_404(session: Session, model: type[M], obj_id: int, label: str) -> M:
     """Load a row by primary key or raise NotFound naming what was missing."""
-    row = session.get(model, obj_id)
+    # Ids outside the id columns' range exist nowhere (and SQLite cannot bind past 2**63 - 1).
+    row = session.get(model, obj_id) if 1 <= obj_id <= MAX_ID else None
     if row is None:
         raise NotFound(f"{label} {obj_id} does not exist.", resource=label, id=obj_id)
     return row

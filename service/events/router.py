@@ -7,6 +7,7 @@ from typing import Literal
 from fastapi import APIRouter, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, paginate
 from service.db.crud import get_or_404
 from service.events import repository as repo
@@ -39,10 +40,10 @@ def list_burnout_reports(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
-    area_id: int | None = None,
+    site_id: IdQuery = None,
+    area_id: IdQuery = None,
     status: Literal["open", "ordered", "closed"] | None = None,
-    position_id: int | None = None,
+    position_id: IdQuery = None,
 ) -> Page[BurnoutReportRead]:
     """List burnout reports (sort: id, reported_at)."""
     stmt = repo.report_query(site_id, area_id, status, position_id)
@@ -56,7 +57,7 @@ def list_burnout_reports(
 
 
 @router.get("/burnout-reports/{report_id}", response_model=BurnoutReportRead)
-def get_burnout_report(report_id: int, session: SessionDep, _: ReadKey) -> BurnoutReportRead:
+def get_burnout_report(report_id: IdPath, session: SessionDep, _: ReadKey) -> BurnoutReportRead:
     """Read one burnout report."""
     return BurnoutReportRead.model_validate(
         get_or_404(session, BurnoutReport, report_id, "burnout report")
@@ -86,10 +87,10 @@ def list_lamp_removals(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
-    lamp_type_id: int | None = None,
+    site_id: IdQuery = None,
+    lamp_type_id: IdQuery = None,
     failed: bool | None = None,
-    position_id: int | None = None,
+    position_id: IdQuery = None,
 ) -> Page[LampRemovalRead]:
     """List lamp removals, the field fit's observations (sort: id, removed_at)."""
     stmt = repo.removal_query(site_id, lamp_type_id, failed, position_id)

@@ -7,17 +7,21 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from service.api.ids import Id
+
 RemovalReason = Literal["burnout", "group_relamp", "spot_relamp", "damage", "upgrade", "other"]
 
 
 class BurnoutReportCreate(BaseModel):
     """A lamp found dark: which position, when, and its burn hours if known."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    position_id: int
+    position_id: Id
     reported_at: datetime
-    burn_hours: float | None = Field(default=None, ge=0, description="Burn hours, if known.")
+    burn_hours: float | None = Field(
+        default=None, ge=0, le=1_000_000, description="Burn hours, if known."
+    )
     note: str | None = Field(default=None, max_length=500)
     replaced: bool = Field(default=False, description="A new lamp went in at once.")
 
@@ -45,14 +49,16 @@ class BurnoutReportRead(BaseModel):
 class LampRemovalCreate(BaseModel):
     """A lamp taken out of a position; a new one goes in at removed_at."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    position_id: int
+    position_id: Id
     removed_at: datetime
     failed: bool = Field(description="True if the lamp was dark (failure), else censored.")
     reason: RemovalReason
-    burn_hours: float | None = Field(default=None, ge=0, description="Burn hours, if known.")
-    work_order_id: int | None = None
+    burn_hours: float | None = Field(
+        default=None, ge=0, le=1_000_000, description="Burn hours, if known."
+    )
+    work_order_id: Id | None = None
 
 
 class LampRemovalRead(BaseModel):

@@ -10,6 +10,7 @@ from fastapi import APIRouter, Query
 
 from service.api.auth import ReadKey, SessionDep
 from service.api.errors import NotFound
+from service.api.ids import MAX_ID, IdPath
 from service.catalogue.models import LampType
 from service.db.crud import get_or_404
 from service.forecasting import service as fc
@@ -118,7 +119,7 @@ def _at(at: datetime | None) -> datetime | None:
 
 @router.get("/forecasts/sites/{site_id}", response_model=ForecastRead)
 def forecast_site(
-    site_id: int, session: SessionDep, _: ReadKey, horizon_weeks: Horizon = 13.0, at: At = None
+    site_id: IdPath, session: SessionDep, _: ReadKey, horizon_weeks: Horizon = 13.0, at: At = None
 ) -> ForecastRead:
     """Forecast a whole site, with each area's totals and crossing dates."""
     get_or_404(session, Site, site_id, "site")
@@ -128,7 +129,7 @@ def forecast_site(
 
 @router.get("/forecasts/areas/{area_id}", response_model=ForecastRead)
 def forecast_area(
-    area_id: int,
+    area_id: IdPath,
     session: SessionDep,
     _: ReadKey,
     horizon_weeks: Horizon = 13.0,
@@ -143,7 +144,11 @@ def forecast_area(
 
 @router.get("/forecasts/fixtures/{fixture_id}", response_model=ForecastRead)
 def forecast_fixture(
-    fixture_id: int, session: SessionDep, _: ReadKey, horizon_weeks: Horizon = 13.0, at: At = None
+    fixture_id: IdPath,
+    session: SessionDep,
+    _: ReadKey,
+    horizon_weeks: Horizon = 13.0,
+    at: At = None,
 ) -> ForecastRead:
     """Forecast one fixture, position by position."""
     get_or_404(session, Fixture, fixture_id, "fixture")
@@ -153,12 +158,12 @@ def forecast_fixture(
 
 @router.get("/forecasts/lamp-types/{lamp_type_id}", response_model=ForecastRead)
 def forecast_lamp_type(
-    lamp_type_id: int,
+    lamp_type_id: IdPath,
     session: SessionDep,
     _: ReadKey,
     horizon_weeks: Horizon = 13.0,
     at: At = None,
-    site_id: Annotated[int | None, Query(description="Only this site.")] = None,
+    site_id: Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only this site.")] = None,
 ) -> ForecastRead:
     """Forecast every position holding a lamp type (optionally in one site)."""
     get_or_404(session, LampType, lamp_type_id, "lamp type")
@@ -176,10 +181,16 @@ def forecast_lamp_type(
 def what_if_curve(
     session: SessionDep,
     _: ReadKey,
-    lamp_type_id: int,
-    voltage_v: Annotated[float | None, Query(gt=0, le=1000, description="Volts.")] = None,
-    hours_per_start: Annotated[float | None, Query(gt=0, le=10_000)] = None,
-    t_max_h: Annotated[float | None, Query(gt=0, le=1_000_000)] = None,
+    lamp_type_id: Annotated[int, Query(ge=1, le=MAX_ID, description="The lamp type.")],
+    # Lower bounds keep the power laws and the renewal grid finite (a 1e-300 V circuit or
+    # a 1e-50 h grid overflows them); none of them cuts off a real lamp or circuit.
+    voltage_v: Annotated[float | None, Query(ge=1, le=1000, description="Volts.")] = None,
+    hours_per_start: Annotated[
+        float | None, Query(ge=0.01, le=10_000, description="Burn hours per start.")
+    ] = None,
+    t_max_h: Annotated[
+        float | None, Query(ge=1, le=1_000_000, description="Grid end, burn hours.")
+    ] = None,
     points: Annotated[int, Query(ge=2, le=2001)] = 101,
     field_fit: Annotated[bool, Query(description="Use the field fit's curve.")] = True,
 ) -> CurveRead:
@@ -232,10 +243,12 @@ def _fit(w: WeibullFit | None) -> WeibullFitRead | None:
 
 @router.get("/field-fits/lamp-types/{lamp_type_id}", response_model=FieldFitRead)
 def field_fit(
-    lamp_type_id: int,
+    lamp_type_id: IdPath,
     session: SessionDep,
     _: ReadKey,
-    site_id: Annotated[int | None, Query(description="Only this site's records.")] = None,
+    site_id: Annotated[
+        int | None, Query(ge=1, le=MAX_ID, description="Only this site's records.")
+    ] = None,
 ) -> FieldFitRead:
     """Field fit of a lamp type: Weibull MLE and WeiBayes with bounds, Kaplan-Meier, choice."""
     models = catalogue_models(session, [lamp_type_id])

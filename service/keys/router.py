@@ -5,6 +5,7 @@ from __future__ import annotations
 from fastapi import APIRouter, status
 
 from service.api.auth import AdminKey, SessionDep
+from service.api.ids import IdPath
 from service.keys import service
 from service.keys.schemas import ApiKeyCreate, ApiKeyCreated, ApiKeyRead
 
@@ -25,6 +26,6 @@ def create_key(body: ApiKeyCreate, session: SessionDep, _: AdminKey) -> ApiKeyCr
 
 
 @router.delete("/{key_id}", response_model=ApiKeyRead)
-def revoke_key(key_id: int, session: SessionDep, _: AdminKey) -> ApiKeyRead:
+def revoke_key(key_id: IdPath, session: SessionDep, _: AdminKey) -> ApiKeyRead:
     """Revoke a key."""
     return ApiKeyRead.model_validate(service.revoke_key(session, key_id))

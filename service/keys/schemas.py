@@ -13,7 +13,7 @@ Scope = Literal["read", "write", "admin"]
 class ApiKeyCreate(BaseModel):
     """A new key: a unique name and one scope."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str = Field(min_length=1, max_length=120)
     scope: Scope

@@ -13,6 +13,7 @@ from sqlalchemy.orm import Session
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
 from service.api.errors import Invalid
+from service.api.ids import IdQuery
 from service.api.pagination import Page, PageDep, paginate
 from service.readings import service
 from service.readings.ages import position_ages
@@ -77,9 +78,9 @@ def list_burn_hours(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
-    area_id: int | None = None,
-    fixture_id: int | None = None,
+    site_id: IdQuery = None,
+    area_id: IdQuery = None,
+    fixture_id: IdQuery = None,
 ) -> Page[BurnHourRead]:
     """List burn-hour records (sort: id, period_end)."""
     stmt = _filters(BurnHourRecord, site_id, area_id, fixture_id)
@@ -121,9 +122,9 @@ def list_voltage_readings(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
-    area_id: int | None = None,
-    fixture_id: int | None = None,
+    site_id: IdQuery = None,
+    area_id: IdQuery = None,
+    fixture_id: IdQuery = None,
 ) -> Page[VoltageReadingRead]:
     """List voltage readings (sort: id, measured_at)."""
     stmt = _filters(VoltageReading, site_id, area_id, fixture_id)
@@ -141,9 +142,9 @@ def list_position_ages(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
-    area_id: int | None = None,
-    fixture_id: int | None = None,
+    site_id: IdQuery = None,
+    area_id: IdQuery = None,
+    fixture_id: IdQuery = None,
     at: Annotated[datetime | None, Query(description="Moment (default now).")] = None,
 ) -> PositionAgesPage:
     """Each lamp position's age, starts and operating voltage (with its source), by id."""

@@ -6,6 +6,8 @@ from datetime import date, datetime
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from service.api.ids import Id
+
 
 class BurnHourCreate(BaseModel):
     """One burn-hour row: a period total (period or day) or a cumulative meter reading.
@@ -16,10 +18,10 @@ class BurnHourCreate(BaseModel):
     Timestamps without an offset are taken in the site's time zone.
     """
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    fixture_id: int | None = None
-    area_id: int | None = None
+    fixture_id: Id | None = None
+    area_id: Id | None = None
     period_start: datetime | None = None
     period_end: datetime | None = None
     day: date | None = None
@@ -54,10 +56,10 @@ class BurnHourRead(BaseModel):
 class VoltageReadingCreate(BaseModel):
     """A supply voltage measured at a fixture or on an area's circuit."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    fixture_id: int | None = None
-    area_id: int | None = None
+    fixture_id: Id | None = None
+    area_id: Id | None = None
     measured_at: datetime
     volts: float
     note: str | None = Field(default=None, max_length=300)

@@ -7,6 +7,7 @@ from typing import Annotated
 from fastapi import APIRouter, Query, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, paginate
 from service.register import areas
 from service.register import repository as repo
@@ -21,7 +22,9 @@ def list_areas(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: Annotated[int | None, Query(description="Only areas of this site.")] = None,
+    site_id: Annotated[
+        int | None, Query(ge=1, le=MAX_ID, description="Only areas of this site.")
+    ] = None,
     access_method: Annotated[
         str | None, Query(description=f"One of {', '.join(ACCESS_METHODS)}.")
     ] = None,
@@ -45,19 +48,19 @@ def create_area(body: AreaCreate, session: SessionDep, _: WriteKey) -> AreaRead:
 
 
 @router.get("/{area_id}", response_model=AreaRead)
-def get_area(area_id: int, session: SessionDep, _: ReadKey) -> AreaRead:
+def get_area(area_id: IdPath, session: SessionDep, _: ReadKey) -> AreaRead:
     """Read one area."""
     return AreaRead.model_validate(areas.get_area(session, area_id))
 
 
 @router.patch("/{area_id}", response_model=AreaRead)
-def update_area(area_id: int, body: AreaUpdate, session: SessionDep, _: WriteKey) -> AreaRead:
+def update_area(area_id: IdPath, body: AreaUpdate, session: SessionDep, _: WriteKey) -> AreaRead:
     """Change some fields of an area."""
     return AreaRead.model_validate(areas.update_area(session, area_id, body))
 
 
 @router.delete("/{area_id}", status_code=status.HTTP_204_NO_CONTENT)
-def delete_area(area_id: int, session: SessionDep, _: WriteKey) -> Response:
+def delete_area(area_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete an area with its fixtures."""
     areas.delete_area(session, area_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)

@@ -11,6 +11,7 @@ import service.register.fixture_bulk as fixture_bulk
 import service.register.fixture_export as fixture_export
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
+from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, paginate
 from service.register import fixtures
 from service.register import repository as repo
@@ -25,9 +26,11 @@ from service.register.schemas import (
 
 router = APIRouter(tags=["register"])
 
-SiteQ = Annotated[int | None, Query(description="Only fixtures of this site.")]
-AreaQ = Annotated[int | None, Query(description="Only fixtures of this area.")]
-LampTypeQ = Annotated[int | None, Query(description="Only fixtures of this lamp type.")]
+SiteQ = Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this site.")]
+AreaQ = Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this area.")]
+LampTypeQ = Annotated[
+    int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this lamp type.")
+]
 TagQ = Annotated[str | None, Query(description="Tag contains (any case).")]
 
 
@@ -105,35 +108,35 @@ def export_fixtures(
 
 
 @router.get("/fixtures/{fixture_id}", response_model=FixtureRead)
-def get_fixture(fixture_id: int, session: SessionDep, _: ReadKey) -> FixtureRead:
+def get_fixture(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> FixtureRead:
     """Read one fixture with its positions."""
     return FixtureRead.model_validate(fixtures.get_fixture(session, fixture_id))
 
 
 @router.patch("/fixtures/{fixture_id}", response_model=FixtureRead)
 def update_fixture(
-    fixture_id: int, body: FixtureUpdate, session: SessionDep, _: WriteKey
+    fixture_id: IdPath, body: FixtureUpdate, session: SessionDep, _: WriteKey
 ) -> FixtureRead:
     """Change some fields of a fixture; positions follow lamps_per_fixture."""
     return FixtureRead.model_validate(fixtures.update_fixture(session, fixture_id, body))
 
 
 @router.delete("/fixtures/{fixture_id}", status_code=status.HTTP_204_NO_CONTENT)
-def delete_fixture(fixture_id: int, session: SessionDep, _: WriteKey) -> Response:
+def delete_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a fixture with its positions."""
     fixtures.delete_fixture(session, fixture_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
 
 
 @router.get("/fixtures/{fixture_id}/positions", response_model=list[PositionRead])
-def list_positions(fixture_id: int, session: SessionDep, _: ReadKey) -> list[PositionRead]:
+def list_positions(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> list[PositionRead]:
     """The lamp positions of a fixture and when their lamps went in."""
     return [PositionRead.model_validate(p) for p in fixtures.list_positions(session, fixture_id)]
 
 
 @router.patch("/positions/{position_id}", response_model=PositionRead)
 def update_position(
-    position_id: int, body: PositionUpdate, session: SessionDep, _: WriteKey
+    position_id: IdPath, body: PositionUpdate, session: SessionDep, _: WriteKey
 ) -> PositionRead:
     """Correct when a position's lamp went in and the burn hours it had then."""
     return PositionRead.model_validate(fixtures.update_position(session, position_id, body))

@@ -7,6 +7,7 @@ from typing import Annotated
 from fastapi import APIRouter, Query, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, paginate
 from service.register import area_router, fixture_router, service
 from service.register import repository as repo
@@ -41,19 +42,19 @@ def create_site(body: SiteCreate, session: SessionDep, _: WriteKey) -> SiteRead:
 
 
 @router.get("/sites/{site_id}", response_model=SiteRead)
-def get_site(site_id: int, session: SessionDep, _: ReadKey) -> SiteRead:
+def get_site(site_id: IdPath, session: SessionDep, _: ReadKey) -> SiteRead:
     """Read one site."""
     return SiteRead.model_validate(service.get_site(session, site_id))
 
 
 @router.patch("/sites/{site_id}", response_model=SiteRead)
-def update_site(site_id: int, body: SiteUpdate, session: SessionDep, _: WriteKey) -> SiteRead:
+def update_site(site_id: IdPath, body: SiteUpdate, session: SessionDep, _: WriteKey) -> SiteRead:
     """Change some fields of a site."""
     return SiteRead.model_validate(service.update_site(session, site_id, body))
 
 
 @router.delete("/sites/{site_id}", status_code=status.HTTP_204_NO_CONTENT)
-def delete_site(site_id: int, session: SessionDep, _: WriteKey) -> Response:
+def delete_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a site and everything in it."""
     service.delete_site(session, site_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)

@@ -9,9 +9,13 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError, available_timezones
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 
+from service.api.ids import Id
+
 AccessMethod = Literal["floor", "ladder", "scaffold", "lift"]
-Volts = Annotated[float, Field(gt=0, le=1000, description="Volts, in (0, 1000].")]
-Money = Annotated[float, Field(ge=0)]
+# At least 1 V: a near-zero supply makes the voltage power laws overflow.
+Volts = Annotated[float, Field(ge=1, le=1000, description="Volts, in [1, 1000].")]
+# Prices and rates in the site currency; the cap keeps cost sums finite.
+Money = Annotated[float, Field(ge=0, le=1_000_000_000)]
 Fraction = Annotated[float, Field(gt=0, lt=1)]
 
 
@@ -40,7 +44,7 @@ Currency = Annotated[str, Field(pattern=r"^[A-Z]{3}$", description="ISO 4217 cod
 class SiteFields(BaseModel):
     """Fields a client may set on a site."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str = Field(min_length=1, max_length=200)
     time_zone: TimeZone
@@ -62,7 +66,7 @@ class SiteCreate(SiteFields):
 class SiteUpdate(BaseModel):
     """A partial update of a site: only the fields sent change."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str | None = Field(default=None, min_length=1, max_length=200)
     time_zone: TimeZone | None = None
@@ -90,7 +94,7 @@ class SiteRead(SiteFields):
 class AreaFields(BaseModel):
     """Fields a client may set on an area."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str = Field(min_length=1, max_length=200)
     floor_or_zone: str | None = Field(default=None, max_length=100)
@@ -116,13 +120,13 @@ class AreaFields(BaseModel):
 class AreaCreate(AreaFields):
     """A new area in a site."""
 
-    site_id: int
+    site_id: Id
 
 
 class AreaUpdate(BaseModel):
     """A partial update of an area."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     name: str | None = Field(default=None, min_length=1, max_length=200)
     floor_or_zone: str | None = Field(default=None, max_length=100)
@@ -169,11 +173,11 @@ class PositionRead(BaseModel):
 class PositionUpdate(BaseModel):
     """Correct when a position's lamp went in and what it had then."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     lamp_installed_at: datetime | None = None  # without an offset: UTC
     hours_at_install: float | None = Field(default=None, ge=0, le=1_000_000, allow_inf_nan=False)
-    starts_at_install: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+    starts_at_install: float | None = Field(default=None, ge=0, le=100_000_000, allow_inf_nan=False)
 
 
 BallastKind = Literal["none", "reactor", "regulating", "electronic", "led_driver"]
@@ -182,11 +186,11 @@ BallastKind = Literal["none", "reactor", "regulating", "electronic", "led_driver
 class FixtureFields(BaseModel):
     """Fields a client may set on a fixture."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     tag: str = Field(min_length=1, max_length=64)
     location: str | None = Field(default=None, max_length=300)
-    lamp_type_id: int
+    lamp_type_id: Id
     lamps_per_fixture: int = Field(default=1, ge=1, le=64)
     # None: the lamp type's ballast behaviour (its catalogue value or technology default).
     ballast_kind: BallastKind | None = None
@@ -197,23 +201,23 @@ class FixtureFields(BaseModel):
 class FixtureCreate(FixtureFields):
     """A new fixture; its lamp positions are created with it."""
 
-    area_id: int
+    area_id: Id
     # When the lamps now in it went in (default: installed_on at 00:00 UTC, else now) and
     # their burn hours and starts then. A time without an offset is taken as UTC.
     lamps_installed_at: datetime | None = None
     lamp_hours_at_install: float = Field(default=0.0, ge=0, le=1_000_000, allow_inf_nan=False)
-    lamp_starts_at_install: float = Field(default=0.0, ge=0, allow_inf_nan=False)
+    lamp_starts_at_install: float = Field(default=0.0, ge=0, le=100_000_000, allow_inf_nan=False)
 
 
 class FixtureUpdate(BaseModel):
     """A partial update of a fixture (positions follow lamps_per_fixture)."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     tag: str | None = Field(default=None, min_length=1, max_length=64)
     location: str | None = Field(default=None, max_length=300)
-    area_id: int | None = None
-    lamp_type_id: int | None = None
+    area_id: Id | None = None
+    lamp_type_id: Id | None = None
     lamps_per_fixture: int | None = Field(default=None, ge=1, le=64)
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None

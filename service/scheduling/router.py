@@ -10,6 +10,7 @@ from sqlalchemy.orm import sessionmaker
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
+from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, paginate
 from service.db.crud import get_or_404
 from service.register.service import get_site
@@ -28,7 +29,7 @@ def list_runs(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
+    site_id: IdQuery = None,
     iso_week: Annotated[str | None, Query(pattern=r"^\d{4}-W\d{2}$")] = None,
     outcome: Literal["running", "succeeded", "failed"] | None = None,
 ) -> Page[RunRead]:
@@ -50,14 +51,14 @@ def list_runs(
 
 
 @router.get("/runs/{run_id}", response_model=RunRead)
-def get_run(run_id: int, session: SessionDep, _: ReadKey) -> RunRead:
+def get_run(run_id: IdPath, session: SessionDep, _: ReadKey) -> RunRead:
     """One run record."""
     return RunRead.model_validate(get_or_404(session, WeeklyRun, run_id, "run"))
 
 
 @router.post("/sites/{site_id}/runs", response_model=RunRead, status_code=status.HTTP_201_CREATED)
 def start_run(
-    site_id: int, session: SessionDep, _: WriteKey, body: RunStart | None = None
+    site_id: IdPath, session: SessionDep, _: WriteKey, body: RunStart | None = None
 ) -> RunRead:
     """Run a site's weekly issue now (write scope; safe to repeat: a week never gets twice)."""
     get_site(session, site_id)

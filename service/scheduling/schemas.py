@@ -13,7 +13,7 @@ WeekText = str
 class RunStart(BaseModel):
     """Start a site's weekly run now, for its current week or a named ISO week."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     week: str | None = Field(
         default=None, pattern=r"^\d{4}-W\d{2}$", description="ISO week, e.g. 2026-W49."

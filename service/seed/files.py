@@ -124,8 +124,8 @@ def read_scenario(directory: Path | None = None, today: date | None = None) -> S
     fixtures = []
     for n, row in enumerate(_csv(root / FIXTURES), start=2):  # row 1 is the header
         body = {
-            "area_id": 0,  # resolved from the names at load time
-            "lamp_type_id": 0,
+            "area_id": 1,  # placeholder ids (valid, unused): resolved from the names at load
+            "lamp_type_id": 1,
             "tag": row["tag"],
             "location": row["location"] or None,
             "lamps_per_fixture": int(row["lamps_per_fixture"]),

@@ -10,6 +10,7 @@ from fastapi.responses import HTMLResponse
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
+from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, paginate
 from service.register.models import Area, Site
 from service.workorders import exports, service
@@ -46,8 +47,8 @@ def list_orders(
     session: SessionDep,
     _: ReadKey,
     page: PageDep,
-    site_id: int | None = None,
-    area_id: int | None = None,
+    site_id: IdQuery = None,
+    area_id: IdQuery = None,
     state: State | None = None,
     kind: Kind | None = None,
     iso_week: Annotated[str | None, Query(pattern=r"^\d{4}-W\d{2}$")] = None,
@@ -88,34 +89,34 @@ def create_order(body: WorkOrderCreate, session: SessionDep, _: WriteKey) -> Wor
 
 
 @router.get("/work-orders/{order_id}", response_model=WorkOrderRead)
-def get_order(order_id: int, session: SessionDep, _: ReadKey) -> WorkOrderRead:
+def get_order(order_id: IdPath, session: SessionDep, _: ReadKey) -> WorkOrderRead:
     """One order with its lines."""
     return read(service.get_order(session, order_id))
 
 
 @router.patch("/work-orders/{order_id}", response_model=WorkOrderRead)
 def update_order(
-    order_id: int, body: WorkOrderUpdate, session: SessionDep, _: WriteKey
+    order_id: IdPath, body: WorkOrderUpdate, session: SessionDep, _: WriteKey
 ) -> WorkOrderRead:
     """Set the external reference (from a CMMS), notes or due date."""
     return read(service.update(session, order_id, body))
 
 
 @router.post("/work-orders/{order_id}/issue", response_model=WorkOrderRead)
-def issue_order(order_id: int, session: SessionDep, _: WriteKey) -> WorkOrderRead:
+def issue_order(order_id: IdPath, session: SessionDep, _: WriteKey) -> WorkOrderRead:
     """draft -> issued (409 from any other state)."""
     return read(service.issue(session, order_id))
 
 
 @router.post("/work-orders/{order_id}/start", response_model=WorkOrderRead)
-def start_order(order_id: int, session: SessionDep, _: WriteKey) -> WorkOrderRead:
+def start_order(order_id: IdPath, session: SessionDep, _: WriteKey) -> WorkOrderRead:
     """issued -> in_progress (409 from any other state)."""
     return read(service.start(session, order_id))
 
 
 @router.post("/work-orders/{order_id}/complete", response_model=WorkOrderRead)
 def complete_order(
-    order_id: int, body: CompleteBody, session: SessionDep, _: WriteKey
+    order_id: IdPath, body: CompleteBody, session: SessionDep, _: WriteKey
 ) -> WorkOrderRead:
     """in_progress -> done with per-fixture outcomes; replaced lamps are recorded as removals."""
     return read(service.complete(session, order_id, body))
@@ -123,20 +124,20 @@ def complete_order(
 
 @router.post("/work-orders/{order_id}/cancel", response_model=WorkOrderRead)
 def cancel_order(
-    order_id: int, session: SessionDep, _: WriteKey, body: CancelBody | None = None
+    order_id: IdPath, session: SessionDep, _: WriteKey, body: CancelBody | None = None
 ) -> WorkOrderRead:
     """Cancel an open order; positions stay as they were, batched reports reopen."""
     return read(service.cancel(session, order_id, body or CancelBody()))
 
 
 @router.get("/work-orders/{order_id}/lines", response_model=list[LineRead])
-def order_lines(order_id: int, session: SessionDep, _: ReadKey) -> list[LineRead]:
+def order_lines(order_id: IdPath, session: SessionDep, _: ReadKey) -> list[LineRead]:
     """An order's lines as JSON (one per fixture)."""
     return [LineRead.model_validate(ln) for ln in service.lines_of(session, order_id)]
 
 
 @router.get("/work-orders/{order_id}/lines.csv", response_class=Response)
-def order_lines_csv(order_id: int, session: SessionDep, _: ReadKey) -> Response:
+def order_lines_csv(order_id: IdPath, session: SessionDep, _: ReadKey) -> Response:
     """An order's lines as CSV (UTF-8, one row per fixture)."""
     order = service.get_order(session, order_id)
     text = exports.lines_csv(order, service.lines_of(session, order_id))
@@ -148,7 +149,7 @@ def order_lines_csv(order_id: int, session: SessionDep, _: ReadKey) -> Response:
 
 
 @router.get("/work-orders/{order_id}/print", response_class=HTMLResponse)
-def order_print(order_id: int, session: SessionDep, _: ReadKey) -> HTMLResponse:
+def order_print(order_id: IdPath, session: SessionDep, _: ReadKey) -> HTMLResponse:
     """A printable page: cautions at the top, fixtures by location, a checkbox per position."""
     order = service.get_order(session, order_id)
     site = session.get(Site, order.site_id)

@@ -7,6 +7,8 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from service.api.ids import Id
+
 Kind = Literal["group_relamp", "spot_replacement"]
 State = Literal["draft", "issued", "in_progress", "done", "cancelled"]
 
@@ -14,9 +16,9 @@ State = Literal["draft", "issued", "in_progress", "done", "cancelled"]
 class WorkOrderCreate(BaseModel):
     """A hand-made order (a draft): a group relamp of a whole area, or its open burnouts."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    area_id: int
+    area_id: Id
     kind: Kind
     due_on: date | None = Field(default=None, description="Site-local date (default: today).")
     notes: str | None = Field(default=None, max_length=2000)
@@ -26,7 +28,7 @@ class WorkOrderCreate(BaseModel):
 class WorkOrderUpdate(BaseModel):
     """What a CMMS or a planner may change on an order at any state."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     external_reference: str | None = Field(default=None, max_length=200)
     notes: str | None = Field(default=None, max_length=2000)
@@ -85,9 +87,9 @@ class WorkOrderRead(BaseModel):
 class FixtureOutcome(BaseModel):
     """What happened at one fixture of the order."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    fixture_id: int
+    fixture_id: Id
     outcome: Literal["replaced", "skipped"]
     reason: str | None = Field(default=None, min_length=1, max_length=500)
 
@@ -101,7 +103,7 @@ class FixtureOutcome(BaseModel):
 class CompleteBody(BaseModel):
     """Per-fixture outcomes; fixtures not listed take `others` (or the request is refused)."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     outcomes: list[FixtureOutcome] = Field(default_factory=list, max_length=100_000)
     others: Literal["replaced"] | None = Field(
@@ -113,6 +115,6 @@ class CompleteBody(BaseModel):
 class CancelBody(BaseModel):
     """Why an order is cancelled."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     reason: str | None = Field(default=None, max_length=500)
