@@ -10,9 +10,16 @@ from typing import Annotated, Any, Literal
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
 from service.catalogue.model import LampModel
-from service.catalogue.mortality import MortalityFitRead, check_mortality_points
+from service.catalogue.mortality import (
+    MortalityFitRead,
+    check_mortality_points,
+    fit_mortality_points,
+)
 from service.reliability.conditions import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 from service.reliability.lumen import MAX_FRACTION
+
+# Weibull shapes a lamp type may have, given or fitted from mortality points.
+MIN_SHAPE, MAX_SHAPE = 0.1, 50.0
 
 
 def _technology(v: str) -> str:
@@ -31,7 +38,24 @@ def _mortality(points: list[list[float]]) -> list[list[float]]:
     problem = check_mortality_points(points)
     if problem is not None:
         raise ValueError(problem)
+    # The points set the shape; a nearly flat curve fits a shape near zero whose scale
+    # overflows. Hold the fitted shape to the range a given weibull_shape must keep.
+    try:
+        shape = fit_mortality_points(points).shape
+    except (ArithmeticError, ValueError):
+        shape = math.nan
+    if not MIN_SHAPE <= shape <= MAX_SHAPE:
+        raise ValueError(
+            f"these points fit a Weibull shape outside [{MIN_SHAPE:g}, {MAX_SHAPE:g}]; "
+            "check the percentages"
+        )
     return [[float(a), float(b)] for a, b in sorted(points)]
+
+
+# Lumen points: x within 10 million (hours or rated-life fractions) and at least a
+# millionth apart, so the interpolant's slopes stay finite (5e-324 apart overflowed them).
+MAX_LUMEN_X = 10_000_000.0
+MIN_LUMEN_GAP = 1e-6
 
 
 def _lumen(points: list[list[float]]) -> list[list[float]]:
@@ -40,14 +64,16 @@ def _lumen(points: list[list[float]]) -> list[list[float]]:
     for p in points:
         if len(p) != 2:
             raise ValueError("each lumen point is [hours or rated-life fraction, fraction]")
-        if not (math.isfinite(p[0]) and p[0] >= 0):
-            raise ValueError("lumen point x (hours or rated-life fraction) must be >= 0")
+        if not (math.isfinite(p[0]) and 0 <= p[0] <= MAX_LUMEN_X):
+            raise ValueError(
+                f"lumen point x (hours or rated-life fraction) must lie in [0, {MAX_LUMEN_X:g}]"
+            )
         if not (math.isfinite(p[1]) and 0 < p[1] <= MAX_FRACTION):
             raise ValueError(f"lumen fraction of initial light must lie in (0, {MAX_FRACTION}]")
     pts = sorted([float(a), float(b)] for a, b in points)
     for (x0, f0), (x1, f1) in itertools.pairwise(pts):
-        if x1 == x0:
-            raise ValueError("two lumen points have the same x")
+        if x1 - x0 < MIN_LUMEN_GAP:
+            raise ValueError(f"two lumen points lie closer than {MIN_LUMEN_GAP:g} in x")
         if f1 > f0:
             raise ValueError("lumen fractions must not increase with burn hours")
     return pts
@@ -65,11 +91,21 @@ LumenPoints = Annotated[
     AfterValidator(_lumen),
     Field(description="[[hours or rated-life fraction >= 0, fraction in (0, 1.2]], ...]."),
 ]
-Positive = Annotated[float, Field(gt=0, allow_inf_nan=False)]
-Volts = Annotated[float, Field(gt=0, le=1000, allow_inf_nan=False, description="Volts.")]
-Hours = Annotated[float, Field(gt=0, le=10_000_000, allow_inf_nan=False, description="Hours.")]
-Percentile = Annotated[float, Field(gt=0, lt=100, description="Percent failed, in (0, 100).")]
-Exponent = Annotated[float, Field(gt=0, le=100, allow_inf_nan=False)]
+# The lower and upper bounds below lie far outside any real lamp; they are there so that
+# the survival, voltage and cost formulas stay finite (a 5e-324 shape or volt makes the
+# Weibull scale or the voltage ratio infinite, and the forecasts then fail).
+Lumens = Annotated[float, Field(gt=0, le=10_000_000, allow_inf_nan=False, description="Lumens.")]
+Volts = Annotated[float, Field(ge=1, le=1000, allow_inf_nan=False, description="Volts.")]
+Hours = Annotated[float, Field(ge=0.01, le=10_000_000, allow_inf_nan=False, description="Hours.")]
+Percentile = Annotated[
+    float, Field(ge=0.1, le=99.9, description="Percent failed at rated life, in [0.1, 99.9].")
+]
+Exponent = Annotated[float, Field(gt=0, le=30, allow_inf_nan=False)]
+Watts = Annotated[float, Field(ge=0.01, le=100_000, allow_inf_nan=False, description="Watts.")]
+Shape = Annotated[
+    float, Field(ge=MIN_SHAPE, le=MAX_SHAPE, allow_inf_nan=False, description="Weibull shape.")
+]
+Price = Annotated[float, Field(ge=0, le=1_000_000_000, allow_inf_nan=False)]
 LumenBasis = Literal["hours", "rated_life_fraction"]
 
 
@@ -81,32 +117,32 @@ class LampTypeCreate(BaseModel):
     failure curve unless given, and light loss comes from lumen_points.
     """
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     code: str = Field(min_length=1, max_length=40)
     description: str | None = Field(default=None, max_length=300)
     technology: Technology
     shape_designation: str | None = Field(default=None, max_length=20)
     base_designation: str | None = Field(default=None, max_length=20)
-    rated_watts: Annotated[float, Field(gt=0, le=100_000, allow_inf_nan=False)]
+    rated_watts: Watts
     rated_volts: Volts
     rated_life_h: Hours
     rated_percentile: Percentile | None = None
     rated_hours_per_start: Hours | None = None
     second_hours_per_start: Hours | None = None
     second_cycle_life_h: Hours | None = None
-    weibull_shape: Annotated[float, Field(gt=0, le=50, allow_inf_nan=False)] | None = None
+    weibull_shape: Shape | None = None
     mortality_points: MortalityPoints | None = None
     lumen_points: LumenPoints | None = None
     lumen_basis: LumenBasis = "hours"
-    initial_lumens: Positive | None = None
+    initial_lumens: Lumens | None = None
     life_exponent: Exponent | None = None
     light_exponent: Exponent | None = None
     power_exponent: Exponent | None = None
     ballast_behaviour: Ballast | None = None
     driver_min_volts: Volts | None = None
     driver_max_volts: Volts | None = None
-    unit_price: float = Field(default=0.0, ge=0, allow_inf_nan=False)
+    unit_price: Price = 0.0
     contains_mercury: bool | None = Field(default=None, description="Default: by technology.")
     rupture_risk: bool | None = Field(default=None, description="Default: by technology.")
     extra: dict[str, Any] | None = None
@@ -155,32 +191,32 @@ LAMP_TYPE_FIELDS: tuple[str, ...] = tuple(LampTypeCreate.model_fields)
 class LampTypeUpdate(BaseModel):
     """A partial update; the merged lamp type is checked as a whole (same rules as create)."""
 
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     code: str | None = Field(default=None, min_length=1, max_length=40)
     description: str | None = Field(default=None, max_length=300)
     technology: Technology | None = None
     shape_designation: str | None = Field(default=None, max_length=20)
     base_designation: str | None = Field(default=None, max_length=20)
-    rated_watts: Annotated[float, Field(gt=0, le=100_000, allow_inf_nan=False)] | None = None
+    rated_watts: Watts | None = None
     rated_volts: Volts | None = None
     rated_life_h: Hours | None = None
     rated_percentile: Percentile | None = None
     rated_hours_per_start: Hours | None = None
     second_hours_per_start: Hours | None = None
     second_cycle_life_h: Hours | None = None
-    weibull_shape: Annotated[float, Field(gt=0, le=50, allow_inf_nan=False)] | None = None
+    weibull_shape: Shape | None = None
     mortality_points: MortalityPoints | None = None
     lumen_points: LumenPoints | None = None
     lumen_basis: LumenBasis | None = None
-    initial_lumens: Positive | None = None
+    initial_lumens: Lumens | None = None
     life_exponent: Exponent | None = None
     light_exponent: Exponent | None = None
     power_exponent: Exponent | None = None
     ballast_behaviour: Ballast | None = None
     driver_min_volts: Volts | None = None
     driver_max_volts: Volts | None = None
-    unit_price: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+    unit_price: Price | None = None
     contains_mercury: bool | None = None
     rupture_risk: bool | None = None
     extra: dict[str, Any] | None = None
