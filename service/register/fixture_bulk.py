@@ -78,8 +78,8 @@ class _Good:
 
 def _volts(v: Any) -> float:
     x = number_cell(v)
-    if not 0 < x <= 1000:
-        raise CellError("must lie in (0, 1000] volts")
+    if not 1 <= x <= 1000:  # the same range as FixtureCreate.measured_voltage_v
+        raise CellError("must lie in [1, 1000] volts")
     return x
 
 
@@ -92,8 +92,8 @@ def _hours(v: Any) -> float:
 
 def _count(v: Any) -> float:
     x = number_cell(v)
-    if x < 0:
-        raise CellError("must be 0 or more")
+    if not 0 <= x <= 100_000_000:  # the same range as FixtureCreate.lamp_starts_at_install
+        raise CellError("must lie in [0, 100,000,000]")
     return x
 
 
