@@ -55,7 +55,10 @@ def read_columns(body: RawBody, allowed: Sequence[str]) -> Columns:
     except UnicodeDecodeError as exc:
         raise Invalid(f"The CSV upload must be UTF-8 text: {exc}.") from None
     reader = csv.reader(io.StringIO(text))
-    header = [h.strip() for h in next(reader, [])]
+    try:
+        header = [h.strip() for h in next(reader, [])]
+    except csv.Error as exc:
+        raise Invalid(f"The CSV header cannot be read: {exc}.") from None
     if not header:
         raise Invalid("The CSV upload is empty: give a header line and rows.")
     errors = RowErrors()
@@ -65,7 +68,13 @@ def read_columns(body: RawBody, allowed: Sequence[str]) -> Columns:
     if len(set(header)) != len(header):
         errors.add(1, None, "a column is named twice")
     errors.raise_if_any("CSV header")
-    body_rows = list(reader)
+    try:
+        body_rows = list(reader)
+    except csv.Error as exc:  # e.g. a bare carriage return inside an unquoted cell
+        raise Invalid(
+            f"The CSV upload cannot be read at line {reader.line_num}: {exc}.",
+            errors=[{"row": reader.line_num, "field": None, "message": str(exc)}],
+        ) from None
     numbers = np.arange(2, len(body_rows) + 2, dtype=np.int64)
     # Blank lines (no cells, or only empty cells) are skipped; any() runs in C.
     keep = [i for i, r in enumerate(body_rows) if any(r)]

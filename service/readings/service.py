@@ -49,6 +49,8 @@ VOLTAGE_COLUMNS = ("fixture_id", "area_id", "measured_at", "volts", "note")
 FUTURE_SKEW_S = 300.0  # seconds of client clock skew tolerated
 TOL_H = 1e-6  # hours of rounding tolerated in the burn-hours-per-period check
 MAX_VOLTS = 1000.0
+# A reading below 1 V is no supply a lamp runs on; near zero it overflows the power laws.
+MIN_VOLTS = 1.0
 _CHUNK = 10_000
 
 
@@ -381,7 +383,7 @@ def ingest_voltages(session: Session, c: Columns, *, now: float | None = None) -
     _flag(
         errors,
         c,
-        np.isnan(at) & np.array([v is None for v in c.get("measured_at")]),
+        np.isnan(at) & np.array([v is None for v in c.get("measured_at")], dtype=bool),
         "measured_at",
         "is required",
     )
@@ -389,14 +391,14 @@ def ingest_voltages(session: Session, c: Columns, *, now: float | None = None) -
     _flag(
         errors,
         c,
-        ~np.isnan(volts) & ((volts <= 0) | (volts > MAX_VOLTS)),
+        ~np.isnan(volts) & ((volts < MIN_VOLTS) | (volts > MAX_VOLTS)),
         "volts",
-        f"must lie in (0, {MAX_VOLTS:g}] volts",
+        f"must lie in [{MIN_VOLTS:g}, {MAX_VOLTS:g}] volts",
     )
     _flag(
         errors,
         c,
-        np.array([v is not None and len(v) > 300 for v in notes]),
+        np.array([v is not None and len(v) > 300 for v in notes], dtype=bool),
         "note",
         "at most 300 characters",
     )
