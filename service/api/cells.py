@@ -11,6 +11,8 @@ import math
 from datetime import UTC, date, datetime
 from typing import Any
 
+from service.api.times import year_problem
+
 
 class CellError(ValueError):
     """A cell that cannot be read; the message says why."""
@@ -59,9 +61,13 @@ def int_cell(v: Any, lo: int, hi: int) -> int:
 def date_cell(v: Any) -> date:
     """An ISO date, YYYY-MM-DD."""
     try:
-        return date.fromisoformat(str(v).strip())
+        d = date.fromisoformat(str(v).strip())
     except ValueError:
         raise CellError(f"must be a date YYYY-MM-DD, not '{v}'") from None
+    problem = year_problem(d)
+    if problem:
+        raise CellError(problem)
+    return d
 
 
 def datetime_cell(v: Any) -> datetime:
@@ -70,4 +76,7 @@ def datetime_cell(v: Any) -> datetime:
         dt = datetime.fromisoformat(str(v).strip())
     except ValueError:
         raise CellError(f"must be an ISO 8601 date-time, not '{v}'") from None
+    problem = year_problem(dt)
+    if problem:
+        raise CellError(problem)
     return dt.replace(tzinfo=UTC) if dt.tzinfo is None else dt.astimezone(UTC)

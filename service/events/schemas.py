@@ -8,6 +8,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from service.api.ids import Id
+from service.api.times import Timestamp
 
 RemovalReason = Literal["burnout", "group_relamp", "spot_relamp", "damage", "upgrade", "other"]
 
@@ -18,7 +19,7 @@ class BurnoutReportCreate(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     position_id: Id
-    reported_at: datetime
+    reported_at: Timestamp
     burn_hours: float | None = Field(
         default=None, ge=0, le=1_000_000, description="Burn hours, if known."
     )
@@ -52,7 +53,7 @@ class LampRemovalCreate(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     position_id: Id
-    removed_at: datetime
+    removed_at: Timestamp
     failed: bool = Field(description="True if the lamp was dark (failure), else censored.")
     reason: RemovalReason
     burn_hours: float | None = Field(

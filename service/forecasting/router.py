@@ -11,6 +11,7 @@ from fastapi import APIRouter, Query
 from service.api.auth import ReadKey, SessionDep
 from service.api.errors import NotFound
 from service.api.ids import MAX_ID, IdPath
+from service.api.times import Timestamp
 from service.catalogue.models import LampType
 from service.db.crud import get_or_404
 from service.forecasting import service as fc
@@ -36,7 +37,7 @@ router = APIRouter(tags=["forecasts"])
 Horizon = Annotated[
     float, Query(gt=0, le=520, description="Horizon in weeks (burn hours from each area's rate).")
 ]
-At = Annotated[datetime | None, Query(description="Moment to forecast from (default now).")]
+At = Annotated[Timestamp | None, Query(description="Moment to forecast from (default now).")]
 METHOD = (
     "Survival S(age) per lamp; P(fail within horizon) = 1 - S(age+w)/S(age); expected "
     "burnouts with spot replacement by per-position delayed renewal from the current age; "

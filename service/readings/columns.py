@@ -18,6 +18,7 @@ from numpy.typing import NDArray
 
 from service.api.bulk import RawBody, RowErrors, UnsupportedMediaType, parse_json
 from service.api.errors import Invalid, TooLarge
+from service.api.times import in_zone, year_problem
 from service.config import get_settings
 
 FloatArray = NDArray[np.float64]
@@ -169,8 +170,15 @@ def timestamps(c: Columns, name: str, zones: Sequence[str | None], errors: RowEr
             except ValueError:
                 errors.add(int(c.numbers[i]), name, f"'{v}' is not an ISO 8601 timestamp")
                 continue
-            if dt.tzinfo is None:
-                dt = dt.replace(tzinfo=ZoneInfo(zones[i] or "UTC"))
+            problem = year_problem(dt)
+            if problem is None and dt.tzinfo is None:
+                try:
+                    dt = in_zone(dt, ZoneInfo(zones[i] or "UTC"))
+                except ValueError as exc:
+                    problem = str(exc)
+            if problem is not None:
+                errors.add(int(c.numbers[i]), name, problem)
+                continue
             hit = dt.timestamp()
             cache[key] = hit
         out[i] = hit
@@ -195,6 +203,10 @@ def days(
                 d = v if isinstance(v, date) else date.fromisoformat(str(v))
             except ValueError:
                 errors.add(int(c.numbers[i]), name, f"'{v}' is not a date (YYYY-MM-DD)")
+                continue
+            problem = year_problem(d)
+            if problem is not None:
+                errors.add(int(c.numbers[i]), name, problem)
                 continue
             zone = ZoneInfo(zones[i] or "UTC")
             a = datetime(d.year, d.month, d.day, tzinfo=zone)

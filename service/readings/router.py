@@ -15,6 +15,7 @@ from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
 from service.api.errors import Invalid
 from service.api.ids import IdQuery
 from service.api.pagination import Page, PageDep, paginate
+from service.api.times import Timestamp
 from service.readings import service
 from service.readings.ages import position_ages
 from service.readings.columns import read_columns
@@ -145,7 +146,7 @@ def list_position_ages(
     site_id: IdQuery = None,
     area_id: IdQuery = None,
     fixture_id: IdQuery = None,
-    at: Annotated[datetime | None, Query(description="Moment (default now).")] = None,
+    at: Annotated[Timestamp | None, Query(description="Moment (default now).")] = None,
 ) -> PositionAgesPage:
     """Each lamp position's age, starts and operating voltage (with its source), by id."""
     if site_id is None and area_id is None and fixture_id is None:

@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
-from datetime import date, datetime
+from datetime import datetime
 
 from pydantic import BaseModel, ConfigDict, Field
 
 from service.api.ids import Id
+from service.api.times import Day, Timestamp
 
 
 class BurnHourCreate(BaseModel):
@@ -22,12 +23,12 @@ class BurnHourCreate(BaseModel):
 
     fixture_id: Id | None = None
     area_id: Id | None = None
-    period_start: datetime | None = None
-    period_end: datetime | None = None
-    day: date | None = None
+    period_start: Timestamp | None = None
+    period_end: Timestamp | None = None
+    day: Day | None = None
     hours: float | None = Field(default=None, description="Burn hours in the period.")
     starts: float | None = Field(default=None, description="Starts in the period.")
-    read_at: datetime | None = None
+    read_at: Timestamp | None = None
     counter_hours: float | None = Field(default=None, description="Meter value, burn hours.")
     counter_starts: float | None = Field(default=None, description="Meter value, starts.")
     counter_reset: bool = False
@@ -60,7 +61,7 @@ class VoltageReadingCreate(BaseModel):
 
     fixture_id: Id | None = None
     area_id: Id | None = None
-    measured_at: datetime
+    measured_at: Timestamp
     volts: float
     note: str | None = Field(default=None, max_length=300)
 

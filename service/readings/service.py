@@ -192,7 +192,8 @@ def ingest_burn_hours(session: Session, c: Columns, *, now: float | None = None)
     reset = colmod.bools(c, "counter_reset", errors)
 
     counter = ~np.isnan(ch) | ~np.isnan(read_at)
-    has_day = ~np.isnan(d_start)
+    # A day cell that was given but refused is already an error; no second one for it.
+    has_day = ~np.isnan(d_start) | np.array([v not in (None, "") for v in c.get("day")], dtype=bool)
     _flag(
         errors,
         c,

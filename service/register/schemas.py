@@ -7,9 +7,17 @@ from datetime import date, datetime
 from typing import Annotated, Literal
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError, available_timezones
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
+from pydantic import (
+    AfterValidator,
+    BaseModel,
+    ConfigDict,
+    Field,
+    field_validator,
+    model_validator,
+)
 
 from service.api.ids import Id
+from service.api.times import Day, Timestamp
 
 AccessMethod = Literal["floor", "ladder", "scaffold", "lift"]
 # At least 1 V: a near-zero supply makes the voltage power laws overflow.
@@ -63,6 +71,10 @@ class SiteCreate(SiteFields):
     """A new site."""
 
 
+# Site fields a PATCH may change but not empty (every one but notes).
+SITE_REQUIRED = tuple(name for name in SiteFields.model_fields if name != "notes")
+
+
 class SiteUpdate(BaseModel):
     """A partial update of a site: only the fields sent change."""
 
@@ -79,6 +91,14 @@ class SiteUpdate(BaseModel):
     weekly_run_time: ClockTime | None = None
     lookahead_weeks: int | None = Field(default=None, ge=1, le=52)
     notes: str | None = Field(default=None, max_length=2000)
+
+    @field_validator(*SITE_REQUIRED, mode="before")
+    @classmethod
+    def _not_emptied(cls, value: object) -> object:
+        # Leaving a field out keeps it; sending null would empty a required column.
+        if value is None:
+            raise ValueError("cannot be null; leave the field out to keep it")
+        return value
 
 
 class SiteRead(SiteFields):
@@ -175,7 +195,7 @@ class PositionUpdate(BaseModel):
 
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    lamp_installed_at: datetime | None = None  # without an offset: UTC
+    lamp_installed_at: Timestamp | None = None  # without an offset: UTC
     hours_at_install: float | None = Field(default=None, ge=0, le=1_000_000, allow_inf_nan=False)
     starts_at_install: float | None = Field(default=None, ge=0, le=100_000_000, allow_inf_nan=False)
 
@@ -195,7 +215,7 @@ class FixtureFields(BaseModel):
     # None: the lamp type's ballast behaviour (its catalogue value or technology default).
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
-    installed_on: date | None = None
+    installed_on: Day | None = None
 
 
 class FixtureCreate(FixtureFields):
@@ -204,7 +224,7 @@ class FixtureCreate(FixtureFields):
     area_id: Id
     # When the lamps now in it went in (default: installed_on at 00:00 UTC, else now) and
     # their burn hours and starts then. A time without an offset is taken as UTC.
-    lamps_installed_at: datetime | None = None
+    lamps_installed_at: Timestamp | None = None
     lamp_hours_at_install: float = Field(default=0.0, ge=0, le=1_000_000, allow_inf_nan=False)
     lamp_starts_at_install: float = Field(default=0.0, ge=0, le=100_000_000, allow_inf_nan=False)
 
@@ -221,7 +241,7 @@ class FixtureUpdate(BaseModel):
     lamps_per_fixture: int | None = Field(default=None, ge=1, le=64)
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
-    installed_on: date | None = None
+    installed_on: Day | None = None
 
 
 class FixtureRead(BaseModel):

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from datetime import datetime
 from typing import Annotated
 
 from fastapi import APIRouter, Query, Response, status
@@ -12,6 +11,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, paginate
+from service.api.times import Timestamp
 from service.register.models import Area, Site
 from service.workorders import exports, service
 from service.workorders import repository as repo
@@ -53,7 +53,7 @@ def list_orders(
     kind: Kind | None = None,
     iso_week: Annotated[str | None, Query(pattern=r"^\d{4}-W\d{2}$")] = None,
     changed_since: Annotated[
-        datetime | None,
+        Timestamp | None,
         Query(description="ISO 8601 with offset: orders created or changed at or after it."),
     ] = None,
     include_lines: bool = False,

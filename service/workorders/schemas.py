@@ -8,6 +8,7 @@ from typing import Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from service.api.ids import Id
+from service.api.times import Day, Timestamp
 
 Kind = Literal["group_relamp", "spot_replacement"]
 State = Literal["draft", "issued", "in_progress", "done", "cancelled"]
@@ -20,7 +21,7 @@ class WorkOrderCreate(BaseModel):
 
     area_id: Id
     kind: Kind
-    due_on: date | None = Field(default=None, description="Site-local date (default: today).")
+    due_on: Day | None = Field(default=None, description="Site-local date (default: today).")
     notes: str | None = Field(default=None, max_length=2000)
     external_reference: str | None = Field(default=None, min_length=1, max_length=200)
 
@@ -32,7 +33,7 @@ class WorkOrderUpdate(BaseModel):
 
     external_reference: str | None = Field(default=None, max_length=200)
     notes: str | None = Field(default=None, max_length=2000)
-    due_on: date | None = None
+    due_on: Day | None = None
 
 
 class LineRead(BaseModel):
@@ -109,7 +110,7 @@ class CompleteBody(BaseModel):
     others: Literal["replaced"] | None = Field(
         default=None, description="Outcome of every fixture not listed."
     )
-    completed_at: datetime | None = Field(default=None, description="Default: now.")
+    completed_at: Timestamp | None = Field(default=None, description="Default: now.")
 
 
 class CancelBody(BaseModel):
