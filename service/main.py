@@ -6,10 +6,11 @@ import logging
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
-from fastapi import APIRouter, FastAPI
+from fastapi import APIRouter, Depends, FastAPI
 
 from service import __version__
 from service.api.errors import install_error_handlers
+from service.api.guard import check_request
 from service.api.health import router as health_router
 from service.api.home import router as home_router
 from service.catalogue.router import router as catalogue_router
@@ -76,5 +77,5 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     app.include_router(health_router)
     app.include_router(home_router)
     for router in DOMAIN_ROUTERS:
-        app.include_router(router, prefix=API_PREFIX)
+        app.include_router(router, prefix=API_PREFIX, dependencies=[Depends(check_request)])
     return app
