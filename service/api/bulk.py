@@ -185,6 +185,8 @@ def parse_json(data: bytes | str, columns: Collection[str] | None = None) -> lis
         items = json.loads(data)
     except (ValueError, UnicodeDecodeError) as exc:
         raise Invalid(f"The JSON upload cannot be read: {exc}.") from None
+    except RecursionError:  # arrays nested thousands deep
+        raise Invalid("The JSON upload is nested too deeply to read.") from None
     if not isinstance(items, list):
         raise Invalid("The JSON upload must be a list of objects, one per row.")
     _check_size(len(items))
