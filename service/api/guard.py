@@ -1,4 +1,5 @@
-"""Checks every API request gets before its route: no unknown query parameters, no NUL.
+"""Checks every API request gets before its route: no unknown query parameters, no NUL,
+no non-finite JSON numbers.
 
 - A query parameter the route does not take is refused (422 naming it), as a body field
   is (extra="forbid"): a typo such as ?site=3 for ?site_id=3 would otherwise return the
@@ -6,11 +7,17 @@
 - Text with a NUL character (U+0000) is refused (422 naming the field): PostgreSQL cannot
   store it in a text column and its driver fails (a 500), so the same request must fail
   the same way on SQLite too.
+- A JSON number that is not a finite double (NaN, Infinity, 1e400) is refused (422 naming
+  the field): JSON has no such numbers, but Python's parser, which FastAPI uses, reads
+  them, and a schema field without allow_inf_nan=False would take them.
 """
 
 from __future__ import annotations
 
 import json
+import math
+import re
+from collections.abc import Callable
 from typing import Any
 
 from fastapi import Request
@@ -19,6 +26,7 @@ from fastapi.routing import APIRoute
 
 from service.api.errors import Invalid
 
+Path = tuple[str, ...]
 _ALLOWED: dict[int, frozenset[str]] = {}  # route id -> the query names it takes
 
 
@@ -38,23 +46,34 @@ def _allowed_query(route: APIRoute) -> frozenset[str]:
     return names
 
 
-def _nul_path(value: Any, path: tuple[str, ...] = ()) -> tuple[str, ...] | None:
-    """Where in a parsed JSON document the first string with a NUL lies, if anywhere."""
-    if isinstance(value, str):
-        return path if "\x00" in value else None
+def _find(value: Any, bad: Callable[[Any], bool], path: Path = ()) -> Path | None:
+    """Where in a parsed JSON document the first bad value (or key) lies, if anywhere."""
+    if bad(value):
+        return path
     if isinstance(value, dict):
         for key, item in value.items():
-            if "\x00" in key:
+            if bad(key):
                 return (*path, key)
-            found = _nul_path(item, (*path, str(key)))
+            found = _find(item, bad, (*path, str(key)))
             if found is not None:
                 return found
     if isinstance(value, list):
         for i, item in enumerate(value):
-            found = _nul_path(item, (*path, str(i)))
+            found = _find(item, bad, (*path, str(i)))
             if found is not None:
                 return found
     return None
+
+
+def _item(doc: Any, path: Path, message: str) -> dict[str, Any]:
+    item: dict[str, Any] = {"field": ".".join(path) or "body", "in": "body", "message": message}
+    if isinstance(doc, list) and path:  # a bulk upload: rows are numbered from 1
+        item["row"] = int(path[0]) + 1
+    return item
+
+
+def _has_nul(value: Any) -> bool:
+    return isinstance(value, str) and "\x00" in value
 
 
 def _nul_in_body(body: bytes) -> dict[str, Any] | None:
@@ -68,21 +87,40 @@ def _nul_in_body(body: bytes) -> dict[str, Any] | None:
         doc = json.loads(body)
     except (ValueError, RecursionError):
         return None  # unreadable JSON: the route's own parser answers it
-    path = _nul_path(doc)
+    path = _find(doc, _has_nul)
     if path is None:  # an escaped backslash followed by the text u0000
         return None
-    item: dict[str, Any] = {
-        "field": ".".join(path) or "body",
-        "in": "body",
-        "message": "contains a NUL character",
-    }
-    if isinstance(doc, list):  # a bulk upload: rows are numbered from 1
-        item["row"] = int(path[0]) + 1
-    return item
+    return _item(doc, path, "contains a NUL character")
+
+
+class _NonFinite:
+    """Stands for NaN, Infinity or a number too large for a double while parsing."""
+
+
+_NON_FINITE = _NonFinite()
+# A cheap scan for text that may hold NaN, Infinity or an overflowing exponent (1e400).
+_SUSPECT = re.compile(rb"NaN|Infinity|[eE]\+?\d{3,}")
+
+
+def _float(text: str) -> Any:
+    value = float(text)
+    return value if math.isfinite(value) else _NON_FINITE
+
+
+def _non_finite_in_json(body: bytes) -> dict[str, Any] | None:
+    """An error item for a JSON number that is not a finite double, else None."""
+    if not _SUSPECT.search(body):
+        return None
+    try:
+        doc = json.loads(body, parse_constant=lambda _: _NON_FINITE, parse_float=_float)
+    except (ValueError, RecursionError):
+        return None  # unreadable JSON: the route's own parser answers it
+    path = _find(doc, lambda v: v is _NON_FINITE)
+    return None if path is None else _item(doc, path, "must be a finite number")
 
 
 async def check_request(request: Request) -> None:
-    """Refuse unknown query parameters and NUL characters before the route runs."""
+    """Refuse unknown query parameters, NUL characters and non-finite JSON numbers."""
     route = request.scope.get("route")
     if isinstance(route, APIRoute):
         allowed = _allowed_query(route)
@@ -103,9 +141,13 @@ async def check_request(request: Request) -> None:
                 f"The query parameter {key!r} contains a NUL character.",
                 errors=[{"field": key, "in": "query", "message": "contains a NUL character"}],
             )
-    if request.method in ("POST", "PUT", "PATCH"):
-        item = _nul_in_body(await request.body())
+    if request.method not in ("POST", "PUT", "PATCH"):
+        return
+    body = await request.body()
+    item = _nul_in_body(body)
+    if item is not None:
+        raise Invalid(f"The body field {item['field']} contains a NUL character.", errors=[item])
+    if "json" in request.headers.get("content-type", ""):
+        item = _non_finite_in_json(body)
         if item is not None:
-            raise Invalid(
-                f"The body field {item['field']} contains a NUL character.", errors=[item]
-            )
+            raise Invalid(f"The body field {item['field']} is not a finite number.", errors=[item])

@@ -95,3 +95,38 @@ def test_escaped_backslash_is_not_a_nul(client: TestClient, writer: dict[str, st
     # JSON "\\u0000" is a backslash and the text u0000, which any database stores.
     r = client.post("/api/v1/sites", json={**SITE, "notes": "\\u0000"}, headers=writer)
     assert r.status_code == 201 and r.json()["notes"] == "\\u0000"
+
+
+@pytest.mark.parametrize("literal", ["NaN", "Infinity", "-Infinity", "1e400", "-1E+400"])
+def test_non_finite_json_numbers(
+    client: TestClient, db: Session, writer: dict[str, str], literal: str
+) -> None:
+    # Found by fuzzing: Python's JSON parser reads these, and the relamp-plan overrides
+    # (no allow_inf_nan=False there) passed an infinite labour rate to the core (a 500).
+    site = client.post("/api/v1/sites", json=SITE, headers=writer).json()
+    area = client.post(
+        "/api/v1/areas", json={"site_id": site["id"], "name": "Hall"}, headers=writer
+    ).json()
+    before = table_counts(db)
+    for url, raw, field in [
+        (
+            f"/api/v1/areas/{area['id']}/relamp-plan",
+            f'{{"labour_rate_per_h": {literal}}}',
+            "labour_rate_per_h",
+        ),
+        ("/api/v1/voltage-readings/bulk", f'[{{"volts": 230}}, {{"volts": {literal}}}]', "1.volts"),
+    ]:
+        r = client.post(
+            url, content=raw.encode(), headers={**writer, "content-type": "application/json"}
+        )
+        assert error_fields(assert_problem(r, 422)) == {field}, r.text
+    assert table_counts(db) == before
+
+
+def test_finite_numbers_and_such_text_pass(client: TestClient, writer: dict[str, str]) -> None:
+    raw = dict(SITE, name="NaN Infinity 1e400", labour_rate_per_h=1e300)
+    r = client.post("/api/v1/sites", json=raw, headers=writer)
+    assert r.status_code == 422  # 1e300 breaks the site's own price cap, not the guard
+    assert error_fields(r.json()) == {"labour_rate_per_h"}
+    r = client.post("/api/v1/sites", json={**raw, "labour_rate_per_h": 1e-400}, headers=writer)
+    assert r.status_code == 201 and r.json()["name"] == "NaN Infinity 1e400"
