@@ -8,7 +8,7 @@ from typing import Any
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
-from sqlalchemy.exc import IntegrityError
+from sqlalchemy.exc import IntegrityError, OperationalError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 log = logging.getLogger(__name__)
@@ -111,6 +111,15 @@ def validation_errors(raw: list[Any]) -> list[dict[str, Any]]:
     return items
 
 
+# Driver messages of conflicts that a retry resolves (SQLite, PostgreSQL).
+_TRANSIENT = ("database is locked", "deadlock detected", "could not serialize access")
+
+
+def _is_transient(exc: OperationalError) -> bool:
+    text = str(exc.orig).lower()
+    return any(marker in text for marker in _TRANSIENT)
+
+
 def install_error_handlers(app: FastAPI) -> None:
     """Register the handlers that render every error as problem+json."""
 
@@ -163,6 +172,24 @@ def install_error_handlers(app: FastAPI) -> None:
             "The change clashes with stored data (a duplicate or a record still in use).",
             kind="conflict",
             instance=request.url.path,
+        )
+
+    @app.exception_handler(OperationalError)
+    async def _busy(request: Request, exc: OperationalError) -> JSONResponse:
+        # SQLite refuses a write while another connection holds the write lock (past the
+        # busy timeout, or at once when a read transaction would have to upgrade);
+        # PostgreSQL aborts one side of a deadlock or a serialization clash. Either way the
+        # request was rolled back and may simply be sent again.
+        if not _is_transient(exc):
+            return await _unexpected(request, exc)
+        log.warning("database busy on %s: %s", request.url.path, exc.orig)
+        return problem(
+            503,
+            "Busy",
+            "The database was busy with another change; nothing was saved. Send it again.",
+            kind="busy",
+            instance=request.url.path,
+            headers={"Retry-After": "1"},
         )
 
     @app.exception_handler(Exception)
