@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+import json
 import math
 from datetime import datetime
 from typing import Annotated, Any, Literal
@@ -79,15 +80,32 @@ def _lumen(points: list[list[float]]) -> list[list[float]]:
     return pts
 
 
+def _extra(value: dict[str, Any]) -> dict[str, Any]:
+    # Stored as a JSON column: PostgreSQL's json refuses NaN and Infinity, and the size
+    # is capped so that a lamp type stays a catalogue row, not a file store.
+    try:
+        text = json.dumps(value, allow_nan=False)
+    except ValueError:
+        raise ValueError("extra must hold finite numbers only") from None
+    if len(text) > MAX_EXTRA_CHARS:
+        raise ValueError(f"extra is larger than {MAX_EXTRA_CHARS} characters as JSON")
+    return value
+
+
+MAX_EXTRA_CHARS = 10_000
+MAX_POINTS = 200  # mortality or lumen points per lamp type
 Technology = Annotated[str, AfterValidator(_technology)]
+Extra = Annotated[dict[str, Any], AfterValidator(_extra)]
 Ballast = Annotated[str, AfterValidator(_ballast)]
 MortalityPoints = Annotated[
     list[Annotated[list[float], Field(min_length=2, max_length=2)]],
+    Field(max_length=MAX_POINTS),
     AfterValidator(_mortality),
     Field(description="[[% of rated life > 0, % surviving in (0, 100)], ...]; 2 or more."),
 ]
 LumenPoints = Annotated[
     list[Annotated[list[float], Field(min_length=2, max_length=2)]],
+    Field(max_length=MAX_POINTS),
     AfterValidator(_lumen),
     Field(description="[[hours or rated-life fraction >= 0, fraction in (0, 1.2]], ...]."),
 ]
@@ -145,7 +163,7 @@ class LampTypeCreate(BaseModel):
     unit_price: Price = 0.0
     contains_mercury: bool | None = Field(default=None, description="Default: by technology.")
     rupture_risk: bool | None = Field(default=None, description="Default: by technology.")
-    extra: dict[str, Any] | None = None
+    extra: Extra | None = None
 
     def stored_values(self) -> dict[str, Any]:
         """Column values with the technology defaults that are stored (percentile, flags)."""
@@ -219,7 +237,7 @@ class LampTypeUpdate(BaseModel):
     unit_price: Price | None = None
     contains_mercury: bool | None = None
     rupture_risk: bool | None = None
-    extra: dict[str, Any] | None = None
+    extra: Extra | None = None
 
 
 class LumenCurveRead(BaseModel):

@@ -88,3 +88,35 @@ def test_bounds_keep_real_lamps(client: TestClient, writer: dict[str, str]) -> N
     assert lt["model"]["shape"] == 0.1
     fitted = make_type(client, writer, code="FIT", mortality_points=[[50, 95], [100, 50]])
     assert 0.1 <= fitted["model"]["shape"] <= 50
+
+
+def test_import_cells_with_non_finite_json_or_oversized_extra(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    # Found by hand: a CSV cell '{"a": NaN}' in extra was parsed and stored; PostgreSQL's
+    # json column refuses NaN, so the import answered 500 there.
+    head = "code,technology,rated_watts,rated_volts,rated_life_h,extra,lumen_points\n"
+    big = '"{""a"": ""' + "x" * 20_000 + '""}"'
+    csv = (
+        head
+        + 'OK-1,led,10,230,50000,"{""a"": 1}",\n'
+        + 'BAD-1,led,10,230,50000,"{""a"": NaN}",\n'
+        + f"BAD-2,led,10,230,50000,{big},\n"
+        + 'BAD-3,led,10,230,50000,,"[[0, 1], [1000, Infinity]]"\n'
+    )
+    before = db.scalar(select(func.count()).select_from(LampType))
+    r = client.post(
+        "/api/v1/lamp-types/import",
+        content=csv.encode(),
+        headers={**writer, "content-type": "text/csv"},
+    )
+    assert r.status_code == 422, r.text
+    got = {(e["row"], e["field"].split(".")[0]) for e in r.json()["errors"]}
+    assert got == {(3, "extra"), (4, "extra"), (5, "lumen_points")}, r.json()
+    assert db.scalar(select(func.count()).select_from(LampType)) == before
+
+
+def test_point_lists_are_capped(client: TestClient, writer: dict[str, str]) -> None:
+    points = [[i * 10.0, 1 - i / 1000] for i in range(300)]
+    r = client.post("/api/v1/lamp-types", json={**T8, "lumen_points": points}, headers=writer)
+    assert r.status_code == 422 and {e["field"] for e in r.json()["errors"]} == {"lumen_points"}
