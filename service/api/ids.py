@@ -15,8 +15,9 @@ from pydantic import Field
 # Every id column is an INTEGER: 32-bit signed on PostgreSQL.
 MAX_ID = 2**31 - 1
 
-# In a request body (pydantic models).
-Id = Annotated[int, Field(ge=1, le=MAX_ID, description="A record id.")]
+# In a request body (pydantic models). Strict: true, 2.0 or "2" is not an id (lax
+# validation would read true as record 1).
+Id = Annotated[int, Field(strict=True, ge=1, le=MAX_ID, description="A record id.")]
 # In a URL path.
 IdPath = Annotated[int, Path(ge=1, le=MAX_ID, description="A record id.")]
 # As an optional query filter.

@@ -127,3 +127,16 @@ def test_lookup_helper_treats_impossible_ids_as_missing(
     # Routes whose path ids are plain ints still reach get_or_404: a 404, not a 500.
     assert_problem(client.get(f"/api/v1/areas/{value}/relamp-plan", headers=reader), 404)
     assert_problem(client.get(f"/api/v1/sites/{value}/relamp-plan", headers=reader), 404)
+
+
+@pytest.mark.parametrize("value", [True, "1", 1.0])
+def test_body_ids_must_be_json_integers(
+    client: TestClient, db: Session, writer: dict[str, str], value: object
+) -> None:
+    # Found by hand: lax validation read {"fixture_id": true} as fixture 1 and stored a
+    # reading there.
+    row = {"fixture_id": value, "measured_at": "2026-01-05T10:00:00+00:00", "volts": 230}
+    before = table_counts(db)
+    r = client.post("/api/v1/voltage-readings", json=row, headers=writer)
+    assert error_fields(assert_problem(r, 422)) == {"fixture_id"}
+    assert table_counts(db) == before
