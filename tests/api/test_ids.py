@@ -6,12 +6,15 @@ OverflowError (a 500) in every path, query filter, body reference and page offse
 
 from __future__ import annotations
 
+from typing import Any
+
 import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.api.ids import MAX_ID
 from tests.api.test_bad_input_tour import assert_problem, error_fields, table_counts
+from tests.readings.test_burn_hours import _setup
 
 HUGE = [2**63, 10**30, -(10**30)]
 OUT_OF_RANGE = [0, -1, MAX_ID + 1, *HUGE]
@@ -129,14 +132,18 @@ def test_lookup_helper_treats_impossible_ids_as_missing(
     assert_problem(client.get(f"/api/v1/sites/{value}/relamp-plan", headers=reader), 404)
 
 
-@pytest.mark.parametrize("value", [True, "1", 1.0])
+@pytest.mark.parametrize("as_json", [float, str])
 def test_body_ids_must_be_json_integers(
-    client: TestClient, db: Session, writer: dict[str, str], value: object
+    client: TestClient, db: Session, writer: dict[str, str], as_json: Any
 ) -> None:
-    # Found by hand: lax validation read {"fixture_id": true} as fixture 1 and stored a
-    # reading there.
-    row = {"fixture_id": value, "measured_at": "2026-01-05T10:00:00+00:00", "volts": 230}
+    # Found by hand: lax validation read {"fixture_id": true} as fixture 1, and 7.0 or
+    # "7" as fixture 7, and stored a reading there.
+    _, _, _, fixtures = _setup(db)
+    fid = fixtures[0].id
+    row = {"fixture_id": as_json(fid), "measured_at": "2026-01-05T10:00:00+00:00", "volts": 230}
     before = table_counts(db)
     r = client.post("/api/v1/voltage-readings", json=row, headers=writer)
     assert error_fields(assert_problem(r, 422)) == {"fixture_id"}
     assert table_counts(db) == before
+    r = client.post("/api/v1/voltage-readings", json={**row, "fixture_id": fid}, headers=writer)
+    assert r.status_code == 201, r.text
