@@ -34,8 +34,11 @@ from service.reliability.fitting import WeibullFit
 
 router = APIRouter(tags=["forecasts"])
 
+# At least 0.001 week (about 10 minutes): a denormal horizon such as 1e-308 weeks made the
+# renewal estimate NaN, shown as null where the schema promises a number.
 Horizon = Annotated[
-    float, Query(gt=0, le=520, description="Horizon in weeks (burn hours from each area's rate).")
+    float,
+    Query(ge=0.001, le=520, description="Horizon in weeks (burn hours from each area's rate)."),
 ]
 At = Annotated[Timestamp | None, Query(description="Moment to forecast from (default now).")]
 METHOD = (
