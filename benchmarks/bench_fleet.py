@@ -14,13 +14,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from service.reliability.conditions import (
-    TECHNOLOGIES,
-    TECHNOLOGY_DEFAULTS,
-    switching_life_factor,
-    voltage_effect,
-)
+from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
+from service.reliability.technologies import TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 from service.reliability.weibull import Weibull
 
 N_TYPES = 50

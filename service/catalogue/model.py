@@ -21,15 +21,15 @@ from typing import Protocol
 import numpy as np
 
 from service.catalogue.mortality import check_mortality_points, fit_mortality_points
-from service.reliability.conditions import (
+from service.reliability.fleet import LampTypeTable
+from service.reliability.lumen import LumenCurve, default_lumen_curve
+from service.reliability.mortality import MortalityFit
+from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
     BALLAST_VOLTAGE_BAND,
     DEFAULT_SWITCHING_SLOPE,
     TECHNOLOGY_DEFAULTS,
 )
-from service.reliability.fleet import LampTypeTable
-from service.reliability.lumen import LumenCurve, default_lumen_curve
-from service.reliability.mortality import MortalityFit
 from service.reliability.weibull import scale_from_rated_life
 
 CATALOGUE = "catalogue"

@@ -16,8 +16,8 @@ from service.catalogue.mortality import (
     check_mortality_points,
     fit_mortality_points,
 )
-from service.reliability.conditions import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 from service.reliability.lumen import MAX_FRACTION
+from service.reliability.technologies import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 
 # Weibull shapes a lamp type may have, given or fitted from mortality points.
 MIN_SHAPE, MAX_SHAPE = 0.1, 50.0

@@ -31,7 +31,7 @@ from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.register.fixtures import FUTURE_SLACK, ballast_problem
 from service.register.models import Area, Fixture, LampPosition, Site
-from service.reliability.conditions import BALLASTS, TECHNOLOGY_DEFAULTS
+from service.reliability.technologies import BALLASTS, TECHNOLOGY_DEFAULTS
 
 FIXTURE_COLUMNS: tuple[str, ...] = (
     "site",

@@ -14,7 +14,7 @@ from service.db.crud import get_or_404
 from service.register import repository as repo
 from service.register.models import Area, Fixture, LampPosition
 from service.register.schemas import FixtureCreate, FixtureUpdate, PositionUpdate
-from service.reliability.conditions import TECHNOLOGY_DEFAULTS
+from service.reliability.technologies import TECHNOLOGY_DEFAULTS
 
 # Clock skew allowed before an install time counts as "in the future".
 FUTURE_SLACK = timedelta(minutes=5)

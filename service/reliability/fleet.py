@@ -28,16 +28,15 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from service.reliability.conditions import (
+from service.reliability.conditions import switching_life_factor, voltage_factors
+from service.reliability.lumen import LumenCurve, default_lumen_curve
+from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
     BALLAST_VOLTAGE_BAND,
     DEFAULT_SWITCHING_SLOPE,
     TECHNOLOGIES,
     TECHNOLOGY_DEFAULTS,
-    switching_life_factor,
-    voltage_factors,
 )
-from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.weibull import scale_from_rated_life
 
 FloatArray = NDArray[np.float64]

@@ -32,7 +32,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.interpolate import PchipInterpolator
 
-from service.reliability.conditions import TECHNOLOGIES, TECHNOLOGY_DEFAULTS
+from service.reliability.technologies import TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 
 FloatArray = NDArray[np.float64]
 

@@ -9,7 +9,7 @@ import pytest
 from fastapi.testclient import TestClient
 
 from service.catalogue.mortality import fit_mortality_points
-from service.reliability.conditions import TECHNOLOGY_DEFAULTS
+from service.reliability.technologies import TECHNOLOGY_DEFAULTS
 from service.reliability.weibull import scale_from_rated_life
 
 T8: dict[str, Any] = {

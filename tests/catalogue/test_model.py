@@ -11,10 +11,10 @@ import pytest
 
 from service.catalogue.model import lamp_type_table, resolve_lamp_model
 from service.catalogue.mortality import check_mortality_points, fit_mortality_points
-from service.reliability.conditions import BALLAST_POWER_GAIN, TECHNOLOGY_DEFAULTS
 from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.mortality import fit_mortality_points as core_fit
+from service.reliability.technologies import BALLAST_POWER_GAIN, TECHNOLOGY_DEFAULTS
 from service.reliability.weibull import scale_from_rated_life
 
 

@@ -9,15 +9,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from service.reliability.conditions import (
+from service.reliability.conditions import switching_life_factor, voltage_effect, voltage_factors
+from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
     BALLAST_VOLTAGE_BAND,
     BALLASTS,
     TECHNOLOGIES,
     TECHNOLOGY_DEFAULTS,
-    switching_life_factor,
-    voltage_effect,
-    voltage_factors,
 )
 
 

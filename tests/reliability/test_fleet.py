@@ -10,13 +10,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from service.reliability.conditions import (
-    TECHNOLOGY_DEFAULTS,
-    switching_life_factor,
-    voltage_effect,
-)
+from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.lumen import LumenCurve, default_lumen_curve
+from service.reliability.technologies import TECHNOLOGY_DEFAULTS
 from service.reliability.weibull import Weibull
 
 SPECS = [

@@ -9,13 +9,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from service.reliability.conditions import TECHNOLOGIES
 from service.reliability.lumen import (
     LumenCurve,
     default_lumen_curve,
     exponential_curve,
     maintained_fraction,
 )
+from service.reliability.technologies import TECHNOLOGIES
 
 
 def test_incandescent_default_meets_iec_criterion() -> None:
