@@ -38,13 +38,9 @@ from service.planning.engine import (
     weibull_renewal_scaled,
 )
 from service.reliability.lumen import DEFAULT_EFFICACY_LM_PER_W
+from service.reliability.megalumen import MegalumenCost, cost_per_megalumen_hour
 from service.reliability.renewal import RenewalCurve
-from service.reliability.replacement import (
-    BlockPlan,
-    MegalumenCost,
-    block_cost_rate,
-    cost_per_megalumen_hour,
-)
+from service.reliability.replacement import BlockPlan, block_cost_rate
 
 COST = "cost"
 MEGALUMEN = "cost_per_megalumen_hour"

@@ -25,44 +25,18 @@ Constraints, all upper limits on T in burn hours:
 The light floor and burnout ceiling are limits on a group plan; they do not
 force a group plan when spot replacement is cheaper.
 
-Age replacement [Barlow & Proschan]: each lamp is replaced at age T or at
-failure, whichever comes first:
-
-    C(T) = (c_p · S(T) + c_f · F(T)) / ∫_0^T S(t) dt,
-
-and for a Weibull ∫_0^T S = η Γ(1 + 1/β) P(1/β, (T/η)^β) with P the regularised
-lower incomplete gamma function. Run to failure costs c_f / μ.
-
-Cost per delivered megalumen-hour (alternative block objective). With prompt
-spot replacement every position burns throughout, so a cycle of length T costs
-c_group + c_spot·M(T) + tariff·W·T/1000 (W lamp watts at the actual voltage).
-The expected relative light of a position at group age t follows from the
-renewal argument [Cox, ch. 4]: the lamp burning there is either the original one
-(probability S(t), light L(t)) or was installed at the last renewal s < t
-(renewal density m(s)) and has survived t - s since, so
-
-    E[light fraction at t] = S(t)·L(t) + ∫_0^t m(s) S(t-s) L(t-s) ds,
-
-which is exactly 1 when L ≡ 1 (a lamp is always burning). Delivered light over
-the cycle is Φ0 ∫_0^T E[...] dt (Φ0 initial lumens at the actual voltage). The
-only approximation is the numerical convolution on the renewal grid (trapezoid
-rule); lamp power is taken as constant over life. Spot replacement alone is the
-stationary limit: each position holds a lamp of age u with density S(u)/μ
-(renewal-reward, equilibrium age), so the mean light is ∫S·L/∫S and the cost per
-megalumen-hour (c_spot/μ + energy rate) / (Φ0 ∫S·L/∫S). The best interval is the
-minimiser over (0, cap] (the caps as above); "spot only" when it does not beat the
-spot-only figure or when the cost per megalumen-hour still falls at the horizon.
+Age replacement is in age_replacement.py; cost per delivered megalumen-hour in
+megalumen.py (both share this module's search helper).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.optimize import minimize_scalar
-from scipy.special import gammainc
 
 from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.weibull import Weibull
@@ -71,11 +45,12 @@ FloatArray = NDArray[np.float64]
 
 # A group plan must beat spot replacement by more than this share of the spot
 # rate: it keeps rounding noise in M(T) from turning "spot only" into a plan.
-_MIN_REL_SAVING = 1e-6
-_DEFAULT_HORIZON_MEANS = 3.0  # default longest interval, in mean lives
+MIN_REL_SAVING = 1e-6
+DEFAULT_HORIZON_MEANS = 3.0  # default longest interval, in mean lives
 
 
-def _empty() -> FloatArray:
+def empty_grid() -> FloatArray:
+    """An empty float array (default for result grids)."""
     return np.empty(0, dtype=np.float64)
 
 
@@ -108,7 +83,7 @@ class BlockPlan:
     horizon_h: float = 0.0  # longest interval considered
 
 
-def _refine(
+def refine_minimum(
     cost: Callable[[float], float], lo: float, hi: float, x_grid: float, c_grid: float
 ) -> tuple[float, float]:
     """Bounded Brent search on [lo, hi]; keep the grid point if it is better."""
@@ -177,7 +152,7 @@ def plan_block_replacement(
     # Horizon: the grid of candidate intervals.
     if isinstance(life, Weibull):
         horizon = (
-            float(max_interval_h) if max_interval_h is not None else _DEFAULT_HORIZON_MEANS * mu
+            float(max_interval_h) if max_interval_h is not None else DEFAULT_HORIZON_MEANS * mu
         )
         if rupture_cap_h is not None and rupture_cap_h > horizon:
             notes.append(
@@ -214,12 +189,12 @@ def plan_block_replacement(
             return limit, float(cand_c[k]), True
         lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
         hi = float(cand_t[k + 1])
-        x, c = _refine(cost, lo, hi, float(cand_t[k]), float(cand_c[k]))
+        x, c = refine_minimum(cost, lo, hi, float(cand_t[k]), float(cand_c[k]))
         return x, c, x >= limit * (1 - 1e-9)
 
     # Unconstrained: interior minimum over the whole horizon that beats spot only.
     x_u, c_u, at_end = minimise_up_to(horizon)
-    pays = c_u < spot_rate * (1 - _MIN_REL_SAVING)
+    pays = c_u < spot_rate * (1 - MIN_REL_SAVING)
     unconstrained = x_u if (not at_end and pays) else None
     if at_end:
         notes.append(f"cost rate still falling at the {horizon:.0f} h horizon: no finite optimum")
@@ -230,7 +205,7 @@ def plan_block_replacement(
 
     x_c, c_c, at_cap = minimise_up_to(cap)
     binding = cap_name if at_cap else "cost_optimum"
-    group_pays = c_c < spot_rate * (1 - _MIN_REL_SAVING) and binding != "horizon"
+    group_pays = c_c < spot_rate * (1 - MIN_REL_SAVING) and binding != "horizon"
     if c_group >= c_spot:
         notes.append(
             "group cost per position is not below the spot cost: group relamping cannot pay "
@@ -277,188 +252,4 @@ def plan_block_replacement(
         notes=tuple(notes),
         safety_premium_rate=premium,
         horizon_h=horizon,
-    )
-
-
-# ---------------------------------------------------------------- age replacement
-
-
-@dataclass(frozen=True, eq=False)
-class AgePlan:
-    """Age replacement interval (None: run to failure) and cost rates per position-hour."""
-
-    interval_h: float | None
-    cost_rate: float
-    run_to_failure_rate: float  # c_failure / mean life
-    saving_rate: float
-    grid_t: FloatArray = field(default_factory=_empty)
-    grid_cost: FloatArray = field(default_factory=_empty)
-
-
-def integrated_survival(T: ArrayLike, life: Weibull) -> FloatArray:
-    """∫_0^T S(t) dt in hours for a Weibull, via the regularised lower incomplete gamma."""
-    tt = np.maximum(np.asarray(T, dtype=np.float64), 0.0)
-    a = 1.0 / life.shape
-    out: FloatArray = life.mean() * gammainc(a, np.power(tt / life.scale, life.shape))
-    return out
-
-
-def age_cost_rate(T: ArrayLike, life: Weibull, c_preventive: float, c_failure: float) -> FloatArray:
-    """Age replacement cost per burn hour, (c_p·S(T) + c_f·F(T)) / ∫_0^T S."""
-    tt = np.asarray(T, dtype=np.float64)
-    if np.any(tt <= 0):
-        raise ValueError("replacement ages must be positive hours")
-    out: FloatArray = (c_preventive * life.sf(tt) + c_failure * life.cdf(tt)) / integrated_survival(
-        tt, life
-    )
-    return out
-
-
-def plan_age_replacement(
-    life: Weibull,
-    c_preventive: float,
-    c_failure: float,
-    *,
-    max_interval_h: float | None = None,
-    n: int = 2000,
-) -> AgePlan:
-    """Cheapest replacement age per lamp (Barlow & Proschan), or run to failure."""
-    if not (c_preventive > 0 and c_failure > 0):
-        raise ValueError("costs must be positive")
-    mu = life.mean()
-    rtf = c_failure / mu
-    horizon = float(max_interval_h) if max_interval_h is not None else _DEFAULT_HORIZON_MEANS * mu
-    if not horizon > 0:
-        raise ValueError("max_interval_h must be positive hours")
-    grid_t = np.linspace(horizon / n, horizon, n)
-    grid_cost = age_cost_rate(grid_t, life, c_preventive, c_failure)
-    run_to_failure = AgePlan(None, rtf, rtf, 0.0, grid_t, grid_cost)
-    if c_preventive >= c_failure:
-        return run_to_failure  # replacing a working lamp costs as much as a failure
-
-    k = int(np.argmin(grid_cost))
-    if k == n - 1:
-        return run_to_failure  # still falling at the horizon: no finite optimum
-
-    def cost(x: float) -> float:
-        return float(age_cost_rate(x, life, c_preventive, c_failure))
-
-    lo = float(grid_t[k - 1]) if k > 0 else 0.5 * float(grid_t[0])
-    x, c = _refine(cost, lo, float(grid_t[k + 1]), float(grid_t[k]), float(grid_cost[k]))
-    if not c < rtf * (1 - _MIN_REL_SAVING):
-        return run_to_failure
-    return AgePlan(x, c, rtf, rtf - c, grid_t, grid_cost)
-
-
-# ------------------------------------------------------ cost per megalumen-hour
-
-
-@dataclass(frozen=True, eq=False)
-class MegalumenCost:
-    """Block replacement cost per delivered megalumen-hour on a grid of intervals."""
-
-    interval_h: FloatArray  # the requested intervals, hours
-    cost_per_mlmh: FloatArray  # money per megalumen-hour at each interval
-    mean_light_fraction: FloatArray  # mean light per position over a cycle, share of initial
-    best_interval_h: float | None  # minimiser in (0, limit] that beats spot only; None: spot only
-    best_cost_per_mlmh: float  # at best_interval_h, or the spot-only figure
-    spot_only_cost_per_mlmh: float  # stationary spot-replacement limit
-    spot_only_mean_light_fraction: float = 1.0  # stationary mean light under spot only
-    limited_interval_h: float = 0.0  # minimiser in (0, limit] whether or not it beats spot only
-    limited_cost_per_mlmh: float = 0.0
-    at_limit: bool = False  # the minimum over (0, limit] sits at the limit itself
-    limit_h: float = 0.0  # max_interval_h, or the renewal curve's horizon
-    grid_t: FloatArray = field(default_factory=_empty)  # renewal grid intervals, hours
-    grid_cost_per_mlmh: FloatArray = field(default_factory=_empty)
-
-
-def cost_per_megalumen_hour(
-    interval_h: ArrayLike,
-    renewal_curve: RenewalCurve,
-    c_group: float,
-    c_spot: float,
-    *,
-    lamp_watts: float,
-    tariff_per_kwh: float,
-    initial_lumens: float,
-    lumen_fraction: Callable[[FloatArray], FloatArray],
-    survival: Callable[[FloatArray], FloatArray],
-    max_interval_h: float | None = None,
-) -> MegalumenCost:
-    """Cost per delivered megalumen-hour of block replacement (lamp, labour and energy)."""
-    # `survival` (age hours -> S) must be the life law the renewal curve was built
-    # from; `lumen_fraction` (age hours -> share of initial light) is the lamp's
-    # lumen depreciation at the actual voltage. Intervals must lie on the curve.
-    # The best interval is searched in (0, max_interval_h] (a cap: light floor, burnout
-    # ceiling, rupture cap), on the grid then by a bounded Brent step around the grid minimum.
-    if lamp_watts < 0 or tariff_per_kwh < 0 or not initial_lumens > 0:
-        raise ValueError("watts and tariff must be >= 0 and initial lumens > 0")
-    t = renewal_curve.t
-    h = renewal_curve.step_h
-    g = np.asarray(survival(t), dtype=np.float64) * np.asarray(lumen_fraction(t), dtype=np.float64)
-    dens = renewal_curve.density
-    # E[light fraction at t] = g(t) + ∫_0^t m(s) g(t-s) ds, trapezoid rule on the grid.
-    conv = np.convolve(dens, g)[: t.size]
-    conv = h * (conv - 0.5 * (dens[0] * g + dens * g[0]))
-    conv[0] = 0.0
-    light_frac = g + conv
-    cum_light = np.concatenate(([0.0], np.cumsum(0.5 * h * (light_frac[1:] + light_frac[:-1]))))
-    energy_rate = tariff_per_kwh * lamp_watts / 1000.0  # money per burn hour
-    tt = t[1:]
-    num = c_group + c_spot * renewal_curve.m[1:] + energy_rate * tt
-    den = initial_lumens * cum_light[1:] / 1e6  # megalumen-hours per cycle
-    grid_cost = num / den
-
-    def at(x: ArrayLike) -> FloatArray:
-        xx = np.asarray(x, dtype=np.float64)
-        num_x = c_group + c_spot * renewal_curve.at(xx) + energy_rate * xx
-        out: FloatArray = num_x / (initial_lumens * np.interp(xx, t, cum_light) / 1e6)
-        return out
-
-    # Spot-only limit: stationary age density S(u)/μ, so mean light = ∫ S L / ∫ S
-    # (both truncated at the grid horizon, which should span several mean lives).
-    s_vals = np.asarray(survival(t), dtype=np.float64)
-    int_s = float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1])))
-    int_g = float(np.sum(0.5 * h * (g[1:] + g[:-1])))
-    spot_light = int_g / int_s
-    spot_cost = (c_spot / int_s + energy_rate) / (initial_lumens * spot_light / 1e6)
-
-    horizon = float(t[-1])
-    limit = horizon if max_interval_h is None else min(float(max_interval_h), horizon)
-    if not limit > 0:
-        raise ValueError("max_interval_h must be positive hours")
-    mask = tt < limit
-    cand_t = np.append(tt[mask], limit)
-    cand_c = np.append(grid_cost[mask], float(at(limit)))
-    k = int(np.argmin(cand_c))
-    at_limit = k == cand_t.size - 1
-    lim_t, lim_c = float(cand_t[k]), float(cand_c[k])
-    if not at_limit:
-        lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
-        lim_t, lim_c = _refine(lambda v: float(at(v)), lo, float(cand_t[k + 1]), lim_t, lim_c)
-        at_limit = lim_t >= limit * (1 - 1e-9)
-
-    best: float | None = lim_t
-    best_cost = lim_c
-    no_finite_optimum = at_limit and limit >= horizon * (1 - 1e-12)
-    if no_finite_optimum or best_cost >= spot_cost * (1 - _MIN_REL_SAVING):
-        best, best_cost = None, spot_cost
-
-    x = np.asarray(interval_h, dtype=np.float64)
-    if np.any(x <= 0) or np.any(x > t[-1]):
-        raise ValueError("intervals must lie in (0, renewal curve horizon]")
-    return MegalumenCost(
-        interval_h=x,
-        cost_per_mlmh=at(x),
-        mean_light_fraction=np.interp(x, t, cum_light) / x,
-        best_interval_h=best,
-        best_cost_per_mlmh=best_cost,
-        spot_only_cost_per_mlmh=spot_cost,
-        spot_only_mean_light_fraction=spot_light,
-        limited_interval_h=lim_t,
-        limited_cost_per_mlmh=lim_c,
-        at_limit=at_limit,
-        limit_h=limit,
-        grid_t=tt,
-        grid_cost_per_mlmh=grid_cost,
     )

@@ -14,12 +14,9 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.lumen import DEFAULT_EFFICACY_LM_PER_W, default_lumen_curve
+from service.reliability.megalumen import cost_per_megalumen_hour
 from service.reliability.renewal import weibull_renewal
-from service.reliability.replacement import (
-    block_cost_rate,
-    cost_per_megalumen_hour,
-    plan_block_replacement,
-)
+from service.reliability.replacement import block_cost_rate, plan_block_replacement
 from service.reliability.weibull import Weibull
 from service.workorders.models import WorkOrder
 from tests.planning import builders as b

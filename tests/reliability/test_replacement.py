@@ -8,14 +8,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
+from service.reliability.age_replacement import age_cost_rate, plan_age_replacement
+from service.reliability.megalumen import cost_per_megalumen_hour
 from service.reliability.renewal import weibull_renewal
-from service.reliability.replacement import (
-    age_cost_rate,
-    block_cost_rate,
-    cost_per_megalumen_hour,
-    plan_age_replacement,
-    plan_block_replacement,
-)
+from service.reliability.replacement import block_cost_rate, plan_block_replacement
 from service.reliability.weibull import Weibull
 
 # Demo costs per position (invented): a group relamp visit vs a spot call-out.
