@@ -7,31 +7,33 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
-Money = float
+from service.api.times import Timestamp
+from service.register.schemas import Money, Volts
 
 
 class PlanOverrides(BaseModel):
     """What-if values for a plan; each replaces the stored or derived one, nothing is saved."""
 
-    model_config = ConfigDict(extra="forbid")
+    # Finite ranges: a what-if must not push the numeric core outside its domain.
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
-    at: datetime | None = Field(default=None, description="Plan as of this moment (default now).")
-    lamp_price: float | None = Field(default=None, ge=0, description="Per lamp, site currency.")
-    labour_rate_per_h: float | None = Field(default=None, ge=0)
+    at: Timestamp | None = Field(default=None, description="Plan as of this moment (default now).")
+    lamp_price: Money | None = Field(default=None, description="Per lamp, site currency.")
+    labour_rate_per_h: Money | None = None
     group_minutes_per_lamp: float | None = Field(default=None, ge=0, le=600)
     spot_minutes_per_lamp: float | None = Field(default=None, ge=0, le=600)
-    equipment_hire_per_visit: float | None = Field(default=None, ge=0)
+    equipment_hire_per_visit: Money | None = None
     spot_lamps_per_visit: float | None = Field(
         default=None, ge=1, le=1000, description="Spot lamps sharing one equipment hire (1)."
     )
-    disposal_fee_per_lamp: float | None = Field(default=None, ge=0)
-    energy_price_per_kwh: float | None = Field(default=None, ge=0)
-    voltage_v: float | None = Field(default=None, gt=0, le=1000, description="Volts.")
-    hours_per_start: float | None = Field(default=None, gt=0, le=10_000)
-    light_floor: float | None = Field(default=None, gt=0, lt=1)
-    burnout_ceiling: float | None = Field(default=None, gt=0, lt=1)
-    rupture_cap_fraction: float | None = Field(default=None, gt=0, le=1)
-    weekly_burn_hours: float | None = Field(default=None, gt=0, le=168)
+    disposal_fee_per_lamp: Money | None = None
+    energy_price_per_kwh: Money | None = None
+    voltage_v: Volts | None = None
+    hours_per_start: float | None = Field(default=None, ge=0.01, le=10_000)
+    light_floor: float | None = Field(default=None, ge=0.01, le=0.99)
+    burnout_ceiling: float | None = Field(default=None, ge=0.001, le=0.99)
+    rupture_cap_fraction: float | None = Field(default=None, ge=0.05, le=1)
+    weekly_burn_hours: float | None = Field(default=None, ge=0.01, le=168)
     group_age_h: float | None = Field(default=None, ge=0, le=1_000_000)
     objective: Literal["cost", "cost_per_megalumen_hour"] = Field(
         default="cost",

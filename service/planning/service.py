@@ -104,6 +104,10 @@ def local_today(site: Site, at: datetime) -> date:
     return at.astimezone(ZoneInfo(site.time_zone)).date()
 
 
+# Due dates further ahead than this many days are not given (they would overflow a date).
+MAX_DUE_DAYS = 100 * 366
+
+
 def due_date(
     today: date, interval_h: float | None, group_age_h: float, weekly_h: float
 ) -> tuple[date | None, bool]:
@@ -115,7 +119,10 @@ def due_date(
         return today, True
     if weekly_h <= 0:
         return None, False
-    return today + timedelta(days=math.floor(remaining / weekly_h * 7.0)), False
+    days = remaining / weekly_h * 7.0
+    if not days < MAX_DUE_DAYS:  # a relamp a century away is no date to plan by
+        return None, False
+    return today + timedelta(days=math.floor(days)), False
 
 
 def last_group_relamps(session: Session, area_ids: Sequence[int]) -> dict[int, datetime]:

@@ -46,6 +46,8 @@ from service.reliability.weibull import Weibull, scale_from_rated_life
 FloatArray = NDArray[np.float64]
 
 DISAGREEMENT_WARN = 0.10  # warn when the curve's own B_p life is > 10 % from the rated life
+# Shapes below this are not lamp wear-out (and would overflow the scale): refused.
+MIN_SHAPE = 0.1
 MAX_SHAPE = 50.0  # the catalogue's own upper limit on a Weibull shape
 
 
@@ -117,6 +119,11 @@ def mortality_problem(pct_rated_life: ArrayLike, pct_surviving: ArrayLike) -> st
     slope, _, _ = _line(np.log(x), np.log(-np.log(s / 100.0)))
     if not (math.isfinite(slope) and slope > 0):
         return "mortality points must show survival falling with burn hours"
+    if slope < MIN_SHAPE:
+        return (
+            f"mortality points give a Weibull shape of {slope:.3g}, below {MIN_SHAPE:g}: the "
+            "curve is too flat to describe lamps that wear out"
+        )
     if slope > MAX_SHAPE:
         return (
             f"mortality points give a Weibull shape of {slope:.0f}, above {MAX_SHAPE:g}: "

@@ -208,3 +208,35 @@ def test_plan_uses_the_field_fit_the_forecasts_use(
         assert got is None
     else:
         assert got == pytest.approx(ref.interval_h, rel=1e-4)
+
+
+@pytest.mark.parametrize(
+    "body",
+    [
+        {"voltage_v": 1.0},  # life stretched beyond any calendar: no due date, no overflow
+        {"weekly_burn_hours": 0.01},
+        {"voltage_v": 1.0, "objective": "cost_per_megalumen_hour"},
+        {"hours_per_start": 0.01, "light_floor": 0.99, "burnout_ceiling": 0.001},
+    ],
+)
+def test_extreme_what_if_answers_without_error(
+    client: TestClient, db: Session, reader: dict[str, str], body: dict[str, object]
+) -> None:
+    area_id, _ = _setup(db)
+    r = client.post(f"/api/v1/areas/{area_id}/relamp-plan", json=body, headers=reader)
+    assert r.status_code == 200, r.text
+    plan = r.json()
+    if plan["due_on"] is not None:
+        assert date.fromisoformat(plan["due_on"]).year < 2200
+
+
+@pytest.mark.parametrize(
+    ("field", "value"),
+    [("voltage_v", 1e-300), ("voltage_v", 0.5), ("lamp_price", 1e12), ("weekly_burn_hours", 0)],
+)
+def test_what_if_out_of_range_is_422_naming_the_field(
+    client: TestClient, db: Session, reader: dict[str, str], field: str, value: float
+) -> None:
+    area_id, _ = _setup(db)
+    r = client.post(f"/api/v1/areas/{area_id}/relamp-plan", json={field: value}, headers=reader)
+    assert r.status_code == 422 and r.json()["errors"][0]["field"] == field

@@ -11,6 +11,7 @@ from scipy.stats import linregress
 
 from service.reliability.mortality import (
     DISAGREEMENT_WARN,
+    MIN_SHAPE,
     fit_mortality_points,
     mortality_problem,
 )
@@ -179,3 +180,13 @@ def test_bad_rated_life_is_refused() -> None:
         fit_mortality_points(MAKER[:, 0], MAKER[:, 1], 0.0)
     with pytest.raises(ValueError, match="percentile"):
         fit_mortality_points(MAKER[:, 0], MAKER[:, 1], RATED_H, rated_percentile=100.0)
+
+
+def test_a_nearly_flat_curve_is_refused_not_overflowed() -> None:
+    # Survival barely falling over a wide span gives a probability-plot slope near 0;
+    # exp(-intercept/slope) would overflow, so the rule refuses it with a reason.
+    pts_life, pts_surv = [1.0, 1000.0], [50.0, 49.999]
+    problem = mortality_problem(pts_life, pts_surv)
+    assert problem is not None and f"{MIN_SHAPE:g}" in problem
+    with pytest.raises(ValueError, match="too flat"):
+        fit_mortality_points(pts_life, pts_surv, 1000.0)
