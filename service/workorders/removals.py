@@ -13,16 +13,17 @@ from collections.abc import Sequence
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from service.events import reports
 from service.events import service as events
 from service.events.models import BurnoutReport
 
 record_removals = events.record_removals
-close_reports = events.close_reports
+close_reports = reports.close_reports
 
 
 def release_reports(session: Session, work_order_id: int) -> int:
     """Send an order's reports still "ordered" back to "open" (for the next spot order)."""
-    return events.reopen_reports(session, work_order_id)
+    return reports.reopen_reports(session, work_order_id)
 
 
 def reports_on_positions(session: Session, position_ids: Sequence[int]) -> dict[int, list[int]]:

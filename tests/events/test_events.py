@@ -9,6 +9,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from service.events import reports
 from service.events import service as events
 from service.events.models import LampRemoval
 from service.register.models import LampPosition
@@ -41,7 +42,7 @@ def test_burnout_then_replacement_counts_one_failure(
     assert report["status"] == "open" and report["removal_id"] is not None
     db.refresh(pos)
     assert pos.burned_out_at == when
-    assert [x.id for x in events.open_burnout_reports(db, area_id=report["area_id"])] == [
+    assert [x.id for x in reports.open_burnout_reports(db, area_id=report["area_id"])] == [
         report["id"]
     ]
     # A second report of the same dark lamp is refused.
@@ -106,11 +107,11 @@ def test_close_and_order_reports(db: Session) -> None:
     p = _positions(db)
     r1 = events.report_burnout(db, position_id=p[0].id, reported_at=T0 + timedelta(days=1))
     r2 = events.report_burnout(db, position_id=p[1].id, reported_at=T0 + timedelta(days=2))
-    assert len(events.mark_ordered(db, [r1.id], 5)) == 1
-    assert [r.id for r in events.open_burnout_reports(db)] == [r2.id]
-    assert events.reopen_reports(db, 5) == 1
-    closed = events.close_reports(db, [r1.id, r2.id], 9)
-    assert {r.status for r in closed} == {"closed"} and events.open_burnout_reports(db) == []
+    assert len(reports.mark_ordered(db, [r1.id], 5)) == 1
+    assert [r.id for r in reports.open_burnout_reports(db)] == [r2.id]
+    assert reports.reopen_reports(db, 5) == 1
+    closed = reports.close_reports(db, [r1.id, r2.id], 9)
+    assert {r.status for r in closed} == {"closed"} and reports.open_burnout_reports(db) == []
 
 
 def test_bad_events_are_refused(

@@ -1,0 +1,94 @@
+"""Burnout report states: open (dark, no order), ordered (on a spot work order), closed.
+
+Services flush; the caller's transaction commits.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from datetime import datetime
+
+from sqlalchemy import select, update
+from sqlalchemy.orm import Session
+
+from service.db.base import utcnow
+from service.events.checks import as_aware
+from service.events.models import BurnoutReport
+
+
+def open_burnout_reports(
+    session: Session, *, site_id: int | None = None, area_id: int | None = None
+) -> list[BurnoutReport]:
+    """Reports still "open" (dark lamps no work order has taken in), oldest first."""
+    stmt = select(BurnoutReport).where(BurnoutReport.status == "open")
+    if site_id is not None:
+        stmt = stmt.where(BurnoutReport.site_id == site_id)
+    if area_id is not None:
+        stmt = stmt.where(BurnoutReport.area_id == area_id)
+    return list(session.scalars(stmt.order_by(BurnoutReport.reported_at, BurnoutReport.id)))
+
+
+def mark_ordered(
+    session: Session, report_ids: Sequence[int], work_order_id: int
+) -> list[BurnoutReport]:
+    """Attach open reports to a spot work order (status "ordered"; still dark)."""
+    reports = list(
+        session.scalars(
+            select(BurnoutReport).where(
+                BurnoutReport.id.in_(list(report_ids)), BurnoutReport.status == "open"
+            )
+        )
+    )
+    for r in reports:
+        r.status = "ordered"
+        r.work_order_id = work_order_id
+    session.flush()
+    return reports
+
+
+def reopen_reports(session: Session, work_order_id: int) -> int:
+    """Return a cancelled order's "ordered" reports to "open"; how many."""
+    result = session.execute(
+        update(BurnoutReport)
+        .where(BurnoutReport.work_order_id == work_order_id, BurnoutReport.status == "ordered")
+        .values(status="open", work_order_id=None)
+    )
+    session.flush()
+    return int(getattr(result, "rowcount", 0) or 0)
+
+
+def close_reports(
+    session: Session,
+    report_ids: Sequence[int],
+    work_order_id: int | None,
+    *,
+    closed_at: datetime | None = None,
+) -> list[BurnoutReport]:
+    """Close reports (a work order or a replacement dealt with them); closed ones are skipped."""
+    reports = list(
+        session.scalars(
+            select(BurnoutReport).where(
+                BurnoutReport.id.in_(list(report_ids)), BurnoutReport.status != "closed"
+            )
+        )
+    )
+    when = utcnow() if closed_at is None else as_aware(closed_at)
+    for r in reports:
+        r.status = "closed"
+        r.closed_at = when
+        if work_order_id is not None:
+            r.work_order_id = work_order_id
+    session.flush()
+    return reports
+
+
+def close_open_for_positions(
+    session: Session, position_ids: Sequence[int], work_order_id: int | None, at: datetime
+) -> None:
+    """Close every report not yet closed on these positions, as of `at`."""
+    ids = session.scalars(
+        select(BurnoutReport.id).where(
+            BurnoutReport.position_id.in_(list(position_ids)), BurnoutReport.status != "closed"
+        )
+    ).all()
+    close_reports(session, list(ids), work_order_id, closed_at=at)
