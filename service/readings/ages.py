@@ -14,7 +14,7 @@ Method (all vectorised; a handful of queries whatever the number of positions):
   (each reading holds until the next one; the last one before the lamp went in counts from
   the install), "readings_weighted"; else the latest reading, "latest_reading"; else the
   fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
-  A fixture's own readings win over its area's.
+  A fixture's own readings win over its area's. The readings part is in voltages.py.
 """
 
 from __future__ import annotations
@@ -25,12 +25,14 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from sqlalchemy import ColumnElement, Float, cast, func, or_, select
+from sqlalchemy import ColumnElement, func, or_, select
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
-from service.readings.models import BurnHourRecord, VoltageReading
+from service.readings.models import BurnHourRecord
+from service.readings.sql import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock, Timeline
+from service.readings.voltages import reading_voltages
 from service.register.models import Area, Fixture, LampPosition, Site
 
 FloatArray = NDArray[np.float64]
@@ -77,14 +79,6 @@ class PositionAges:
         )
 
 
-def _ts(values: list[datetime | None]) -> FloatArray:
-    return np.array([np.nan if v is None else v.timestamp() for v in values], dtype=np.float64)
-
-
-def _f(values: list[float | None]) -> FloatArray:
-    return np.array([np.nan if v is None else v for v in values], dtype=np.float64)
-
-
 def _scope(
     site_id: int | None,
     area_id: int | None,
@@ -104,11 +98,6 @@ def _scope(
     if position_ids is not None:
         cond.append(LampPosition.id.in_(position_ids))
     return cond
-
-
-def _target_keys(fixture_ids: IntArray, area_ids: IntArray, own: BoolArray) -> IntArray:
-    # Fixture targets are odd keys, area targets even keys.
-    return np.where(own, 2 * fixture_ids + 1, 2 * area_ids).astype(np.int64)
 
 
 def empty_ages(at: datetime) -> PositionAges:
@@ -136,7 +125,7 @@ def position_ages(
     cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
     conn = session.connection()
     dialect = conn.dialect.name
-    matrix = _matrix(
+    matrix = float_matrix(
         session,
         select(
             LampPosition.id,
@@ -220,10 +209,10 @@ def position_ages(
         dtype=np.int64,
     )
     own = np.isin(fix_id, own_fixtures)
-    bkey = _target_keys(fix_id, area_of, own)
+    bkey = target_keys(fix_id, area_of, own)
     since = datetime.fromtimestamp(t_min - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo)
     since = min(since, datetime.fromtimestamp(t_at - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo))
-    rec = _matrix(
+    rec = float_matrix(
         session,
         select(
             func.coalesce(BurnHourRecord.fixture_id * 2 + 1, BurnHourRecord.area_id * 2),
@@ -269,7 +258,7 @@ def position_ages(
     # Burn rate per week: schedule, else measured over the last RATE_WINDOW_DAYS.
     week_rate = np.where(week_h > 0, week_h, _measured_rate(timeline, bkey, t_at))
 
-    volts, source = _voltages(
+    volts, source = reading_voltages(
         session, fixture_scope, area_scope, fix_id, area_of, at, t_start, t_end, clock
     )
     volts = np.where(np.isnan(volts) & ~np.isnan(fix_v), fix_v, volts)
@@ -301,23 +290,6 @@ def _timeline(rec: FloatArray, base: float) -> Timeline:
     )
 
 
-def epoch(col: Any, dialect: str) -> ColumnElement[float]:
-    """A timestamp column as epoch seconds (float) computed by the database."""
-    if dialect == "postgresql":
-        return cast(func.extract("epoch", col), Float)
-    # SQLite keeps UTC text; julianday counts days from noon, 4714 BC.
-    return (func.julianday(col) - 2440587.5) * 86400.0
-
-
-def _matrix(session: Session, stmt: Any, width: int) -> FloatArray:
-    """Run a numeric query through Core and return its rows as a float matrix (NULL = NaN)."""
-    rows = session.connection().execute(stmt).all()
-    if not rows:
-        return np.zeros((0, width))
-    # Plain tuples: numpy probing Row objects for array attributes is slow.
-    return np.array(list(map(tuple, rows)), dtype=np.float64)
-
-
 def _measured_rate(timeline: Timeline, key: IntArray, t_at: float) -> FloatArray:
     """Recorded burn hours per week over the recent window (0 without records)."""
     window = RATE_WINDOW_DAYS * 86_400.0
@@ -330,90 +302,3 @@ def _measured_rate(timeline: Timeline, key: IntArray, t_at: float) -> FloatArray
     with np.errstate(divide="ignore", invalid="ignore"):
         rate = np.where(covered > 0, (h_now - h_then) / covered * 3600.0 * _HOURS_PER_WEEK, 0.0)
     return np.asarray(rate, dtype=np.float64)
-
-
-def _voltages(
-    session: Session,
-    fixture_scope: Any,
-    area_scope: Any,
-    fix_id: IntArray,
-    area_of: IntArray,
-    at: datetime,
-    t_start: FloatArray,
-    t_end: FloatArray,
-    clock: Clock,
-) -> tuple[FloatArray, NDArray[np.str_]]:
-    """Weighted-mean or latest reading per position (NaN and "" where there is none)."""
-    n = fix_id.size
-    volts = np.full(n, np.nan)
-    source = np.full(n, "", dtype="<U17")
-    dialect = session.connection().dialect.name
-    m = _matrix(
-        session,
-        select(
-            func.coalesce(VoltageReading.fixture_id * 2 + 1, VoltageReading.area_id * 2),
-            epoch(VoltageReading.measured_at, dialect),
-            VoltageReading.volts,
-            func.coalesce(VoltageReading.fixture_id, -1),
-        ).where(
-            or_(
-                VoltageReading.fixture_id.in_(fixture_scope),
-                VoltageReading.area_id.in_(area_scope),
-            ),
-            VoltageReading.measured_at <= at,
-        ),
-        4,
-    )
-    if m.shape[0] == 0:
-        return volts, source
-    rkey = m[:, 0].astype(np.int64)
-    rt = m[:, 1]
-    rv = m[:, 2]
-    rf = m[:, 3].astype(np.int64)
-    order = np.lexsort((rt, rkey))
-    rkey, rt, rv = rkey[order], rt[order], rv[order]
-    keys, lo, counts = np.unique(rkey, return_index=True, return_counts=True)
-    own = np.isin(fix_id, rf[rf >= 0])
-    vkey = _target_keys(fix_id, area_of, own)
-    r = np.minimum(np.searchsorted(keys, vkey), keys.size - 1)
-    has = keys[r] == vkey
-    # Latest reading per position (fallback).
-    last_idx = lo[r] + counts[r] - 1
-    latest = np.where(has, rv[last_idx], np.nan)
-
-    # One (position, reading) pair per reading of the position's voltage target, computed
-    # once per group of positions sharing target, clock and lamp life (then copied back).
-    cand = np.nonzero(has)[0]
-    sig = np.column_stack(
-        (vkey[cand], clock.key[cand], clock.rate_h[cand], t_start[cand], t_end[cand])
-    )
-    _, first_of, inverse = np.unique(sig, axis=0, return_index=True, return_inverse=True)
-    pos = cand[first_of]
-    if pos.size:
-        cnt = counts[r[pos]]
-        pair_pos = np.repeat(pos, cnt)
-        first = np.repeat(lo[r[pos]], cnt)
-        offs = np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-        j = first + offs
-        last_of_key = np.repeat(lo[r[pos]] + cnt - 1, cnt)
-        a = np.maximum(rt[j], t_start[pair_pos])
-        nxt = np.where(j < last_of_key, rt[np.minimum(j + 1, rt.size - 1)], np.inf)
-        b = np.minimum(nxt, t_end[pair_pos])
-        live = b > a
-        w = np.zeros(j.size)
-        if live.any():
-            rows_live = pair_pos[live]
-            hb, _ = clock.at(b[live], rows_live)
-            ha, _ = clock.at(a[live], rows_live)
-            w[live] = np.maximum(hb - ha, 0.0)
-        wsum = np.bincount(pair_pos, weights=w, minlength=n)
-        vsum = np.bincount(pair_pos, weights=w * rv[j], minlength=n)
-        rep = pos[np.ravel(inverse)]  # each candidate's group representative
-        weighted = wsum[rep] > 0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            volts[cand] = np.where(weighted, vsum[rep] / wsum[rep], np.nan)
-        source[cand] = np.where(weighted, "readings_weighted", "")
-    fallback = has & np.isnan(volts)
-    volts = np.where(fallback, latest, volts)
-    source = np.where(fallback, "latest_reading", source).astype("<U17")
-    return volts, source

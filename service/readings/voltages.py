@@ -1,0 +1,113 @@
+"""Operating voltage of each lamp position from voltage readings, for many at once.
+
+The burn-hour-weighted mean of the readings over the lamp's life: each reading holds until
+the next one, the last one before the lamp went in counts from the install, and the weight
+of a reading is the burn hours (service.readings.timeline.Clock) it held for; this is
+"readings_weighted". Without burn hours under any reading, the latest reading,
+"latest_reading". A fixture's own readings win over its area's. Volts throughout.
+The fallbacks after these (fixture measured volts, site nominal) are in ages.py.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+from sqlalchemy import func, or_, select
+from sqlalchemy.orm import Session
+
+from service.readings.models import VoltageReading
+from service.readings.sql import epoch, float_matrix, target_keys
+from service.readings.timeline import Clock
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+
+def reading_voltages(
+    session: Session,
+    fixture_scope: Any,
+    area_scope: Any,
+    fix_id: IntArray,
+    area_of: IntArray,
+    at: datetime,
+    t_start: FloatArray,
+    t_end: FloatArray,
+    clock: Clock,
+) -> tuple[FloatArray, NDArray[np.str_]]:
+    """Weighted-mean or latest reading per position (NaN and "" where there is none)."""
+    n = fix_id.size
+    volts = np.full(n, np.nan)
+    source = np.full(n, "", dtype="<U17")
+    dialect = session.connection().dialect.name
+    m = float_matrix(
+        session,
+        select(
+            func.coalesce(VoltageReading.fixture_id * 2 + 1, VoltageReading.area_id * 2),
+            epoch(VoltageReading.measured_at, dialect),
+            VoltageReading.volts,
+            func.coalesce(VoltageReading.fixture_id, -1),
+        ).where(
+            or_(
+                VoltageReading.fixture_id.in_(fixture_scope),
+                VoltageReading.area_id.in_(area_scope),
+            ),
+            VoltageReading.measured_at <= at,
+        ),
+        4,
+    )
+    if m.shape[0] == 0:
+        return volts, source
+    rkey = m[:, 0].astype(np.int64)
+    rt = m[:, 1]
+    rv = m[:, 2]
+    rf = m[:, 3].astype(np.int64)
+    order = np.lexsort((rt, rkey))
+    rkey, rt, rv = rkey[order], rt[order], rv[order]
+    keys, lo, counts = np.unique(rkey, return_index=True, return_counts=True)
+    own = np.isin(fix_id, rf[rf >= 0])
+    vkey = target_keys(fix_id, area_of, own)
+    r = np.minimum(np.searchsorted(keys, vkey), keys.size - 1)
+    has = keys[r] == vkey
+    # Latest reading per position (fallback).
+    last_idx = lo[r] + counts[r] - 1
+    latest = np.where(has, rv[last_idx], np.nan)
+
+    # One (position, reading) pair per reading of the position's voltage target, computed
+    # once per group of positions sharing target, clock and lamp life (then copied back).
+    cand = np.nonzero(has)[0]
+    sig = np.column_stack(
+        (vkey[cand], clock.key[cand], clock.rate_h[cand], t_start[cand], t_end[cand])
+    )
+    _, first_of, inverse = np.unique(sig, axis=0, return_index=True, return_inverse=True)
+    pos = cand[first_of]
+    if pos.size:
+        cnt = counts[r[pos]]
+        pair_pos = np.repeat(pos, cnt)
+        first = np.repeat(lo[r[pos]], cnt)
+        offs = np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+        j = first + offs
+        last_of_key = np.repeat(lo[r[pos]] + cnt - 1, cnt)
+        a = np.maximum(rt[j], t_start[pair_pos])
+        nxt = np.where(j < last_of_key, rt[np.minimum(j + 1, rt.size - 1)], np.inf)
+        b = np.minimum(nxt, t_end[pair_pos])
+        live = b > a
+        w = np.zeros(j.size)
+        if live.any():
+            rows_live = pair_pos[live]
+            hb, _ = clock.at(b[live], rows_live)
+            ha, _ = clock.at(a[live], rows_live)
+            w[live] = np.maximum(hb - ha, 0.0)
+        wsum = np.bincount(pair_pos, weights=w, minlength=n)
+        vsum = np.bincount(pair_pos, weights=w * rv[j], minlength=n)
+        rep = pos[np.ravel(inverse)]  # each candidate's group representative
+        weighted = wsum[rep] > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            volts[cand] = np.where(weighted, vsum[rep] / wsum[rep], np.nan)
+        source[cand] = np.where(weighted, "readings_weighted", "")
+    fallback = has & np.isnan(volts)
+    volts = np.where(fallback, latest, volts)
+    source = np.where(fallback, "latest_reading", source).astype("<U17")
+    return volts, source
