@@ -10,7 +10,7 @@ from contextlib import contextmanager
 from sqlalchemy.orm import Session
 
 from service.config import get_settings
-from service.db.session import session_factory
+from service.db.session import begin_write, session_factory
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
@@ -23,6 +23,7 @@ def transaction() -> Iterator[Session]:
     """One transaction for a CLI command: committed on success, rolled back on error."""
     session = session_factory()()
     try:
+        begin_write(session)
         yield session
         session.commit()
     except BaseException:

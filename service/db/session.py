@@ -7,7 +7,8 @@ from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import Engine, create_engine, event
+from fastapi import Request
+from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
 
@@ -26,6 +27,23 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
     cur.close()
 
 
+# Execution option marking a transaction that will write (see _sqlite_begin, begin_write).
+WRITE_OPTION = "lampkeeper_write"
+READ_ONLY_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+
+
+def _sqlite_begin(conn: Connection) -> None:
+    # A writer takes SQLite's write lock at once (BEGIN IMMEDIATE), so a second writer waits
+    # out the busy timeout instead of failing when a deferred read lock cannot be upgraded.
+    immediate = conn.get_execution_options().get(WRITE_OPTION, False)
+    conn.exec_driver_sql("BEGIN IMMEDIATE" if immediate else "BEGIN")
+
+
+def begin_write(session: Session) -> None:
+    """Open the session's transaction as a writer (SQLite: BEGIN IMMEDIATE; else no change)."""
+    session.connection(execution_options={WRITE_OPTION: True})
+
+
 def make_engine(url: str) -> Engine:
     """Create an engine for a database URL, with SQLite made safe for a web server."""
     parsed = make_url(url)
@@ -34,7 +52,7 @@ def make_engine(url: str) -> Engine:
             Path(parsed.database).parent.mkdir(parents=True, exist_ok=True)
         engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30})
         event.listen(engine, "connect", _sqlite_pragmas)
-        event.listen(engine, "begin", lambda conn: conn.exec_driver_sql("BEGIN"))
+        event.listen(engine, "begin", _sqlite_begin)
         return engine
     return create_engine(url, pool_pre_ping=True, pool_size=10, max_overflow=10)
 
@@ -50,10 +68,12 @@ def session_factory(engine: Engine | None = None) -> sessionmaker[Session]:
     return sessionmaker(bind=engine or get_engine(), expire_on_commit=False, autoflush=False)
 
 
-def get_session() -> Iterator[Session]:
+def get_session(request: Request) -> Iterator[Session]:
     """FastAPI dependency: one transaction per request, committed on success, else rolled back."""
     session = session_factory()()
     try:
+        if request.method not in READ_ONLY_METHODS:
+            begin_write(session)
         yield session
         session.commit()
     except BaseException:

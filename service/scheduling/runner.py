@@ -23,6 +23,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import NotFound
 from service.db.base import utcnow
+from service.db.session import begin_write
 from service.planning.service import local_today
 from service.register.models import Site
 from service.scheduling.models import RunWeek, WeeklyRun
@@ -85,6 +86,7 @@ def run_site_week(
     with _site_lock(site_id):
         try:
             with factory() as s:
+                begin_write(s)
                 _advisory_lock(s, site_id)
                 site = s.get(Site, site_id)
                 assert site is not None
