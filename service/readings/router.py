@@ -16,7 +16,7 @@ from service.api.errors import Invalid
 from service.api.ids import IdQuery
 from service.api.pagination import Page, PageDep, paginate
 from service.api.times import Timestamp
-from service.readings import service
+from service.readings import burn_hours, service
 from service.readings.ages import position_ages
 from service.readings.columns import read_columns
 from service.readings.models import BurnHourRecord, VoltageReading
@@ -57,8 +57,8 @@ def _latest(session: Session, model: Any, body: BurnHourCreate | VoltageReadingC
 @router.post("/burn-hours", response_model=BurnHourRead, status_code=status.HTTP_201_CREATED)
 def create_burn_hours(body: BurnHourCreate, session: SessionDep, _: WriteKey) -> BurnHourRead:
     """Record burn hours for a fixture or an area: a period total or a meter reading."""
-    cols = service.columns_from_dicts([body.model_dump()], service.BURN_COLUMNS)
-    service.ingest_burn_hours(session, cols)
+    cols = service.columns_from_dicts([body.model_dump()], burn_hours.BURN_COLUMNS)
+    burn_hours.ingest_burn_hours(session, cols)
     return BurnHourRead.model_validate(_latest(session, BurnHourRecord, body))
 
 
@@ -70,8 +70,8 @@ def create_burn_hours(body: BurnHourCreate, session: SessionDep, _: WriteKey) ->
 )
 def upload_burn_hours(body: RawBodyDep, session: SessionDep, _: WriteKey) -> BulkResult:
     """Upload burn-hour rows as CSV or a JSON list (columns as in POST /burn-hours); all or none."""
-    cols = read_columns(body, service.BURN_COLUMNS)
-    return BulkResult(stored=service.ingest_burn_hours(session, cols))
+    cols = read_columns(body, burn_hours.BURN_COLUMNS)
+    return BulkResult(stored=burn_hours.ingest_burn_hours(session, cols))
 
 
 @router.get("/burn-hours", response_model=Page[BurnHourRead])
