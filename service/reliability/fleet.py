@@ -52,7 +52,7 @@ def _empty() -> FloatArray:
 
 @dataclass(frozen=True)
 class LampTypeSpec:
-    """Per-type parameters; None takes the technology default (see conditions.py)."""
+    """Per-type parameters; None takes the technology default (see technologies.py)."""
 
     technology: str
     rated_life_h: float  # hours at the rated percentile, rated voltage and rated cycle
