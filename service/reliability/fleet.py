@@ -72,6 +72,27 @@ class LampTypeSpec:
     lumen_curve: LumenCurve | None = None
 
 
+# The per-type float columns of LampTypeTable, in order: ten always given, then five the
+# table fills with defaults when left empty.
+TABLE_COLUMNS: tuple[str, ...] = (
+    "shape",
+    "scale_h",
+    "rated_voltage",
+    "life_exponent",
+    "light_exponent",
+    "power_exponent",
+    "ballast_gain",
+    "rated_hours_per_start",
+    "second_hours_per_start",
+    "second_life_ratio",
+    "voltage_band",
+    "life_ratio_floor",
+    "switching_slope",
+    "driver_min_v",
+    "driver_max_v",
+)
+
+
 @dataclass(frozen=True, eq=False)
 class LampTypeTable:
     """K lamp types as parallel numpy arrays (length K) plus one lumen curve per type."""
@@ -104,19 +125,7 @@ class LampTypeTable:
             "driver_min_v": math.nan,
             "driver_max_v": math.nan,
         }
-        for name in (
-            "shape",
-            "scale_h",
-            "rated_voltage",
-            "life_exponent",
-            "light_exponent",
-            "power_exponent",
-            "ballast_gain",
-            "rated_hours_per_start",
-            "second_hours_per_start",
-            "second_life_ratio",
-            *fill,
-        ):
+        for name in TABLE_COLUMNS:
             arr = np.asarray(getattr(self, name), dtype=np.float64)
             if name in fill and arr.size == 0:
                 arr = np.full(k, fill[name])
@@ -145,26 +154,7 @@ class LampTypeTable:
     @classmethod
     def from_specs(cls, specs: Sequence[LampTypeSpec]) -> LampTypeTable:
         """Build the table from per-type parameters, filling gaps from technology defaults."""
-        cols: dict[str, list[float]] = {
-            name: []
-            for name in (
-                "shape",
-                "scale_h",
-                "rated_voltage",
-                "life_exponent",
-                "light_exponent",
-                "power_exponent",
-                "ballast_gain",
-                "rated_hours_per_start",
-                "second_hours_per_start",
-                "second_life_ratio",
-                "voltage_band",
-                "life_ratio_floor",
-                "switching_slope",
-                "driver_min_v",
-                "driver_max_v",
-            )
-        }
+        cols: dict[str, list[float]] = {name: [] for name in TABLE_COLUMNS}
         filament: list[bool] = []
         curves: list[LumenCurve] = []
         for s in specs:

@@ -11,7 +11,7 @@ import pytest
 
 from service.catalogue.model import lamp_type_table, resolve_lamp_model
 from service.catalogue.mortality import check_mortality_points, fit_mortality_points
-from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
+from service.reliability.fleet import TABLE_COLUMNS, LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.mortality import fit_mortality_points as core_fit
 from service.reliability.technologies import BALLAST_POWER_GAIN, TECHNOLOGY_DEFAULTS
@@ -195,21 +195,7 @@ def test_table_matches_the_numeric_core_from_specs() -> None:
         LampTypeSpec("led", 50_000.0, 230.0, driver_range=(200.0, 250.0)),
     ]
     ref = LampTypeTable.from_specs(specs)
-    for name in (
-        "shape",
-        "scale_h",
-        "rated_voltage",
-        "life_exponent",
-        "light_exponent",
-        "power_exponent",
-        "ballast_gain",
-        "rated_hours_per_start",
-        "voltage_band",
-        "life_ratio_floor",
-        "switching_slope",
-        "driver_min_v",
-        "driver_max_v",
-    ):
+    for name in TABLE_COLUMNS:
         np.testing.assert_allclose(getattr(table, name), getattr(ref, name), rtol=1e-12)
     # Fleet evaluation on both tables gives the same answers.
     idx = np.array([0, 1, 2, 3, 0])
