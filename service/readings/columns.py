@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Sequence
+from collections.abc import Callable, Iterator, Sequence
 from datetime import date, datetime, timedelta
-from typing import Any
+from typing import Any, TypeVar
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -23,6 +23,7 @@ from service.config import get_settings
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
+T = TypeVar("T")
 
 
 class Columns:
@@ -154,34 +155,67 @@ def bools(c: Columns, name: str, errors: RowErrors) -> NDArray[np.bool_]:
     return out
 
 
-def timestamps(c: Columns, name: str, zones: Sequence[str | None], errors: RowErrors) -> FloatArray:
-    """ISO 8601 timestamps as epoch seconds; NaN where empty. No offset = the site's zone."""
-    raw = c.get(name)
-    out = np.full(len(raw), np.nan)
-    cache: dict[tuple[Any, str | None], float] = {}
-    for i, v in enumerate(raw):
+def _zoned_cells(
+    c: Columns,
+    name: str,
+    zones: Sequence[str | None],
+    errors: RowErrors,
+    parse: Callable[[Any, str | None], tuple[T | None, str | None]],
+) -> Iterator[tuple[int, T]]:
+    """(row index, parsed value) for each non-empty cell; parse gives (value, problem).
+
+    Parsed values are cached per (cell, zone); a problem is recorded against the row.
+    """
+    cache: dict[tuple[Any, str | None], T] = {}
+    for i, v in enumerate(c.get(name)):
         if v is None or v == "":
             continue
         key = (v, zones[i])
         hit = cache.get(key)
         if hit is None:
-            try:
-                dt = v if isinstance(v, datetime) else datetime.fromisoformat(str(v))
-            except ValueError:
-                errors.add(int(c.numbers[i]), name, f"'{v}' is not an ISO 8601 timestamp")
+            hit, problem = parse(v, zones[i])
+            if hit is None:
+                errors.add(int(c.numbers[i]), name, problem or "is not valid")
                 continue
-            problem = year_problem(dt)
-            if problem is None and dt.tzinfo is None:
-                try:
-                    dt = in_zone(dt, ZoneInfo(zones[i] or "UTC"))
-                except ValueError as exc:
-                    problem = str(exc)
-            if problem is not None:
-                errors.add(int(c.numbers[i]), name, problem)
-                continue
-            hit = dt.timestamp()
             cache[key] = hit
-        out[i] = hit
+        yield i, hit
+
+
+def _timestamp(v: Any, zone: str | None) -> tuple[float | None, str | None]:
+    try:
+        dt = v if isinstance(v, datetime) else datetime.fromisoformat(str(v))
+    except ValueError:
+        return None, f"'{v}' is not an ISO 8601 timestamp"
+    problem = year_problem(dt)
+    if problem is None and dt.tzinfo is None:
+        try:
+            dt = in_zone(dt, ZoneInfo(zone or "UTC"))
+        except ValueError as exc:
+            problem = str(exc)
+    if problem is not None:
+        return None, problem
+    return dt.timestamp(), None
+
+
+def _day(v: Any, zone_name: str | None) -> tuple[tuple[float, float] | None, str | None]:
+    try:
+        d = v if isinstance(v, date) else date.fromisoformat(str(v))
+    except ValueError:
+        return None, f"'{v}' is not a date (YYYY-MM-DD)"
+    problem = year_problem(d)
+    if problem is not None:
+        return None, problem
+    zone = ZoneInfo(zone_name or "UTC")
+    a = datetime(d.year, d.month, d.day, tzinfo=zone)
+    b = datetime.combine(d + timedelta(days=1), datetime.min.time(), tzinfo=zone)
+    return (a.timestamp(), b.timestamp()), None
+
+
+def timestamps(c: Columns, name: str, zones: Sequence[str | None], errors: RowErrors) -> FloatArray:
+    """ISO 8601 timestamps as epoch seconds; NaN where empty. No offset = the site's zone."""
+    out = np.full(len(c.get(name)), np.nan)
+    for i, t in _zoned_cells(c, name, zones, errors, _timestamp):
+        out[i] = t
     return out
 
 
@@ -189,29 +223,9 @@ def days(
     c: Columns, name: str, zones: Sequence[str | None], errors: RowErrors
 ) -> tuple[FloatArray, FloatArray]:
     """A calendar-day column (YYYY-MM-DD, in the site's zone) as (start, end) epoch seconds."""
-    raw = c.get(name)
-    start = np.full(len(raw), np.nan)
-    end = np.full(len(raw), np.nan)
-    cache: dict[tuple[Any, str | None], tuple[float, float]] = {}
-    for i, v in enumerate(raw):
-        if v is None or v == "":
-            continue
-        key = (v, zones[i])
-        hit = cache.get(key)
-        if hit is None:
-            try:
-                d = v if isinstance(v, date) else date.fromisoformat(str(v))
-            except ValueError:
-                errors.add(int(c.numbers[i]), name, f"'{v}' is not a date (YYYY-MM-DD)")
-                continue
-            problem = year_problem(d)
-            if problem is not None:
-                errors.add(int(c.numbers[i]), name, problem)
-                continue
-            zone = ZoneInfo(zones[i] or "UTC")
-            a = datetime(d.year, d.month, d.day, tzinfo=zone)
-            b = datetime.combine(d + timedelta(days=1), datetime.min.time(), tzinfo=zone)
-            hit = (a.timestamp(), b.timestamp())
-            cache[key] = hit
-        start[i], end[i] = hit
+    n = len(c.get(name))
+    start = np.full(n, np.nan)
+    end = np.full(n, np.nan)
+    for i, (a, b) in _zoned_cells(c, name, zones, errors, _day):
+        start[i], end[i] = a, b
     return start, end
