@@ -29,7 +29,7 @@ from service.api.cells import (
 from service.catalogue.bulk import check_on_duplicate
 from service.catalogue.models import LampType
 from service.db.base import utcnow
-from service.register.fixtures import FUTURE_SLACK, ballast_problem
+from service.register.fixtures import FUTURE_SLACK, ballast_problem, position_rows
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.reliability.technologies import BALLASTS, TECHNOLOGY_DEFAULTS
 
@@ -270,7 +270,7 @@ def import_fixtures(
             changed.append({**values, "b_id": fid, "updated_at": now})
             k = v["lamps_per_fixture"]
             if k > old_count:
-                grow.extend(_positions(fid, old_count + 1, k, at, g.hours, g.starts))
+                grow.extend(position_rows(fid, old_count + 1, k, at, g.hours, g.starts))
             elif k < old_count:
                 shrink.append({"b_fid": fid, "b_keep": k})
         else:
@@ -292,7 +292,7 @@ def import_fixtures(
             )
         }
         for site_id, tag, k, at, hrs, starts in new_meta:
-            positions.extend(_positions(ids[(site_id, tag)], 1, k, at, hrs, starts))
+            positions.extend(position_rows(ids[(site_id, tag)], 1, k, at, hrs, starts))
     if changed:
         stmt_u = update(_FIXTURES).where(_FIXTURES.c.id == bindparam("b_id"))
         for chunk in chunks(changed):
@@ -311,19 +311,3 @@ def import_fixtures(
         updated=len(changed),
         positions_created=len(positions),
     )
-
-
-def _positions(
-    fixture_id: int, first: int, last: int, at: datetime, hours: float, starts: float
-) -> list[dict[str, Any]]:
-    return [
-        {
-            "fixture_id": fixture_id,
-            "position_no": n,
-            "lamp_installed_at": at,
-            "hours_at_install": hours,
-            "starts_at_install": starts,
-            "burned_out_at": None,
-        }
-        for n in range(first, last + 1)
-    ]
