@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from html import escape
 from itertools import groupby
 
@@ -75,6 +76,12 @@ def _paragraphs(text: str) -> str:
     return "".join(f"<li>{escape(p)}</li>" for p in text.splitlines() if p.strip())
 
 
+def natural_key(text: str) -> tuple[tuple[int, int | str], ...]:
+    """Sort key that orders "can 2" before "can 10" (numbers compared as numbers)."""
+    parts = re.split(r"(\d+)", text.casefold())
+    return tuple((0, int(p)) if p.isdigit() else (1, p) for p in parts if p)
+
+
 def print_page(order: WorkOrder, lines: list[WorkOrderLine], site_name: str, area_name: str) -> str:
     """A printable page: cautions first, then fixtures grouped by location with checkboxes."""
     title = f"Work order {order.id}: {KIND_LABEL.get(order.kind, order.kind)}"
@@ -102,7 +109,11 @@ def print_page(order: WorkOrder, lines: list[WorkOrderLine], site_name: str, are
     if order.notes:
         out.append(f"<p><strong>Notes:</strong> {escape(order.notes)}</p>")
     out.append("<main>")
-    for loc, group in groupby(lines, key=lambda ln: ln.location or "(no location given)"):
+    # The walking order a technician expects: by location, then tag, numbers as numbers.
+    ordered = sorted(
+        lines, key=lambda ln: (natural_key(ln.location or ""), natural_key(ln.fixture_tag))
+    )
+    for loc, group in groupby(ordered, key=lambda ln: ln.location or "(no location given)"):
         out.append(f'<section class="location"><h3>{escape(loc)}</h3><table>')
         out.append(
             "<thead><tr><th>Fixture</th><th>Lamp type</th><th>Positions (tick when done)</th>"

@@ -116,3 +116,39 @@ def test_due_date_patch_and_list_filters(
     assert [x["id"] for x in r.json()["items"]] == [o["id"]]
     r = client.get("/api/v1/work-orders", params={"state": "finished"}, headers=writer)
     assert r.status_code == 422
+
+
+def test_print_page_walks_locations_in_natural_order() -> None:
+    from service.workorders.exports import natural_key, print_page
+    from service.workorders.models import WorkOrder, WorkOrderLine
+
+    def line(tag: str, location: str | None) -> WorkOrderLine:
+        return WorkOrderLine(
+            fixture_tag=tag,
+            location=location,
+            lamp_type_code="T",
+            position_ids=[1],
+            position_nos=[1],
+        )
+
+    order = WorkOrder(
+        id=9,
+        kind="group_relamp",
+        state="issued",
+        access_method="ladder",
+        lamp_quantity=4,
+        estimated_labour_h=1.0,
+        safety_cautions="Lock out.",
+        disposal_instructions="Recycle.",
+    )
+    lines = [
+        line("F-10", "Bay 10"),
+        line("F-2", "Bay 2"),
+        line("F-9", "Bay 2"),
+        line("F-1", "Bay 1"),
+    ]
+    html = print_page(order, lines, "Site", "Area")
+    assert html.index("Bay 1<") < html.index("Bay 2<") < html.index("Bay 10<")
+    assert html.index(">F-2<") < html.index(">F-9<")  # one Bay 2 section, tags in order
+    assert html.count('<section class="location">') == 3
+    assert sorted(["can 10", "Can 2", "can 1"], key=natural_key) == ["can 1", "Can 2", "can 10"]
