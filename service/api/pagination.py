@@ -14,6 +14,7 @@ from service.api.errors import Invalid
 from service.api.ids import MAX_ID
 
 T = TypeVar("T")
+M = TypeVar("M", bound=BaseModel)
 
 
 class Page(BaseModel, Generic[T]):
@@ -31,6 +32,16 @@ class PageParams(BaseModel):
     limit: int
     offset: int
     sort: str | None
+
+
+def page_of(schema: type[T], rows: Sequence[Any], total: int, params: PageParams) -> Page[T]:
+    """A Page of rows shown through a read schema (from_attributes)."""
+    return Page[T](
+        items=[schema.model_validate(r) for r in rows],  # type: ignore[attr-defined]
+        total=total,
+        limit=params.limit,
+        offset=params.offset,
+    )
 
 
 def page_params(

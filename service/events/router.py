@@ -8,7 +8,7 @@ from fastapi import APIRouter, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath, IdQuery
-from service.api.pagination import Page, PageDep, paginate
+from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
 from service.events import repository as repo
 from service.events import service
@@ -48,12 +48,7 @@ def list_burnout_reports(
     """List burnout reports (sort: id, reported_at)."""
     stmt = repo.report_query(site_id, area_id, status, position_id)
     rows, total = paginate(session, stmt, page, repo.REPORT_SORT, BurnoutReport.id)
-    return Page(
-        items=[BurnoutReportRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(BurnoutReportRead, rows, total, page)
 
 
 @router.get("/burnout-reports/{report_id}", response_model=BurnoutReportRead)
@@ -95,9 +90,4 @@ def list_lamp_removals(
     """List lamp removals, the field fit's observations (sort: id, removed_at)."""
     stmt = repo.removal_query(site_id, lamp_type_id, failed, position_id)
     rows, total = paginate(session, stmt, page, repo.REMOVAL_SORT, LampRemoval.id)
-    return Page(
-        items=[LampRemovalRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(LampRemovalRead, rows, total, page)

@@ -14,7 +14,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
 from service.api.errors import Invalid
 from service.api.ids import IdQuery
-from service.api.pagination import Page, PageDep, paginate
+from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.times import Timestamp
 from service.readings import burn_hours, service
 from service.readings.ages import position_ages
@@ -86,12 +86,7 @@ def list_burn_hours(
     """List burn-hour records (sort: id, period_end)."""
     stmt = _filters(BurnHourRecord, site_id, area_id, fixture_id)
     rows, total = paginate(session, stmt, page, BURN_SORT, BurnHourRecord.id)
-    return Page(
-        items=[BurnHourRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(BurnHourRead, rows, total, page)
 
 
 @router.post(
@@ -130,12 +125,7 @@ def list_voltage_readings(
     """List voltage readings (sort: id, measured_at)."""
     stmt = _filters(VoltageReading, site_id, area_id, fixture_id)
     rows, total = paginate(session, stmt, page, VOLT_SORT, VoltageReading.id)
-    return Page(
-        items=[VoltageReadingRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(VoltageReadingRead, rows, total, page)
 
 
 @router.get("/position-ages", response_model=PositionAgesPage)

@@ -8,7 +8,7 @@ from fastapi import APIRouter, Query, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import MAX_ID, IdPath
-from service.api.pagination import Page, PageDep, paginate
+from service.api.pagination import Page, PageDep, page_of, paginate
 from service.register import areas
 from service.register import repository as repo
 from service.register.models import ACCESS_METHODS, Area
@@ -33,12 +33,7 @@ def list_areas(
     """List areas, filtered and sorted (sort: name, id, site_id, access_method, created_at)."""
     stmt = repo.area_query(site_id, access_method, name)
     rows, total = paginate(session, stmt, page, repo.AREA_SORT, Area.id)
-    return Page(
-        items=[AreaRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(AreaRead, rows, total, page)
 
 
 @router.post("", response_model=AreaRead, status_code=status.HTTP_201_CREATED)

@@ -12,7 +12,7 @@ import service.register.fixture_export as fixture_export
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
 from service.api.ids import MAX_ID, IdPath
-from service.api.pagination import Page, PageDep, paginate
+from service.api.pagination import Page, PageDep, page_of, paginate
 from service.register import fixtures
 from service.register import repository as repo
 from service.register.models import Fixture
@@ -56,12 +56,7 @@ def list_fixtures(
     """List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on)."""
     stmt = repo.fixture_query(site_id, area_id, lamp_type_id, tag)
     rows, total = paginate(session, stmt, page, repo.FIXTURE_SORT, Fixture.id)
-    return Page(
-        items=[FixtureRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(FixtureRead, rows, total, page)
 
 
 @router.post("/fixtures", response_model=FixtureRead, status_code=status.HTTP_201_CREATED)

@@ -8,7 +8,7 @@ from fastapi import APIRouter, Query, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
-from service.api.pagination import Page, PageDep, paginate
+from service.api.pagination import Page, PageDep, page_of, paginate
 from service.register import area_router, fixture_router, service
 from service.register import repository as repo
 from service.register.models import Site
@@ -27,12 +27,7 @@ def list_sites(
 ) -> Page[SiteRead]:
     """List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v)."""
     rows, total = paginate(session, repo.site_query(name, time_zone), page, repo.SITE_SORT, Site.id)
-    return Page(
-        items=[SiteRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(SiteRead, rows, total, page)
 
 
 @router.post("/sites", response_model=SiteRead, status_code=status.HTTP_201_CREATED)

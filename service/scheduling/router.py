@@ -11,7 +11,7 @@ from sqlalchemy.orm import sessionmaker
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
-from service.api.pagination import Page, PageDep, paginate
+from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
 from service.register.service import get_site
 from service.scheduling.models import WeeklyRun
@@ -42,12 +42,7 @@ def list_runs(
     if outcome is not None:
         stmt = stmt.where(WeeklyRun.outcome == outcome)
     rows, total = paginate(session, stmt, page, RUN_SORT, WeeklyRun.id.desc())
-    return Page(
-        items=[RunRead.model_validate(r) for r in rows],
-        total=total,
-        limit=page.limit,
-        offset=page.offset,
-    )
+    return page_of(RunRead, rows, total, page)
 
 
 @router.get("/runs/{run_id}", response_model=RunRead)
