@@ -20,6 +20,9 @@ class Settings(BaseSettings):
     log_level: str = "info"
     # The weekly relamping run; off in tests and for one-off CLI commands.
     scheduler_enabled: bool = True
+    # Where the Alembic migrations live; by default the source tree's migrations/ (set it
+    # when the package is installed away from the source tree).
+    migrations_dir: str | None = None
     # Rows accepted in one bulk upload before the request is refused (413).
     max_bulk_rows: int = Field(default=2_000_000, ge=1)
 

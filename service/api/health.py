@@ -12,6 +12,7 @@ from fastapi import APIRouter
 from fastapi.responses import JSONResponse
 from sqlalchemy import Engine, text
 
+from service.config import get_settings
 from service.db.session import get_engine
 
 router = APIRouter(tags=["probes"])
@@ -21,8 +22,11 @@ ROOT = Path(__file__).resolve().parents[2]
 
 def alembic_config() -> Config:
     """Alembic configuration pointing at the project's migrations."""
-    cfg = Config(str(ROOT / "alembic.ini"))
-    cfg.set_main_option("script_location", str(ROOT / "migrations"))
+    folder = Path(get_settings().migrations_dir or ROOT / "migrations")
+    # alembic.ini only configures logging; the script location is what matters.
+    ini = ROOT / "alembic.ini"
+    cfg = Config(str(ini)) if ini.exists() else Config()
+    cfg.set_main_option("script_location", str(folder))
     return cfg
 
 

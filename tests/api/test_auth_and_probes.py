@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
+import pytest
 from fastapi.testclient import TestClient
 
 from service.main import create_app
@@ -56,3 +59,32 @@ def test_keys_admin_routes(
 def test_home_page_carries_the_cautions(client: TestClient) -> None:
     r = client.get("/")
     assert r.status_code == 200 and "lock out" in r.text and "/docs" in r.text
+
+
+def test_migrations_found_away_from_the_source_tree(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """An installed package finds the migrations through LAMPKEEPER_MIGRATIONS_DIR."""
+    from alembic import command
+    from sqlalchemy import inspect
+
+    from service.api import health
+    from service.config import get_settings
+    from service.db.session import make_engine
+
+    real = health.ROOT / "migrations"
+    monkeypatch.setattr(health, "ROOT", tmp_path / "site-packages")  # no alembic.ini there
+    monkeypatch.setenv("LAMPKEEPER_MIGRATIONS_DIR", str(real))
+    get_settings.cache_clear()
+    try:
+        cfg = health.alembic_config()
+        assert cfg.get_main_option("script_location") == str(real)
+        engine = make_engine(f"sqlite:///{tmp_path / 'installed.sqlite3'}")
+        with engine.begin() as conn:
+            cfg.attributes["connection"] = conn
+            cfg.attributes["configure_logger"] = False
+            command.upgrade(cfg, "head")
+        assert "work_orders" in inspect(engine).get_table_names()
+        engine.dispose()
+    finally:
+        get_settings.cache_clear()
