@@ -52,10 +52,11 @@ def _observations(
     computed age (one position only: a reported figure).
     """
     ages = position_ages(session, position_ids=list(positions), at=at)
-    types = load_types(session, ages.lamp_type_id, field_fit=False)
+    # Each lamp's voltage response on the ballast its fixture runs on (forecasting.types).
+    types = load_types(session, ages.lamp_type_id, field_fit=False, ballast_kinds=ages.ballast_kind)
     res = evaluate_fleet(
         types.table,
-        types.index(ages.lamp_type_id),
+        types.index(ages.lamp_type_id, ages.ballast_kind),
         ages.age_h,
         ages.voltage_v,
         ages.hours_per_start,

@@ -21,9 +21,9 @@ from numpy.typing import NDArray
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from service.catalogue.model import LampModel, lamp_type_table
+from service.catalogue.model import LampModel
 from service.events.models import LampRemoval
-from service.forecasting.types import CurveInUse
+from service.forecasting.types import CurveInUse, build_table
 from service.readings.ages import position_ages
 from service.reliability.fitting import (
     CurveChoice,
@@ -78,10 +78,12 @@ def field_data(
     live = ~ages.burned_out & (ages.age_h > 0)
     t_live = np.zeros(0)
     if live.any():
-        table = lamp_type_table([model])
+        # Each lamp on its fixture's ballast, as the removals were normalised.
+        kinds = ages.ballast_kind[live]
+        types = build_table({lamp_type_id: model}, {}, ages.lamp_type_id[live], kinds)
         res = evaluate_fleet(
-            table,
-            np.zeros(int(live.sum()), dtype=np.int64),
+            types.table,
+            types.index(ages.lamp_type_id[live], kinds),
             ages.age_h[live],
             ages.voltage_v[live],
             ages.hours_per_start[live],

@@ -1,7 +1,8 @@
 """Forecasts for a fixture, area, site or lamp type, from the register and the readings.
 
 Per position (numeric core: service.reliability.fleet.evaluate_fleet, with each lamp
-type's curve chosen by the field fit, see forecasting.types / forecasting.fit):
+type's curve chosen by the field fit, see forecasting.types / forecasting.fit; a discharge
+lamp's voltage response follows its fixture's ballast kind, see forecasting.types):
 
 - survival now: S(age) of the lamp in the socket (0 for a dark position);
 - P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
@@ -109,7 +110,7 @@ def evaluate_positions(
     ages: PositionAges, types: TypeTable, horizon_weeks: float
 ) -> PositionForecast:
     """Run the numeric core over positions (dark positions as new lamps going in now)."""
-    k = types.index(ages.lamp_type_id)
+    k = types.index(ages.lamp_type_id, ages.ballast_kind)
     dark = ages.burned_out
     age = np.where(dark, 0.0, ages.age_h)
     horizon_h = horizon_weeks * ages.burn_h_per_week
@@ -156,7 +157,7 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
 def _light_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatArray:
     """Lumen fraction of each position's lamp tau burn hours ahead (dark: new lamp)."""
     age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
-    k = types.index(pf.ages.lamp_type_id)
+    k = types.index(pf.ages.lamp_type_id, pf.ages.ballast_kind)
     out = np.empty(age.size)
     for j in np.unique(k).tolist():
         idx = np.nonzero(k == j)[0]
@@ -168,7 +169,7 @@ def _light_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatA
 
 def _burned_share_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatArray:
     """1 where dark, else F(age + tau): the lamp burned out by then if none replaced."""
-    k = types.index(pf.ages.lamp_type_id)
+    k = types.index(pf.ages.lamp_type_id, pf.ages.ballast_kind)
     beta = types.table.shape[k]
     f = -np.expm1(-np.power((pf.ages.age_h + tau) / pf.fleet.scale_h, beta))
     return np.where(pf.ages.burned_out, 1.0, f)
@@ -235,7 +236,7 @@ def forecast(
         lamp_type_id=lamp_type_id,
         at=at,
     )
-    types = load_types(session, ages.lamp_type_id, field_fit=True)
+    types = load_types(session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind)
     pf = evaluate_positions(ages, types, horizon_weeks)
     curves = {int(i): c for i, c in zip(types.ids.tolist(), types.curves, strict=True)}
 

@@ -3,6 +3,13 @@
 The catalogue model comes from service.catalogue.model.resolve_lamp_model. When asked,
 each type's Weibull is replaced by the field fit's choice (fitting.choose_curve): the field
 MLE, or the catalogue shape with a WeiBayes scale; see service.forecasting.fit.
+
+Ballast: given the fixtures' ballast kinds (Fixture.ballast_kind), the table has one row per
+(lamp type, ballast) pair present, each the type's model with that ballast's power gain and
+voltage band (reliability.technologies), so a position's voltage response follows the
+ballast its fixture runs on. Filament lamps always run on "none" and LEDs on "led_driver";
+a discharge fixture's own kind is used ("none" there, never valid, falls back to the lamp
+type's ballast). Without ballast kinds each type has one row, on its own ballast.
 """
 
 from __future__ import annotations
@@ -17,8 +24,15 @@ from sqlalchemy.orm import Session
 from service.catalogue.model import LampModel, lamp_type_table, resolve_lamp_model
 from service.catalogue.models import LampType
 from service.reliability.fleet import LampTypeTable
+from service.reliability.technologies import BALLAST_POWER_GAIN, BALLAST_VOLTAGE_BAND, BALLASTS
 
 IntArray = NDArray[np.int64]
+StrArray = NDArray[np.str_]
+
+_CODES = np.array(sorted(BALLASTS))  # ballast kind -> code by searchsorted
+_NCODES = len(BALLASTS)
+_DISCHARGE = np.array([b for b in BALLASTS if b != "none"])
+FIXTURE = "fixture"  # source label of a ballast taken from the fixture
 
 
 @dataclass(frozen=True)
@@ -31,22 +45,75 @@ class CurveInUse:
     reason: str
 
 
+def with_ballast(model: LampModel, ballast: str) -> LampModel:
+    """The model on another ballast: that ballast's power gain and voltage band."""
+    if ballast == model.ballast_behaviour:
+        return model
+    return replace(
+        model,
+        ballast_behaviour=ballast,
+        ballast_gain=BALLAST_POWER_GAIN[ballast],
+        voltage_band=BALLAST_VOLTAGE_BAND[ballast],
+        sources={**model.sources, "ballast_behaviour": FIXTURE},
+    )
+
+
+def _fixed_ballast(model: LampModel) -> str:
+    """The ballast a lamp runs on whatever the fixture says ("" = the fixture's)."""
+    if model.is_filament:
+        return "none"
+    if model.technology == "led":
+        return "led_driver"
+    return ""
+
+
+def _ballast_of(
+    type_ids: IntArray,
+    own: StrArray,
+    fixed: StrArray,
+    lamp_type_id: ArrayLike,
+    ballast_kind: ArrayLike | None,
+) -> StrArray:
+    t = np.searchsorted(type_ids, np.asarray(lamp_type_id, dtype=np.int64))
+    if ballast_kind is None:
+        return own[t]
+    b = np.asarray(ballast_kind, dtype=str)
+    return np.where(fixed[t] != "", fixed[t], np.where(np.isin(b, _DISCHARGE), b, own[t]))
+
+
+def _key(type_id: ArrayLike, ballast: ArrayLike) -> IntArray:
+    codes = np.searchsorted(_CODES, np.asarray(ballast, dtype=str))
+    return np.asarray(type_id, dtype=np.int64) * _NCODES + codes.astype(np.int64)
+
+
 @dataclass(frozen=True)
 class TypeTable:
-    """Lamp types (sorted ids), their resolved models, curves in use and the core's table."""
+    """Rows of (lamp type, ballast), sorted, with models, curves in use and the core's table."""
 
-    ids: IntArray
+    ids: IntArray  # lamp type id of each row
+    ballasts: StrArray  # ballast kind of each row
     models: tuple[LampModel, ...]
     curves: tuple[CurveInUse, ...]
     table: LampTypeTable
+    type_ids: IntArray  # the distinct lamp type ids, sorted
+    own: StrArray  # per distinct type: its own (catalogue or default) ballast
+    fixed: StrArray  # per distinct type: the ballast it always runs on, "" = the fixture's
 
-    def index(self, lamp_type_id: ArrayLike) -> IntArray:
-        """Row of each lamp type id in the table."""
-        return np.searchsorted(self.ids, np.asarray(lamp_type_id, dtype=np.int64)).astype(np.int64)
+    def ballast_of(
+        self, lamp_type_id: ArrayLike, ballast_kind: ArrayLike | None = None
+    ) -> StrArray:
+        """The ballast each position's lamp runs on (its type's own without ballast kinds)."""
+        return _ballast_of(self.type_ids, self.own, self.fixed, lamp_type_id, ballast_kind)
+
+    def index(self, lamp_type_id: ArrayLike, ballast_kind: ArrayLike | None = None) -> IntArray:
+        """Row of each (lamp type id, fixture ballast kind) in the table."""
+        keys = _key(self.ids, self.ballasts)
+        want = _key(lamp_type_id, self.ballast_of(lamp_type_id, ballast_kind))
+        return np.searchsorted(keys, want).astype(np.int64)
 
     def curve(self, lamp_type_id: int) -> CurveInUse:
         """The curve in use for one lamp type."""
-        return self.curves[int(self.index([lamp_type_id])[0])]
+        return self.curves[int(np.searchsorted(self.ids, lamp_type_id))]
 
 
 def catalogue_models(session: Session, lamp_type_ids: ArrayLike) -> dict[int, LampModel]:
@@ -58,21 +125,50 @@ def catalogue_models(session: Session, lamp_type_ids: ArrayLike) -> dict[int, La
     return {row.id: resolve_lamp_model(row) for row in rows}
 
 
-def load_types(session: Session, lamp_type_ids: ArrayLike, *, field_fit: bool = True) -> TypeTable:
-    """The type table for these lamp types; with field_fit, each uses its chosen curve."""
-    models = catalogue_models(session, lamp_type_ids)
-    ids = np.array(sorted(models), dtype=np.int64)
+def build_table(
+    models: dict[int, LampModel],
+    curves: dict[int, CurveInUse],
+    lamp_type_ids: ArrayLike,
+    ballast_kinds: ArrayLike | None = None,
+) -> TypeTable:
+    """The table of the (type, ballast) pairs present among positions (types from models)."""
+    type_ids = np.array(sorted(models), dtype=np.int64)
+    own = np.array([models[i].ballast_behaviour for i in type_ids.tolist()], dtype="<U12")
+    fixed = np.array([_fixed_ballast(models[i]) for i in type_ids.tolist()], dtype="<U12")
+    if ballast_kinds is None:
+        pair_ids, pair_b = type_ids, own
+    else:
+        ids = np.asarray(lamp_type_ids, dtype=np.int64)
+        present = _key(ids, _ballast_of(type_ids, own, fixed, ids, ballast_kinds))
+        # Each type's own row is kept too, so a lookup without ballast kinds still works.
+        keys = np.unique(np.concatenate((_key(type_ids, own), present)))
+        pair_ids = keys // _NCODES
+        pair_b = _CODES[keys % _NCODES].astype("<U12")
     chosen: list[LampModel] = []
-    curves: list[CurveInUse] = []
-    if field_fit and ids.size:
+    used: list[CurveInUse] = []
+    for i, b in zip(pair_ids.tolist(), pair_b.tolist(), strict=True):
+        m = models[i]
+        c = curves.get(i, CurveInUse("catalogue", m.shape, m.scale_h, "catalogue curve"))
+        used.append(c)
+        chosen.append(with_ballast(replace(m, shape=c.shape, scale_h=c.scale_h), b))
+    return TypeTable(
+        pair_ids, pair_b, tuple(chosen), tuple(used), lamp_type_table(chosen), type_ids, own, fixed
+    )
+
+
+def load_types(
+    session: Session,
+    lamp_type_ids: ArrayLike,
+    *,
+    field_fit: bool = True,
+    ballast_kinds: ArrayLike | None = None,
+) -> TypeTable:
+    """The type table for these lamp types (per ballast present when ballast kinds are given)."""
+    models = catalogue_models(session, lamp_type_ids)
+    if field_fit and models:
         from service.forecasting.fit import curves_in_use  # fit imports this module
 
         in_use = curves_in_use(session, models)
     else:
         in_use = {}
-    for i in ids.tolist():
-        m = models[i]
-        c = in_use.get(i, CurveInUse("catalogue", m.shape, m.scale_h, "catalogue curve"))
-        curves.append(c)
-        chosen.append(replace(m, shape=c.shape, scale_h=c.scale_h))
-    return TypeTable(ids, tuple(chosen), tuple(curves), lamp_type_table(chosen))
+    return build_table(models, in_use, lamp_type_ids, ballast_kinds)

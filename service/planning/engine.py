@@ -239,7 +239,14 @@ class PlanCache:
 
     def get(self, model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
         """The plan for these inputs, computed on first use."""
-        key = (model.lamp_type_id, model.code, costs.c_group, costs.c_spot, cond)
+        key = (
+            model.lamp_type_id,
+            model.code,
+            model.ballast_behaviour,
+            costs.c_group,
+            costs.c_spot,
+            cond,
+        )
         got = self._plans.get(key)
         if got is None:
             got = plan_group(model, costs, cond)

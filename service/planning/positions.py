@@ -29,6 +29,7 @@ class PositionArrays:
     fixture_id: IntArray
     area_id: IntArray
     lamp_type_id: IntArray
+    ballast_kind: NDArray[np.str_]  # the fixture's ballast kind
     age_h: FloatArray  # burn hours of the lamp now in the socket
     starts: FloatArray  # starts of that lamp
     voltage_v: FloatArray  # operating voltage, volts
@@ -56,6 +57,7 @@ def load_positions(
         fixture_id=np.asarray(pa.fixture_id, dtype=np.int64),
         area_id=np.asarray(pa.area_id, dtype=np.int64),
         lamp_type_id=np.asarray(pa.lamp_type_id, dtype=np.int64),
+        ballast_kind=pa.ballast_kind,
         age_h=np.asarray(pa.age_h, dtype=np.float64),
         starts=np.asarray(pa.starts, dtype=np.float64),
         voltage_v=np.asarray(pa.voltage_v, dtype=np.float64),

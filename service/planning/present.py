@@ -75,6 +75,7 @@ def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
             c_spot=c.c_spot,
             energy_price_per_kwh=c.energy_price_per_kwh,
             energy_cost_per_burn_hour=c.energy_per_burn_hour(gp.power_factor),
+            ballast_kind=g.model.ballast_behaviour,
             voltage_v=g.voltage_v,
             voltage_basis=g.voltage_basis,
             hours_per_start=g.hours_per_start,

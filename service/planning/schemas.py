@@ -60,6 +60,10 @@ class PlanInputs(BaseModel):
     c_spot: float = Field(description="Cost of one spot replacement.")
     energy_price_per_kwh: float
     energy_cost_per_burn_hour: float
+    ballast_kind: str = Field(
+        description="Ballast whose voltage response the plan uses: the one most of this lamp "
+        "type's fixtures in the area run on (filament lamps 'none', LEDs 'led_driver')."
+    )
     voltage_v: float
     voltage_basis: str
     hours_per_start: float | None

@@ -1,7 +1,11 @@
 """Relamp plans per area and per site, computed in bulk from numpy arrays of positions.
 
 Each (area, lamp type) group gets its own group interval (engine.plan_group); an area is
-due when its first lamp-type group is. Group age: burn hours since the area's last
+due when its first lamp-type group is. Ballast: a group is relamped together whatever its
+fixtures' ballasts, so its voltage response uses the area's dominant ballast for that lamp
+type: the kind most of the group's positions run on (forecasting.types decides per position:
+the fixture's kind for discharge lamps, "none" for filament, "led_driver" for LED; a tie goes
+to the alphabetically first kind). The plan's inputs name it (PlanInputs.ballast_kind). Group age: burn hours since the area's last
 completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
 schedule), else the mean age of the group's positions. The calendar date divides the
 remaining hours by the area's weekly burn hours, counted from today in the site's zone.
@@ -139,12 +143,15 @@ def last_group_relamps(session: Session, area_ids: Sequence[int]) -> dict[int, d
 
 
 def _models(
-    session: Session, ids: np.ndarray
-) -> tuple[dict[int, LampModel], dict[int, CurveInUse]]:
+    session: Session, pos: PositionArrays
+) -> tuple[dict[tuple[int, str], LampModel], dict[int, CurveInUse], np.ndarray]:
+    """Models by (lamp type, ballast), curves by lamp type, and each position's ballast."""
     # The same life curves the forecasts use: the field fit where it replaces the catalogue.
-    types = load_types(session, ids, field_fit=True)
-    keys = [int(i) for i in types.ids.tolist()]
-    return dict(zip(keys, types.models, strict=True)), dict(zip(keys, types.curves, strict=True))
+    types = load_types(session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind)
+    keys = list(zip(types.ids.tolist(), types.ballasts.tolist(), strict=True))
+    models = dict(zip(keys, types.models, strict=True))
+    curves = {k[0]: c for k, c in zip(keys, types.curves, strict=True)}
+    return models, curves, types.ballast_of(pos.lamp_type_id, pos.ballast_kind)
 
 
 def plan_areas(
@@ -161,7 +168,11 @@ def plan_areas(
     cache = cache or PlanCache()
     today = local_today(site, at)
     last = last_group_relamps(session, [a.id for a in areas])
-    models, curves = _models(session, np.unique(pos.lamp_type_id)) if pos.size else ({}, {})
+    models: dict[tuple[int, str], LampModel] = {}
+    curves: dict[int, CurveInUse] = {}
+    ballast = np.zeros(0, dtype="<U12")
+    if pos.size:
+        models, curves, ballast = _models(session, pos)
     plans: dict[int, AreaPlan] = {}
     # Group positions by (area, lamp type) with numpy: sums by group, no per-row loop.
     keys = np.stack([pos.area_id, pos.lamp_type_id], axis=1) if pos.size else np.empty((0, 2))
@@ -177,6 +188,11 @@ def plan_areas(
     volt_sum = np.bincount(inv, weights=pos.voltage_v, minlength=ng)
     area_count = np.bincount(inv, minlength=ng)
     rate_sum = np.bincount(inv, weights=np.nan_to_num(pos.burn_h_per_week), minlength=ng)
+    # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
+    kinds, kind_of = np.unique(ballast, return_inverse=True)
+    per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
+    np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
+    dominant = kinds[per_kind.argmax(axis=1)] if kinds.size else kinds
     by_area: dict[int, list[int]] = {}
     for g in range(ng):
         by_area.setdefault(int(uniq[g, 0]), []).append(g)
@@ -198,7 +214,7 @@ def plan_areas(
         groups: list[TypeGroup] = []
         for g in gidx:
             lt_id = int(uniq[g, 1])
-            model = models[lt_id]
+            model = models[(lt_id, str(dominant[g]))]
             if over.voltage_v is not None:
                 volts, vbasis = over.voltage_v, "override"
             elif hours[g] > 0:

@@ -15,6 +15,8 @@ Method (all vectorised; a handful of queries whatever the number of positions):
   the install), "readings_weighted"; else the latest reading, "latest_reading"; else the
   fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
   A fixture's own readings win over its area's. The readings part is in voltages.py.
+- Ballast: the fixture's ballast kind (Fixture.ballast_kind), read as a code in the same
+  query; forecasting.types decides which ballast the lamp actually runs on.
 """
 
 from __future__ import annotations
@@ -25,7 +27,7 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from sqlalchemy import ColumnElement, func, or_, select
+from sqlalchemy import ColumnElement, case, func, or_, select
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
@@ -34,6 +36,7 @@ from service.readings.sql import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock, Timeline
 from service.readings.voltages import reading_voltages
 from service.register.models import Area, Fixture, LampPosition, Site
+from service.reliability.technologies import BALLASTS
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -43,6 +46,9 @@ VOLTAGE_SOURCES = ("readings_weighted", "latest_reading", "fixture_measured", "s
 _HOURS_PER_WEEK = 168.0
 # Window (days) for an area's measured burn rate when it has no schedule.
 RATE_WINDOW_DAYS = 28.0
+# Ballast kinds as numbers in the numeric query; code -1 (unknown) maps to the last name "".
+_BALLAST_CODE = {b: i for i, b in enumerate(BALLASTS)}
+_BALLAST_NAMES = np.array([*BALLASTS, ""], dtype="<U12")
 
 
 @dataclass(frozen=True)
@@ -54,6 +60,7 @@ class PositionAges:
     area_id: IntArray
     site_id: IntArray
     lamp_type_id: IntArray
+    ballast_kind: NDArray[np.str_]  # the fixture's ballast kind ("" if not a known kind)
     age_h: FloatArray  # burn hours of the lamp now in it, incl. hours_at_install
     starts: FloatArray  # starts of that lamp, incl. starts_at_install
     hours_per_start: FloatArray  # burn hours per start; NaN = unknown (rated cycle assumed)
@@ -104,8 +111,9 @@ def empty_ages(at: datetime) -> PositionAges:
     """Ages of no positions."""
     i = np.zeros(0, dtype=np.int64)
     f = np.zeros(0, dtype=np.float64)
+    b = np.zeros(0, dtype="<U12")
     return PositionAges(
-        i, i, i, i, i, f, f, f, f, np.zeros(0, dtype="<U17"), np.zeros(0, bool), f, f, at
+        i, i, i, i, i, b, f, f, f, f, np.zeros(0, dtype="<U17"), np.zeros(0, bool), f, f, at
     )
 
 
@@ -138,11 +146,12 @@ def position_ages(
             LampPosition.starts_at_install,
             epoch(LampPosition.burned_out_at, dialect),
             Fixture.measured_voltage_v,
+            case(_BALLAST_CODE, value=Fixture.ballast_kind, else_=-1),
         )
         .join(Fixture, Fixture.id == LampPosition.fixture_id)
         .where(*cond)
         .order_by(LampPosition.id),
-        10,
+        11,
     )
     if matrix.shape[0] == 0:
         return empty_ages(at)
@@ -152,6 +161,7 @@ def position_ages(
     s0 = matrix[:, 7]
     dark_at = matrix[:, 8]
     fix_v = matrix[:, 9]
+    ballast = _BALLAST_NAMES[np.nan_to_num(matrix[:, 10], nan=-1.0).astype(np.int64)]
 
     # Areas (schedule) and their sites (nominal volts): a few rows.
     fixture_scope = select(Fixture.id).join(LampPosition, LampPosition.fixture_id == Fixture.id)
@@ -272,6 +282,7 @@ def position_ages(
         area_id=area_of,
         site_id=site_of,
         lamp_type_id=type_of,
+        ballast_kind=ballast,
         age_h=age_h,
         starts=starts,
         hours_per_start=hps,

@@ -9,6 +9,7 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.db.base import utcnow
+from service.register.fixtures import lamp_ballast
 from service.register.models import Area, Fixture, LampPosition, Site
 
 _seq = iter(range(1, 10_000_000))
@@ -92,6 +93,7 @@ def fixtures(
     hours_at_install: float = 0.0,
     location: str | None = None,
     volts: float | None = None,
+    ballast_kind: str | None = None,
 ) -> list[Fixture]:
     """n fixtures with `lamps` positions each, lamps in since installed_at."""
     when = installed_at or (utcnow() - timedelta(weeks=10))
@@ -105,7 +107,8 @@ def fixtures(
             location=location or f"Bay {k % 3}",
             lamp_type_id=lt.id,
             lamps_per_fixture=lamps,
-            ballast_kind="electronic",
+            # None: the lamp type's own ballast, as the register defaults it on create.
+            ballast_kind=ballast_kind or lamp_ballast(lt),
             measured_voltage_v=volts,
         )
         f.positions = [
