@@ -18,11 +18,12 @@ import threading
 from collections.abc import Callable
 from datetime import datetime
 
-from sqlalchemy import select, text
+from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import NotFound
 from service.db.base import utcnow
+from service.db.locks import lock_site
 from service.db.session import begin_write
 from service.planning.service import local_today
 from service.register.models import Site
@@ -32,7 +33,6 @@ from service.workorders.issue import GROUP, SPOT, issue_orders
 
 log = logging.getLogger(__name__)
 
-LOCK_NAMESPACE = 0x4C4B  # first key of the two-key advisory lock: "LK"
 _local_locks: dict[int, threading.Lock] = {}
 _locks_guard = threading.Lock()
 
@@ -42,14 +42,6 @@ Checkpoint = Callable[[str], None]
 def _site_lock(site_id: int) -> threading.Lock:
     with _locks_guard:
         return _local_locks.setdefault(site_id, threading.Lock())
-
-
-def _advisory_lock(session: Session, site_id: int) -> None:
-    if session.get_bind().dialect.name == "postgresql":
-        session.execute(
-            text("SELECT pg_advisory_xact_lock(:ns, :site)"),
-            {"ns": LOCK_NAMESPACE, "site": site_id},
-        )
 
 
 def _claim(session: Session, site_id: int, week: str) -> RunWeek:
@@ -87,7 +79,7 @@ def run_site_week(
         try:
             with factory() as s:
                 begin_write(s)
-                _advisory_lock(s, site_id)
+                lock_site(s, site_id)
                 site = s.get(Site, site_id)
                 assert site is not None
                 claim = _claim(s, site_id, week)

@@ -1,0 +1,21 @@
+"""work-order versions, report links and open-order guards
+
+Revision ID: 0004
+Revises: 0003
+Create Date: 2026-12-02
+"""
+
+from collections.abc import Sequence
+
+revision: str = "0004"
+down_revision: str | None = "0003"
+branch_labels: str | Sequence[str] | None = None
+depends_on: str | Sequence[str] | None = None
+
+
+def upgrade() -> None:
+    pass
+
+
+def downgrade() -> None:
+    pass
