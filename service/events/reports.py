@@ -11,6 +11,7 @@ from datetime import datetime
 from sqlalchemy import select, update
 from sqlalchemy.orm import Session
 
+from service.api.errors import Conflict
 from service.db.base import utcnow
 from service.events.checks import as_aware
 from service.events.models import BurnoutReport
@@ -28,22 +29,40 @@ def open_burnout_reports(
     return list(session.scalars(stmt.order_by(BurnoutReport.reported_at, BurnoutReport.id)))
 
 
+def take_for_order(
+    session: Session, report_ids: Sequence[int], work_order_id: int, *, at: datetime
+) -> None:
+    """Put open reports on a work order ("ordered"); 409 if any is no longer open.
+
+    The state test sits in the UPDATE itself, so of two transactions taking the same report
+    only one changes its row: a report belongs to at most one open order.
+    """
+    ids = sorted(set(report_ids))
+    taken = 0
+    for i in range(0, len(ids), 5000):  # keep IN lists bounded
+        result = session.execute(
+            update(BurnoutReport)
+            .where(BurnoutReport.id.in_(ids[i : i + 5000]), BurnoutReport.status == "open")
+            .values(status="ordered", work_order_id=work_order_id, updated_at=at)
+            .execution_options(synchronize_session=False)
+        )
+        taken += int(getattr(result, "rowcount", 0) or 0)
+    if taken != len(ids):
+        raise Conflict(
+            f"{len(ids) - taken} of these burnout reports are already on another order.",
+            field="report_ids",
+        )
+
+
 def mark_ordered(
     session: Session, report_ids: Sequence[int], work_order_id: int
 ) -> list[BurnoutReport]:
-    """Attach open reports to a spot work order (status "ordered"; still dark)."""
-    reports = list(
-        session.scalars(
-            select(BurnoutReport).where(
-                BurnoutReport.id.in_(list(report_ids)), BurnoutReport.status == "open"
-            )
-        )
+    """Attach open reports to a spot work order (status "ordered"; still dark); 409 if taken."""
+    take_for_order(session, report_ids, work_order_id, at=utcnow())
+    session.expire_all()
+    return list(
+        session.scalars(select(BurnoutReport).where(BurnoutReport.id.in_(list(report_ids))))
     )
-    for r in reports:
-        r.status = "ordered"
-        r.work_order_id = work_order_id
-    session.flush()
-    return reports
 
 
 def reopen_reports(session: Session, work_order_id: int) -> int:

@@ -67,6 +67,7 @@ def run_site_week(
     """Run the weekly issue for a site and week (default: the site-local current week)."""
     when = at or utcnow()
     with factory() as s:
+        begin_write(s)  # SQLite: a read-then-write transaction must start as the writer
         site = s.get(Site, site_id)
         if site is None:
             raise NotFound(f"site {site_id} does not exist.", resource="site", id=site_id)
@@ -108,6 +109,7 @@ def run_site_week(
         except Exception as exc:
             log.exception("weekly run %s for site %s week %s failed", run_id, site_id, week)
             with factory() as s:
+                begin_write(s)
                 row = s.get(WeeklyRun, run_id)
                 assert row is not None
                 row.outcome = "failed"

@@ -13,10 +13,11 @@ from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 from typing import Any
 
-from sqlalchemy import insert, select, update
+from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
+from service.events import reports
 from service.events.models import BurnoutReport
 from service.planning.engine import PlanCache
 from service.planning.positions import load_positions
@@ -278,13 +279,9 @@ def issue_orders(
             x["work_order_id"] = oid
             flat.append(x)
     session.execute(insert(WorkOrderLine), flat)
-    links = [
-        {"id": r, "status": "ordered", "work_order_id": oid, "updated_at": now}
-        for oid, rs in zip(ids, report_links, strict=True)
-        for r in rs
-    ]
-    if links:
-        session.execute(update(BurnoutReport), links)
+    for oid, rs in zip(ids, report_links, strict=True):
+        if rs:
+            reports.take_for_order(session, rs, oid, at=now)
     for oid, o in zip(ids, orders, strict=True):
         result.created.append((oid, o["area_id"], o["kind"]))
     return result

@@ -5,7 +5,17 @@ from __future__ import annotations
 from datetime import date, datetime
 from typing import Any
 
-from sqlalchemy import JSON, Float, ForeignKey, Index, Integer, String, Text, UniqueConstraint
+from sqlalchemy import (
+    JSON,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    String,
+    Text,
+    UniqueConstraint,
+    text,
+)
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from service.db.base import Base, TimestampMixin
@@ -13,6 +23,7 @@ from service.db.base import Base, TimestampMixin
 KINDS = ("group_relamp", "spot_replacement")
 STATES = ("draft", "issued", "in_progress", "done", "cancelled")
 OUTCOMES = ("replaced", "skipped")
+OPEN_GROUP_SQL = "kind = 'group_relamp' AND state IN ('draft', 'issued', 'in_progress')"
 
 
 class WorkOrder(TimestampMixin, Base):
@@ -24,6 +35,14 @@ class WorkOrder(TimestampMixin, Base):
         UniqueConstraint("site_id", "iso_week", "area_id", "kind"),
         Index("ix_work_orders_updated", "updated_at"),
         Index("ix_work_orders_site_state", "site_id", "state"),
+        # At most one open group order per area, enforced by the database, not a read.
+        Index(
+            "uq_work_orders_open_group_area",
+            "area_id",
+            unique=True,
+            sqlite_where=text(OPEN_GROUP_SQL),
+            postgresql_where=text(OPEN_GROUP_SQL),
+        ),
     )
 
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -48,6 +67,10 @@ class WorkOrder(TimestampMixin, Base):
     cancel_reason: Mapped[str | None] = mapped_column(String(500), default=None)
     # The plan figures behind a group order (interval, binding reason, group age), for audit.
     plan: Mapped[dict[str, Any] | None] = mapped_column(JSON, default=None)
+    # Bumped and checked by every UPDATE (optimistic lock): a stale writer gets 409.
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+
+    __mapper_args__ = {"version_id_col": version}
 
     lines: Mapped[list[WorkOrderLine]] = relationship(
         back_populates="order",

@@ -77,6 +77,7 @@ class WorkOrderRead(BaseModel):
     external_reference: str | None
     notes: str | None
     plan: dict[str, Any] | None
+    version: int = Field(description="Bumped by every change; a stale writer gets 409.")
     state_changed_at: datetime | None
     completed_at: datetime | None
     cancel_reason: str | None

@@ -12,11 +12,14 @@ from __future__ import annotations
 from datetime import datetime, timedelta
 
 from sqlalchemy import select
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
+from sqlalchemy.orm.exc import StaleDataError
 
-from service.api.errors import Conflict, Invalid
+from service.api.errors import Conflict, Invalid, NotFound
 from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
+from service.db.locks import lock_site
 from service.register.models import Area, LampPosition, Site
 from service.workorders import removals
 from service.workorders.issue import GROUP, OPEN_STATES, SPOT, issue_orders
@@ -38,6 +41,42 @@ def get_order(session: Session, order_id: int) -> WorkOrder:
     return get_or_404(session, WorkOrder, order_id, "work order")
 
 
+def lock_order(session: Session, order_id: int) -> WorkOrder:
+    """An order loaded for a change: row-locked (FOR UPDATE) where the database has row locks.
+
+    The lock makes a second writer wait for the first to commit and then read its result;
+    the version column (checked in every UPDATE) catches any writer that skipped the lock.
+    SQLite has no row locks, but its writer transactions (BEGIN IMMEDIATE) already run one
+    at a time.
+    """
+    stmt = (
+        select(WorkOrder)
+        .where(WorkOrder.id == order_id)
+        .with_for_update()
+        .execution_options(populate_existing=True)
+    )
+    order = session.scalars(stmt).one_or_none()
+    if order is None:
+        raise NotFound(f"work order {order_id} does not exist.", resource="work order", id=order_id)
+    return order
+
+
+def flush_order(session: Session, order: WorkOrder) -> None:
+    """Flush an order's changes; a concurrent change since it was read is a 409."""
+    try:
+        session.flush()
+    except StaleDataError as exc:
+        raise Conflict(
+            f"Work order {order.id} was changed by another request; read it again.",
+            work_order_id=order.id,
+        ) from exc
+
+
+def _already(order: WorkOrder, to: str) -> bool:
+    """True when the order is already in the target state (a retried call: answer 200)."""
+    return order.state == to
+
+
 def _move(order: WorkOrder, to: str, at: datetime) -> None:
     allowed = TRANSITIONS[order.state]
     if to not in allowed:
@@ -53,38 +92,49 @@ def _move(order: WorkOrder, to: str, at: datetime) -> None:
     order.updated_at = at
 
 
-def issue(session: Session, order_id: int) -> WorkOrder:
-    """draft -> issued."""
-    order = get_order(session, order_id)
-    _move(order, "issued", utcnow())
-    session.flush()
+def _simple_move(session: Session, order_id: int, to: str) -> WorkOrder:
+    order = lock_order(session, order_id)
+    if _already(order, to):
+        return order
+    _move(order, to, utcnow())
+    flush_order(session, order)
     return order
+
+
+def issue(session: Session, order_id: int) -> WorkOrder:
+    """draft -> issued (a repeat on an issued order answers it unchanged)."""
+    return _simple_move(session, order_id, "issued")
 
 
 def start(session: Session, order_id: int) -> WorkOrder:
-    """issued -> in_progress."""
-    order = get_order(session, order_id)
-    _move(order, "in_progress", utcnow())
-    session.flush()
-    return order
+    """issued -> in_progress (a repeat on a started order answers it unchanged)."""
+    return _simple_move(session, order_id, "in_progress")
 
 
 def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
     """Cancel an open order: positions stay as they were; batched reports go back to open."""
-    order = get_order(session, order_id)
+    order = lock_order(session, order_id)
+    if _already(order, "cancelled"):
+        if body.reason is not None and body.reason != order.cancel_reason:
+            raise Conflict(
+                f"Work order {order.id} is already cancelled with another reason.",
+                current_state=order.state,
+                allowed_next=[],
+            )
+        return order
     _move(order, "cancelled", utcnow())
     order.cancel_reason = body.reason
     removals.release_reports(session, order.id)
-    session.flush()
+    flush_order(session, order)
     return order
 
 
 def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
     """Change the external reference, notes or due date (any state)."""
-    order = get_order(session, order_id)
+    order = lock_order(session, order_id)
     apply_patch(order, body)
     order.updated_at = utcnow()
-    session.flush()
+    flush_order(session, order)
     return order
 
 
@@ -93,6 +143,8 @@ def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
     area = get_or_404(session, Area, body.area_id, "area")
     site = session.get(Site, area.site_id)
     assert site is not None
+    # The weekly run takes the same lock: hand-made and scheduled orders never interleave.
+    lock_site(session, site.id)
     if body.kind == GROUP:
         open_group = session.scalar(
             select(WorkOrder.id).where(
@@ -106,18 +158,21 @@ def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
                 f"Area {area.id} already has open group order {open_group}.",
                 work_order_id=open_group,
             )
-    result = issue_orders(
-        session,
-        site,
-        at=utcnow(),
-        iso_week=None,
-        run_id=None,
-        state="draft",
-        lookahead_weeks=0,
-        area_id=area.id,
-        kinds=(body.kind,),
-        whole_area=True,
-    )
+    try:
+        result = issue_orders(
+            session,
+            site,
+            at=utcnow(),
+            iso_week=None,
+            run_id=None,
+            state="draft",
+            lookahead_weeks=0,
+            area_id=area.id,
+            kinds=(body.kind,),
+            whole_area=True,
+        )
+    except IntegrityError as exc:  # the open-group index: a concurrent create won
+        raise Conflict(f"Area {area.id} already has an open group order.", field="area_id") from exc
     if not result.created:
         what = "lamp positions" if body.kind == GROUP else "open burnout reports"
         raise Conflict(f"Area {area.id} has no {what} to put on an order.", field="area_id")
@@ -163,7 +218,9 @@ def _outcomes(order: WorkOrder, body: CompleteBody) -> dict[int, tuple[str, str 
 
 def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
     """in_progress -> done with per-fixture outcomes; replaced positions restart at zero."""
-    order = get_order(session, order_id)
+    order = lock_order(session, order_id)
+    if _already(order, "done"):
+        return _repeat_of_completion(order, body)
     if "done" not in TRANSITIONS[order.state]:
         _move(order, "done", utcnow())  # raises the 409 with the allowed moves
     now = utcnow()
@@ -232,8 +289,21 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
     removals.release_reports(session, order.id)  # reports of skipped fixtures reopen
     _move(order, "done", now)
     order.completed_at = at
-    session.flush()
+    flush_order(session, order)
     return order
+
+
+def _repeat_of_completion(order: WorkOrder, body: CompleteBody) -> WorkOrder:
+    """A completion sent again: the same outcomes answer the order; other outcomes are 409."""
+    recorded = {ln.fixture_id: (ln.outcome, ln.skip_reason) for ln in order.lines}
+    same_time = body.completed_at is None or body.completed_at == order.completed_at
+    if same_time and _outcomes(order, body) == recorded:
+        return order
+    raise Conflict(
+        f"Work order {order.id} is already done with other outcomes; nothing was changed.",
+        current_state=order.state,
+        allowed_next=[],
+    )
 
 
 def lines_of(session: Session, order_id: int) -> list[WorkOrderLine]:

@@ -59,7 +59,13 @@ def test_every_transition(
         assert _act(client, writer, oid, step).status_code == 200
     target = ACTIONS[action]
     r = _act(client, writer, oid, action)
-    if target in TRANSITIONS[start]:
+    if target == start:  # a retried transition that already happened answers the order
+        assert r.status_code == 200, r.text
+        assert r.json()["state"] == start
+        assert r.json()["version"] == client.get(
+            f"/api/v1/work-orders/{oid}", headers=writer
+        ).json()["version"]
+    elif target in TRANSITIONS[start]:
         assert r.status_code == 200, r.text
         assert r.json()["state"] == target
         assert r.json()["allowed_next"] == list(TRANSITIONS[target])
