@@ -1,4 +1,4 @@
-"""Disposal instructions and safety cautions printed on every order (FIELD_NOTES §7).
+"""Safety cautions and disposal printed on every order (OSHA 29 CFR 1910.147, 40 CFR 273).
 
 The wording is advice: each text defers to local codes and licensed practice.
 """

@@ -35,7 +35,7 @@ def test_create_read_update_delete(client: TestClient, writer: dict[str, str]) -
     assert lt["rated_percentile"] == 50.0 and lt["contains_mercury"] is True
     m = lt["model"]
     assert m["shape"] == d.shape and m["sources"]["shape"] == "default"
-    # eta = L50 / (ln 2)^(1/beta) [FIELD_NOTES section 3 closed form]
+    # eta = L50 / (ln 2)^(1/beta) [Abernethy, Weibull Handbook]
     assert m["scale_h"] == pytest.approx(20000 / math.log(2) ** (1 / d.shape))
     assert m["lumen_curve"]["assumed"] is True and m["ballast_behaviour"] == "electronic"
     got = client.get(f"/api/v1/lamp-types/{lt['id']}", headers=writer).json()

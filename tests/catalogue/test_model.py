@@ -54,7 +54,7 @@ def test_defaults_fill_every_gap() -> None:
     m = resolve_lamp_model(lamp_type())
     d = TECHNOLOGY_DEFAULTS["linear_fluorescent"]
     assert m.shape == d.shape and m.sources["shape"] == "default"
-    # eta = L50 / (ln 2)^(1/beta) (FIELD_NOTES section 3 closed form)
+    # eta = L50 / (ln 2)^(1/beta) (Abernethy, Weibull Handbook)
     assert m.scale_h == pytest.approx(20_000.0 / math.log(2.0) ** (1.0 / d.shape), rel=1e-12)
     assert m.life_exponent == d.life_exponent and m.sources["life_exponent"] == "default"
     assert m.ballast_behaviour == "electronic" and m.sources["ballast_behaviour"] == "default"
@@ -87,7 +87,7 @@ def test_catalogue_values_win() -> None:
         )
     )
     assert m.shape == 1.2 and m.sources["shape"] == "catalogue"
-    # B10 life: eta = L10 / (-ln 0.9)^(1/beta) (closed form, FIELD_NOTES section 3)
+    # B10 life: eta = L10 / (-ln 0.9)^(1/beta) (Abernethy, Weibull Handbook)
     assert m.scale_h == pytest.approx(50_000.0 / (-math.log(0.9)) ** (1 / 1.2), rel=1e-12)
     assert (m.life_exponent, m.light_exponent, m.power_exponent) == (2.5, 0.8, 1.1)
     assert m.driver_range == (200.0, 250.0) and m.sources["driver_range"] == "catalogue"

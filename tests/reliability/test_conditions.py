@@ -25,7 +25,7 @@ def test_defaults_cover_every_technology_and_ballast() -> None:
     assert set(BALLAST_POWER_GAIN) == set(BALLASTS) == set(BALLAST_VOLTAGE_BAND)
     for d in TECHNOLOGY_DEFAULTS.values():
         assert d.default_ballast in BALLASTS
-    # FIELD_NOTES section 2 (practice): mercury in fluorescent and HID; metal halide ruptures.
+    # Common practice: mercury in fluorescent and HID; metal halide ruptures.
     assert TECHNOLOGY_DEFAULTS["metal_halide"].rupture_risk
     assert not TECHNOLOGY_DEFAULTS["led"].contains_mercury
     assert TECHNOLOGY_DEFAULTS["compact_fluorescent"].contains_mercury
@@ -35,7 +35,7 @@ def test_defaults_cover_every_technology_and_ballast() -> None:
 
 
 def test_filament_worked_figures_at_95_and_105_percent() -> None:
-    # FIELD_NOTES section 3 worked figures (common practice): life x 0.95^-16 = 2.27,
+    # Inverse power law (Nelson, Accelerated Testing), worked figures: life x 0.95^-16 = 2.27,
     # light x 0.95^3.4 = 0.84, life x 1.05^-16 = 0.46, power x V^1.6.
     low = voltage_effect(114.0, 120.0, "incandescent", life_exponent=16.0)
     assert low.life_factor == pytest.approx(0.95**-16, rel=1e-12)
@@ -180,7 +180,7 @@ def test_switching_default_slope_common_practice() -> None:
 
 
 def test_switching_interpolates_in_log_hours() -> None:
-    # FIELD_NOTES section 3: linear in ln(hours per start) between the two quoted points.
+    # Common practice: linear in ln(hours per start) between the two quoted points.
     f, warn = switching_life_factor(np.array([3.0, 6.0, 12.0]), 3.0, 12.0, 1.30)
     # 6 h/start lies halfway between 3 and 12 in ln: factor 1 + 0.30/2.
     np.testing.assert_allclose(f, [1.0, 1.15, 1.30], rtol=1e-12)
@@ -188,7 +188,7 @@ def test_switching_interpolates_in_log_hours() -> None:
 
 
 def test_switching_extrapolation_bounded_and_flagged() -> None:
-    # FIELD_NOTES section 3: bound the extrapolation; bounded values are flagged.
+    # Common practice: bound the extrapolation; bounded values are flagged.
     f, warn = switching_life_factor(np.array([0.01, 1_000.0, math.inf]), 3.0, 12.0, 1.30)
     np.testing.assert_allclose(f, [0.5, 1.5, 1.5])
     np.testing.assert_array_equal(warn, [True, True, True])

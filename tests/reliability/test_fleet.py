@@ -116,7 +116,7 @@ def test_fleet_agrees_with_per_lamp_loop() -> None:
 
 
 def test_fleet_survival_matches_scipy() -> None:
-    # scipy.stats.weibull_min with the B50 scale (FIELD_NOTES section 3) at rated conditions:
+    # scipy.stats.weibull_min with the B50 scale (Abernethy) at rated conditions:
     # at age = rated life, half the lamps survive.
     table = LampTypeTable.from_specs([SPECS[5]])
     n = 5
@@ -132,7 +132,7 @@ def test_fleet_survival_matches_scipy() -> None:
 
 
 def test_voltage_shortens_filament_life_in_the_fleet() -> None:
-    # FIELD_NOTES section 3 worked figure (common practice): at 1.05 x rated, life x 1.05^-16.
+    # Inverse power law (Nelson, Accelerated Testing): at 1.05 x rated, life x 1.05^-16.
     table = LampTypeTable.from_specs(
         [LampTypeSpec("incandescent", 1_000.0, 120.0, life_exponent=16.0)]
     )

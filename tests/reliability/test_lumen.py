@@ -19,18 +19,18 @@ from service.reliability.technologies import TECHNOLOGIES
 
 
 def test_incandescent_default_meets_iec_criterion() -> None:
-    # Criterion commonly quoted for IEC 60064 (FIELD_NOTES section 4, common practice): a lamp
+    # Criterion commonly quoted for IEC 60064 (common practice): a lamp
     # at or below 93 % of initial light at 75 % of rated life is unsatisfactory.
     curve = default_lumen_curve("incandescent")
     assert curve.assumed and curve.basis == "rated_life_fraction"
     assert float(curve.at(750.0, 1_000.0)) > 0.93
-    # The curve stretches with the voltage-scaled life (FIELD_NOTES section 4): a lamp whose
+    # The curve stretches with the voltage-scaled life (common practice): a lamp whose
     # life doubled reaches the same light at twice the hours.
     assert float(curve.at(1_500.0, 2_000.0)) == pytest.approx(float(curve.at(750.0, 1_000.0)))
 
 
 def test_default_curves_match_practice_anchors() -> None:
-    # Common practice (FIELD_NOTES section 4): mean lumens at 40 % of rated life about
+    # Common practice: mean lumens at 40 % of rated life about
     # 0.90-0.95 for linear fluorescent, about 0.65-0.75 for metal halide; HPS about 0.9 at
     # 50 %; metal halide loses far more light than linear fluorescent or HPS; halogen holds
     # output better than incandescent.
@@ -119,7 +119,7 @@ def test_fraction_basis_needs_life() -> None:
 
 
 def test_maintained_fraction_is_the_cie97_product() -> None:
-    # CIE 97 maintenance factor method (FIELD_NOTES section 4): light x LLD x survivors.
+    # CIE 97 maintenance factor method: light x LLD x survivors.
     out = maintained_fraction([0.84, 1.0], [0.9, 0.8], [0.95, 0.5])
     np.testing.assert_allclose(out, [0.84 * 0.9 * 0.95, 0.4])
 

@@ -31,7 +31,7 @@ def _series(
     duration=st.sampled_from([6_000.0, 8_000.0, 10_000.0, 12_000.0, 15_000.0]),
 )
 def test_known_b_and_alpha_recovered(b0: float, alpha: float, duration: float) -> None:
-    # FIELD_NOTES section 9: data generated from a known B and alpha must come back out;
+    # IES TM-21: data generated from a known B and alpha must come back out;
     # L70 = ln(B / 0.7) / alpha (IES TM-21-11, p = 70 gives ln(100 B / 70)).
     t, phi = _series(duration, b0, alpha)
     res = tm21_projection(t, phi)
@@ -91,7 +91,7 @@ def test_cap_rule_on_its_own() -> None:
     assert cap_multiple(10) == 5.5
     with pytest.raises(ValueError):
         cap_multiple(9)
-    # Reported form (FIELD_NOTES section 4): "L70(6k) > 36,000 h" beyond the cap.
+    # Reported form (IES TM-21): "L70(6k) > 36,000 h" beyond the cap.
     assert format_projection(70, 40_000.0, 6_000.0, 36_000.0) == ("L70(6k) > 36,000 h", True)
     assert format_projection(70, 31_234.0, 6_000.0, 36_000.0) == ("L70(6k) = 31,200 h", False)
     assert format_projection(90, None, 10_500.0, 63_000.0) == ("L90(10.5k) > 63,000 h", True)

@@ -20,7 +20,7 @@ HOURS = np.array([0.0, 1.0, 250.0, 1_000.0, 9_000.0, 30_000.0, 90_000.0])
 @pytest.mark.parametrize("beta", SHAPES)
 @pytest.mark.parametrize("eta", SCALES)
 def test_functions_match_scipy_weibull_min(beta: float, eta: float) -> None:
-    # Reference: scipy.stats.weibull_min with c = shape, scale = eta (FIELD_NOTES section 9).
+    # Reference: scipy.stats.weibull_min with c = shape, scale = eta.
     ref = stats.weibull_min(c=beta, scale=eta)
     np.testing.assert_allclose(wb.sf(HOURS, beta, eta), ref.sf(HOURS), rtol=1e-12, atol=0)
     np.testing.assert_allclose(wb.cdf(HOURS, beta, eta), ref.cdf(HOURS), rtol=1e-12, atol=1e-300)
@@ -66,7 +66,7 @@ def test_exponential_conditional_failure_is_memoryless() -> None:
 @pytest.mark.parametrize("beta", [1.5, 3.5, 5.0])
 @pytest.mark.parametrize("pct", [10.0, 50.0])
 def test_scale_from_rated_life(beta: float, pct: float) -> None:
-    # eta = L_p / (-ln(1 - p))^(1/beta) (FIELD_NOTES section 3); check with scipy's ppf:
+    # eta = L_p / (-ln(1 - p))^(1/beta) (Abernethy); check with scipy's ppf:
     # the distribution built on that scale must put exactly p of lamps dead at the rated life.
     rated = 20_000.0
     eta = float(wb.scale_from_rated_life(rated, beta, pct))

@@ -170,7 +170,7 @@ def test_removal_hours_are_normalised_to_rated_voltage(db: Session, tmp_path: Pa
     ).one()
     removal, lamp = row
     # Inverse power law [published: Nelson, Accelerated Testing; exponent 13 is the
-    # incandescent default, FIELD_NOTES §3 practice]: life at V = rated x (V_rated/V)^13,
+    # incandescent default, common practice]: life at V = rated x (V_rated/V)^13,
     # so rated-voltage-equivalent hours = hours x (V/V_rated)^13.
     expected = removal.burn_hours * (removal.operating_voltage_v / lamp.rated_volts) ** 13
     assert removal.operating_voltage_v > lamp.rated_volts
