@@ -25,6 +25,13 @@ class Settings(BaseSettings):
     migrations_dir: str | None = None
     # Rows accepted in one bulk upload before the request is refused (413).
     max_bulk_rows: int = Field(default=2_000_000, ge=1)
+    # Connection pool: connections kept open, extra ones allowed under load, and seconds a
+    # request waits for a free connection before it answers 503 (pool exhausted).
+    db_pool_size: int = Field(default=10, ge=1, le=500)
+    db_max_overflow: int = Field(default=10, ge=0, le=500)
+    db_pool_timeout_s: float = Field(default=10.0, gt=0, le=600)
+    # SQLite: seconds a writer waits for the write lock before the request answers 503.
+    sqlite_busy_timeout_s: float = Field(default=30.0, gt=0, le=600)
 
 
 @lru_cache

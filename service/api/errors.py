@@ -8,7 +8,8 @@ from typing import Any
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
-from sqlalchemy.exc import IntegrityError, OperationalError
+from sqlalchemy.exc import DBAPIError, DisconnectionError, IntegrityError
+from sqlalchemy.exc import TimeoutError as PoolTimeout
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 log = logging.getLogger(__name__)
@@ -111,13 +112,49 @@ def validation_errors(raw: list[Any]) -> list[dict[str, Any]]:
     return items
 
 
-# Driver messages of conflicts that a retry resolves (SQLite, PostgreSQL).
-_TRANSIENT = ("database is locked", "deadlock detected", "could not serialize access")
+# Driver messages of conditions that a retry resolves: lock and serialization clashes,
+# lost or reset connections (the pool discards them), statement timeouts (SQLite,
+# PostgreSQL via psycopg: AdminShutdown, QueryCanceled, SerializationFailure, ...).
+_TRANSIENT = (
+    "database is locked",
+    "deadlock detected",
+    "could not serialize access",
+    "terminating connection",
+    "server closed the connection",
+    "connection reset",
+    "connection refused",
+    "connection is closed",
+    "the connection is lost",
+    "consuming input failed",
+    "canceling statement due to statement timeout",
+    "canceling statement due to lock timeout",
+)
+# SQLSTATE classes and codes that mean "try again": connection exceptions (08),
+# serialization failure and deadlock (40001, 40P01), admin shutdown (57P01-57P03),
+# query cancelled by a timeout (57014), lock not available (55P03).
+_TRANSIENT_SQLSTATE = ("08", "40001", "40P01", "57P01", "57P02", "57P03", "57014", "55P03")
 
 
-def _is_transient(exc: OperationalError) -> bool:
+def _is_transient(exc: DBAPIError) -> bool:
+    if exc.connection_invalidated:
+        return True
+    sqlstate = getattr(exc.orig, "sqlstate", None) or ""
+    if sqlstate.startswith(_TRANSIENT_SQLSTATE):
+        return True
     text = str(exc.orig).lower()
     return any(marker in text for marker in _TRANSIENT)
+
+
+def _busy_response(request: Request, exc: Exception) -> JSONResponse:
+    log.warning("database busy on %s: %s", request.url.path, exc)
+    return problem(
+        503,
+        "Busy",
+        "The database was busy or its connection was lost; nothing was saved. Send it again.",
+        kind="busy",
+        instance=request.url.path,
+        headers={"Retry-After": "1"},
+    )
 
 
 def install_error_handlers(app: FastAPI) -> None:
@@ -174,23 +211,23 @@ def install_error_handlers(app: FastAPI) -> None:
             instance=request.url.path,
         )
 
-    @app.exception_handler(OperationalError)
-    async def _busy(request: Request, exc: OperationalError) -> JSONResponse:
-        # SQLite refuses a write while another connection holds the write lock (past the
-        # busy timeout, or at once when a read transaction would have to upgrade);
-        # PostgreSQL aborts one side of a deadlock or a serialization clash. Either way the
-        # request was rolled back and may simply be sent again.
+    @app.exception_handler(DBAPIError)
+    async def _busy(request: Request, exc: DBAPIError) -> JSONResponse:
+        # SQLite refuses a write while another connection holds the write lock; PostgreSQL
+        # aborts one side of a deadlock or a serialization clash, cancels a statement past
+        # its timeout, or loses the connection. The request was rolled back: send it again.
         if not _is_transient(exc):
             return await _unexpected(request, exc)
-        log.warning("database busy on %s: %s", request.url.path, exc.orig)
-        return problem(
-            503,
-            "Busy",
-            "The database was busy with another change; nothing was saved. Send it again.",
-            kind="busy",
-            instance=request.url.path,
-            headers={"Retry-After": "1"},
-        )
+        return _busy_response(request, exc)
+
+    @app.exception_handler(PoolTimeout)
+    async def _pool_exhausted(request: Request, exc: PoolTimeout) -> JSONResponse:
+        # Every pooled connection stayed busy for the pool timeout.
+        return _busy_response(request, exc)
+
+    @app.exception_handler(DisconnectionError)
+    async def _disconnected(request: Request, exc: DisconnectionError) -> JSONResponse:
+        return _busy_response(request, exc)
 
     @app.exception_handler(Exception)
     async def _unexpected(request: Request, exc: Exception) -> JSONResponse:

@@ -11,6 +11,7 @@ from fastapi import Request
 from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
+from sqlalchemy.pool import QueuePool
 
 from service.config import get_settings
 
@@ -46,15 +47,29 @@ def begin_write(session: Session) -> None:
 
 def make_engine(url: str) -> Engine:
     """Create an engine for a database URL, with SQLite made safe for a web server."""
+    settings = get_settings()
     parsed = make_url(url)
+    pool: dict[str, Any] = {
+        "pool_size": settings.db_pool_size,
+        "max_overflow": settings.db_max_overflow,
+        "pool_timeout": settings.db_pool_timeout_s,
+        # Test a connection before use; one the server dropped is replaced, not handed out.
+        "pool_pre_ping": True,
+    }
     if parsed.get_backend_name() == "sqlite":
         if parsed.database and parsed.database != ":memory:":
             Path(parsed.database).parent.mkdir(parents=True, exist_ok=True)
-        engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 30})
+            # A file database gets a real pool sized for the server's threads, so 50 clients
+            # queue for a connection instead of failing (in-memory keeps the default pool).
+            extra: dict[str, Any] = {"poolclass": QueuePool, **pool}
+        else:
+            extra = {}
+        connect_args = {"check_same_thread": False, "timeout": settings.sqlite_busy_timeout_s}
+        engine = create_engine(url, connect_args=connect_args, **extra)
         event.listen(engine, "connect", _sqlite_pragmas)
         event.listen(engine, "begin", _sqlite_begin)
         return engine
-    return create_engine(url, pool_pre_ping=True, pool_size=10, max_overflow=10)
+    return create_engine(url, **pool)
 
 
 @lru_cache
