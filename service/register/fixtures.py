@@ -12,6 +12,7 @@ from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.register import repository as repo
+from service.register.history import check_fixture
 from service.register.models import Area, Fixture, LampPosition
 from service.register.schemas import FixtureCreate, FixtureUpdate, PositionUpdate
 from service.reliability.technologies import TECHNOLOGY_DEFAULTS
@@ -165,8 +166,10 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
 
 
 def delete_fixture(session: Session, fixture_id: int) -> None:
-    """Delete a fixture with its positions and their history."""
-    session.delete(get_fixture(session, fixture_id))
+    """Delete a fixture without history (409 naming the history otherwise)."""
+    fixture = get_fixture(session, fixture_id)
+    check_fixture(session, fixture_id)
+    session.delete(fixture)
     session.flush()
 
 

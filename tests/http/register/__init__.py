@@ -1,0 +1,1 @@
+"""HTTP tests of the register."""
