@@ -25,6 +25,10 @@ class Settings(BaseSettings):
     migrations_dir: str | None = None
     # Rows accepted in one bulk upload before the request is refused (413).
     max_bulk_rows: int = Field(default=2_000_000, ge=1)
+    # How long a finished Idempotency-Key answer is replayed (hours).
+    idempotency_ttl_h: float = Field(default=24.0, gt=0, le=24 * 365)
+    # How long an unfinished claim blocks a retry before it counts as abandoned (seconds).
+    idempotency_inflight_s: float = Field(default=300.0, gt=0, le=86_400)
 
 
 @lru_cache
