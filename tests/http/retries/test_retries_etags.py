@@ -67,3 +67,38 @@ def test_location_etag_304_and_412(client: TestClient, writer: dict[str, str]) -
     gone = client.delete(created.headers["location"], headers={**writer, "If-Match": etag})
     assert gone.status_code == 412
     assert client.get(created.headers["location"], headers=writer).status_code == 200
+
+
+def test_in_flight_claim_409_and_abandoned_claim_lapses(
+    client: TestClient, writer: dict[str, str], db: Session
+) -> None:
+    import hashlib
+    import json
+    from datetime import timedelta
+
+    from service.db.base import utcnow
+    from service.idempotency.models import IdempotencyKey
+    from service.keys.models import ApiKey
+    from service.keys.service import digest
+
+    raw = json.dumps(SITE).encode()
+    key = db.scalar(select(ApiKey).where(ApiKey.digest == digest(writer["Authorization"][7:])))
+    assert key is not None
+    now = utcnow()
+    claim = IdempotencyKey(
+        api_key_id=key.id, method="POST", route="/api/v1/sites", idem_key="busy",
+        body_sha256=hashlib.sha256(raw).hexdigest(), created_at=now,
+        expires_at=now + timedelta(minutes=5),
+    )  # fmt: skip
+    db.add(claim)
+    db.commit()
+    headers = {**writer, "Idempotency-Key": "busy", "Content-Type": "application/json"}
+    count = _sites(db)
+    busy = client.post("/api/v1/sites", content=raw, headers=headers)
+    assert busy.status_code == 409
+    assert _sites(db) == count
+    claim.expires_at = now - timedelta(seconds=1)  # the first process died long ago
+    db.commit()
+    rerun = client.post("/api/v1/sites", content=raw, headers=headers)
+    assert rerun.status_code == 201, rerun.text
+    assert _sites(db) == count + 1
