@@ -32,6 +32,10 @@ class Settings(BaseSettings):
     db_pool_timeout_s: float = Field(default=10.0, gt=0, le=600)
     # SQLite: seconds a writer waits for the write lock before the request answers 503.
     sqlite_busy_timeout_s: float = Field(default=30.0, gt=0, le=600)
+    # How long a finished Idempotency-Key answer is replayed (hours).
+    idempotency_ttl_h: float = Field(default=24.0, gt=0, le=24 * 365)
+    # How long an unfinished claim blocks a retry before it counts as abandoned (seconds).
+    idempotency_inflight_s: float = Field(default=300.0, gt=0, le=86_400)
 
 
 @lru_cache

@@ -13,6 +13,7 @@ from service.api.errors import install_error_handlers
 from service.api.guard import check_request
 from service.api.health import router as health_router
 from service.api.home import router as home_router
+from service.api.idempotency import install_retries
 from service.catalogue.router import router as catalogue_router
 from service.config import get_settings
 from service.events.router import router as events_router
@@ -74,6 +75,7 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
         settings.scheduler_enabled if start_scheduler is None else start_scheduler
     )
     install_error_handlers(app)
+    install_retries(app)
     app.include_router(health_router)
     app.include_router(home_router)
     for router in DOMAIN_ROUTERS:

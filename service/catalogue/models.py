@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, Float, String
+from sqlalchemy import JSON, Boolean, Float, Integer, String
 from sqlalchemy.orm import Mapped, mapped_column
 
 from service.db.base import Base, TimestampMixin
@@ -16,6 +16,9 @@ class LampType(TimestampMixin, Base):
     __tablename__ = "lamp_types"
 
     id: Mapped[int] = mapped_column(primary_key=True)
+    # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+    __mapper_args__ = {"version_id_col": version}
     code: Mapped[str] = mapped_column(String(40), unique=True)  # our own catalogue code
     description: Mapped[str | None] = mapped_column(String(300), default=None)
     technology: Mapped[str] = mapped_column(String(30))

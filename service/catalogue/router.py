@@ -4,13 +4,14 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Query, Response, status
+from fastapi import APIRouter, Query, Request, Response, status
 from pydantic import BaseModel
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, paginate
+from service.api.preconditions import locate, versioned
 from service.catalogue import bulk, service
 from service.catalogue import repository as repo
 from service.catalogue.models import LampType
@@ -57,9 +58,13 @@ def list_lamp_types(
 
 
 @router.post("", response_model=LampTypeRead, status_code=status.HTTP_201_CREATED)
-def create_lamp_type(body: LampTypeCreate, session: SessionDep, _: WriteKey) -> LampTypeRead:
+def create_lamp_type(
+    body: LampTypeCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> LampTypeRead:
     """Create a lamp type; the answer shows the model numbers the forecasts will use."""
-    return service.to_read(service.create_lamp_type(session, body))
+    lamp_type = service.create_lamp_type(session, body)
+    locate(request, response, "get_lamp_type", lamp_type_id=lamp_type.id)
+    return service.to_read(lamp_type)
 
 
 @router.post("/import", response_model=ImportSummary, openapi_extra=UPLOAD_OPENAPI)
@@ -91,13 +96,21 @@ def export_lamp_types(
     return export_response(LAMP_TYPE_FIELDS, rows, format, "lamp-types")
 
 
-@router.get("/{lamp_type_id}", response_model=LampTypeRead)
+@router.get(
+    "/{lamp_type_id}",
+    response_model=LampTypeRead,
+    dependencies=[versioned(LampType, "lamp_type_id")],
+)
 def get_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: ReadKey) -> LampTypeRead:
     """Read one lamp type with its resolved model."""
     return service.to_read(service.get_lamp_type(session, lamp_type_id))
 
 
-@router.patch("/{lamp_type_id}", response_model=LampTypeRead)
+@router.patch(
+    "/{lamp_type_id}",
+    response_model=LampTypeRead,
+    dependencies=[versioned(LampType, "lamp_type_id")],
+)
 def update_lamp_type(
     lamp_type_id: IdPath, body: LampTypeUpdate, session: SessionDep, _: WriteKey
 ) -> LampTypeRead:
@@ -105,7 +118,11 @@ def update_lamp_type(
     return service.to_read(service.update_lamp_type(session, lamp_type_id, body))
 
 
-@router.delete("/{lamp_type_id}", status_code=status.HTTP_204_NO_CONTENT)
+@router.delete(
+    "/{lamp_type_id}",
+    status_code=status.HTTP_204_NO_CONTENT,
+    dependencies=[versioned(LampType, "lamp_type_id")],
+)
 def delete_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a lamp type that no fixture uses."""
     service.delete_lamp_type(session, lamp_type_id)

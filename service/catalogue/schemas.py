@@ -320,6 +320,7 @@ class LampTypeRead(BaseModel):
     model_config = ConfigDict(from_attributes=True)
 
     id: int
+    version: int = Field(description="Record version; the ETag, and what If-Match compares.")
     code: str
     description: str | None
     technology: str

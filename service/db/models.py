@@ -2,6 +2,7 @@
 
 from service.catalogue import models as catalogue_models
 from service.events import models as events_models
+from service.idempotency import models as idempotency_models
 from service.keys import models as keys_models
 from service.readings import models as readings_models
 from service.register import models as register_models
@@ -11,6 +12,7 @@ from service.workorders import models as workorders_models
 __all__ = [
     "catalogue_models",
     "events_models",
+    "idempotency_models",
     "keys_models",
     "readings_models",
     "register_models",

@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from typing import Literal
 
-from fastapi import APIRouter, status
+from fastapi import APIRouter, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.preconditions import locate, versioned
 from service.db.crud import get_or_404
 from service.events import repository as repo
 from service.events import service
@@ -28,10 +29,15 @@ router = APIRouter(tags=["events"])
     "/burnout-reports", response_model=BurnoutReportRead, status_code=status.HTTP_201_CREATED
 )
 def create_burnout_report(
-    body: BurnoutReportCreate, session: SessionDep, _: WriteKey
+    body: BurnoutReportCreate,
+    session: SessionDep,
+    _: WriteKey,
+    request: Request,
+    response: Response,
 ) -> BurnoutReportRead:
     """Report a dark lamp: records one failure observation; open until replaced."""
     report = service.report_burnout(session, **body.model_dump())
+    locate(request, response, "get_burnout_report", report_id=report.id)
     return BurnoutReportRead.model_validate(report)
 
 
@@ -51,7 +57,11 @@ def list_burnout_reports(
     return page_of(BurnoutReportRead, rows, total, page)
 
 
-@router.get("/burnout-reports/{report_id}", response_model=BurnoutReportRead)
+@router.get(
+    "/burnout-reports/{report_id}",
+    response_model=BurnoutReportRead,
+    dependencies=[versioned(BurnoutReport, "report_id")],
+)
 def get_burnout_report(report_id: IdPath, session: SessionDep, _: ReadKey) -> BurnoutReportRead:
     """Read one burnout report."""
     return BurnoutReportRead.model_validate(
@@ -61,7 +71,7 @@ def get_burnout_report(report_id: IdPath, session: SessionDep, _: ReadKey) -> Bu
 
 @router.post("/lamp-removals", response_model=LampRemovalRead, status_code=status.HTTP_201_CREATED)
 def create_lamp_removal(
-    body: LampRemovalCreate, session: SessionDep, _: WriteKey
+    body: LampRemovalCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
 ) -> LampRemovalRead:
     """Record a lamp taken out (failed or still burning); the position restarts at zero."""
     position = get_or_404(session, LampPosition, body.position_id, "lamp position")
@@ -73,6 +83,10 @@ def create_lamp_removal(
         reason=body.reason,
         work_order_id=body.work_order_id,
         burn_hours=body.burn_hours,
+    )
+    # No single-removal route: Location is the list, filtered to the position.
+    response.headers["Location"] = (
+        f"{request.url_for('list_lamp_removals')}?position_id={position.id}"
     )
     return LampRemovalRead.model_validate(removal)
 

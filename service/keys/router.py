@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from fastapi import APIRouter, status
+from fastapi import APIRouter, Request, Response, status
 
 from service.api.auth import AdminKey, SessionDep
 from service.api.ids import IdPath
@@ -19,9 +19,12 @@ def list_keys(session: SessionDep, _: AdminKey) -> list[ApiKeyRead]:
 
 
 @router.post("", response_model=ApiKeyCreated, status_code=status.HTTP_201_CREATED)
-def create_key(body: ApiKeyCreate, session: SessionDep, _: AdminKey) -> ApiKeyCreated:
+def create_key(
+    body: ApiKeyCreate, session: SessionDep, _: AdminKey, request: Request, response: Response
+) -> ApiKeyCreated:
     """Create a key; the secret is in this response only."""
     row, secret = service.create_key(session, body.name, body.scope)
+    response.headers["Location"] = str(request.url_for("list_keys"))  # keys have no single GET
     return ApiKeyCreated(**ApiKeyRead.model_validate(row).model_dump(), key=secret)
 
 

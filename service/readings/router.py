@@ -6,7 +6,7 @@ import math
 from datetime import UTC, datetime
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Query, status
+from fastapi import APIRouter, Query, Request, Response, status
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -55,10 +55,13 @@ def _latest(session: Session, model: Any, body: BurnHourCreate | VoltageReadingC
 
 
 @router.post("/burn-hours", response_model=BurnHourRead, status_code=status.HTTP_201_CREATED)
-def create_burn_hours(body: BurnHourCreate, session: SessionDep, _: WriteKey) -> BurnHourRead:
+def create_burn_hours(
+    body: BurnHourCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> BurnHourRead:
     """Record burn hours for a fixture or an area: a period total or a meter reading."""
     cols = service.columns_from_dicts([body.model_dump()], burn_hours.BURN_COLUMNS)
     burn_hours.ingest_burn_hours(session, cols)
+    response.headers["Location"] = str(request.url_for("list_burn_hours"))  # no single-record route
     return BurnHourRead.model_validate(_latest(session, BurnHourRecord, body))
 
 
@@ -68,9 +71,12 @@ def create_burn_hours(body: BurnHourCreate, session: SessionDep, _: WriteKey) ->
     status_code=status.HTTP_201_CREATED,
     openapi_extra=UPLOAD_OPENAPI,
 )
-def upload_burn_hours(body: RawBodyDep, session: SessionDep, _: WriteKey) -> BulkResult:
+def upload_burn_hours(
+    body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> BulkResult:
     """Upload burn-hour rows as CSV or a JSON list (columns as in POST /burn-hours); all or none."""
     cols = read_columns(body, burn_hours.BURN_COLUMNS)
+    response.headers["Location"] = str(request.url_for("list_burn_hours"))
     return BulkResult(stored=burn_hours.ingest_burn_hours(session, cols))
 
 
@@ -93,11 +99,16 @@ def list_burn_hours(
     "/voltage-readings", response_model=VoltageReadingRead, status_code=status.HTTP_201_CREATED
 )
 def create_voltage_reading(
-    body: VoltageReadingCreate, session: SessionDep, _: WriteKey
+    body: VoltageReadingCreate,
+    session: SessionDep,
+    _: WriteKey,
+    request: Request,
+    response: Response,
 ) -> VoltageReadingRead:
     """Record a supply voltage measured at a fixture or on an area's circuit."""
     cols = service.columns_from_dicts([body.model_dump()], service.VOLTAGE_COLUMNS)
     service.ingest_voltages(session, cols)
+    response.headers["Location"] = str(request.url_for("list_voltage_readings"))
     return VoltageReadingRead.model_validate(_latest(session, VoltageReading, body))
 
 
@@ -107,9 +118,12 @@ def create_voltage_reading(
     status_code=status.HTTP_201_CREATED,
     openapi_extra=UPLOAD_OPENAPI,
 )
-def upload_voltage_readings(body: RawBodyDep, session: SessionDep, _: WriteKey) -> BulkResult:
+def upload_voltage_readings(
+    body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> BulkResult:
     """Upload voltage readings as CSV or a JSON list (fixture_id or area_id, measured_at, volts)."""
     cols = read_columns(body, service.VOLTAGE_COLUMNS)
+    response.headers["Location"] = str(request.url_for("list_voltage_readings"))
     return BulkResult(stored=service.ingest_voltages(session, cols))
 
 

@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query, Response, status
+from fastapi import APIRouter, Query, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.preconditions import locate, versioned
 from service.register import areas
 from service.register import repository as repo
 from service.register.models import ACCESS_METHODS, Area
@@ -37,24 +38,30 @@ def list_areas(
 
 
 @router.post("", response_model=AreaRead, status_code=status.HTTP_201_CREATED)
-def create_area(body: AreaCreate, session: SessionDep, _: WriteKey) -> AreaRead:
+def create_area(
+    body: AreaCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> AreaRead:
     """Create an area in a site."""
-    return AreaRead.model_validate(areas.create_area(session, body))
+    area = areas.create_area(session, body)
+    locate(request, response, "get_area", area_id=area.id)
+    return AreaRead.model_validate(area)
 
 
-@router.get("/{area_id}", response_model=AreaRead)
+@router.get("/{area_id}", response_model=AreaRead, dependencies=[versioned(Area, "area_id")])
 def get_area(area_id: IdPath, session: SessionDep, _: ReadKey) -> AreaRead:
     """Read one area."""
     return AreaRead.model_validate(areas.get_area(session, area_id))
 
 
-@router.patch("/{area_id}", response_model=AreaRead)
+@router.patch("/{area_id}", response_model=AreaRead, dependencies=[versioned(Area, "area_id")])
 def update_area(area_id: IdPath, body: AreaUpdate, session: SessionDep, _: WriteKey) -> AreaRead:
     """Change some fields of an area."""
     return AreaRead.model_validate(areas.update_area(session, area_id, body))
 
 
-@router.delete("/{area_id}", status_code=status.HTTP_204_NO_CONTENT)
+@router.delete(
+    "/{area_id}", status_code=status.HTTP_204_NO_CONTENT, dependencies=[versioned(Area, "area_id")]
+)
 def delete_area(area_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete an area with its fixtures."""
     areas.delete_area(session, area_id)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Query, Response, status
+from fastapi import APIRouter, Query, Request, Response, status
 from pydantic import BaseModel
 
 import service.register.fixture_bulk as fixture_bulk
@@ -13,9 +13,10 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.preconditions import locate, versioned
 from service.register import fixtures
 from service.register import repository as repo
-from service.register.models import Fixture
+from service.register.models import Fixture, LampPosition
 from service.register.schemas import (
     FixtureCreate,
     FixtureRead,
@@ -60,9 +61,13 @@ def list_fixtures(
 
 
 @router.post("/fixtures", response_model=FixtureRead, status_code=status.HTTP_201_CREATED)
-def create_fixture(body: FixtureCreate, session: SessionDep, _: WriteKey) -> FixtureRead:
+def create_fixture(
+    body: FixtureCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> FixtureRead:
     """Create a fixture and its lamp positions."""
-    return FixtureRead.model_validate(fixtures.create_fixture(session, body))
+    fixture = fixtures.create_fixture(session, body)
+    locate(request, response, "get_fixture", fixture_id=fixture.id)
+    return FixtureRead.model_validate(fixture)
 
 
 @router.post("/fixtures/import", response_model=FixtureImportSummary, openapi_extra=UPLOAD_OPENAPI)
@@ -102,13 +107,21 @@ def export_fixtures(
     return export_response(fixture_bulk.FIXTURE_COLUMNS, rows, format, "fixtures")
 
 
-@router.get("/fixtures/{fixture_id}", response_model=FixtureRead)
+@router.get(
+    "/fixtures/{fixture_id}",
+    response_model=FixtureRead,
+    dependencies=[versioned(Fixture, "fixture_id")],
+)
 def get_fixture(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> FixtureRead:
     """Read one fixture with its positions."""
     return FixtureRead.model_validate(fixtures.get_fixture(session, fixture_id))
 
 
-@router.patch("/fixtures/{fixture_id}", response_model=FixtureRead)
+@router.patch(
+    "/fixtures/{fixture_id}",
+    response_model=FixtureRead,
+    dependencies=[versioned(Fixture, "fixture_id")],
+)
 def update_fixture(
     fixture_id: IdPath, body: FixtureUpdate, session: SessionDep, _: WriteKey
 ) -> FixtureRead:
@@ -116,7 +129,11 @@ def update_fixture(
     return FixtureRead.model_validate(fixtures.update_fixture(session, fixture_id, body))
 
 
-@router.delete("/fixtures/{fixture_id}", status_code=status.HTTP_204_NO_CONTENT)
+@router.delete(
+    "/fixtures/{fixture_id}",
+    status_code=status.HTTP_204_NO_CONTENT,
+    dependencies=[versioned(Fixture, "fixture_id")],
+)
 def delete_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a fixture with its positions."""
     fixtures.delete_fixture(session, fixture_id)
@@ -129,7 +146,11 @@ def list_positions(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> list[
     return [PositionRead.model_validate(p) for p in fixtures.list_positions(session, fixture_id)]
 
 
-@router.patch("/positions/{position_id}", response_model=PositionRead)
+@router.patch(
+    "/positions/{position_id}",
+    response_model=PositionRead,
+    dependencies=[versioned(LampPosition, "position_id")],
+)
 def update_position(
     position_id: IdPath, body: PositionUpdate, session: SessionDep, _: WriteKey
 ) -> PositionRead:

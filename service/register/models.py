@@ -18,6 +18,9 @@ class Site(TimestampMixin, Base):
     __tablename__ = "sites"
 
     id: Mapped[int] = mapped_column(primary_key=True)
+    # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+    __mapper_args__ = {"version_id_col": version}
     name: Mapped[str] = mapped_column(String(200), unique=True)
     time_zone: Mapped[str] = mapped_column(String(64))  # IANA name, e.g. Europe/Lisbon
     nominal_voltage_v: Mapped[float] = mapped_column(Float)  # volts at the outlets
@@ -46,6 +49,9 @@ class Area(TimestampMixin, Base):
     )
 
     id: Mapped[int] = mapped_column(primary_key=True)
+    # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+    __mapper_args__ = {"version_id_col": version}
     site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"), index=True)
     name: Mapped[str] = mapped_column(String(200))
     floor_or_zone: Mapped[str | None] = mapped_column(String(100), default=None)
@@ -92,6 +98,9 @@ class Fixture(TimestampMixin, Base):
     __table_args__ = (UniqueConstraint("site_id", "tag"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
+    # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+    __mapper_args__ = {"version_id_col": version}
     # site_id is kept beside area_id so the tag can be unique within the site.
     site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"))
     area_id: Mapped[int] = mapped_column(ForeignKey("areas.id", ondelete="CASCADE"), index=True)
@@ -124,6 +133,9 @@ class LampPosition(Base):
     )
 
     id: Mapped[int] = mapped_column(primary_key=True)
+    # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+    __mapper_args__ = {"version_id_col": version}
     fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="CASCADE"))
     position_no: Mapped[int] = mapped_column(Integer)  # 1..lamps_per_fixture
     # When the current lamp went in, and the burn hours and starts it already had then.

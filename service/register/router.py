@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query, Response, status
+from fastapi import APIRouter, Query, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.preconditions import locate, versioned
 from service.register import area_router, fixture_router, service
 from service.register import repository as repo
 from service.register.models import Site
@@ -31,24 +32,34 @@ def list_sites(
 
 
 @router.post("/sites", response_model=SiteRead, status_code=status.HTTP_201_CREATED)
-def create_site(body: SiteCreate, session: SessionDep, _: WriteKey) -> SiteRead:
+def create_site(
+    body: SiteCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> SiteRead:
     """Create a site."""
-    return SiteRead.model_validate(service.create_site(session, body))
+    site = service.create_site(session, body)
+    locate(request, response, "get_site", site_id=site.id)
+    return SiteRead.model_validate(site)
 
 
-@router.get("/sites/{site_id}", response_model=SiteRead)
+@router.get("/sites/{site_id}", response_model=SiteRead, dependencies=[versioned(Site, "site_id")])
 def get_site(site_id: IdPath, session: SessionDep, _: ReadKey) -> SiteRead:
     """Read one site."""
     return SiteRead.model_validate(service.get_site(session, site_id))
 
 
-@router.patch("/sites/{site_id}", response_model=SiteRead)
+@router.patch(
+    "/sites/{site_id}", response_model=SiteRead, dependencies=[versioned(Site, "site_id")]
+)
 def update_site(site_id: IdPath, body: SiteUpdate, session: SessionDep, _: WriteKey) -> SiteRead:
     """Change some fields of a site."""
     return SiteRead.model_validate(service.update_site(session, site_id, body))
 
 
-@router.delete("/sites/{site_id}", status_code=status.HTTP_204_NO_CONTENT)
+@router.delete(
+    "/sites/{site_id}",
+    status_code=status.HTTP_204_NO_CONTENT,
+    dependencies=[versioned(Site, "site_id")],
+)
 def delete_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a site and everything in it."""
     service.delete_site(session, site_id)

@@ -107,6 +107,7 @@ class SiteRead(SiteFields):
     model_config = ConfigDict(from_attributes=True)
 
     id: int
+    version: int = Field(description="Record version; the ETag, and what If-Match compares.")
     created_at: datetime
     updated_at: datetime
 
@@ -169,6 +170,7 @@ class AreaRead(AreaFields):
     model_config = ConfigDict(from_attributes=True)
 
     id: int
+    version: int = Field(description="Record version; the ETag, and what If-Match compares.")
     site_id: int
     burn_hours_per_week: float
     hours_per_start: float | None
@@ -182,6 +184,7 @@ class PositionRead(BaseModel):
     model_config = ConfigDict(from_attributes=True)
 
     id: int
+    version: int = Field(description="Record version; the ETag, and what If-Match compares.")
     fixture_id: int
     position_no: int
     lamp_installed_at: datetime
@@ -250,6 +253,7 @@ class FixtureRead(BaseModel):
     model_config = ConfigDict(from_attributes=True)
 
     id: int
+    version: int = Field(description="Record version; the ETag, and what If-Match compares.")
     site_id: int
     area_id: int
     tag: str

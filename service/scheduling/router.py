@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Query, status
+from fastapi import APIRouter, Query, Request, Response, status
 from sqlalchemy import select
 from sqlalchemy.orm import sessionmaker
 
@@ -53,7 +53,12 @@ def get_run(run_id: IdPath, session: SessionDep, _: ReadKey) -> RunRead:
 
 @router.post("/sites/{site_id}/runs", response_model=RunRead, status_code=status.HTTP_201_CREATED)
 def start_run(
-    site_id: IdPath, session: SessionDep, _: WriteKey, body: RunStart | None = None
+    site_id: IdPath,
+    session: SessionDep,
+    _: WriteKey,
+    request: Request,
+    response: Response,
+    body: RunStart | None = None,
 ) -> RunRead:
     """Run a site's weekly issue now (write scope; safe to repeat: a week never gets twice)."""
     get_site(session, site_id)
@@ -72,4 +77,6 @@ def start_run(
     factory = sessionmaker(
         bind=session.get_bind(), expire_on_commit=False, join_transaction_mode="create_savepoint"
     )
-    return RunRead.model_validate(run_site_week(factory, site_id, week=week, trigger="api"))
+    run = run_site_week(factory, site_id, week=week, trigger="api")
+    response.headers["Location"] = str(request.url_for("get_run", run_id=run.id))
+    return RunRead.model_validate(run)

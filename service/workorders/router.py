@@ -4,13 +4,14 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query, Response, status
+from fastapi import APIRouter, Query, Request, Response, status
 from fastapi.responses import HTMLResponse
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, paginate
+from service.api.preconditions import locate, versioned
 from service.api.times import Timestamp
 from service.register.models import Area, Site
 from service.workorders import exports, service
@@ -83,18 +84,30 @@ def list_orders(
 
 
 @router.post("/work-orders", response_model=WorkOrderRead, status_code=status.HTTP_201_CREATED)
-def create_order(body: WorkOrderCreate, session: SessionDep, _: WriteKey) -> WorkOrderRead:
+def create_order(
+    body: WorkOrderCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
+) -> WorkOrderRead:
     """Create a draft order by hand for one area (group: all fixtures; spot: open burnouts)."""
-    return read(service.create(session, body))
+    order = service.create(session, body)
+    locate(request, response, "get_order", order_id=order.id)
+    return read(order)
 
 
-@router.get("/work-orders/{order_id}", response_model=WorkOrderRead)
+@router.get(
+    "/work-orders/{order_id}",
+    response_model=WorkOrderRead,
+    dependencies=[versioned(WorkOrder, "order_id")],
+)
 def get_order(order_id: IdPath, session: SessionDep, _: ReadKey) -> WorkOrderRead:
     """One order with its lines."""
     return read(service.get_order(session, order_id))
 
 
-@router.patch("/work-orders/{order_id}", response_model=WorkOrderRead)
+@router.patch(
+    "/work-orders/{order_id}",
+    response_model=WorkOrderRead,
+    dependencies=[versioned(WorkOrder, "order_id")],
+)
 def update_order(
     order_id: IdPath, body: WorkOrderUpdate, session: SessionDep, _: WriteKey
 ) -> WorkOrderRead:
@@ -102,19 +115,31 @@ def update_order(
     return read(service.update(session, order_id, body))
 
 
-@router.post("/work-orders/{order_id}/issue", response_model=WorkOrderRead)
+@router.post(
+    "/work-orders/{order_id}/issue",
+    response_model=WorkOrderRead,
+    dependencies=[versioned(WorkOrder, "order_id")],
+)
 def issue_order(order_id: IdPath, session: SessionDep, _: WriteKey) -> WorkOrderRead:
     """draft -> issued (409 from any other state)."""
     return read(service.issue(session, order_id))
 
 
-@router.post("/work-orders/{order_id}/start", response_model=WorkOrderRead)
+@router.post(
+    "/work-orders/{order_id}/start",
+    response_model=WorkOrderRead,
+    dependencies=[versioned(WorkOrder, "order_id")],
+)
 def start_order(order_id: IdPath, session: SessionDep, _: WriteKey) -> WorkOrderRead:
     """issued -> in_progress (409 from any other state)."""
     return read(service.start(session, order_id))
 
 
-@router.post("/work-orders/{order_id}/complete", response_model=WorkOrderRead)
+@router.post(
+    "/work-orders/{order_id}/complete",
+    response_model=WorkOrderRead,
+    dependencies=[versioned(WorkOrder, "order_id")],
+)
 def complete_order(
     order_id: IdPath, body: CompleteBody, session: SessionDep, _: WriteKey
 ) -> WorkOrderRead:
@@ -122,7 +147,11 @@ def complete_order(
     return read(service.complete(session, order_id, body))
 
 
-@router.post("/work-orders/{order_id}/cancel", response_model=WorkOrderRead)
+@router.post(
+    "/work-orders/{order_id}/cancel",
+    response_model=WorkOrderRead,
+    dependencies=[versioned(WorkOrder, "order_id")],
+)
 def cancel_order(
     order_id: IdPath, session: SessionDep, _: WriteKey, body: CancelBody | None = None
 ) -> WorkOrderRead:

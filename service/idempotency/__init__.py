@@ -1,0 +1,1 @@
+"""Stored answers of POST requests sent with an Idempotency-Key header."""
