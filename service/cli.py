@@ -14,6 +14,7 @@ from service.db.session import begin_write, session_factory
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
+from service.users import cli as users_cli
 
 Handler = Callable[[argparse.Namespace], int]
 
@@ -144,6 +145,7 @@ EXTRA_COMMANDS: list[Callable[[argparse._SubParsersAction[argparse.ArgumentParse
 EXTRA_COMMANDS.append(seed_cli.register)
 EXTRA_COMMANDS.append(runs_cli.register)
 EXTRA_COMMANDS.append(register_cli.register)
+EXTRA_COMMANDS.append(users_cli.register)
 
 
 def main(argv: Sequence[str] | None = None) -> int:
