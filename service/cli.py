@@ -56,10 +56,15 @@ def cmd_serve(args: argparse.Namespace) -> int:
     port = args.port or settings.port
     if args.print_demo_key:
         from service.seed.loader import demo_key
+        from service.seed.users import DEMO_PASSWORD, ensure_demo_users
 
         with transaction() as session:
             key = demo_key(session)
+            demo_people = ensure_demo_users(session) if key else []
         print(f"\nLampKeeper is serving at http://{host}:{port}  (API docs: /docs)")
+        print(f"Sign in to the web pages: http://{host}:{port}/sign-in")
+        for name, role in demo_people:
+            print(f"  demo login ({role}): {name} / {DEMO_PASSWORD}")
         if key:
             print(f"Demo API key (admin scope): {key}")
             print(
