@@ -14,6 +14,7 @@ from service.db.session import begin_write, session_factory
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
+from service.users import cli as users_cli
 
 Handler = Callable[[argparse.Namespace], int]
 
@@ -55,10 +56,15 @@ def cmd_serve(args: argparse.Namespace) -> int:
     port = args.port or settings.port
     if args.print_demo_key:
         from service.seed.loader import demo_key
+        from service.seed.users import DEMO_PASSWORD, ensure_demo_users
 
         with transaction() as session:
             key = demo_key(session)
+            demo_people = ensure_demo_users(session) if key else []
         print(f"\nLampKeeper is serving at http://{host}:{port}  (API docs: /docs)")
+        print(f"Sign in to the web pages: http://{host}:{port}/sign-in")
+        for name, role in demo_people:
+            print(f"  demo login ({role}): {name} / {DEMO_PASSWORD}")
         if key:
             print(f"Demo API key (admin scope): {key}")
             print(
@@ -144,6 +150,7 @@ EXTRA_COMMANDS: list[Callable[[argparse._SubParsersAction[argparse.ArgumentParse
 EXTRA_COMMANDS.append(seed_cli.register)
 EXTRA_COMMANDS.append(runs_cli.register)
 EXTRA_COMMANDS.append(register_cli.register)
+EXTRA_COMMANDS.append(users_cli.register)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

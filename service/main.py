@@ -23,6 +23,7 @@ from service.planning.router import router as planning_router
 from service.readings.router import router as readings_router
 from service.register.router import router as register_router
 from service.scheduling.router import router as runs_router
+from service.web.install import install_web
 from service.workorders.router import router as workorders_router
 
 API_PREFIX = "/api/v1"
@@ -80,4 +81,5 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     app.include_router(home_router)
     for router in DOMAIN_ROUTERS:
         app.include_router(router, prefix=API_PREFIX, dependencies=[Depends(check_request)])
+    install_web(app)  # the pages for people (service/web)
     return app

@@ -1,0 +1,1 @@
+"""Server-rendered pages for people: sign-in, overview, burnout reports, work orders."""

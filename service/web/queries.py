@@ -1,0 +1,85 @@
+"""Thin read queries for the pages (counts per site, fixtures by tag)."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import date
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from service.events.models import BurnoutReport
+from service.register.models import Area, Fixture, LampPosition, Site
+from service.workorders.models import WorkOrder
+
+OPEN_ORDER_STATES = ("draft", "issued", "in_progress")
+
+
+@dataclass(frozen=True)
+class SiteSummary:
+    """One row of the overview."""
+
+    site: Site
+    open_burnouts: int
+    open_orders: int
+    due_orders: int
+
+
+def _counts(session: Session, stmt: object) -> dict[int, int]:
+    return {int(k): int(v) for k, v in session.execute(stmt).all()}  # type: ignore[call-overload]
+
+
+def site_summaries(session: Session, today: date) -> list[SiteSummary]:
+    """Every site with its open burnouts, open orders and orders due by today."""
+    burnouts = _counts(
+        session,
+        select(BurnoutReport.site_id, func.count())
+        .where(BurnoutReport.status != "closed")
+        .group_by(BurnoutReport.site_id),
+    )
+    open_q = select(WorkOrder.site_id, func.count()).where(WorkOrder.state.in_(OPEN_ORDER_STATES))
+    orders = _counts(session, open_q.group_by(WorkOrder.site_id))
+    due = _counts(session, open_q.where(WorkOrder.due_on <= today).group_by(WorkOrder.site_id))
+    return [
+        SiteSummary(s, burnouts.get(s.id, 0), orders.get(s.id, 0), due.get(s.id, 0))
+        for s in session.scalars(select(Site).order_by(Site.name)).all()
+    ]
+
+
+def sites(session: Session) -> Sequence[Site]:
+    """Every site by name."""
+    return session.scalars(select(Site).order_by(Site.name)).all()
+
+
+def fixture_by_tag(session: Session, site_id: int, tag: str) -> Fixture | None:
+    """The fixture with this tag at a site, or None."""
+    stmt = select(Fixture).where(Fixture.site_id == site_id, Fixture.tag == tag)
+    return session.scalars(stmt).first()
+
+
+def positions_of(session: Session, fixture_id: int) -> Sequence[LampPosition]:
+    """A fixture's lamp positions in order."""
+    stmt = select(LampPosition).where(LampPosition.fixture_id == fixture_id)
+    return session.scalars(stmt.order_by(LampPosition.position_no)).all()
+
+
+def area_name(session: Session, area_id: int) -> str:
+    """An area's name, or '' when gone."""
+    area = session.get(Area, area_id)
+    return area.name if area else ""
+
+
+def site_names(session: Session) -> dict[int, str]:
+    """Site names by id."""
+    return {s.id: s.name for s in sites(session)}
+
+
+def orders(session: Session, site_id: int | None, state: str | None) -> Sequence[WorkOrder]:
+    """Work orders filtered by site and state, due first."""
+    stmt = select(WorkOrder)
+    if site_id is not None:
+        stmt = stmt.where(WorkOrder.site_id == site_id)
+    if state:
+        stmt = stmt.where(WorkOrder.state == state)
+    return session.scalars(stmt.order_by(WorkOrder.due_on, WorkOrder.id).limit(500)).all()

@@ -1,0 +1,281 @@
+"""Page routes: sign-in and out, overview, burnout report, work orders (HTTP only)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Form, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from fastapi.staticfiles import StaticFiles
+from fastapi.templating import Jinja2Templates
+
+from service.api.auth import SessionDep
+from service.api.errors import DomainError
+from service.db.base import utcnow
+from service.register.models import Site
+from service.users import service as users
+from service.web import queries
+from service.web.auth import COOKIE, VisitorDep, check_post, client_ip, set_cookie_secure
+from service.workorders import exports
+from service.workorders import service as orders_service
+
+HERE = Path(__file__).parent
+templates = Jinja2Templates(directory=str(HERE / "templates"))  # autoescapes .html
+static = StaticFiles(directory=str(HERE / "static"))
+router = APIRouter(include_in_schema=False)
+Text = Annotated[str, Form(max_length=1000)]
+
+
+def page(request: Request, name: str, status_code: int = 200, **context: Any) -> HTMLResponse:
+    """Render a template with the request and the visitor, if any."""
+    return templates.TemplateResponse(request, name, context, status_code=status_code)
+
+
+def see_other(url: str) -> RedirectResponse:
+    """A redirect after a POST (303 so the browser follows with GET)."""
+    return RedirectResponse(url, status_code=303)
+
+
+@router.get("/sign-in", response_class=HTMLResponse)
+def sign_in_form(request: Request, next: str = "/app") -> HTMLResponse:
+    """The sign-in form."""
+    return page(request, "sign_in.html", next=_safe_next(next), error=None)
+
+
+def _safe_next(target: str) -> str:
+    # Only our own pages: no scheme, no other host, no protocol-relative URL.
+    return target if target.startswith("/") and not target.startswith("//") else "/app"
+
+
+@router.post("/sign-in", response_class=HTMLResponse)
+def sign_in(
+    request: Request,
+    session: SessionDep,
+    username: Text,
+    password: Text,
+    next: Annotated[str, Form(max_length=300)] = "/app",
+) -> Response:
+    """Check the password; on success set the session cookie and go on."""
+    try:
+        signed = users.sign_in(session, username, password, client_ip(request))
+    except users.SignInRefused as exc:
+        # The failure row must stay although the page answers an error: commit it here.
+        session.commit()
+        code = 429 if exc.locked else 401
+        return page(request, "sign_in.html", code, next=_safe_next(next), error=str(exc))
+    resp = see_other(_safe_next(next))
+    resp.set_cookie(
+        COOKIE,
+        signed.token,
+        max_age=int(users.SESSION_LIFETIME.total_seconds()),
+        httponly=True,
+        samesite="lax",
+        secure=set_cookie_secure(request),
+        path="/",
+    )
+    return resp
+
+
+@router.post("/sign-out")
+def sign_out(
+    request: Request, session: SessionDep, visitor: VisitorDep, csrf_token: Text = ""
+) -> Response:
+    """End the session and clear the cookie."""
+    check_post(visitor, csrf_token)
+    users.sign_out(session, request.cookies.get(COOKIE, ""))
+    resp = see_other("/sign-in")
+    resp.delete_cookie(COOKIE, path="/")
+    return resp
+
+
+@router.get("/app", response_class=HTMLResponse)
+def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTMLResponse:
+    """Each site's open burnouts, open orders and orders due."""
+    rows = queries.site_summaries(session, utcnow().date())
+    return page(request, "overview.html", visitor=visitor, rows=rows)
+
+
+@router.get("/app/report", response_class=HTMLResponse)
+def report_find(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    site_id: int | None = None,
+    tag: str = "",
+) -> Response:
+    """Find a fixture by site and tag for a burnout report."""
+    if site_id is not None and tag:
+        return see_other(f"/f/{site_id}/{_quote(tag)}")
+    return page(
+        request,
+        "report_find.html",
+        visitor=visitor,
+        sites=queries.sites(session),
+        tag=tag,
+        error=None,
+    )
+
+
+def _quote(tag: str) -> str:
+    from urllib.parse import quote
+
+    return quote(tag, safe="")
+
+
+@router.get("/f/{site_id}/{tag}", response_class=HTMLResponse)
+def report_form(
+    request: Request, session: SessionDep, visitor: VisitorDep, site_id: int, tag: str
+) -> HTMLResponse:
+    """The phone page for one fixture: pick the dark position and send."""
+    fixture = queries.fixture_by_tag(session, site_id, tag)
+    if fixture is None:
+        return page(
+            request,
+            "report_find.html",
+            404,
+            visitor=visitor,
+            sites=queries.sites(session),
+            tag=tag,
+            error=f"No fixture tagged {tag!r} at that site.",
+        )
+    return page(
+        request,
+        "report_form.html",
+        visitor=visitor,
+        fixture=fixture,
+        area=queries.area_name(session, fixture.area_id),
+        positions=queries.positions_of(session, fixture.id),
+        error=None,
+    )
+
+
+@router.post("/app/report", response_class=HTMLResponse)
+def report_send(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    position_id: Annotated[int, Form(ge=1, le=2**31 - 1)],
+    csrf_token: Text = "",
+    note: Annotated[str, Form(max_length=500)] = "",
+    replaced: Annotated[bool, Form()] = False,
+) -> Response:
+    """Record the burnout through the events service, then confirm."""
+    check_post(visitor, csrf_token, "report_burnout")
+    from service.events import service as events
+
+    try:
+        report = events.report_burnout(
+            session,
+            position_id=position_id,
+            reported_at=utcnow(),
+            note=note.strip() or None,
+            replaced=replaced,
+        )
+    except DomainError as exc:
+        return page(
+            request,
+            "message.html",
+            exc.status,
+            visitor=visitor,
+            title="Not recorded",
+            message=exc.detail,
+        )
+    return page(request, "report_done.html", visitor=visitor, report=report)
+
+
+@router.get("/app/work-orders", response_class=HTMLResponse)
+def order_list(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    site_id: int | None = None,
+    state: str = "",
+) -> HTMLResponse:
+    """Work orders, filtered by site and state."""
+    found = queries.orders(session, site_id, state or None)
+    return page(
+        request,
+        "orders.html",
+        visitor=visitor,
+        orders=found,
+        sites=queries.site_names(session),
+        site_id=site_id,
+        state=state,
+        states=list(orders_service.TRANSITIONS),
+    )
+
+
+@router.get("/app/work-orders/{order_id}", response_class=HTMLResponse)
+def order_detail(
+    request: Request, session: SessionDep, visitor: VisitorDep, order_id: int
+) -> HTMLResponse:
+    """One order, its lines and the state buttons the role and state allow."""
+    order = orders_service.get_order(session, order_id)
+    buttons = [
+        b for b in _BUTTONS if b[0] in orders_service.TRANSITIONS[order.state] and visitor.can(b[2])
+    ]
+    return page(
+        request,
+        "order.html",
+        visitor=visitor,
+        order=order,
+        buttons=buttons,
+        lines=orders_service.lines_of(session, order_id),
+        site=queries.site_names(session).get(order.site_id, ""),
+        area=queries.area_name(session, order.area_id),
+    )
+
+
+# (next state, button label, page action the role needs); completion and cancelling
+# need outcomes and reasons and are still done through the API.
+_BUTTONS = [("issued", "Issue", "issue_order"), ("in_progress", "Start work", "work_order")]
+
+
+@router.post("/app/work-orders/{order_id}/{to}", response_class=HTMLResponse)
+def order_move(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    order_id: int,
+    to: str,
+    csrf_token: Text = "",
+) -> Response:
+    """Move an order on (issue or start), if the role allows it."""
+    action = {b[0]: b[2] for b in _BUTTONS}.get(to)
+    if action is None:
+        return page(
+            request,
+            "message.html",
+            404,
+            visitor=visitor,
+            title="Unknown action",
+            message="That state change is not offered here.",
+        )
+    check_post(visitor, csrf_token, action)
+    try:
+        (orders_service.issue if to == "issued" else orders_service.start)(session, order_id)
+    except DomainError as exc:
+        return page(
+            request,
+            "message.html",
+            exc.status,
+            visitor=visitor,
+            title="Not changed",
+            message=exc.detail,
+        )
+    return see_other(f"/app/work-orders/{order_id}")
+
+
+@router.get("/app/work-orders/{order_id}/print", response_class=HTMLResponse)
+def order_print(session: SessionDep, visitor: VisitorDep, order_id: int) -> HTMLResponse:
+    """The printable order for a signed-in browser (the API route wants a Bearer key)."""
+    order = orders_service.get_order(session, order_id)
+    site = session.get(Site, order.site_id)
+    html = exports.print_page(
+        order,
+        orders_service.lines_of(session, order_id),
+        site.name if site else "",
+        queries.area_name(session, order.area_id),
+    )
+    return HTMLResponse(html)
