@@ -1,10 +1,12 @@
 """Fixture import speed: 100,000 fixtures (1-4 lamps each) from CSV into SQLite and PostgreSQL.
 
-Run: .venv/bin/python benchmarks/bench_import.py [--rows 100000] [--pg URL] [--http]
+Run: .venv/bin/python benchmarks/bench_import.py [--rows 100000] [--pg URL] [--scratch NAME]
+[--no-pg] [--http]
 Each database is fresh and migrated first. The timed part is the service call the API uses
 (parse_rows + import_fixtures + commit); --http also times the same upload through the
 HTTP endpoint with a test client. Target: at most 20 s per database on 2 cores.
-PostgreSQL: a scratch database `bench_import` is created and dropped on the server in --pg.
+PostgreSQL: a scratch database (--scratch, default `bench_import`) is created and dropped on
+the server in --pg.
 """
 
 from __future__ import annotations
@@ -188,6 +190,7 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--rows", type=int, default=100_000)
     ap.add_argument("--pg", default="postgresql+psycopg://postgres@127.0.0.1:5432/postgres")
+    ap.add_argument("--scratch", default="bench_import", help="scratch database name")
     ap.add_argument("--no-pg", action="store_true", help="skip PostgreSQL")
     ap.add_argument("--http", action="store_true", help="also time the HTTP endpoint")
     args = ap.parse_args()
@@ -205,7 +208,7 @@ def main() -> int:
                 if kind == "sqlite":
                     url = f"sqlite:///{tmp}/bench-{mode}.sqlite3"
                 else:
-                    url = pg_scratch(args.pg, "bench_import", create=True)
+                    url = pg_scratch(args.pg, args.scratch, create=True)
                 try:
                     migrate(url)
                     seed(url)
@@ -217,7 +220,7 @@ def main() -> int:
                     worst = max(worst, dt)
                 finally:
                     if kind == "postgresql":
-                        pg_scratch(args.pg, "bench_import", create=False)
+                        pg_scratch(args.pg, args.scratch, create=False)
     return 0 if worst <= 20 else 1
 
 
