@@ -25,6 +25,9 @@ class Settings(BaseSettings):
     migrations_dir: str | None = None
     # Rows accepted in one bulk upload before the request is refused (413).
     max_bulk_rows: int = Field(default=2_000_000, ge=1)
+    # Rows per statement on bulk paths (executemany batches, IN-list lookups); at most
+    # 30,000 so an IN list stays inside SQLite's 32,766 bound parameters.
+    bulk_chunk_rows: int = Field(default=10_000, ge=1, le=30_000)
 
 
 @lru_cache

@@ -9,29 +9,29 @@ records are in burn_hours.py.
 from __future__ import annotations
 
 import time
-from collections.abc import Sequence
 
 import numpy as np
 from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.api.bulk import RowErrors
-from service.readings import columns as colmod
-from service.readings.columns import Columns
+from service.config import get_settings
 from service.readings.models import VoltageReading
-from service.readings.store import bulk_insert
 from service.register.models import Area, Fixture, Site
+from service.uploads import cells
+from service.uploads.errors import RowErrors
+from service.uploads.parse import Columns, UploadSpec
+from service.uploads.write import Epoch, write_rows
 
 IntArray = NDArray[np.int64]
 FloatArray = NDArray[np.float64]
 
 VOLTAGE_COLUMNS = ("fixture_id", "area_id", "measured_at", "volts", "note")
+VOLTAGE_UPLOAD = UploadSpec(columns=VOLTAGE_COLUMNS)
 FUTURE_SKEW_S = 300.0  # seconds of client clock skew tolerated
 MAX_VOLTS = 1000.0
 # A reading below 1 V is no supply a lamp runs on; near zero it overflows the power laws.
 MIN_VOLTS = 1.0
-_CHUNK = 10_000
 
 
 def _lookup(
@@ -41,8 +41,9 @@ def _lookup(
     out: dict[int, tuple[int, int, str]] = {}
     uniq = np.unique(wanted[wanted > 0]).tolist()
     area_col = Fixture.area_id if model is Fixture else Area.id
-    for i in range(0, len(uniq), _CHUNK):
-        part = uniq[i : i + _CHUNK]
+    chunk = get_settings().bulk_chunk_rows
+    for i in range(0, len(uniq), chunk):
+        part = uniq[i : i + chunk]
         rows = session.execute(
             select(model.id, model.site_id, area_col, Site.time_zone)
             .join(Site, Site.id == model.site_id)
@@ -56,9 +57,12 @@ def _lookup(
 def resolve_targets(
     session: Session, c: Columns, errors: RowErrors
 ) -> tuple[IntArray, IntArray, IntArray, list[str | None]]:
-    """(fixture id or -1, area id or -1, site id, zone) per row; unknown ids are errors."""
-    fid = colmod.ids(c, "fixture_id", errors)
-    aid = colmod.ids(c, "area_id", errors)
+    """(fixture id or -1, area id or -1, site id, site time zone) per row; unknown ids are errors.
+
+    The zone is what a timestamp without an offset is read in (the readings' naive-time rule).
+    """
+    fid = cells.ids(c, "fixture_id", errors)
+    aid = cells.ids(c, "area_id", errors)
     both = (fid > 0) & (aid > 0)
     neither = (fid < 0) & (aid < 0)
     for i in np.nonzero(both | neither)[0]:
@@ -92,20 +96,6 @@ def resolve_targets(
     return fid, aid, site, zones
 
 
-def flag_rows(
-    errors: RowErrors,
-    c: Columns,
-    mask: NDArray[np.bool_],
-    field: str,
-    message: str,
-    *,
-    conflict: bool = False,
-) -> None:
-    """Add one row error per row where mask is true."""
-    for i in np.nonzero(mask)[0].tolist():
-        errors.add(int(c.numbers[i]), field, message, conflict=conflict)
-
-
 def scatter_mask(n: int, order: IntArray, mask: NDArray[np.bool_]) -> NDArray[np.bool_]:
     """A mask over sorted rows (order) as a mask over the upload's rows."""
     out = np.zeros(n, dtype=bool)
@@ -118,52 +108,30 @@ def ingest_voltages(session: Session, c: Columns, *, now: float | None = None) -
     now = time.time() if now is None else now
     errors = RowErrors()
     fid, aid, site, zones = resolve_targets(session, c, errors)
-    at = colmod.timestamps(c, "measured_at", zones, errors)
-    volts = colmod.floats(c, "volts", errors, required=True)
-    notes = [None if v is None else str(v) for v in c.get("note")]
-    flag_rows(
-        errors,
+    at = cells.timestamps(c, "measured_at", errors, zones)
+    volts = cells.floats(
         c,
-        np.isnan(at) & np.array([v is None for v in c.get("measured_at")], dtype=bool),
-        "measured_at",
-        "is required",
-    )
-    flag_rows(errors, c, at > now + FUTURE_SKEW_S, "measured_at", "is in the future")
-    flag_rows(
-        errors,
-        c,
-        ~np.isnan(volts) & ((volts < MIN_VOLTS) | (volts > MAX_VOLTS)),
         "volts",
-        f"must lie in [{MIN_VOLTS:g}, {MAX_VOLTS:g}] volts",
-    )
-    flag_rows(
         errors,
-        c,
-        np.array([v is not None and len(v) > 300 for v in notes], dtype=bool),
-        "note",
-        "at most 300 characters",
+        required=True,
+        lo=MIN_VOLTS,
+        hi=MAX_VOLTS,
+        out_of_range=f"must lie in [{MIN_VOLTS:g}, {MAX_VOLTS:g}] volts",
     )
+    notes = cells.texts(c, "note", errors, max_len=300)
+    errors.add_mask(c.numbers, ~c.given("measured_at"), "measured_at", "is required")
+    errors.add_mask(c.numbers, at > now + FUTURE_SKEW_S, "measured_at", "is in the future")
     errors.raise_if_any("voltage upload")
-    return bulk_insert(
+    write_rows(
         session,
         VoltageReading.__table__,  # type: ignore[arg-type]
-        ("site_id", "area_id", "fixture_id", "measured_at", "volts", "note"),
-        (
-            site,
-            aid,
-            fid,
-            at,
-            volts,
-            notes,
-        ),
-        ("int", "int", "int", "ts", "float", "str"),
+        {
+            "site_id": site,
+            "area_id": aid,
+            "fixture_id": fid,
+            "measured_at": Epoch(at),
+            "volts": volts,
+            "note": notes,
+        },
     )
-
-
-def columns_from_dicts(rows: Sequence[dict[str, object]], allowed: Sequence[str]) -> Columns:
-    """Rows given as dicts (e.g. one JSON body) as columns numbered from 1."""
-    return Columns(
-        allowed,
-        {name: [r.get(name) for r in rows] for name in allowed},
-        np.arange(1, len(rows) + 1, dtype=np.int64),
-    )
+    return len(c)
