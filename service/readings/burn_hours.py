@@ -53,6 +53,8 @@ BURN_COLUMNS = (
 BURN_UPLOAD = UploadSpec(columns=BURN_COLUMNS)
 TOL_H = 1e-6  # hours of rounding tolerated in the burn-hours-per-period check
 WHAT = "burn-hour upload"
+# Columns whose presence decides a row's kind and which rule it breaks (not their values).
+_GIVEN = ("day", "hours", "period_start", "period_end", "read_at", "counter_hours")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -69,7 +71,7 @@ class BurnCells:
     period_end: FloatArray
     day_start: FloatArray
     day_end: FloatArray
-    day_given: BoolArray  # a day cell was given (even one that was refused)
+    given: dict[str, BoolArray]  # per column: a cell was given (even one that was refused)
     read_at: FloatArray
     counter_hours: FloatArray
     counter_starts: FloatArray
@@ -121,7 +123,7 @@ def read_burn_cells(session: Session, c: Columns, errors: RowErrors) -> BurnCell
         period_end=cells.timestamps(c, "period_end", errors, zones),
         day_start=d_start,
         day_end=d_end,
-        day_given=c.given("day"),
+        given={k: c.given(k) for k in _GIVEN},
         read_at=cells.timestamps(c, "read_at", errors, zones),
         counter_hours=cells.floats(c, "counter_hours", errors),
         counter_starts=cells.floats(c, "counter_starts", errors),
@@ -132,18 +134,23 @@ def read_burn_cells(session: Session, c: Columns, errors: RowErrors) -> BurnCell
 def period_spans(b: BurnCells, errors: RowErrors, *, now: float) -> Spans:
     """Compute: each row's kind and period, with the rules a row breaks on its own."""
     flag = errors.add_mask
-    n, hours, ch, read_at = b.numbers, b.hours, b.counter_hours, b.read_at
-    counter = ~np.isnan(ch) | ~np.isnan(read_at)
-    has_day = b.day_given
-    has_period = ~np.isnan(b.period_start) | ~np.isnan(b.period_end)
-    flag(n, counter & ~np.isnan(hours), "hours", "a counter reading gives counter_hours, not hours")
-    flag(n, counter & np.isnan(ch), "counter_hours", "a counter reading needs counter_hours")
-    flag(n, counter & np.isnan(read_at), "read_at", "a counter reading needs read_at")
-    flag(n, ~counter & np.isnan(hours), "hours", "is required for a period total")
+    n, hours, ch, read_at, given = b.numbers, b.hours, b.counter_hours, b.read_at, b.given
+    counter = given["counter_hours"] | given["read_at"]
+    has_day = given["day"]
+    has_period = given["period_start"] | given["period_end"]
+    flag(n, counter & given["hours"], "hours", "a counter reading gives counter_hours, not hours")
+    flag(
+        n,
+        counter & ~given["counter_hours"],
+        "counter_hours",
+        "a counter reading needs counter_hours",
+    )
+    flag(n, counter & ~given["read_at"], "read_at", "a counter reading needs read_at")
+    flag(n, ~counter & ~given["hours"], "hours", "is required for a period total")
     flag(n, has_day & has_period, "day", "give a day or period_start and period_end, not both")
     flag(
         n,
-        ~counter & ~has_day & (np.isnan(b.period_start) | np.isnan(b.period_end)),
+        ~counter & ~has_day & ~(given["period_start"] & given["period_end"]),
         "period_end",
         "a period total needs period_start and period_end, or a day",
     )

@@ -11,7 +11,8 @@ in one numpy call). Columns left out take their Python-side default, else the se
 With return_ids=True the new primary keys come back in row order: on PostgreSQL taken from
 the table's sequence first (nextval, safe with concurrent writers), on SQLite the first
 row's rowid and the ones after it (the write lock is held from that first insert on).
-Every cursor is closed; an error leaves the transaction to the caller's rollback.
+Every cursor is closed; a driver error is raised as SQLAlchemy's (IntegrityError, ...) and
+leaves the transaction to the caller's rollback.
 """
 
 from __future__ import annotations
@@ -25,6 +26,7 @@ import numpy as np
 from numpy.typing import NDArray
 from sqlalchemy import Column, Connection, Table, insert
 from sqlalchemy.engine import Dialect
+from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
 from service.config import get_settings
@@ -68,10 +70,18 @@ def write_rows(
     if any(len(v) != n for v in lists):
         raise ValueError("every column must have one value per row")
     pk = _pk_name(table) if return_ids else None
-    if dialect.name == "postgresql" and dialect.driver == "psycopg":
-        return _copy(conn, table, names, lists, n, pk)
-    if dialect.name == "sqlite":
-        return _sqlite(conn, table, names, lists, n, pk)
+    dbapi: Any = dialect.loaded_dbapi
+    try:
+        if dialect.name == "postgresql" and dialect.driver == "psycopg":
+            return _copy(conn, table, names, lists, n, pk)
+        if dialect.name == "sqlite":
+            return _sqlite(conn, table, names, lists, n, pk)
+    except dbapi.Error as exc:
+        # Raw driver errors as SQLAlchemy's (IntegrityError: 409 for a race between two
+        # uploads; OperationalError: 503 when the database is busy), like any other query.
+        raise DBAPIError.instance(
+            f"bulk insert into {table.name}", None, exc, dbapi.Error, dialect=dialect
+        ) from exc
     return _core(conn, table, names, lists, pk)
 
 
