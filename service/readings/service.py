@@ -36,22 +36,37 @@ MIN_VOLTS = 1.0
 
 def _lookup(
     session: Session, model: type[Fixture] | type[Area], wanted: IntArray
-) -> dict[int, tuple[int, int, str]]:
-    """id -> (site id, area id, site time zone) for existing fixtures or areas."""
-    out: dict[int, tuple[int, int, str]] = {}
+) -> tuple[IntArray, IntArray, NDArray[np.object_]]:
+    """Existing fixtures or areas among wanted: (sorted ids, their site ids, site time zones)."""
+    found: list[tuple[int, int, str]] = []
     uniq = np.unique(wanted[wanted > 0]).tolist()
-    area_col = Fixture.area_id if model is Fixture else Area.id
     chunk = get_settings().bulk_chunk_rows
     for i in range(0, len(uniq), chunk):
         part = uniq[i : i + chunk]
         rows = session.execute(
-            select(model.id, model.site_id, area_col, Site.time_zone)
+            select(model.id, model.site_id, Site.time_zone)
             .join(Site, Site.id == model.site_id)
             .where(model.id.in_(part))
         ).all()
-        for r in rows:
-            out[int(r[0])] = (int(r[1]), int(r[2]), str(r[3]))
-    return out
+        found.extend((int(r[0]), int(r[1]), str(r[2])) for r in rows)
+    found.sort()
+    ids = np.array([f[0] for f in found], dtype=np.int64)
+    sites = np.array([f[1] for f in found], dtype=np.int64)
+    zones = np.array([f[2] for f in found], dtype=object)
+    return ids, sites, zones
+
+
+def _match(
+    wanted: IntArray, rows: NDArray[np.bool_], table: tuple[IntArray, IntArray, NDArray[np.object_]]
+) -> tuple[NDArray[np.bool_], IntArray, NDArray[np.object_]]:
+    """For rows naming an id: (found, site id, zone); searchsorted over the sorted ids."""
+    ids, sites, zones = table
+    if ids.size == 0:
+        none = np.zeros(wanted.size, dtype=bool)
+        return none, np.full(wanted.size, -1, dtype=np.int64), np.full(wanted.size, None, object)
+    at = np.minimum(np.searchsorted(ids, wanted), ids.size - 1)
+    found = rows & (ids[at] == wanted)
+    return found, sites[at], zones[at]
 
 
 def resolve_targets(
@@ -63,37 +78,26 @@ def resolve_targets(
     """
     fid = cells.ids(c, "fixture_id", errors)
     aid = cells.ids(c, "area_id", errors)
-    both = (fid > 0) & (aid > 0)
-    neither = (fid < 0) & (aid < 0)
-    for i in np.nonzero(both | neither)[0]:
-        errors.add(
-            int(c.numbers[i]),
-            "fixture_id",
-            "give either fixture_id or area_id, not both or neither",
-        )
-    fx = _lookup(session, Fixture, fid)
-    ar = _lookup(session, Area, aid)
-    n = len(c)
-    site = np.full(n, -1, dtype=np.int64)
-    zones: list[str | None] = [None] * n
-    fl: list[int] = fid.tolist()
-    al: list[int] = aid.tolist()
-    for row in range(n):  # a dict lookup per row: ids come as arbitrary integers
-        if fl[row] > 0 and al[row] < 0:
-            hit = fx.get(fl[row])
-            if hit is None:
-                errors.add(int(c.numbers[row]), "fixture_id", f"fixture {fl[row]} does not exist")
-                continue
-            site[row] = hit[0]
-            zones[row] = hit[2]
-        elif al[row] > 0 and fl[row] < 0:
-            hit = ar.get(al[row])
-            if hit is None:
-                errors.add(int(c.numbers[row]), "area_id", f"area {al[row]} does not exist")
-                continue
-            site[row] = hit[0]
-            zones[row] = hit[2]
-    return fid, aid, site, zones
+    errors.add_mask(
+        c.numbers,
+        (fid > 0) == (aid > 0),
+        "fixture_id",
+        "give either fixture_id or area_id, not both or neither",
+    )
+    by_fixture = (fid > 0) & (aid < 0)
+    by_area = (aid > 0) & (fid < 0)
+    site = np.full(len(c), -1, dtype=np.int64)
+    zones = np.full(len(c), None, dtype=object)
+    for ids, rows, model, field, label in (
+        (fid, by_fixture, Fixture, "fixture_id", "fixture"),
+        (aid, by_area, Area, "area_id", "area"),
+    ):
+        found, sites, zone = _match(ids, rows, _lookup(session, model, ids[rows]))
+        site[found] = sites[found]
+        zones[found] = zone[found]
+        for i in np.nonzero(rows & ~found)[0].tolist():
+            errors.add(int(c.numbers[i]), field, f"{label} {int(ids[i])} does not exist")
+    return fid, aid, site, zones.tolist()
 
 
 def scatter_mask(n: int, order: IntArray, mask: NDArray[np.bool_]) -> NDArray[np.bool_]:

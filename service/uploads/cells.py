@@ -87,6 +87,10 @@ def floats(
     out_of_range: str = "",
 ) -> FloatArray:
     """A numeric column; NaN where blank or bad. lo/hi: the allowed range (inclusive)."""
+    if not c.has(name):
+        if required:
+            errors.add_mask(c.numbers, np.ones(len(c), dtype=bool), name, "is required")
+        return np.full(len(c), np.nan)
     raw = c.get(name)
     try:  # numpy reads number text and JSON numbers in C; None becomes NaN
         if bool in set(map(type, raw)):
@@ -156,12 +160,16 @@ def ids(c: Columns, name: str, errors: RowErrors) -> IntArray:
 
 def bools(c: Columns, name: str, errors: RowErrors) -> BoolArray:
     """A true/false column; False where blank."""
+    if not c.has(name):
+        return np.zeros(len(c), dtype=bool)
     return np.array([bool(v) for v in optional_bools(c, name, errors)], dtype=bool)
 
 
 def optional_bools(c: Columns, name: str, errors: RowErrors) -> list[bool | None]:
     """A true/false column; None where blank or bad."""
     out: list[bool | None] = []
+    if not c.has(name):
+        return [None] * len(c)
     for i, v in enumerate(c.get(name)):
         if v is None:
             out.append(None)
@@ -210,6 +218,8 @@ def _each(
     """parse(cell, zone) per non-blank cell, cached per (cell, zone); CellError is recorded."""
     cache: dict[tuple[Any, str | None], T] = {}
     out: list[T | None] = []
+    if not c.has(name):
+        return [None] * len(c)
     for i, v in enumerate(c.get(name)):
         if v is None:
             out.append(None)
@@ -271,6 +281,8 @@ def timestamps(
     c: Columns, name: str, errors: RowErrors, zones: Sequence[str | None] | None = None
 ) -> FloatArray:
     """A timestamp column as epoch seconds; NaN where blank or bad (zones: per row)."""
+    if not c.has(name):
+        return np.full(len(c), np.nan)
     cells = _each(c, name, errors, zones, lambda v, z: read_timestamp(v, z).timestamp())
     return np.array([np.nan if t is None else t for t in cells], dtype=np.float64)
 
@@ -287,6 +299,8 @@ def days(
     c: Columns, name: str, errors: RowErrors, zones: Sequence[str | None] | None = None
 ) -> tuple[FloatArray, FloatArray]:
     """A calendar-day column in each row's zone as (start, end) epoch seconds; NaN if blank."""
+    if not c.has(name):
+        return np.full(len(c), np.nan), np.full(len(c), np.nan)
     spans = _each(c, name, errors, zones, _day_span)
     start = np.array([np.nan if s is None else s[0] for s in spans], dtype=np.float64)
     end = np.array([np.nan if s is None else s[1] for s in spans], dtype=np.float64)

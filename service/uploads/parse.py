@@ -67,9 +67,15 @@ class Columns:
         col = self.cols.get(name)
         return col if col is not None else [None] * len(self)
 
+    def has(self, name: str) -> bool:
+        """Whether the upload has the column (a JSON key given in some row, a CSV header)."""
+        return name in self.cols
+
     def given(self, name: str) -> NDArray[np.bool_]:
         """True where the column has a cell (not blank)."""
-        return np.fromiter((v is not None for v in self.get(name)), dtype=bool, count=len(self))
+        if name not in self.cols:
+            return np.zeros(len(self), dtype=bool)
+        return np.fromiter((v is not None for v in self.cols[name]), dtype=bool, count=len(self))
 
     def row(self, i: int) -> dict[str, Any]:
         """Row i (0-based) as a dict of its given cells."""
@@ -116,7 +122,9 @@ def read_path(path: str, spec: UploadSpec) -> Columns:
 def columns_from_dicts(rows: Sequence[Mapping[str, Any]], names: Sequence[str]) -> Columns:
     """Rows given as dicts (one JSON body of a single-row POST) as columns numbered from 1."""
     cols = {n: [_norm(r.get(n)) for r in rows] for n in names}
-    return Columns(names, cols, np.arange(1, len(rows) + 1, dtype=np.int64))
+    # A key no row gives is an absent column, as in a CSV header without it.
+    given = {n: col for n, col in cols.items() if any(v is not None for v in col)}
+    return Columns(names, given, np.arange(1, len(rows) + 1, dtype=np.int64))
 
 
 def _check_size(n: int) -> None:

@@ -120,17 +120,22 @@ def _db_values(col: ColumnValues, column: Column[Any], dialect: Dialect) -> list
 
 
 def _epoch_text(seconds: NDArray[np.float64], dialect_name: str) -> list[Any]:
-    """Epoch seconds as timestamp text: with +00 for PostgreSQL; SQLite as SQLAlchemy stores it."""
+    """Epoch seconds as timestamp text: with +00 for PostgreSQL; SQLite as SQLAlchemy stores it.
+
+    Each distinct value is rendered once (uploads repeat days and times over many rows).
+    """
     blank = np.isnan(seconds)
-    us = np.round(np.where(blank, 0.0, seconds) * 1e6).astype("datetime64[us]")
-    text: list[Any] = np.datetime_as_string(us, unit="us").tolist()
+    us = np.round(np.where(blank, 0.0, seconds) * 1e6).astype(np.int64)
+    uniq, inverse = np.unique(us, return_inverse=True)
+    text = np.datetime_as_string(uniq.astype("datetime64[us]"), unit="us").tolist()
     if dialect_name == "postgresql":
-        text = [t + "+00" for t in text]
+        rendered = [t + "+00" for t in text]
     else:  # SQLAlchemy's SQLite DATETIME storage format: "YYYY-MM-DD HH:MM:SS.ffffff"
-        text = [t.replace("T", " ") for t in text]
+        rendered = [t.replace("T", " ") for t in text]
+    out: list[Any] = np.array(rendered, dtype=object)[inverse.ravel()].tolist()
     for i in np.nonzero(blank)[0].tolist():
-        text[i] = None
-    return text
+        out[i] = None
+    return out
 
 
 def _memo(proc: Callable[[Any], Any]) -> Callable[[Any], Any]:
