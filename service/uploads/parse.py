@@ -164,33 +164,79 @@ def _csv_columns(text: str, spec: UploadSpec) -> Columns:
     except csv.Error as exc:
         raise Invalid(f"The CSV header cannot be read: {exc}.") from None
     _check_header(names, spec)
+    cols = _plain_columns(text, len(names))
+    if cols is None:
+        cols = _read_rows(reader, len(names))
+    n = len(cols[0]) if cols else 0
+    # Lines with only blank cells are skipped; their numbers still count.
+    numbers = np.arange(2, n + 2, dtype=np.int64)
+    cleaned = [_clean(col) for col in cols]
+    if cleaned and not all(map(all, cleaned)):
+        keep = np.zeros(n, dtype=bool)
+        for col in cleaned:
+            keep |= np.fromiter((v is not None for v in col), dtype=bool, count=n)
+        if not keep.all():
+            idx = np.nonzero(keep)[0]
+            numbers = numbers[idx]
+            cleaned = [[col[i] for i in idx.tolist()] for col in cleaned]
+    _check_size(numbers.size)
+    return Columns(names, dict(zip(names, cleaned, strict=True)), numbers)
+
+
+def _plain_columns(text: str, width: int) -> list[list[str]] | None:
+    """The data rows' columns by pyarrow's CSV reader, for a plain file; None otherwise.
+
+    Plain: no quote characters, no carriage return outside a CRLF line end, and every
+    line as wide as the header. Such a file splits the same way in any CSV reader, so the
+    fast reader and _read_rows agree; anything else (quoted cells, blank lines in a file of
+    several columns, short or long rows) goes to _read_rows, which names every bad row.
+    """
+    if '"' in text or text.count("\r") != text.count("\r\n"):
+        return None
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    body = text[text.index("\n") + 1 :] if "\n" in text else ""
+    if not body.strip():
+        return None
+    names = [f"c{i}" for i in range(width)]
     try:
-        body_rows = list(reader)
+        table = pacsv.read_csv(
+            io.BytesIO(body.encode()),
+            read_options=pacsv.ReadOptions(column_names=names),
+            parse_options=pacsv.ParseOptions(quote_char=False, ignore_empty_lines=False),
+            convert_options=pacsv.ConvertOptions(
+                column_types={n: pa.string() for n in names}, strings_can_be_null=False
+            ),
+        )
+    except pa.ArrowInvalid:
+        return None
+    return [table.column(n).to_pylist() for n in names]
+
+
+def _read_rows(reader: Any, width: int) -> list[list[str]]:
+    """The data rows' columns by the csv module; every short or long row is an error."""
+    try:
+        rows = list(reader)
     except csv.Error as exc:  # e.g. a bare carriage return inside an unquoted cell
         raise Invalid(
             f"The CSV upload cannot be read at line {reader.line_num}: {exc}.",
             errors=[{"row": reader.line_num, "field": None, "message": str(exc)}],
         ) from None
-    # Blank lines (no cells, or only blank ones) are skipped; all() and join run in C.
-    keep = [i for i, r in enumerate(body_rows) if r and (all(r) or "".join(r).strip())]
-    numbers = np.arange(2, len(body_rows) + 2, dtype=np.int64)
-    if len(keep) != len(body_rows):
-        body_rows = [body_rows[i] for i in keep]
-        numbers = numbers[keep]
-    _check_size(len(body_rows))
-    width = len(names)
-    lengths = np.fromiter(map(len, body_rows), dtype=np.int64, count=len(body_rows))
+    # A line with no cells at all is blank: one empty cell per column, skipped later.
+    rows = [r if r else [""] * width for r in rows]
+    _check_size(sum(1 for r in rows if any(r)))
+    lengths = np.fromiter(map(len, rows), dtype=np.int64, count=len(rows))
     errors = RowErrors()
     for i in np.nonzero(lengths != width)[0].tolist():
-        errors.add(
-            int(numbers[i]),
-            None,
-            f"the row has {lengths[i]} cells but the header has {width} columns",
-        )
+        if "".join(rows[i]).strip():  # a line of only blank cells is skipped, whatever its width
+            errors.add(
+                i + 2, None, f"the row has {lengths[i]} cells but the header has {width} columns"
+            )
+        else:
+            rows[i] = [""] * width
     errors.raise_if_any("CSV upload")
-    transposed = list(zip(*body_rows, strict=True)) if body_rows else [()] * width
-    cols = {h: _clean(col) for h, col in zip(names, transposed, strict=True)}
-    return Columns(names, cols, numbers)
+    return [list(col) for col in zip(*rows, strict=True)] if rows else [[] for _ in range(width)]
 
 
 def _clean(col: Sequence[str]) -> list[Any]:
