@@ -2,8 +2,8 @@
 
 write_rows(session, table, columns) inserts rows given as parallel columns:
 - PostgreSQL (psycopg 3): COPY ... FROM STDIN through psycopg's row writer (write_row);
-- SQLite: the sqlite3 driver's executemany over tuples, in chunks of `bulk_chunk_rows`;
-- any other database: Core executemany (SQLAlchemy's insertmanyvalues), same chunks.
+- SQLite: the sqlite3 driver's executemany over tuples, in chunks of `bulk_chunk_rows`
+(the service runs on these two only).
 Columns are Python sequences (passed through each column type's bind processor, memoised,
 so values are stored exactly as an ORM insert stores them), numpy arrays (float NaN and a
 negative int mean NULL: ids are positive) or Epoch (timestamps as epoch seconds, rendered
@@ -24,7 +24,7 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-from sqlalchemy import Column, Connection, Table, insert
+from sqlalchemy import Column, Connection, Table
 from sqlalchemy.engine import Dialect
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
@@ -82,7 +82,9 @@ def write_rows(
         raise DBAPIError.instance(
             f"bulk insert into {table.name}", None, exc, dbapi.Error, dialect=dialect
         ) from exc
-    return _core(conn, table, names, lists, pk)
+    raise RuntimeError(
+        f"bulk writes need PostgreSQL with psycopg 3 or SQLite, not {dialect.name}+{dialect.driver}"
+    )
 
 
 def _pk_name(table: Table) -> str:
@@ -207,17 +209,3 @@ def _sqlite(
         return list(range(first, first + n))
     finally:
         cur.close()
-
-
-def _core(
-    conn: Connection, table: Table, names: list[str], lists: list[list[Any]], pk: str | None
-) -> list[int]:
-    ids: list[int] = []
-    for batch in _batches(zip(*lists, strict=True)):
-        params = [dict(zip(names, row, strict=True)) for row in batch]
-        if pk is None:
-            conn.execute(insert(table), params)
-        else:
-            stmt = insert(table).returning(table.c[pk], sort_by_parameter_order=True)
-            ids.extend(int(i) for i in conn.execute(stmt, params).scalars())
-    return ids
