@@ -109,8 +109,9 @@ class BurnRecords:
 
 
 def read_burn_cells(session: Session, c: Columns, errors: RowErrors) -> BurnCells:
-    """Load: the rows' targets (one query per table) and their typed cells."""
-    fid, aid, site, zones = resolve_targets(session, c, errors)
+    """Load: the rows' targets (one query per table, rows locked) and their typed cells."""
+    # The overlap check reads what is stored for each target: lock the targets first.
+    fid, aid, site, zones = resolve_targets(session, c, errors, lock=True)
     d_start, d_end = cells.days(c, "day", errors, zones)
     return BurnCells(
         numbers=c.numbers,

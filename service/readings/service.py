@@ -35,19 +35,26 @@ MIN_VOLTS = 1.0
 
 
 def _lookup(
-    session: Session, model: type[Fixture] | type[Area], wanted: IntArray
+    session: Session, model: type[Fixture] | type[Area], wanted: IntArray, lock: bool
 ) -> tuple[IntArray, IntArray, NDArray[np.object_]]:
-    """Existing fixtures or areas among wanted: (sorted ids, their site ids, site time zones)."""
+    """Existing fixtures or areas among wanted: (sorted ids, their site ids, site time zones).
+
+    lock: hold their rows (FOR NO KEY UPDATE, in id order) until the transaction ends, so
+    two uploads for the same targets check what is stored one after the other.
+    """
     found: list[tuple[int, int, str]] = []
     uniq = np.unique(wanted[wanted > 0]).tolist()
     chunk = get_settings().bulk_chunk_rows
     for i in range(0, len(uniq), chunk):
-        part = uniq[i : i + chunk]
-        rows = session.execute(
+        stmt = (
             select(model.id, model.site_id, Site.time_zone)
             .join(Site, Site.id == model.site_id)
-            .where(model.id.in_(part))
-        ).all()
+            .where(model.id.in_(uniq[i : i + chunk]))
+            .order_by(model.id)
+        )
+        if lock:  # SQLite has no row locks; its writers queue on BEGIN IMMEDIATE instead
+            stmt = stmt.with_for_update(key_share=True, of=model)  # FOR NO KEY UPDATE
+        rows = session.execute(stmt).all()
         found.extend((int(r[0]), int(r[1]), str(r[2])) for r in rows)
     found.sort()
     ids = np.array([f[0] for f in found], dtype=np.int64)
@@ -70,11 +77,12 @@ def _match(
 
 
 def resolve_targets(
-    session: Session, c: Columns, errors: RowErrors
+    session: Session, c: Columns, errors: RowErrors, *, lock: bool = False
 ) -> tuple[IntArray, IntArray, IntArray, list[str | None]]:
     """(fixture id or -1, area id or -1, site id, site time zone) per row; unknown ids are errors.
 
     The zone is what a timestamp without an offset is read in (the readings' naive-time rule).
+    lock: lock the targets' rows (for a check of stored rows that decides the write).
     """
     fid = cells.ids(c, "fixture_id", errors)
     aid = cells.ids(c, "area_id", errors)
@@ -92,7 +100,7 @@ def resolve_targets(
         (fid, by_fixture, Fixture, "fixture_id", "fixture"),
         (aid, by_area, Area, "area_id", "area"),
     ):
-        found, sites, zone = _match(ids, rows, _lookup(session, model, ids[rows]))
+        found, sites, zone = _match(ids, rows, _lookup(session, model, ids[rows], lock))
         site[found] = sites[found]
         zones[found] = zone[found]
         for i in np.nonzero(rows & ~found)[0].tolist():
