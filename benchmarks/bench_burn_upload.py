@@ -4,15 +4,18 @@
 (FastAPI TestClient): parsing, vectorised validation (targets, negative and excess hours,
 future dates, overlaps with stored rows), COPY into burn_hour_records, commit. A second
 upload of the same file must be refused (409: every row overlaps) and store nothing.
-Scratch database bench_burn_upload only.
+Scratch database only: bench_burn_upload on the local server (--scratch NAME for another
+name), or with --sqlite a temporary SQLite file.
 
-Run: python benchmarks/bench_burn_upload.py [rows]
+Run: python benchmarks/bench_burn_upload.py [rows] [--scratch NAME] [--sqlite]
 """
 
 from __future__ import annotations
 
+import argparse
 import os
 import sys
+import tempfile
 import time
 from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
@@ -20,11 +23,11 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 PG_ADMIN = "postgresql+psycopg://postgres@127.0.0.1:5432/postgres"
-PG_URL = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_burn_upload"
+PG_SERVER = "postgresql+psycopg://postgres@127.0.0.1:5432/"
 N_FIXTURES = 10_000
 
 
-def setup() -> tuple[list[int], str]:
+def setup(url: str, scratch: str | None) -> tuple[list[int], str]:
     """Fresh database with one site, 20 areas, N_FIXTURES fixtures; returns ids and a key."""
     from sqlalchemy import create_engine, insert, text
     from sqlalchemy.orm import Session
@@ -35,12 +38,13 @@ def setup() -> tuple[list[int], str]:
     from service.register.models import Area, Fixture, Site
     from tests.conftest import migrate
 
-    admin = create_engine(PG_ADMIN, isolation_level="AUTOCOMMIT")
-    with admin.connect() as c:
-        c.execute(text("DROP DATABASE IF EXISTS bench_burn_upload"))
-        c.execute(text("CREATE DATABASE bench_burn_upload"))
-    admin.dispose()
-    eng = make_engine(PG_URL)
+    if scratch is not None:
+        admin = create_engine(PG_ADMIN, isolation_level="AUTOCOMMIT")
+        with admin.connect() as c:
+            c.execute(text(f'DROP DATABASE IF EXISTS "{scratch}" WITH (FORCE)'))
+            c.execute(text(f'CREATE DATABASE "{scratch}"'))
+        admin.dispose()
+    eng = make_engine(url)
     migrate(eng)
     with Session(eng) as s:
         site = Site(
@@ -94,10 +98,24 @@ def csv_body(ids: list[int], rows: int) -> bytes:
 
 
 def main() -> None:
-    rows = int(sys.argv[1]) if len(sys.argv) > 1 else 1_000_000
-    ids, key = setup()
+    """Upload the CSV once (stored), then again (refused), printing the timings."""
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("rows", nargs="?", type=int, default=1_000_000)
+    ap.add_argument("--scratch", default="bench_burn_upload", help="scratch database name")
+    ap.add_argument("--sqlite", action="store_true", help="a temporary SQLite file instead")
+    args = ap.parse_args()
+    with tempfile.TemporaryDirectory() as tmp:
+        if args.sqlite:
+            run(f"sqlite:///{tmp}/bench.sqlite3", None, args.rows)
+        else:
+            run(PG_SERVER + args.scratch, args.scratch, args.rows)
+
+
+def run(url: str, scratch: str | None, rows: int) -> None:
+    """One database: set up, time the two uploads, count what was stored."""
+    ids, key = setup(url, scratch)
     body = csv_body(ids, rows)
-    os.environ["LAMPKEEPER_DATABASE_URL"] = PG_URL
+    os.environ["LAMPKEEPER_DATABASE_URL"] = url
     from fastapi.testclient import TestClient
     from sqlalchemy import text
 
@@ -127,6 +145,14 @@ def main() -> None:
         n = c.execute(text("SELECT count(*) FROM burn_hour_records")).scalar()
     print(f"rows stored: {n:,}")
     get_engine().dispose()
+    get_engine.cache_clear()
+    if scratch is not None:
+        from sqlalchemy import create_engine
+
+        admin = create_engine(PG_ADMIN, isolation_level="AUTOCOMMIT")
+        with admin.connect() as c:
+            c.execute(text(f'DROP DATABASE IF EXISTS "{scratch}" WITH (FORCE)'))
+        admin.dispose()
 
 
 if __name__ == "__main__":

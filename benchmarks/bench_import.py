@@ -1,10 +1,12 @@
 """Fixture import speed: 100,000 fixtures (1-4 lamps each) from CSV into SQLite and PostgreSQL.
 
-Run: .venv/bin/python benchmarks/bench_import.py [--rows 100000] [--pg URL] [--http]
+Run: .venv/bin/python benchmarks/bench_import.py [--rows 100000] [--pg URL] [--scratch NAME]
+[--no-pg] [--http]
 Each database is fresh and migrated first. The timed part is the service call the API uses
-(parse_rows + import_fixtures + commit); --http also times the same upload through the
+(read_upload + import_fixtures + commit); --http also times the same upload through the
 HTTP endpoint with a test client. Target: at most 20 s per database on 2 cores.
-PostgreSQL: a scratch database `bench_import` is created and dropped on the server in --pg.
+PostgreSQL: a scratch database (--scratch, default `bench_import`) is created and dropped on
+the server in --pg.
 """
 
 from __future__ import annotations
@@ -25,11 +27,15 @@ from sqlalchemy.orm import Session
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from service.api.bulk import RawBody, parse_rows  # noqa: E402
 from service.catalogue.models import LampType  # noqa: E402
 from service.db.session import make_engine  # noqa: E402
-from service.register.fixture_bulk import FIXTURE_COLUMNS, import_fixtures  # noqa: E402
+from service.register.fixture_bulk import (  # noqa: E402
+    FIXTURE_COLUMNS,
+    FIXTURE_UPLOAD,
+    import_fixtures,
+)
 from service.register.models import Area, LampPosition, Site  # noqa: E402
+from service.uploads.parse import RawBody, read_upload  # noqa: E402
 
 SITE = "Bench Campus"
 AREAS = ["North Hall", "South Hall", "Car Park", "Plant Room", "Offices"]
@@ -115,7 +121,7 @@ def run_service(url: str, data: bytes) -> tuple[float, int, int]:
     engine = make_engine(url)
     with Session(engine) as s:
         t0 = time.perf_counter()
-        rows = parse_rows(RawBody(data, "text/csv"), FIXTURE_COLUMNS)
+        rows = read_upload(RawBody(data, "text/csv"), FIXTURE_UPLOAD)
         t1 = time.perf_counter()
         result = import_fixtures(s, rows)
         t2 = time.perf_counter()
@@ -188,6 +194,7 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--rows", type=int, default=100_000)
     ap.add_argument("--pg", default="postgresql+psycopg://postgres@127.0.0.1:5432/postgres")
+    ap.add_argument("--scratch", default="bench_import", help="scratch database name")
     ap.add_argument("--no-pg", action="store_true", help="skip PostgreSQL")
     ap.add_argument("--http", action="store_true", help="also time the HTTP endpoint")
     args = ap.parse_args()
@@ -205,7 +212,7 @@ def main() -> int:
                 if kind == "sqlite":
                     url = f"sqlite:///{tmp}/bench-{mode}.sqlite3"
                 else:
-                    url = pg_scratch(args.pg, "bench_import", create=True)
+                    url = pg_scratch(args.pg, args.scratch, create=True)
                 try:
                     migrate(url)
                     seed(url)
@@ -217,7 +224,7 @@ def main() -> int:
                     worst = max(worst, dt)
                 finally:
                     if kind == "postgresql":
-                        pg_scratch(args.pg, "bench_import", create=False)
+                        pg_scratch(args.pg, args.scratch, create=False)
     return 0 if worst <= 20 else 1
 
 

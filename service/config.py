@@ -36,6 +36,9 @@ class Settings(BaseSettings):
     idempotency_ttl_h: float = Field(default=24.0, gt=0, le=24 * 365)
     # How long an unfinished claim blocks a retry before it counts as abandoned (seconds).
     idempotency_inflight_s: float = Field(default=300.0, gt=0, le=86_400)
+    # Rows per statement on bulk paths (executemany batches, IN-list lookups); at most
+    # 30,000 so an IN list stays inside SQLite's 32,766 bound parameters.
+    bulk_chunk_rows: int = Field(default=10_000, ge=1, le=30_000)
 
 
 @lru_cache

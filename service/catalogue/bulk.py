@@ -2,25 +2,37 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
 from pydantic import ValidationError
-from sqlalchemy import Table, bindparam, insert, update
+from sqlalchemy import Table, bindparam, update
 from sqlalchemy.orm import Session
 
-from service.api.bulk import Row, RowErrors, as_json_list
 from service.api.errors import Invalid
 from service.catalogue import repository as repo
 from service.catalogue.models import LampType
 from service.catalogue.schemas import LAMP_TYPE_FIELDS, LampTypeCreate, cross_check
 from service.db.base import utcnow
+from service.uploads import cells
+from service.uploads.errors import RowErrors
+from service.uploads.parse import Columns, UploadSpec
+from service.uploads.write import write_rows
 
 ON_DUPLICATE = ("error", "update")
 # Columns a CSV header must have (the others may be left out).
 LAMP_TYPE_REQUIRED = ("code", "technology", "rated_watts", "rated_volts", "rated_life_h")
+LAMP_TYPE_UPLOAD = UploadSpec(columns=LAMP_TYPE_FIELDS, required=LAMP_TYPE_REQUIRED)
 _JSON_FIELDS = ("mortality_points", "lumen_points", "extra")
+# Number and true/false fields, read by the upload pipeline's cell readers (one wording for
+# every upload) before the schema checks ranges and the rules across fields.
+_NUMBER_FIELDS = tuple(
+    n for n, f in LampTypeCreate.model_fields.items() if f.annotation in (float, float | None)
+)
+_BOOL_FIELDS = tuple(
+    n for n, f in LampTypeCreate.model_fields.items() if f.annotation in (bool, bool | None)
+)
 
 
 @dataclass(frozen=True)
@@ -41,9 +53,31 @@ def check_on_duplicate(on_duplicate: str) -> None:
         )
 
 
-def import_lamp_types(
-    session: Session, rows: Sequence[Row], on_duplicate: str = "error"
-) -> ImportResult:
+def _typed_rows(c: Columns, errors: RowErrors) -> list[dict[str, Any] | None]:
+    """Each row's given cells with numbers, booleans and JSON lists read; None if one is bad."""
+    typed: dict[str, list[Any]] = {}
+    for name in _NUMBER_FIELDS:
+        x = cells.floats(c, name, errors)
+        typed[name] = [None if np.isnan(v) else v for v in x.tolist()]
+    for name in _BOOL_FIELDS:
+        typed[name] = cells.optional_bools(c, name, errors)
+    for name in _JSON_FIELDS:
+        typed[name] = cells.json_values(c, name, errors, "[[0, 1.0], [5000, 0.9]]")
+    out: list[dict[str, Any] | None] = []
+    for i, number in enumerate(c.numbers.tolist()):
+        if number in errors.bad_rows:
+            out.append(None)
+            continue
+        row = c.row(i)
+        for name, col in typed.items():
+            row.pop(name, None)
+            if col[i] is not None:
+                row[name] = col[i]
+        out.append(row)
+    return out
+
+
+def import_lamp_types(session: Session, c: Columns, on_duplicate: str = "error") -> ImportResult:
     """Validate every row, then insert new codes and (on_duplicate='update') update others."""
     check_on_duplicate(on_duplicate)
     errors = RowErrors()
@@ -51,50 +85,41 @@ def import_lamp_types(
     seen: dict[str, int] = {}
     new: list[dict[str, Any]] = []
     changed: list[dict[str, Any]] = []
-    for row in rows:
-        data = dict(row.data)
-        bad = False
-        for name in _JSON_FIELDS:
-            if data.get(name) is not None:
-                try:
-                    data[name] = as_json_list(data[name])
-                except ValueError as exc:
-                    errors.add(row.number, name, str(exc))
-                    bad = True
-        if bad:
+    for number, data in zip(c.numbers.tolist(), _typed_rows(c, errors), strict=True):
+        if data is None:
             continue
         try:
             body = LampTypeCreate.model_validate(data)
         except ValidationError as exc:
-            errors.add_validation(exc, row.number)
+            errors.add_validation(exc, number)
             continue
         values = body.stored_values()
         problems = cross_check(values)
         for field, message in problems:
-            errors.add(row.number, field, message)
+            errors.add(number, field, message)
         if problems:
             continue
         if body.code in seen:
-            errors.add(row.number, "code", f"code also on row {seen[body.code]} of this file")
+            errors.add(number, "code", f"code also on row {seen[body.code]} of this file")
             continue
-        seen[body.code] = row.number
+        seen[body.code] = number
         if body.code in existing:
             if on_duplicate == "error":
-                errors.add(row.number, "code", "a lamp type with this code exists", conflict=True)
+                errors.add(number, "code", "a lamp type with this code exists", conflict=True)
                 continue
             changed.append({**values, "b_id": existing[body.code], "updated_at": utcnow()})
         else:
             new.append(values)
     errors.raise_if_any("lamp type import")
+    table: Table = LampType.__table__  # type: ignore[assignment]
     if new:
-        session.execute(insert(LampType), new)
+        write_rows(session, table, {k: [v[k] for v in new] for k in new[0]})
     if changed:
-        table: Table = LampType.__table__  # type: ignore[assignment]  # Core executemany
         stmt = update(table).where(table.c.id == bindparam("b_id"))
         session.connection().execute(stmt, changed)
     session.flush()
     session.expire_all()  # rows changed behind the ORM's back
-    return ImportResult(rows=len(rows), created=len(new), updated=len(changed))
+    return ImportResult(rows=len(c), created=len(new), updated=len(changed))
 
 
 def export_lamp_types(

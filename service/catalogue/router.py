@@ -8,7 +8,7 @@ from fastapi import APIRouter, Query, Request, Response, status
 from pydantic import BaseModel
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
+from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, paginate
 from service.api.preconditions import locate, versioned
@@ -21,6 +21,7 @@ from service.catalogue.schemas import (
     LampTypeRead,
     LampTypeUpdate,
 )
+from service.uploads.parse import read_upload
 
 router = APIRouter(prefix="/lamp-types", tags=["lamp catalogue"])
 
@@ -77,7 +78,7 @@ def import_lamp_types(
     ] = "error",
 ) -> ImportSummary:
     """Import lamp types from CSV (text/csv) or JSON (a list): all rows or none."""
-    rows = parse_rows(body, LAMP_TYPE_FIELDS, bulk.LAMP_TYPE_REQUIRED)
+    rows = read_upload(body, bulk.LAMP_TYPE_UPLOAD)
     result = bulk.import_lamp_types(session, rows, on_duplicate)
     return ImportSummary(rows=result.rows, created=result.created, updated=result.updated)
 

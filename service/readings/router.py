@@ -18,7 +18,6 @@ from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.times import Timestamp
 from service.readings import burn_hours, service
 from service.readings.ages import position_ages
-from service.readings.columns import read_columns
 from service.readings.models import BurnHourRecord, VoltageReading
 from service.readings.schemas import (
     BulkResult,
@@ -29,6 +28,7 @@ from service.readings.schemas import (
     VoltageReadingCreate,
     VoltageReadingRead,
 )
+from service.uploads.parse import columns_from_dicts, read_upload
 
 router = APIRouter(tags=["readings"])
 
@@ -59,7 +59,7 @@ def create_burn_hours(
     body: BurnHourCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
 ) -> BurnHourRead:
     """Record burn hours for a fixture or an area: a period total or a meter reading."""
-    cols = service.columns_from_dicts([body.model_dump()], burn_hours.BURN_COLUMNS)
+    cols = columns_from_dicts([body.model_dump()], burn_hours.BURN_COLUMNS)
     burn_hours.ingest_burn_hours(session, cols)
     response.headers["Location"] = str(request.url_for("list_burn_hours"))  # no single-record route
     return BurnHourRead.model_validate(_latest(session, BurnHourRecord, body))
@@ -75,7 +75,7 @@ def upload_burn_hours(
     body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
 ) -> BulkResult:
     """Upload burn-hour rows as CSV or a JSON list (columns as in POST /burn-hours); all or none."""
-    cols = read_columns(body, burn_hours.BURN_COLUMNS)
+    cols = read_upload(body, burn_hours.BURN_UPLOAD)
     response.headers["Location"] = str(request.url_for("list_burn_hours"))
     return BulkResult(stored=burn_hours.ingest_burn_hours(session, cols))
 
@@ -106,7 +106,7 @@ def create_voltage_reading(
     response: Response,
 ) -> VoltageReadingRead:
     """Record a supply voltage measured at a fixture or on an area's circuit."""
-    cols = service.columns_from_dicts([body.model_dump()], service.VOLTAGE_COLUMNS)
+    cols = columns_from_dicts([body.model_dump()], service.VOLTAGE_COLUMNS)
     service.ingest_voltages(session, cols)
     response.headers["Location"] = str(request.url_for("list_voltage_readings"))
     return VoltageReadingRead.model_validate(_latest(session, VoltageReading, body))
@@ -122,7 +122,7 @@ def upload_voltage_readings(
     body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
 ) -> BulkResult:
     """Upload voltage readings as CSV or a JSON list (fixture_id or area_id, measured_at, volts)."""
-    cols = read_columns(body, service.VOLTAGE_COLUMNS)
+    cols = read_upload(body, service.VOLTAGE_UPLOAD)
     response.headers["Location"] = str(request.url_for("list_voltage_readings"))
     return BulkResult(stored=service.ingest_voltages(session, cols))
 

@@ -9,101 +9,103 @@ records are in burn_hours.py.
 from __future__ import annotations
 
 import time
-from collections.abc import Sequence
 
 import numpy as np
 from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.api.bulk import RowErrors
-from service.readings import columns as colmod
-from service.readings.columns import Columns
+from service.config import get_settings
 from service.readings.models import VoltageReading
-from service.readings.store import bulk_insert
 from service.register.models import Area, Fixture, Site
+from service.uploads import cells
+from service.uploads.errors import RowErrors
+from service.uploads.parse import Columns, UploadSpec
+from service.uploads.write import Epoch, write_rows
 
 IntArray = NDArray[np.int64]
 FloatArray = NDArray[np.float64]
 
 VOLTAGE_COLUMNS = ("fixture_id", "area_id", "measured_at", "volts", "note")
+VOLTAGE_UPLOAD = UploadSpec(columns=VOLTAGE_COLUMNS)
 FUTURE_SKEW_S = 300.0  # seconds of client clock skew tolerated
 MAX_VOLTS = 1000.0
 # A reading below 1 V is no supply a lamp runs on; near zero it overflows the power laws.
 MIN_VOLTS = 1.0
-_CHUNK = 10_000
 
 
 def _lookup(
-    session: Session, model: type[Fixture] | type[Area], wanted: IntArray
-) -> dict[int, tuple[int, int, str]]:
-    """id -> (site id, area id, site time zone) for existing fixtures or areas."""
-    out: dict[int, tuple[int, int, str]] = {}
+    session: Session, model: type[Fixture] | type[Area], wanted: IntArray, lock: bool
+) -> tuple[IntArray, IntArray, NDArray[np.object_]]:
+    """Existing fixtures or areas among wanted: (sorted ids, their site ids, site time zones).
+
+    lock: hold their rows (FOR NO KEY UPDATE, in id order) until the transaction ends, so
+    two uploads for the same targets check what is stored one after the other.
+    """
+    found: list[tuple[int, int, str]] = []
     uniq = np.unique(wanted[wanted > 0]).tolist()
-    area_col = Fixture.area_id if model is Fixture else Area.id
-    for i in range(0, len(uniq), _CHUNK):
-        part = uniq[i : i + _CHUNK]
-        rows = session.execute(
-            select(model.id, model.site_id, area_col, Site.time_zone)
+    chunk = get_settings().bulk_chunk_rows
+    for i in range(0, len(uniq), chunk):
+        stmt = (
+            select(model.id, model.site_id, Site.time_zone)
             .join(Site, Site.id == model.site_id)
-            .where(model.id.in_(part))
-        ).all()
-        for r in rows:
-            out[int(r[0])] = (int(r[1]), int(r[2]), str(r[3]))
-    return out
+            .where(model.id.in_(uniq[i : i + chunk]))
+            .order_by(model.id)
+        )
+        if lock:  # SQLite has no row locks; its writers queue on BEGIN IMMEDIATE instead
+            stmt = stmt.with_for_update(key_share=True, of=model)  # FOR NO KEY UPDATE
+        rows = session.execute(stmt).all()
+        found.extend((int(r[0]), int(r[1]), str(r[2])) for r in rows)
+    found.sort()
+    ids = np.array([f[0] for f in found], dtype=np.int64)
+    sites = np.array([f[1] for f in found], dtype=np.int64)
+    zones = np.array([f[2] for f in found], dtype=object)
+    return ids, sites, zones
+
+
+def _match(
+    wanted: IntArray, rows: NDArray[np.bool_], table: tuple[IntArray, IntArray, NDArray[np.object_]]
+) -> tuple[NDArray[np.bool_], IntArray, NDArray[np.object_]]:
+    """For rows naming an id: (found, site id, zone); searchsorted over the sorted ids."""
+    ids, sites, zones = table
+    if ids.size == 0:
+        none = np.zeros(wanted.size, dtype=bool)
+        return none, np.full(wanted.size, -1, dtype=np.int64), np.full(wanted.size, None, object)
+    at = np.minimum(np.searchsorted(ids, wanted), ids.size - 1)
+    found = rows & (ids[at] == wanted)
+    return found, sites[at], zones[at]
 
 
 def resolve_targets(
-    session: Session, c: Columns, errors: RowErrors
+    session: Session, c: Columns, errors: RowErrors, *, lock: bool = False
 ) -> tuple[IntArray, IntArray, IntArray, list[str | None]]:
-    """(fixture id or -1, area id or -1, site id, zone) per row; unknown ids are errors."""
-    fid = colmod.ids(c, "fixture_id", errors)
-    aid = colmod.ids(c, "area_id", errors)
-    both = (fid > 0) & (aid > 0)
-    neither = (fid < 0) & (aid < 0)
-    for i in np.nonzero(both | neither)[0]:
-        errors.add(
-            int(c.numbers[i]),
-            "fixture_id",
-            "give either fixture_id or area_id, not both or neither",
-        )
-    fx = _lookup(session, Fixture, fid)
-    ar = _lookup(session, Area, aid)
-    n = len(c)
-    site = np.full(n, -1, dtype=np.int64)
-    zones: list[str | None] = [None] * n
-    fl: list[int] = fid.tolist()
-    al: list[int] = aid.tolist()
-    for row in range(n):  # a dict lookup per row: ids come as arbitrary integers
-        if fl[row] > 0 and al[row] < 0:
-            hit = fx.get(fl[row])
-            if hit is None:
-                errors.add(int(c.numbers[row]), "fixture_id", f"fixture {fl[row]} does not exist")
-                continue
-            site[row] = hit[0]
-            zones[row] = hit[2]
-        elif al[row] > 0 and fl[row] < 0:
-            hit = ar.get(al[row])
-            if hit is None:
-                errors.add(int(c.numbers[row]), "area_id", f"area {al[row]} does not exist")
-                continue
-            site[row] = hit[0]
-            zones[row] = hit[2]
-    return fid, aid, site, zones
+    """(fixture id or -1, area id or -1, site id, site time zone) per row; unknown ids are errors.
 
-
-def flag_rows(
-    errors: RowErrors,
-    c: Columns,
-    mask: NDArray[np.bool_],
-    field: str,
-    message: str,
-    *,
-    conflict: bool = False,
-) -> None:
-    """Add one row error per row where mask is true."""
-    for i in np.nonzero(mask)[0].tolist():
-        errors.add(int(c.numbers[i]), field, message, conflict=conflict)
+    The zone is what a timestamp without an offset is read in (the readings' naive-time rule).
+    lock: lock the targets' rows (for a check of stored rows that decides the write).
+    """
+    fid = cells.ids(c, "fixture_id", errors)
+    aid = cells.ids(c, "area_id", errors)
+    errors.add_mask(
+        c.numbers,
+        (fid > 0) == (aid > 0),
+        "fixture_id",
+        "give either fixture_id or area_id, not both or neither",
+    )
+    by_fixture = (fid > 0) & (aid < 0)
+    by_area = (aid > 0) & (fid < 0)
+    site = np.full(len(c), -1, dtype=np.int64)
+    zones = np.full(len(c), None, dtype=object)
+    for ids, rows, model, field, label in (
+        (fid, by_fixture, Fixture, "fixture_id", "fixture"),
+        (aid, by_area, Area, "area_id", "area"),
+    ):
+        found, sites, zone = _match(ids, rows, _lookup(session, model, ids[rows], lock))
+        site[found] = sites[found]
+        zones[found] = zone[found]
+        for i in np.nonzero(rows & ~found)[0].tolist():
+            errors.add(int(c.numbers[i]), field, f"{label} {int(ids[i])} does not exist")
+    return fid, aid, site, zones.tolist()
 
 
 def scatter_mask(n: int, order: IntArray, mask: NDArray[np.bool_]) -> NDArray[np.bool_]:
@@ -118,52 +120,30 @@ def ingest_voltages(session: Session, c: Columns, *, now: float | None = None) -
     now = time.time() if now is None else now
     errors = RowErrors()
     fid, aid, site, zones = resolve_targets(session, c, errors)
-    at = colmod.timestamps(c, "measured_at", zones, errors)
-    volts = colmod.floats(c, "volts", errors, required=True)
-    notes = [None if v is None else str(v) for v in c.get("note")]
-    flag_rows(
-        errors,
+    at = cells.timestamps(c, "measured_at", errors, zones)
+    volts = cells.floats(
         c,
-        np.isnan(at) & np.array([v is None for v in c.get("measured_at")], dtype=bool),
-        "measured_at",
-        "is required",
-    )
-    flag_rows(errors, c, at > now + FUTURE_SKEW_S, "measured_at", "is in the future")
-    flag_rows(
-        errors,
-        c,
-        ~np.isnan(volts) & ((volts < MIN_VOLTS) | (volts > MAX_VOLTS)),
         "volts",
-        f"must lie in [{MIN_VOLTS:g}, {MAX_VOLTS:g}] volts",
-    )
-    flag_rows(
         errors,
-        c,
-        np.array([v is not None and len(v) > 300 for v in notes], dtype=bool),
-        "note",
-        "at most 300 characters",
+        required=True,
+        lo=MIN_VOLTS,
+        hi=MAX_VOLTS,
+        out_of_range=f"must lie in [{MIN_VOLTS:g}, {MAX_VOLTS:g}] volts",
     )
+    notes = cells.texts(c, "note", errors, max_len=300)
+    errors.add_mask(c.numbers, ~c.given("measured_at"), "measured_at", "is required")
+    errors.add_mask(c.numbers, at > now + FUTURE_SKEW_S, "measured_at", "is in the future")
     errors.raise_if_any("voltage upload")
-    return bulk_insert(
+    write_rows(
         session,
         VoltageReading.__table__,  # type: ignore[arg-type]
-        ("site_id", "area_id", "fixture_id", "measured_at", "volts", "note"),
-        (
-            site,
-            aid,
-            fid,
-            at,
-            volts,
-            notes,
-        ),
-        ("int", "int", "int", "ts", "float", "str"),
+        {
+            "site_id": site,
+            "area_id": aid,
+            "fixture_id": fid,
+            "measured_at": Epoch(at),
+            "volts": volts,
+            "note": notes,
+        },
     )
-
-
-def columns_from_dicts(rows: Sequence[dict[str, object]], allowed: Sequence[str]) -> Columns:
-    """Rows given as dicts (e.g. one JSON body) as columns numbered from 1."""
-    return Columns(
-        allowed,
-        {name: [r.get(name) for r in rows] for name in allowed},
-        np.arange(1, len(rows) + 1, dtype=np.int64),
-    )
+    return len(c)

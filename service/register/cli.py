@@ -11,7 +11,7 @@ from typing import Any
 
 from sqlalchemy import select
 
-from service.api.bulk import read_file, to_csv, to_json
+from service.api.bulk import to_csv, to_json
 from service.api.errors import DomainError
 
 
@@ -26,19 +26,19 @@ def _print_errors(exc: DomainError) -> int:
 
 def cmd_import(args: argparse.Namespace) -> int:
     """Import lamp types or fixtures from a CSV or JSON (.json) file."""
-    from service.catalogue.bulk import LAMP_TYPE_REQUIRED, import_lamp_types
-    from service.catalogue.schemas import LAMP_TYPE_FIELDS
+    from service.catalogue.bulk import LAMP_TYPE_UPLOAD, import_lamp_types
     from service.cli import transaction
-    from service.register.fixture_bulk import FIXTURE_COLUMNS, FIXTURE_REQUIRED, import_fixtures
+    from service.register.fixture_bulk import FIXTURE_UPLOAD, import_fixtures
+    from service.uploads.parse import read_path
 
     try:
         with transaction() as session:
             if args.what == "lamp-types":
-                rows = read_file(args.file, LAMP_TYPE_FIELDS, LAMP_TYPE_REQUIRED)
+                rows = read_path(args.file, LAMP_TYPE_UPLOAD)
                 lt = import_lamp_types(session, rows, args.on_duplicate)
                 line = f"{lt.rows} rows: {lt.created} lamp types created, {lt.updated} updated"
             else:
-                rows = read_file(args.file, FIXTURE_COLUMNS, FIXTURE_REQUIRED)
+                rows = read_path(args.file, FIXTURE_UPLOAD)
                 fx = import_fixtures(session, rows, args.on_duplicate)
                 line = (
                     f"{fx.rows} rows: {fx.created} fixtures created, {fx.updated} updated, "

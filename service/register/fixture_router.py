@@ -10,7 +10,7 @@ from pydantic import BaseModel
 import service.register.fixture_bulk as fixture_bulk
 import service.register.fixture_export as fixture_export
 from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_rows
+from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
@@ -24,6 +24,7 @@ from service.register.schemas import (
     PositionRead,
     PositionUpdate,
 )
+from service.uploads.parse import read_upload
 
 router = APIRouter(tags=["register"])
 
@@ -83,7 +84,7 @@ def import_fixtures(
 
     All rows or none: any bad row answers 422 listing every bad row.
     """
-    rows = parse_rows(body, fixture_bulk.FIXTURE_COLUMNS, fixture_bulk.FIXTURE_REQUIRED)
+    rows = read_upload(body, fixture_bulk.FIXTURE_UPLOAD)
     r = fixture_bulk.import_fixtures(session, rows, on_duplicate)
     return FixtureImportSummary(
         rows=r.rows, created=r.created, updated=r.updated, positions_created=r.positions_created

@@ -1,0 +1,211 @@
+"""Step 3 of every upload: the one bulk writer, inside the caller's transaction.
+
+write_rows(session, table, columns) inserts rows given as parallel columns:
+- PostgreSQL (psycopg 3): COPY ... FROM STDIN through psycopg's row writer (write_row);
+- SQLite: the sqlite3 driver's executemany over tuples, in chunks of `bulk_chunk_rows`
+(the service runs on these two only).
+Columns are Python sequences (passed through each column type's bind processor, memoised,
+so values are stored exactly as an ORM insert stores them), numpy arrays (float NaN and a
+negative int mean NULL: ids are positive) or Epoch (timestamps as epoch seconds, rendered
+in one numpy call). Columns left out take their Python-side default, else the server's.
+With return_ids=True the new primary keys come back in row order: on PostgreSQL taken from
+the table's sequence first (nextval, safe with concurrent writers), on SQLite the first
+row's rowid and the ones after it (the write lock is held from that first insert on).
+Every cursor is closed; a driver error is raised as SQLAlchemy's (IntegrityError, ...) and
+leaves the transaction to the caller's rollback.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from dataclasses import dataclass
+from itertools import islice
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+from sqlalchemy import Column, Connection, Table
+from sqlalchemy.engine import Dialect
+from sqlalchemy.exc import DBAPIError
+from sqlalchemy.orm import Session
+
+from service.config import get_settings
+
+
+@dataclass(frozen=True)
+class Epoch:
+    """A timestamp column as epoch seconds (UTC); NaN is NULL."""
+
+    seconds: NDArray[np.float64]
+
+    def __len__(self) -> int:
+        return int(self.seconds.size)
+
+
+ColumnValues = Sequence[Any] | NDArray[Any] | Epoch
+
+
+def write_rows(
+    session: Session,
+    table: Table,
+    columns: Mapping[str, ColumnValues],
+    *,
+    return_ids: bool = False,
+) -> list[int]:
+    """Insert the rows; returns their new ids in row order when return_ids, else []."""
+    n = len(next(iter(columns.values()))) if columns else 0
+    if n == 0:
+        return []
+    session.flush()  # pending ORM changes go first, in order
+    conn = session.connection()
+    dialect = conn.dialect
+    values = {name: _db_values(col, table.c[name], dialect) for name, col in columns.items()}
+    for col in table.columns:
+        if col.name not in values and not col.primary_key and col.default is not None:
+            default = _python_default(col)
+            if default is not None:
+                values[col.name] = _db_values([default[0]] * n, col, dialect)
+    names = list(values)
+    lists = [values[k] for k in names]
+    if any(len(v) != n for v in lists):
+        raise ValueError("every column must have one value per row")
+    pk = _pk_name(table) if return_ids else None
+    dbapi: Any = dialect.loaded_dbapi
+    try:
+        if dialect.name == "postgresql" and dialect.driver == "psycopg":
+            return _copy(conn, table, names, lists, n, pk)
+        if dialect.name == "sqlite":
+            return _sqlite(conn, table, names, lists, n, pk)
+    except dbapi.Error as exc:
+        # Raw driver errors as SQLAlchemy's (IntegrityError: 409 for a race between two
+        # uploads; OperationalError: 503 when the database is busy), like any other query.
+        raise DBAPIError.instance(
+            f"bulk insert into {table.name}", None, exc, dbapi.Error, dialect=dialect
+        ) from exc
+    raise RuntimeError(
+        f"bulk writes need PostgreSQL with psycopg 3 or SQLite, not {dialect.name}+{dialect.driver}"
+    )
+
+
+def _pk_name(table: Table) -> str:
+    (pk,) = table.primary_key.columns
+    return str(pk.name)
+
+
+def _python_default(col: Column[Any]) -> tuple[Any] | None:
+    """(value,) of a column's scalar or callable Python default, or None."""
+    d: Any = col.default
+    if getattr(d, "is_scalar", False):
+        return (d.arg,)
+    if getattr(d, "is_callable", False):
+        return (d.arg(None),)
+    return None
+
+
+def _db_values(col: ColumnValues, column: Column[Any], dialect: Dialect) -> list[Any]:
+    """One column as a list of values the driver takes."""
+    if isinstance(col, Epoch):
+        return _epoch_text(col.seconds, dialect.name)
+    if isinstance(col, np.ndarray):
+        out: list[Any] = col.tolist()
+        if col.dtype.kind == "f":
+            for i in np.nonzero(np.isnan(col))[0].tolist():
+                out[i] = None
+        elif col.dtype.kind in "iu":
+            for i in np.nonzero(col < 0)[0].tolist():
+                out[i] = None
+        return out
+    proc = column.type.dialect_impl(dialect).bind_processor(dialect)
+    if proc is None:
+        return list(col)
+    return list(map(_memo(proc), col))
+
+
+def _epoch_text(seconds: NDArray[np.float64], dialect_name: str) -> list[Any]:
+    """Epoch seconds as timestamp text: with +00 for PostgreSQL; SQLite as SQLAlchemy stores it.
+
+    Each distinct value is rendered once (uploads repeat days and times over many rows).
+    """
+    blank = np.isnan(seconds)
+    us = np.round(np.where(blank, 0.0, seconds) * 1e6).astype(np.int64)
+    uniq, inverse = np.unique(us, return_inverse=True)
+    text = np.datetime_as_string(uniq.astype("datetime64[us]"), unit="us").tolist()
+    if dialect_name == "postgresql":
+        rendered = [t + "+00" for t in text]
+    else:  # SQLAlchemy's SQLite DATETIME storage format: "YYYY-MM-DD HH:MM:SS.ffffff"
+        rendered = [t.replace("T", " ") for t in text]
+    out: list[Any] = np.array(rendered, dtype=object)[inverse.ravel()].tolist()
+    for i in np.nonzero(blank)[0].tolist():
+        out[i] = None
+    return out
+
+
+def _memo(proc: Callable[[Any], Any]) -> Callable[[Any], Any]:
+    """A bind processor that remembers its answers (many rows share one timestamp)."""
+    seen: dict[Any, Any] = {}
+
+    def run(v: Any) -> Any:
+        try:
+            return seen[v]
+        except KeyError:
+            seen[v] = out = proc(v)
+            return out
+        except TypeError:  # unhashable (JSON lists)
+            return proc(v)
+
+    return run
+
+
+def _quoted(names: Sequence[str]) -> str:
+    return ", ".join(f'"{c}"' for c in names)
+
+
+def _copy(
+    conn: Connection, table: Table, names: list[str], lists: list[list[Any]], n: int, pk: str | None
+) -> list[int]:
+    raw: Any = conn.connection.driver_connection
+    ids: list[int] = []
+    with raw.cursor() as cur:
+        if pk is not None:
+            cur.execute(
+                "SELECT nextval(pg_get_serial_sequence(%s, %s)) FROM generate_series(1, %s)",
+                (f'"{table.name}"', pk, n),
+            )
+            ids = [int(r[0]) for r in cur.fetchall()]
+            names, lists = [pk, *names], [ids, *lists]
+        with cur.copy(f'COPY "{table.name}" ({_quoted(names)}) FROM STDIN') as cp:
+            for row in zip(*lists, strict=True):
+                cp.write_row(row)
+    return ids
+
+
+def _batches(rows: Iterator[tuple[Any, ...]]) -> Iterator[list[tuple[Any, ...]]]:
+    size = get_settings().bulk_chunk_rows
+    while batch := list(islice(rows, size)):
+        yield batch
+
+
+def _sqlite(
+    conn: Connection, table: Table, names: list[str], lists: list[list[Any]], n: int, pk: str | None
+) -> list[int]:
+    raw: Any = conn.connection.driver_connection
+    rows = zip(*lists, strict=True)
+    cur = raw.cursor()
+    try:
+        if pk is None:
+            sql = f'INSERT INTO "{table.name}" ({_quoted(names)}) VALUES ({", ".join("?" * len(names))})'
+            for batch in _batches(rows):
+                cur.executemany(sql, batch)
+            return []
+        # The first row gets the next rowid (max + 1) and takes the write lock; the rest
+        # follow it with explicit ids, so the ids are known without reading anything back.
+        cols = [pk, *names]
+        sql = f'INSERT INTO "{table.name}" ({_quoted(cols)}) VALUES ({", ".join("?" * len(cols))})'
+        cur.execute(sql, (None, *next(rows)))
+        first = int(cur.lastrowid)
+        numbered = ((first + k, *row) for k, row in enumerate(rows, start=1))
+        for batch in _batches(numbered):
+            cur.executemany(sql, batch)
+        return list(range(first, first + n))
+    finally:
+        cur.close()

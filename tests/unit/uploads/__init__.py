@@ -1,0 +1,1 @@
+"""Tests of the upload pipeline (unit tier)."""
