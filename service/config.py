@@ -36,6 +36,9 @@ class Settings(BaseSettings):
     idempotency_ttl_h: float = Field(default=24.0, gt=0, le=24 * 365)
     # How long an unfinished claim blocks a retry before it counts as abandoned (seconds).
     idempotency_inflight_s: float = Field(default=300.0, gt=0, le=86_400)
+    # Weekly-run lease (seconds): refreshed every third of it; a run not refreshed that long
+    # counts as dead (its process stopped) and is reaped as failed.
+    run_lease_seconds: float = Field(default=120.0, gt=0, le=86_400)
 
 
 @lru_cache
