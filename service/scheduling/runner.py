@@ -230,31 +230,33 @@ def run_due_week(
     lease_seconds: float | None = None,
 ) -> WeeklyRun | None:
     """Run a site's week unless another worker holds the site or the week succeeded (None)."""
-    lock = _site_lock(site_id)
-    if not lock.acquire(blocking=False):  # another thread of this process runs the site
-        return None
-    try:
-        with factory() as guard:
-            try:
-                # PostgreSQL: FOR NO KEY UPDATE SKIP LOCKED, held until the run ends; the
-                # run's inserts only take KEY SHARE on the site row, which this allows.
-                site = guard.scalar(
-                    select(Site)
-                    .where(Site.id == site_id)
-                    .with_for_update(skip_locked=True, key_share=True)
-                )
-                if site is None:  # another replica runs it (or the site is gone)
-                    return None
-                week = week or iso_week_of(local_today(site, at or utcnow()))
-                if week_succeeded(guard, site_id, week):
-                    return None
-                return run_site_week(
-                    factory, site_id, week=week, trigger=trigger, at=at, lease_seconds=lease_seconds
-                )
-            finally:
-                guard.commit()  # release the row (test factories: release, not roll back)
-    finally:
-        lock.release()
+    with factory() as guard:
+        # PostgreSQL: the row lock below excludes other threads and replicas alike. SQLite
+        # has no row locks and serves one process: a per-site thread lock, tried, not awaited.
+        local = guard.get_bind().dialect.name != "postgresql"
+        lock = _site_lock(site_id)
+        if local and not lock.acquire(blocking=False):
+            return None
+        try:
+            # FOR NO KEY UPDATE SKIP LOCKED, held until the run ends; the run's inserts take
+            # only KEY SHARE on the site row, which this lock allows.
+            site = guard.scalar(
+                select(Site)
+                .where(Site.id == site_id)
+                .with_for_update(skip_locked=True, key_share=True)
+            )
+            if site is None:  # another worker runs it (or the site is gone)
+                return None
+            week = week or iso_week_of(local_today(site, at or utcnow()))
+            if week_succeeded(guard, site_id, week):
+                return None
+            return run_site_week(
+                factory, site_id, week=week, trigger=trigger, at=at, lease_seconds=lease_seconds
+            )
+        finally:
+            guard.commit()  # release the row (test factories: release, not roll back)
+            if local:
+                lock.release()
 
 
 def reap_expired_runs(factory: sessionmaker[Session], *, now: datetime | None = None) -> int:
