@@ -39,6 +39,9 @@ class Settings(BaseSettings):
     # Rows per statement on bulk paths (executemany batches, IN-list lookups); at most
     # 30,000 so an IN list stays inside SQLite's 32,766 bound parameters.
     bulk_chunk_rows: int = Field(default=10_000, ge=1, le=30_000)
+    # Weekly-run lease (seconds): refreshed every third of it; a run not refreshed that long
+    # counts as dead (its process stopped) and is reaped as failed.
+    run_lease_seconds: float = Field(default=120.0, gt=0, le=86_400)
 
 
 @lru_cache

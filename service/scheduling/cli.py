@@ -1,4 +1,4 @@
-"""`lampkeeper runs start|list`: start a site's weekly run, list run records."""
+"""`lampkeeper runs start|list|reap`: start a site's weekly run, list or reap run records."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from service.api.errors import Invalid, NotFound
 from service.db.session import session_factory
 from service.register.models import Site
 from service.scheduling.models import WeeklyRun
-from service.scheduling.runner import run_site_week
+from service.scheduling.runner import reap_expired_runs, run_site_week
 from service.scheduling.weeks import parse_week
 
 
@@ -56,6 +56,13 @@ def cmd_runs_list(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_runs_reap(args: argparse.Namespace) -> int:
+    """Mark failed the running runs whose lease expired (their process died)."""
+    reaped = reap_expired_runs(session_factory())
+    print(f"{reaped} expired run(s) marked failed")
+    return 0
+
+
 def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """Add the `runs` subcommands."""
     runs = sub.add_parser("runs", help="weekly relamping runs").add_subparsers(
@@ -69,3 +76,5 @@ def register(sub: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     p.add_argument("--site", help="site name or id")
     p.add_argument("--limit", type=int, default=20)
     p.set_defaults(func=cmd_runs_list)
+    p = runs.add_parser("reap", help="mark runs whose lease expired (process died) as failed")
+    p.set_defaults(func=cmd_runs_reap)

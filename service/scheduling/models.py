@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import enum
 from datetime import datetime
 
 from sqlalchemy import ForeignKey, Integer, String, Text, UniqueConstraint
@@ -10,7 +11,17 @@ from sqlalchemy.orm import Mapped, mapped_column
 from service.db.base import Base, TimestampMixin
 
 TRIGGERS = ("schedule", "catch_up", "api", "cli")
-OUTCOMES = ("running", "succeeded", "failed")
+
+
+class RunOutcome(enum.StrEnum):
+    """Where a weekly run stands: still running (under a lease), or finished."""
+
+    RUNNING = "running"
+    SUCCEEDED = "succeeded"
+    FAILED = "failed"
+
+
+OUTCOMES = tuple(RunOutcome)
 
 
 class RunWeek(TimestampMixin, Base):
@@ -37,9 +48,13 @@ class WeeklyRun(Base):
     trigger: Mapped[str] = mapped_column(String(10))
     started_at: Mapped[datetime]
     finished_at: Mapped[datetime | None] = mapped_column(default=None)
-    outcome: Mapped[str] = mapped_column(String(10), default="running")
+    outcome: Mapped[str] = mapped_column(String(10), default=RunOutcome.RUNNING)
     group_orders: Mapped[int] = mapped_column(Integer, default=0)
     spot_orders: Mapped[int] = mapped_column(Integer, default=0)
     orders_created: Mapped[int] = mapped_column(Integer, default=0)
     orders_already_there: Mapped[int] = mapped_column(Integer, default=0)
     error: Mapped[str | None] = mapped_column(Text, default=None)
+    # The lease: a running run whose process stops heartbeating is reaped once it expires.
+    lease_expires_at: Mapped[datetime | None] = mapped_column(default=None)
+    heartbeat_at: Mapped[datetime | None] = mapped_column(default=None)
+    owner: Mapped[str | None] = mapped_column(String(200), default=None)  # host:pid

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated
 
 from fastapi import APIRouter, Query, Request, Response, status
 from sqlalchemy import select
@@ -14,7 +14,7 @@ from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
 from service.register.service import get_site
-from service.scheduling.models import WeeklyRun
+from service.scheduling.models import RunOutcome, WeeklyRun
 from service.scheduling.runner import run_site_week
 from service.scheduling.schemas import RunRead, RunStart
 from service.scheduling.weeks import parse_week
@@ -31,7 +31,7 @@ def list_runs(
     page: PageDep,
     site_id: IdQuery = None,
     iso_week: Annotated[str | None, Query(pattern=r"^\d{4}-W\d{2}$")] = None,
-    outcome: Literal["running", "succeeded", "failed"] | None = None,
+    outcome: RunOutcome | None = None,
 ) -> Page[RunRead]:
     """Every weekly run (scheduled, caught up, started by hand), newest first by default."""
     stmt = select(WeeklyRun)

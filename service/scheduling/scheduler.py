@@ -5,6 +5,10 @@ time or time zone changed (and adds new sites, drops deleted ones), so site edit
 any replica take effect without a restart. At start, a site whose latest scheduled run
 (after the site was created) has no successful run record for its ISO week is run at once
 ("catch_up"). Jobs run in the scheduler's threads with their own sessions.
+
+Scheduled and catch-up jobs go through run_due_week: a site another replica is running, or
+whose week already succeeded, is skipped rather than run again. At start and on every sync
+tick, running records whose lease expired (their process died) are reaped as failed.
 """
 
 from __future__ import annotations
@@ -19,7 +23,8 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.db.base import utcnow
 from service.register.models import Site
-from service.scheduling.runner import run_site_week, week_succeeded
+from service.scheduling.models import WeeklyRun
+from service.scheduling.runner import reap_expired_runs, run_due_week, week_succeeded
 from service.scheduling.weeks import iso_week_of, last_fire_time, weekly_trigger
 
 log = logging.getLogger(__name__)
@@ -57,13 +62,25 @@ class WeeklyScheduler:
     def run_job(self, site_id: int, trigger: str = "schedule") -> None:
         """Job body: the site's run for the current site-local week."""
         try:
-            run = run_site_week(self.factory, site_id, trigger=trigger)
-            log.info("weekly run %s site %s: %s", run.id, site_id, run.outcome)
+            run = run_due_week(self.factory, site_id, trigger=trigger)
+            if run is None:
+                log.info("weekly run of site %s skipped: done or running elsewhere", site_id)
+            else:
+                log.info("weekly run %s site %s: %s", run.id, site_id, run.outcome)
         except Exception:  # a deleted site or a database outage must not kill the thread
             log.exception("weekly run for site %s could not start", site_id)
 
+    def reap(self) -> int:
+        """Fail the running records whose lease expired; never raises (a sync tick goes on)."""
+        try:
+            return reap_expired_runs(self.factory)
+        except Exception:
+            log.exception("reaping expired weekly runs failed")
+            return 0
+
     def sync(self) -> None:
-        """Add, re-schedule or remove site jobs to match the sites table."""
+        """Reap dead runs; add, re-schedule or remove site jobs to match the sites table."""
+        self.reap()
         seen = set()
         for sid, tz, weekday, hhmm, _ in self._sites():
             seen.add(sid)
@@ -105,7 +122,7 @@ class WeeklyScheduler:
         for sid, week in self.missed(now):
             log.info("catching up the weekly run of site %s for %s", sid, week)
             self.scheduler.add_job(
-                run_site_week,
+                run_due_week,
                 args=[self.factory, sid],
                 kwargs={"week": week, "trigger": "catch_up"},
                 id=f"catch-up-{sid}-{week}",
@@ -113,6 +130,15 @@ class WeeklyScheduler:
                 next_run_time=utcnow(),
                 misfire_grace_time=None,
             )
+
+    def run_missed(self, now: datetime | None = None) -> list[WeeklyRun]:
+        """Catch up in this thread: run each missed site not taken by another worker."""
+        runs = []
+        for sid, week in self.missed(now):
+            run = run_due_week(self.factory, sid, week=week, trigger="catch_up")
+            if run is not None:
+                runs.append(run)
+        return runs
 
     def start(self) -> None:
         """Schedule every site, start the threads, catch up missed runs."""

@@ -7,6 +7,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from service.scheduling.models import RunOutcome
+
 WeekText = str
 
 
@@ -31,9 +33,12 @@ class RunRead(BaseModel):
     trigger: Literal["schedule", "catch_up", "api", "cli"]
     started_at: datetime
     finished_at: datetime | None
-    outcome: Literal["running", "succeeded", "failed"]
+    outcome: RunOutcome
     group_orders: int
     spot_orders: int
     orders_created: int
     orders_already_there: int
     error: str | None
+    lease_expires_at: datetime | None
+    heartbeat_at: datetime | None
+    owner: str | None

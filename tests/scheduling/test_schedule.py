@@ -15,6 +15,7 @@ from service.scheduling.runner import run_site_week
 from service.scheduling.scheduler import WeeklyScheduler, job_id
 from service.scheduling.weeks import iso_week_of, last_fire_time, weekly_trigger
 from tests.planning import builders as b
+from tests.scheduling.faults import fail_before_lines
 
 LISBON = ZoneInfo("Europe/Lisbon")
 
@@ -129,11 +130,9 @@ def test_a_failed_week_is_still_missed(db: Session, factory: sessionmaker[Sessio
     db.commit()
     week = iso_week_of(last_fire_time(0, "06:00", "Europe/Lisbon", now).date())
 
-    def boom(_: str) -> None:
-        raise RuntimeError("down")
-
     lt = b.lamp_type(db)
     b.fixtures(db, b.area(db, s), lt, 1, hours_at_install=20_000.0)
     db.commit()
-    assert run_site_week(factory, s.id, week=week, checkpoint=boom).outcome == "failed"
+    with fail_before_lines(factory, "down"):
+        assert run_site_week(factory, s.id, week=week).outcome == "failed"
     assert WeeklyScheduler(factory).missed(now) == [(s.id, week)]

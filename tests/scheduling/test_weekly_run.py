@@ -19,6 +19,7 @@ from service.scheduling.runner import run_site_week
 from service.scheduling.weeks import iso_week_of
 from service.workorders.models import WorkOrder, WorkOrderLine
 from tests.planning import builders as b
+from tests.scheduling.faults import fail_before_lines
 
 
 def portfolio(db: Session) -> dict[str, Any]:
@@ -104,11 +105,8 @@ def test_exception_halfway_leaves_no_half_written_order(
 ) -> None:
     p = portfolio(db)
 
-    def boom(stage: str) -> None:
-        assert stage == "orders_inserted"
-        raise RuntimeError("injected failure after the orders, before their lines")
-
-    failed = run_site_week(factory, p["site"].id, checkpoint=boom)
+    with fail_before_lines(factory, "injected failure after the orders, before their lines"):
+        failed = run_site_week(factory, p["site"].id)
     assert failed.outcome == "failed" and failed.finished_at is not None
     assert failed.error is not None and "injected failure" in failed.error
     assert _counts(db) == (0, 0)
