@@ -3,7 +3,7 @@
 Each (area, lamp type) group gets its own group interval (engine.plan_group); an area is
 due when its first lamp-type group is. Ballast: a group is relamped together whatever its
 fixtures' ballasts, so its voltage response uses the area's dominant ballast for that lamp
-type: the kind most of the group's positions run on (forecasting.types decides per position:
+type: the kind most of the group's positions run on (catalogue.resolved decides per position:
 the fixture's kind for discharge lamps, "none" for filament, "led_driver" for LED; a tie goes
 to the alphabetically first kind). The plan's inputs name it (PlanInputs.ballast_kind). Group age: burn hours since the area's last
 completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
@@ -29,9 +29,10 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.model import LampModel
+from service.catalogue.resolved import CurveInUse
 from service.db.base import utcnow
 from service.db.crud import get_or_404
-from service.forecasting.types import CurveInUse, load_types
+from service.forecasting.fit import load_fitted_types
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
 from service.planning.engine import (
     DEFAULT_RUPTURE_FRACTION,
@@ -147,7 +148,9 @@ def _models(
 ) -> tuple[dict[tuple[int, str], LampModel], dict[int, CurveInUse], np.ndarray]:
     """Models by (lamp type, ballast), curves by lamp type, and each position's ballast."""
     # The same life curves the forecasts use: the field fit where it replaces the catalogue.
-    types = load_types(session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind)
+    types = load_fitted_types(
+        session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind
+    )
     keys = list(zip(types.ids.tolist(), types.ballasts.tolist(), strict=True))
     models = dict(zip(keys, types.models, strict=True))
     curves = {k[0]: c for k, c in zip(keys, types.curves, strict=True)}
