@@ -7,7 +7,7 @@ from logging.config import fileConfig
 from alembic import context
 from sqlalchemy import Connection
 
-import service.db.models  # noqa: F401  (registers every table on Base.metadata)
+import service.models_registry  # noqa: F401  (registers every table on Base.metadata)
 from service.config import get_settings
 from service.db.base import Base, UTCDateTime
 from service.db.session import make_engine
