@@ -47,6 +47,7 @@ test: install
 lint: install
 	$(VENV)/bin/ruff check service tests benchmarks migrations
 	$(VENV)/bin/mypy service
+	$(VENV)/bin/lint-imports
 
 bench: install
 	@for f in benchmarks/bench_*.py; do echo "=== $$f"; $(PY) $$f; done

@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
 from logging.config import fileConfig
 
 from alembic import context
-from sqlalchemy import Connection
+from sqlalchemy import Connection, Engine
 
-import service.db.models  # noqa: F401  (registers every table on Base.metadata)
+import service.models_registry  # noqa: F401  (registers every table on Base.metadata)
 from service.config import get_settings
 from service.db.base import Base, UTCDateTime
 from service.db.session import make_engine
@@ -43,6 +45,43 @@ def run_offline() -> None:
         context.run_migrations()
 
 
+def _pragma(conn: Connection, sql: str) -> None:
+    # Straight to the driver: a SQLAlchemy execute would open a transaction first.
+    cur = conn.connection.cursor()
+    cur.execute(sql)
+    cur.close()
+
+
+@contextmanager
+def _migration_connection(engine: Engine) -> Iterator[Connection]:
+    """A connection for the migrations; on SQLite with foreign keys off for the run.
+
+    Batch mode ALTERs a SQLite table by copy, drop and rename; with foreign keys on, dropping
+    a parent table that has rows fails (lamp_types under fixtures, in 0007). The pragma only
+    takes effect outside a transaction, so it is set before the migrations' transaction and
+    the keys are checked inside it (_check_foreign_keys) before the commit.
+    """
+    with engine.connect() as conn:
+        sqlite = conn.dialect.name == "sqlite"
+        if sqlite:
+            _pragma(conn, "PRAGMA foreign_keys=OFF")
+        try:
+            yield conn
+        finally:
+            if sqlite:
+                conn.rollback()
+                _pragma(conn, "PRAGMA foreign_keys=ON")  # the pool's connections keep them on
+
+
+def _check_foreign_keys(conn: Connection) -> None:
+    """Fail the migration (rolled back) if it left a row pointing at nothing (SQLite)."""
+    if conn.dialect.name != "sqlite":
+        return
+    bad = conn.exec_driver_sql("PRAGMA foreign_key_check").all()
+    if bad:
+        raise RuntimeError(f"migration left rows with broken foreign keys: {bad[:5]}")
+
+
 def run_online() -> None:
     connection = config.attributes.get("connection")
     if connection is not None:
@@ -53,10 +92,11 @@ def run_online() -> None:
         return
     url = config.get_main_option("sqlalchemy.url") or get_settings().database_url
     engine = make_engine(url)
-    with engine.connect() as conn:
+    with _migration_connection(engine) as conn:
         _configure(conn)
         with context.begin_transaction():
             context.run_migrations()
+            _check_foreign_keys(conn)
     engine.dispose()
 
 

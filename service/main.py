@@ -19,11 +19,12 @@ from service.config import get_settings
 from service.events.router import router as events_router
 from service.forecasting.router import router as forecasting_router
 from service.keys.router import router as keys_router
-from service.planning.router import router as planning_router
+from service.planning.router import build_router as build_planning_router
 from service.readings.router import router as readings_router
 from service.register.router import router as register_router
 from service.scheduling.router import router as runs_router
 from service.web.install import install_web
+from service.workorders.repository import last_group_relamps
 from service.workorders.router import router as workorders_router
 
 API_PREFIX = "/api/v1"
@@ -36,7 +37,7 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     readings_router,
     events_router,
     forecasting_router,
-    planning_router,
+    build_planning_router(last_group_relamps),
     workorders_router,
     runs_router,
 ]

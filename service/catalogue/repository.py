@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from sqlalchemy import Select, func, select
+from sqlalchemy import Select, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
@@ -47,11 +47,3 @@ def code_taken(session: Session, code: str, exclude_id: int | None = None) -> bo
 def ids_by_code(session: Session) -> dict[str, int]:
     """Every lamp type's id by its code (one query)."""
     return {code: i for i, code in session.execute(select(LampType.id, LampType.code))}
-
-
-def fixture_count(session: Session, lamp_type_id: int) -> int:
-    """How many fixtures hold this lamp type."""
-    from service.register.models import Fixture  # register depends on catalogue, not back
-
-    stmt = select(func.count()).where(Fixture.lamp_type_id == lamp_type_id)
-    return int(session.scalar(stmt) or 0)

@@ -117,14 +117,3 @@ def update_lamp_type(
 ) -> LampTypeRead:
     """Change some fields of a lamp type."""
     return service.to_read(service.update_lamp_type(session, lamp_type_id, body))
-
-
-@router.delete(
-    "/{lamp_type_id}",
-    status_code=status.HTTP_204_NO_CONTENT,
-    dependencies=[versioned(LampType, "lamp_type_id")],
-)
-def delete_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
-    """Delete a lamp type that no fixture uses."""
-    service.delete_lamp_type(session, lamp_type_id)
-    return Response(status_code=status.HTTP_204_NO_CONTENT)

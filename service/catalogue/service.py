@@ -88,10 +88,15 @@ def update_lamp_type(session: Session, lamp_type_id: int, body: LampTypeUpdate) 
     return lt
 
 
-def delete_lamp_type(session: Session, lamp_type_id: int) -> None:
-    """Delete a lamp type no fixture uses (409 naming how many do)."""
+def delete_lamp_type(session: Session, lamp_type_id: int, *, fixtures: int) -> None:
+    """Delete a lamp type no fixture uses (409 naming how many do).
+
+    fixtures: how many fixtures hold it, counted by the caller on the register's side
+    (register.repository.fixtures_using_lamp_type): the register depends on the catalogue,
+    never the other way.
+    """
     lt = get_lamp_type(session, lamp_type_id)
-    n = repo.fixture_count(session, lamp_type_id)
+    n = fixtures
     if n:
         raise Conflict(
             f"Lamp type '{lt.code}' is used by {n} fixture(s); move them to another type first.",

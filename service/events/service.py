@@ -17,6 +17,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict
+from service.catalogue.resolved import load_types
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.events.checks import (
@@ -28,7 +29,6 @@ from service.events.checks import (
 )
 from service.events.models import BurnoutReport, LampRemoval
 from service.events.reports import close_open_for_positions
-from service.forecasting.types import load_types
 from service.readings.ages import position_ages
 from service.register.models import Fixture, LampPosition
 from service.reliability.fleet import evaluate_fleet
@@ -52,8 +52,8 @@ def _observations(
     computed age (one position only: a reported figure).
     """
     ages = position_ages(session, position_ids=list(positions), at=at)
-    # Each lamp's voltage response on the ballast its fixture runs on (forecasting.types).
-    types = load_types(session, ages.lamp_type_id, field_fit=False, ballast_kinds=ages.ballast_kind)
+    # Each lamp's voltage response on the ballast its fixture runs on (catalogue.resolved).
+    types = load_types(session, ages.lamp_type_id, ballast_kinds=ages.ballast_kind)
     res = evaluate_fleet(
         types.table,
         types.index(ages.lamp_type_id, ages.ballast_kind),

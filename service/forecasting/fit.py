@@ -17,13 +17,13 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.model import LampModel
+from service.catalogue.resolved import CurveInUse, TypeTable, build_table, catalogue_models
 from service.events.models import LampRemoval
-from service.forecasting.types import CurveInUse, build_table
 from service.readings.ages import position_ages
 from service.reliability.fitting import (
     CurveChoice,
@@ -145,3 +145,16 @@ def curves_in_use(session: Session, models: dict[int, LampModel]) -> dict[int, C
         if n > 0:
             out[int(type_id)] = fit_field(session, models[int(type_id)], int(type_id)).curve
     return out
+
+
+def load_fitted_types(
+    session: Session,
+    lamp_type_ids: ArrayLike,
+    *,
+    field_fit: bool = True,
+    ballast_kinds: ArrayLike | None = None,
+) -> TypeTable:
+    """The type table with each type's field-fit curve where it replaces the catalogue's."""
+    models = catalogue_models(session, lamp_type_ids)
+    in_use = curves_in_use(session, models) if field_fit and models else {}
+    return build_table(models, in_use, lamp_type_ids, ballast_kinds)

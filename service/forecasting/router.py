@@ -13,9 +13,10 @@ from service.api.errors import NotFound
 from service.api.ids import MAX_ID, IdPath
 from service.api.times import Timestamp
 from service.catalogue.models import LampType
+from service.catalogue.resolved import CurveInUse, catalogue_models
 from service.db.crud import get_or_404
 from service.forecasting import service as fc
-from service.forecasting.fit import fit_field
+from service.forecasting.fit import fit_field, load_fitted_types
 from service.forecasting.schemas import (
     AreaForecastRead,
     CurveInUseRead,
@@ -27,7 +28,6 @@ from service.forecasting.schemas import (
     SummaryRead,
     WeibullFitRead,
 )
-from service.forecasting.types import CurveInUse, catalogue_models, load_types
 from service.forecasting.whatif import lamp_curve
 from service.register.models import Area, Fixture, Site
 from service.reliability.fitting import WeibullFit
@@ -278,7 +278,7 @@ def field_fit(
         if km is not None
         else []
     )
-    in_use = load_types(session, [lamp_type_id], field_fit=True).curves[0]
+    in_use = load_fitted_types(session, [lamp_type_id], field_fit=True).curves[0]
     return FieldFitRead(
         lamp_type_id=lamp_type_id,
         site_id=site_id,

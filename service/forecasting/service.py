@@ -1,8 +1,8 @@
 """Forecasts for a fixture, area, site or lamp type, from the register and the readings.
 
 Per position (numeric core: service.reliability.fleet.evaluate_fleet, with each lamp
-type's curve chosen by the field fit, see forecasting.types / forecasting.fit; a discharge
-lamp's voltage response follows its fixture's ballast kind, see forecasting.types):
+type's curve chosen by the field fit, see catalogue.resolved / forecasting.fit; a discharge
+lamp's voltage response follows its fixture's ballast kind, see catalogue.resolved):
 
 - survival now: S(age) of the lamp in the socket (0 for a dark position);
 - P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
@@ -31,9 +31,10 @@ from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
 from service.forecasting.ahead import expected_replacements
-from service.forecasting.types import CurveInUse, TypeTable, load_types
+from service.forecasting.fit import load_fitted_types
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
 from service.reliability.fleet import FleetResult, evaluate_fleet
@@ -236,7 +237,9 @@ def forecast(
         lamp_type_id=lamp_type_id,
         at=at,
     )
-    types = load_types(session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind)
+    types = load_fitted_types(
+        session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind
+    )
     pf = evaluate_positions(ages, types, horizon_weeks)
     curves = {int(i): c for i, c in zip(types.ids.tolist(), types.curves, strict=True)}
 

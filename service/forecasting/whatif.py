@@ -9,7 +9,8 @@ from numpy.typing import NDArray
 from sqlalchemy.orm import Session
 
 from service.api.errors import Invalid, NotFound
-from service.forecasting.types import CurveInUse, load_types
+from service.catalogue.resolved import CurveInUse
+from service.forecasting.fit import load_fitted_types
 from service.reliability.fleet import evaluate_fleet
 from service.reliability.renewal import weibull_renewal
 
@@ -45,7 +46,7 @@ def lamp_curve(
     field_fit: bool,
 ) -> CurveResult:
     """S(t), lumen fraction and renewal M(t) for one lamp type under given conditions."""
-    types = load_types(session, [lamp_type_id], field_fit=field_fit)
+    types = load_fitted_types(session, [lamp_type_id], field_fit=field_fit)
     if types.ids.size == 0:
         raise NotFound(f"lamp type {lamp_type_id} does not exist.", resource="lamp type")
     model = types.models[0]

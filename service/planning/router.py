@@ -10,32 +10,35 @@ from service.planning.present import area_plan_read
 from service.planning.schemas import AreaPlanRead, PlanOverrides, SitePlanRead
 from service.register.service import get_site
 
-router = APIRouter(tags=["planning"])
 
+def build_router(last_relamps: service.LastRelamps) -> APIRouter:
+    """The planning routes, handed the query for completed group relamps (from work orders)."""
+    router = APIRouter(tags=["planning"])
 
-@router.get("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
-def get_area_plan(area_id: int, session: SessionDep, _: ReadKey) -> AreaPlanRead:
-    """An area's group relamp plan: interval, due date, cost rates, binding reason, inputs."""
-    return area_plan_read(service.area_plan(session, area_id))
+    @router.get("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
+    def get_area_plan(area_id: int, session: SessionDep, _: ReadKey) -> AreaPlanRead:
+        """An area's group relamp plan: interval, due date, cost rates, binding reason, inputs."""
+        return area_plan_read(service.area_plan(session, area_id, last_relamps=last_relamps))
 
+    @router.post("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
+    def what_if_area_plan(
+        area_id: int, body: PlanOverrides, session: SessionDep, _: ReadKey
+    ) -> AreaPlanRead:
+        """The plan with what-if overrides (prices, labour, voltage, caps); nothing is stored."""
+        plan = service.area_plan(session, area_id, body, last_relamps=last_relamps)
+        return area_plan_read(plan)
 
-@router.post("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
-def what_if_area_plan(
-    area_id: int, body: PlanOverrides, session: SessionDep, _: ReadKey
-) -> AreaPlanRead:
-    """The plan with what-if overrides (prices, labour, voltage, caps); nothing is stored."""
-    return area_plan_read(service.area_plan(session, area_id, body))
+    @router.get("/sites/{site_id}/relamp-plan", response_model=SitePlanRead)
+    def get_site_plan(site_id: int, session: SessionDep, _: ReadKey) -> SitePlanRead:
+        """Every area of a site by due date (soonest first; spot-only areas last)."""
+        site = get_site(session, site_id)
+        plans = service.site_plans(session, site, last_relamps=last_relamps)
+        as_of = plans[0].as_of if plans else service.utcnow()
+        return SitePlanRead(
+            site_id=site.id,
+            time_zone=site.time_zone,
+            as_of=as_of,
+            areas=[area_plan_read(p) for p in plans],
+        )
 
-
-@router.get("/sites/{site_id}/relamp-plan", response_model=SitePlanRead)
-def get_site_plan(site_id: int, session: SessionDep, _: ReadKey) -> SitePlanRead:
-    """Every area of a site by due date (soonest first; spot-only areas last)."""
-    site = get_site(session, site_id)
-    plans = service.site_plans(session, site)
-    as_of = plans[0].as_of if plans else service.utcnow()
-    return SitePlanRead(
-        site_id=site.id,
-        time_zone=site.time_zone,
-        as_of=as_of,
-        areas=[area_plan_read(p) for p in plans],
-    )
+    return router

@@ -3,7 +3,7 @@
 Each (area, lamp type) group gets its own group interval (engine.plan_group); an area is
 due when its first lamp-type group is. Ballast: a group is relamped together whatever its
 fixtures' ballasts, so its voltage response uses the area's dominant ballast for that lamp
-type: the kind most of the group's positions run on (forecasting.types decides per position:
+type: the kind most of the group's positions run on (catalogue.resolved decides per position:
 the fixture's kind for discharge lamps, "none" for filament, "led_driver" for LED; a tie goes
 to the alphabetically first kind). The plan's inputs name it (PlanInputs.ballast_kind). Group age: burn hours since the area's last
 completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
@@ -18,20 +18,21 @@ Nothing here writes to the database.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 from functools import cached_property
 from zoneinfo import ZoneInfo
 
 import numpy as np
-from sqlalchemy import func, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.catalogue.model import LampModel
+from service.catalogue.resolved import CurveInUse
 from service.db.base import utcnow
 from service.db.crud import get_or_404
-from service.forecasting.types import CurveInUse, load_types
+from service.forecasting.fit import load_fitted_types
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
 from service.planning.engine import (
     DEFAULT_RUPTURE_FRACTION,
@@ -43,7 +44,6 @@ from service.planning.engine import (
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
-from service.workorders.models import WorkOrder
 
 WEEKS_PER_YEAR = 365.25 / 7.0
 VOLTAGE_STEP_V = 0.1  # representative voltages are rounded to this (meters read no finer)
@@ -129,17 +129,9 @@ def due_date(
     return today + timedelta(days=math.floor(days)), False
 
 
-def last_group_relamps(session: Session, area_ids: Sequence[int]) -> dict[int, datetime]:
-    """When each area's last group relamp was completed."""
-    if not area_ids:
-        return {}
-    stmt = (
-        select(WorkOrder.area_id, func.max(WorkOrder.completed_at))
-        .where(WorkOrder.kind == "group_relamp", WorkOrder.state == "done")
-        .where(WorkOrder.area_id.in_(list(area_ids)))
-        .group_by(WorkOrder.area_id)
-    )
-    return {a: t for a, t in session.execute(stmt).all() if t is not None}
+# Completed group relamps by area, from the work orders above this layer (planning must not
+# import workorders: work orders call planning). The caller hands the query in.
+LastRelamps = Callable[[Session, Sequence[int]], Mapping[int, datetime]]
 
 
 def _models(
@@ -147,7 +139,9 @@ def _models(
 ) -> tuple[dict[tuple[int, str], LampModel], dict[int, CurveInUse], np.ndarray]:
     """Models by (lamp type, ballast), curves by lamp type, and each position's ballast."""
     # The same life curves the forecasts use: the field fit where it replaces the catalogue.
-    types = load_types(session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind)
+    types = load_fitted_types(
+        session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind
+    )
     keys = list(zip(types.ids.tolist(), types.ballasts.tolist(), strict=True))
     models = dict(zip(keys, types.models, strict=True))
     curves = {k[0]: c for k, c in zip(keys, types.curves, strict=True)}
@@ -162,12 +156,14 @@ def plan_areas(
     at: datetime,
     over: PlanOverrides | None = None,
     cache: PlanCache | None = None,
+    *,
+    last_relamps: Mapping[int, datetime],
 ) -> list[AreaPlan]:
-    """Plans for the given areas of one site from their positions' arrays."""
+    """Plans for the given areas of one site; last_relamps: last completed group relamp by area."""
     over = over or PlanOverrides()
     cache = cache or PlanCache()
     today = local_today(site, at)
-    last = last_group_relamps(session, [a.id for a in areas])
+    last = last_relamps
     models: dict[tuple[int, str], LampModel] = {}
     curves: dict[int, CurveInUse] = {}
     ballast = np.zeros(0, dtype="<U12")
@@ -300,22 +296,35 @@ def _pick(value: float | None, default: float) -> float:
     return float(default) if value is None else float(value)
 
 
-def area_plan(session: Session, area_id: int, over: PlanOverrides | None = None) -> AreaPlan:
+def area_plan(
+    session: Session,
+    area_id: int,
+    over: PlanOverrides | None = None,
+    *,
+    last_relamps: LastRelamps,
+) -> AreaPlan:
     """One area's plan (404 if the area is missing); overrides are what-if only."""
     area = get_or_404(session, Area, area_id, "area")
     site = session.get(Site, area.site_id)
     assert site is not None  # the foreign key guarantees it
     at = (over.at if over and over.at else None) or utcnow()
     pos = load_positions(session, area_id=area.id, at=at)
-    return plan_areas(session, site, [area], pos, at, over)[0]
+    last = last_relamps(session, [area.id])
+    return plan_areas(session, site, [area], pos, at, over, last_relamps=last)[0]
 
 
 def site_plans(
-    session: Session, site: Site, at: datetime | None = None, cache: PlanCache | None = None
+    session: Session,
+    site: Site,
+    at: datetime | None = None,
+    cache: PlanCache | None = None,
+    *,
+    last_relamps: LastRelamps,
 ) -> list[AreaPlan]:
     """Every area of a site, soonest due first; spot-only and undated areas last."""
     when = at or utcnow()
     areas = session.scalars(select(Area).where(Area.site_id == site.id).order_by(Area.id)).all()
     pos = load_positions(session, site_id=site.id, at=when)
-    plans = plan_areas(session, site, list(areas), pos, when, None, cache)
+    last = last_relamps(session, [a.id for a in areas])
+    plans = plan_areas(session, site, list(areas), pos, when, None, cache, last_relamps=last)
     return sorted(plans, key=lambda p: (p.due_on or date.max, p.area.id))

@@ -16,7 +16,7 @@ Method (all vectorised; a handful of queries whatever the number of positions):
   fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
   A fixture's own readings win over its area's. The readings part is in voltages.py.
 - Ballast: the fixture's ballast kind (Fixture.ballast_kind), read as a code in the same
-  query; forecasting.types decides which ballast the lamp actually runs on.
+  query; catalogue.resolved decides which ballast the lamp actually runs on.
 """
 
 from __future__ import annotations

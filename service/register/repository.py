@@ -121,3 +121,9 @@ def positions_of(session: Session, fixture_id: int) -> list[LampPosition]:
 def fixture_count_in_area(session: Session, area_id: int) -> int:
     """How many fixtures an area holds."""
     return int(session.scalar(select(func.count()).where(Fixture.area_id == area_id)) or 0)
+
+
+def fixtures_using_lamp_type(session: Session, lamp_type_id: int) -> int:
+    """How many fixtures hold this lamp type."""
+    stmt = select(func.count()).where(Fixture.lamp_type_id == lamp_type_id)
+    return int(session.scalar(stmt) or 0)

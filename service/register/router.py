@@ -10,7 +10,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
-from service.register import area_router, fixture_router, service
+from service.register import area_router, fixture_router, lamp_type_router, service
 from service.register import repository as repo
 from service.register.models import Site
 from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
@@ -69,3 +69,4 @@ def delete_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
 # One router for the whole register (service.register.router.router).
 router.include_router(area_router.router)
 router.include_router(fixture_router.router)
+router.include_router(lamp_type_router.router)

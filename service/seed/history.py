@@ -15,7 +15,7 @@ import numpy as np
 from sqlalchemy import Table, insert, inspect
 from sqlalchemy.orm import Session
 
-import service.db.models  # noqa: F401  (registers every domain's tables on Base.metadata)
+import service.models_registry  # noqa: F401  (registers every domain's tables on Base.metadata)
 from service.catalogue.model import lamp_type_table, resolve_lamp_model
 from service.catalogue.models import LampType
 from service.db.base import Base, utcnow

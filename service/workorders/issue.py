@@ -24,6 +24,7 @@ from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.repository import last_group_relamps
 from service.workorders.texts import LampContent, disposal_instructions, safety_cautions
 
 OPEN_STATES = ("draft", "issued", "in_progress")
@@ -155,7 +156,8 @@ def issue_orders(
         plans = []
         if todo:
             pos = load_positions(session, site_id=site.id, area_id=area_id, at=at)
-            plans = plan_areas(session, site, todo, pos, at, None, cache)
+            last = last_group_relamps(session, [a.id for a in todo])
+            plans = plan_areas(session, site, todo, pos, at, None, cache, last_relamps=last)
         for plan in plans:
             aid = plan.area.id
             due_groups = [g for g in plan.groups if g.due_on is not None and g.due_on <= horizon]

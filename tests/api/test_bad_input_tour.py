@@ -18,7 +18,7 @@ from httpx import Response
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-import service.db.models  # noqa: F401  (every domain's tables on the metadata)
+import service.models_registry  # noqa: F401  (every domain's tables on the metadata)
 from service.catalogue.models import LampType
 from service.db.base import Base, utcnow
 from service.events import service as events

@@ -18,6 +18,7 @@ from service.scheduling.models import RunWeek, WeeklyRun
 from service.scheduling.runner import run_site_week
 from service.scheduling.weeks import iso_week_of
 from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.repository import last_group_relamps
 from tests.planning import builders as b
 from tests.scheduling.faults import fail_before_lines
 
@@ -52,7 +53,7 @@ def test_run_issues_due_group_and_batched_spot_orders(
 ) -> None:
     p = portfolio(db)
     site = p["site"]
-    plans = {x.area.id: x for x in site_plans(db, site)}
+    plans = {x.area.id: x for x in site_plans(db, site, last_relamps=last_group_relamps)}
     horizon = local_today(site, utcnow()) + timedelta(weeks=site.lookahead_weeks)
     assert plans[p["old"].id].due_on is not None and plans[p["old"].id].due_on <= horizon
     young_due = plans[p["young"].id].due_on

@@ -1,8 +1,9 @@
-"""Lamp types of a set of positions as the numeric core's table, with the curve in use.
+"""Resolved lamp models of a set of positions as the numeric core's table, with curves in use.
 
-The catalogue model comes from service.catalogue.model.resolve_lamp_model. When asked,
-each type's Weibull is replaced by the field fit's choice (fitting.choose_curve): the field
-MLE, or the catalogue shape with a WeiBayes scale; see service.forecasting.fit.
+The catalogue model comes from service.catalogue.model.resolve_lamp_model. The catalogue
+owns this table and its loading so every domain above it (events, forecasting, planning,
+work orders) takes lamp models from here. Curves: the catalogue Weibull unless the caller
+hands the field fit's choice (service.forecasting.fit.load_fitted_types does).
 
 Ballast: given the fixtures' ballast kinds (Fixture.ballast_kind), the table has one row per
 (lamp type, ballast) pair present, each the type's model with that ballast's power gain and
@@ -157,18 +158,7 @@ def build_table(
 
 
 def load_types(
-    session: Session,
-    lamp_type_ids: ArrayLike,
-    *,
-    field_fit: bool = True,
-    ballast_kinds: ArrayLike | None = None,
+    session: Session, lamp_type_ids: ArrayLike, *, ballast_kinds: ArrayLike | None = None
 ) -> TypeTable:
-    """The type table for these lamp types (per ballast present when ballast kinds are given)."""
-    models = catalogue_models(session, lamp_type_ids)
-    if field_fit and models:
-        from service.forecasting.fit import curves_in_use  # fit imports this module
-
-        in_use = curves_in_use(session, models)
-    else:
-        in_use = {}
-    return build_table(models, in_use, lamp_type_ids, ballast_kinds)
+    """The type table on catalogue curves (per ballast present when ballast kinds are given)."""
+    return build_table(catalogue_models(session, lamp_type_ids), {}, lamp_type_ids, ballast_kinds)
