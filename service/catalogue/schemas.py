@@ -350,6 +350,9 @@ class LampTypeRead(BaseModel):
     extra: dict[str, Any] | None
     created_at: datetime
     updated_at: datetime
+    retired_at: datetime | None = Field(
+        default=None, description="When retired (kept for past orders and field fits)."
+    )
     model: LampModelRead | None = Field(
         default=None, description="The numbers the forecasts use and their sources."
     )
