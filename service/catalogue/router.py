@@ -127,3 +127,13 @@ def delete_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: WriteKey) -> 
     """Delete a lamp type that no fixture uses."""
     service.delete_lamp_type(session, lamp_type_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
+
+
+@router.post(
+    "/{lamp_type_id}/retire",
+    response_model=LampTypeRead,
+    dependencies=[versioned(LampType, "lamp_type_id")],
+)
+def retire_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: WriteKey) -> LampTypeRead:
+    """Retire a lamp type: kept for past orders and field fits, hidden from lists."""
+    return service.to_read(service.retire_lamp_type(session, lamp_type_id))

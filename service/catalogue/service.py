@@ -20,6 +20,7 @@ from service.catalogue.schemas import (
     LampTypeUpdate,
     cross_check,
 )
+from service.db.base import utcnow
 from service.db.crud import get_or_404
 
 
@@ -105,3 +106,23 @@ def delete_lamp_type(session: Session, lamp_type_id: int) -> None:
         raise Conflict(
             f"Lamp type '{lt.code}' is still referenced by lamp history or work orders.",
         ) from None
+
+
+def retire_lamp_type(session: Session, lamp_type_id: int) -> LampType:
+    """Retire a lamp type (no new fixtures or orders use it); a repeat answers it unchanged.
+
+    Refused (409) while an open work order still has lines fitting this type.
+    """
+    from service.register.retire import open_orders_touching, refuse_if_open_orders
+    from service.workorders.models import WorkOrderLine  # catalogue is below workorders
+
+    lt = get_lamp_type(session, lamp_type_id)
+    if lt.retired_at is not None:
+        return lt
+    refuse_if_open_orders(
+        f"Lamp type '{lt.code}'",
+        open_orders_touching(session, WorkOrderLine.lamp_type_id == lamp_type_id),
+    )
+    lt.retired_at = utcnow()
+    session.flush()
+    return lt

@@ -10,7 +10,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
-from service.register import areas
+from service.register import areas, retire
 from service.register import repository as repo
 from service.register.models import ACCESS_METHODS, Area
 from service.register.schemas import AreaCreate, AreaRead, AreaUpdate
@@ -66,3 +66,11 @@ def delete_area(area_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete an area with its fixtures."""
     areas.delete_area(session, area_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
+
+
+@router.post(
+    "/{area_id}/retire", response_model=AreaRead, dependencies=[versioned(Area, "area_id")]
+)
+def retire_area(area_id: IdPath, session: SessionDep, _: WriteKey) -> AreaRead:
+    """Retire an area with its fixtures (kept with their history)."""
+    return AreaRead.model_validate(retire.retire_area(session, area_id))

@@ -14,7 +14,7 @@ from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response, parse_
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
-from service.register import fixtures
+from service.register import fixtures, retire
 from service.register import repository as repo
 from service.register.models import Fixture, LampPosition
 from service.register.schemas import (
@@ -138,6 +138,16 @@ def delete_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> Resp
     """Delete a fixture with its positions."""
     fixtures.delete_fixture(session, fixture_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
+
+
+@router.post(
+    "/fixtures/{fixture_id}/retire",
+    response_model=FixtureRead,
+    dependencies=[versioned(Fixture, "fixture_id")],
+)
+def retire_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> FixtureRead:
+    """Retire a fixture (kept with its history); refused while it is on an open order."""
+    return FixtureRead.model_validate(retire.retire_fixture(session, fixture_id))
 
 
 @router.get("/fixtures/{fixture_id}/positions", response_model=list[PositionRead])

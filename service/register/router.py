@@ -10,7 +10,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
-from service.register import area_router, fixture_router, service
+from service.register import area_router, fixture_router, retire, service
 from service.register import repository as repo
 from service.register.models import Site
 from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
@@ -64,6 +64,14 @@ def delete_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a site and everything in it."""
     service.delete_site(session, site_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
+
+
+@router.post(
+    "/sites/{site_id}/retire", response_model=SiteRead, dependencies=[versioned(Site, "site_id")]
+)
+def retire_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> SiteRead:
+    """Retire a site with its areas and fixtures (kept with their history)."""
+    return SiteRead.model_validate(retire.retire_site(session, site_id))
 
 
 # One router for the whole register (service.register.router.router).
