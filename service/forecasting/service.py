@@ -235,6 +235,7 @@ def forecast(
         fixture_id=fixture_id,
         lamp_type_id=lamp_type_id,
         at=at,
+        active_only=True,  # retired fixtures get no future work
     )
     types = load_types(session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind)
     pf = evaluate_positions(ages, types, horizon_weeks)

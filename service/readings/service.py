@@ -53,6 +53,20 @@ def _lookup(
     return out
 
 
+def _retired_ids(session: Session, model: type[Fixture] | type[Area], wanted: IntArray) -> set[int]:
+    """The retired ones among the wanted fixture or area ids (readings on them are refused)."""
+    out: set[int] = set()
+    uniq = np.unique(wanted[wanted > 0]).tolist()
+    for i in range(0, len(uniq), _CHUNK):
+        part = uniq[i : i + _CHUNK]
+        out.update(
+            session.scalars(
+                select(model.id).where(model.id.in_(part), model.retired_at.is_not(None))
+            )
+        )
+    return out
+
+
 def resolve_targets(
     session: Session, c: Columns, errors: RowErrors
 ) -> tuple[IntArray, IntArray, IntArray, list[str | None]]:
@@ -69,6 +83,8 @@ def resolve_targets(
         )
     fx = _lookup(session, Fixture, fid)
     ar = _lookup(session, Area, aid)
+    retired = {"fixture_id": _retired_ids(session, Fixture, fid)}
+    retired["area_id"] = _retired_ids(session, Area, aid)
     n = len(c)
     site = np.full(n, -1, dtype=np.int64)
     zones: list[str | None] = [None] * n
@@ -89,6 +105,10 @@ def resolve_targets(
                 continue
             site[row] = hit[0]
             zones[row] = hit[2]
+        for field, ids in retired.items():
+            target = fl[row] if field == "fixture_id" else al[row]
+            if target in ids:
+                errors.add(int(c.numbers[row]), field, f"{target} is retired", conflict=True)
     return fid, aid, site, zones
 
 

@@ -207,6 +207,7 @@ def import_fixtures(
     areas = {
         (s, name): i for i, s, name in session.execute(select(Area.id, Area.site_id, Area.name))
     }
+    retired_areas = set(session.scalars(select(Area.id).where(Area.retired_at.is_not(None))))
     types = {
         code: (i, tech, ballast or TECHNOLOGY_DEFAULTS[tech].default_ballast)
         for i, code, tech, ballast in session.execute(
@@ -235,6 +236,8 @@ def import_fixtures(
         area_id = areas.get((site_id, g.area))
         if area_id is None:
             errors.add(g.number, "area", f"site '{g.site}' has no area named '{g.area}'")
+        elif area_id in retired_areas:
+            errors.add(g.number, "area", f"area '{g.area}' is retired", conflict=True)
         lt = types.get(g.lamp_type)
         if lt is None:
             errors.add(g.number, "lamp_type", f"no lamp type with code '{g.lamp_type}'")

@@ -12,7 +12,7 @@ from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.register import repository as repo
-from service.register.history import check_fixture
+from service.register.history import check_fixture, refuse_retired
 from service.register.models import Area, Fixture, LampPosition
 from service.register.schemas import FixtureCreate, FixtureUpdate, PositionUpdate
 from service.reliability.technologies import TECHNOLOGY_DEFAULTS
@@ -99,6 +99,8 @@ def create_fixture(session: Session, body: FixtureCreate) -> Fixture:
     lt = session.get(LampType, body.lamp_type_id)
     if lt is None:
         raise _missing("lamp type", "lamp_type_id", body.lamp_type_id)
+    refuse_retired("area", "area_id", area)
+    refuse_retired("lamp type", "lamp_type_id", lt)
     ballast = body.ballast_kind or lamp_ballast(lt)
     problem = ballast_problem(lt.technology, ballast)
     if problem:
@@ -136,9 +138,12 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
             raise _missing("area", "area_id", sent["area_id"])
         if area.site_id != fixture.site_id:
             raise _invalid("area_id", "a fixture can move only to an area of its own site")
+        refuse_retired("area", "area_id", area)
     lt = session.get(LampType, sent.get("lamp_type_id", fixture.lamp_type_id))
     if lt is None:
         raise _missing("lamp type", "lamp_type_id", sent["lamp_type_id"])
+    if "lamp_type_id" in sent and sent["lamp_type_id"] != fixture.lamp_type_id:
+        refuse_retired("lamp type", "lamp_type_id", lt)
     if "lamp_type_id" in sent and "ballast_kind" not in sent:
         old = session.get(LampType, fixture.lamp_type_id)
         if old is not None and fixture.ballast_kind == lamp_ballast(old):

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from sqlalchemy import ColumnElement, Select, func, or_, select
 from sqlalchemy.orm import Session
 
@@ -87,3 +89,13 @@ def check_fixture(session: Session, fixture_id: int) -> None:
     """409 if the fixture has any history."""
     fx = select(Fixture.id).where(Fixture.id == fixture_id)
     refuse_if_history("The fixture", history_counts(session, fx, None))
+
+
+def refuse_retired(label: str, field: str, record: Any) -> None:
+    """409 when something new would be added under (or on) a retired record."""
+    if record.retired_at is not None:
+        raise Conflict(
+            f"{field} {record.id}: the {label} is retired; nothing new can be added to it.",
+            field=field,
+            retired_at=record.retired_at.isoformat(),
+        )

@@ -95,12 +95,3 @@ def retire_fixture(session: Session, fixture_id: int) -> Fixture:
     fixture.retired_at = utcnow()
     session.flush()
     return fixture
-
-
-def refuse_retired(label: str, field: str, record: Site | Area | Fixture) -> None:
-    """409 when new records would be added under (or on) a retired record."""
-    if record.retired_at is not None:
-        raise Conflict(
-            f"{field} {record.id}: the {label} is retired; nothing new can be added to it.",
-            field=field,
-        )
