@@ -7,7 +7,7 @@ from sqlalchemy.orm import Session
 from service.api.errors import Conflict, Invalid, NotFound
 from service.db.crud import apply_patch, get_or_404
 from service.register import repository as repo
-from service.register.history import check_area, refuse_retired
+from service.register.history import check_area, delete_without_history, refuse_retired
 from service.register.models import Area, Site
 from service.register.schemas import AreaCreate, AreaUpdate
 
@@ -81,5 +81,4 @@ def delete_area(session: Session, area_id: int) -> None:
     """Delete an area without history (409 naming the history otherwise)."""
     area = get_area(session, area_id)
     check_area(session, area_id)
-    session.delete(area)
-    session.flush()
+    delete_without_history(session, "The area", area)

@@ -12,7 +12,12 @@ from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.register import repository as repo
-from service.register.history import check_fixture, refuse_retired
+from service.register.history import (
+    check_fixture,
+    check_positions,
+    delete_without_history,
+    refuse_retired,
+)
 from service.register.models import Area, Fixture, LampPosition
 from service.register.schemas import FixtureCreate, FixtureUpdate, PositionUpdate
 from service.reliability.technologies import TECHNOLOGY_DEFAULTS
@@ -162,8 +167,10 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
             row.pop("fixture_id")
             fixture.positions.append(LampPosition(**row))
     elif new_count < len(positions):
+        # Positions with removals or reports stay: their history would block the delete.
+        check_positions(session, [p.id for p in positions[new_count:]])
         for pos in positions[new_count:]:
-            fixture.positions.remove(pos)  # delete-orphan removes the row and its history
+            fixture.positions.remove(pos)  # delete-orphan removes the row
     for name, value in sent.items():
         setattr(fixture, name, value)
     session.flush()
@@ -174,8 +181,7 @@ def delete_fixture(session: Session, fixture_id: int) -> None:
     """Delete a fixture without history (409 naming the history otherwise)."""
     fixture = get_fixture(session, fixture_id)
     check_fixture(session, fixture_id)
-    session.delete(fixture)
-    session.flush()
+    delete_without_history(session, "The fixture", fixture)
 
 
 def list_positions(session: Session, fixture_id: int) -> list[LampPosition]:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from sqlalchemy import ColumnElement, Select, func, or_, select
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict
@@ -69,6 +70,31 @@ def refuse_if_history(what: str, counts: dict[str, int]) -> None:
             f"{what} has history ({listed}); deleting it would lose that history.",
             blocking=counts,
         )
+
+
+def delete_without_history(session: Session, what: str, row: object) -> None:
+    """Hard-delete a row whose history was checked; a RESTRICT hit (history added meanwhile) is 409."""
+    try:
+        with session.begin_nested():  # a savepoint, so the request can still answer
+            session.delete(row)
+            session.flush()
+    except IntegrityError:
+        raise Conflict(
+            f"{what} gained history while being deleted; nothing was deleted. Retire it instead.",
+        ) from None
+
+
+def check_positions(session: Session, position_ids: list[int]) -> None:
+    """409 if lamp positions about to be dropped have removals or burnout reports."""
+    if not position_ids:
+        return
+    counts = {
+        "removals": _count(session, LampRemoval, LampRemoval.position_id.in_(position_ids)),
+        "burnout reports": _count(
+            session, BurnoutReport, BurnoutReport.position_id.in_(position_ids)
+        ),
+    }
+    refuse_if_history("A lamp position to drop", {k: v for k, v in counts.items() if v})
 
 
 def check_site(session: Session, site_id: int) -> None:

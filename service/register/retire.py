@@ -18,7 +18,7 @@ from service.workorders.models import WorkOrder, WorkOrderLine
 
 def open_orders_touching(session: Session, where: ColumnElement[bool]) -> list[int]:
     """Ids of open work orders with a line matching the condition (e.g. on given fixtures)."""
-    stmt: Select[tuple[int]] = (
+    stmt: Select[int] = (
         select(WorkOrder.id)
         .join(WorkOrderLine, WorkOrderLine.work_order_id == WorkOrder.id)
         .where(WorkOrder.state.in_(OPEN_STATES), where)

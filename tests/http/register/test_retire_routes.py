@@ -103,3 +103,21 @@ def test_nothing_new_under_a_retired_record(
     assert client.post(f"/api/v1/sites/{s.id}/retire", headers=writer).status_code == 200
     r = client.post("/api/v1/areas", json={"site_id": s.id, "name": "Annex 2"}, headers=writer)
     assert r.status_code == 409, r.text
+
+
+def test_retire_fixture_on_open_order_is_409(
+    db: Session, client: TestClient, writer: dict[str, str]
+) -> None:
+    from tests.service.register.test_retire_rules import _open_order
+
+    s = fx.site(db)
+    a = fx.area(db, s)
+    lt = fx.lamp_type(db)
+    (f,) = fx.fixtures(db, a, lt, 1)
+    order = _open_order(db, f)
+    db.commit()
+    r = client.post(f"/api/v1/fixtures/{f.id}/retire", headers=writer)
+    assert r.status_code == 409, r.text
+    assert r.headers["content-type"].startswith("application/problem+json")
+    assert r.json()["work_orders"] == [order.id]
+    assert client.get(f"/api/v1/fixtures/{f.id}", headers=writer).json()["retired_at"] is None
