@@ -55,7 +55,10 @@ def retire_site(session: Session, site_id: int) -> Site:
     site = get_or_404(session, Site, site_id, "site")
     if site.retired_at is not None:
         return site
-    lock_site(session, site_id)  # the weekly run and new orders wait for this decision
+    lock_site(session, site_id)
+    session.refresh(site)  # a retire that held the lock before us may have committed
+    if site.retired_at is not None:
+        return site  # the weekly run and new orders wait for this decision
     refuse_if_open_orders(
         "A fixture of the site", open_orders_touching(session, WorkOrder.site_id == site_id)
     )
@@ -73,6 +76,9 @@ def retire_area(session: Session, area_id: int) -> Area:
     if area.retired_at is not None:
         return area
     lock_site(session, area.site_id)
+    session.refresh(area)  # a retire that held the lock before us may have committed
+    if area.retired_at is not None:
+        return area
     refuse_if_open_orders(
         "A fixture of the area", open_orders_touching(session, WorkOrder.area_id == area_id)
     )
@@ -89,6 +95,9 @@ def retire_fixture(session: Session, fixture_id: int) -> Fixture:
     if fixture.retired_at is not None:
         return fixture
     lock_site(session, fixture.site_id)
+    session.refresh(fixture)  # a retire that held the lock before us may have committed
+    if fixture.retired_at is not None:
+        return fixture
     refuse_if_open_orders(
         "The fixture", open_orders_touching(session, WorkOrderLine.fixture_id == fixture_id)
     )
