@@ -22,6 +22,7 @@ from service.keys.router import router as keys_router
 from service.planning.router import build_router as build_planning_router
 from service.readings.router import router as readings_router
 from service.register.router import router as register_router
+from service.retirement.router import router as retirement_router
 from service.scheduling.router import router as runs_router
 from service.web.install import install_web
 from service.workorders.repository import last_group_relamps
@@ -39,6 +40,7 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     forecasting_router,
     build_planning_router(last_group_relamps),
     workorders_router,
+    retirement_router,
     runs_router,
 ]
 

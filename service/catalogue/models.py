@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from datetime import datetime
 from typing import Any
 
 from sqlalchemy import JSON, Boolean, Float, Integer, String
@@ -50,3 +51,5 @@ class LampType(TimestampMixin, Base):
     contains_mercury: Mapped[bool] = mapped_column(Boolean, default=False)
     rupture_risk: Mapped[bool] = mapped_column(Boolean, default=False)  # non-passive failure
     extra: Mapped[dict[str, Any] | None] = mapped_column(JSON, default=None)
+    # Set when retired: kept for past orders and field fits, hidden from lists.
+    retired_at: Mapped[datetime | None] = mapped_column(default=None)

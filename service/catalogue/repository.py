@@ -24,9 +24,12 @@ def lamp_type_query(
     technology: str | None = None,
     code_contains: str | None = None,
     contains_mercury: bool | None = None,
+    include_retired: bool = True,
 ) -> Select[Any]:
-    """Lamp types filtered by technology, a code fragment (any case) and mercury content."""
+    """Lamp types filtered by technology, code fragment (any case), mercury and retirement."""
     stmt = select(LampType)
+    if not include_retired:
+        stmt = stmt.where(LampType.retired_at.is_(None))
     if technology:
         stmt = stmt.where(LampType.technology == technology)
     if code_contains:

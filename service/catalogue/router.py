@@ -17,6 +17,7 @@ from service.catalogue import repository as repo
 from service.catalogue.models import LampType
 from service.catalogue.schemas import (
     LAMP_TYPE_FIELDS,
+    IncludeRetiredQ,
     LampTypeCreate,
     LampTypeRead,
     LampTypeUpdate,
@@ -46,9 +47,10 @@ def list_lamp_types(
     technology: TechnologyQ = None,
     code: CodeQ = None,
     contains_mercury: MercuryQ = None,
+    include_retired: IncludeRetiredQ = False,
 ) -> Page[LampTypeRead]:
     """List lamp types (sort: code, id, technology, rated_watts, rated_life_h, unit_price)."""
-    stmt = repo.lamp_type_query(technology, code, contains_mercury)
+    stmt = repo.lamp_type_query(technology, code, contains_mercury, include_retired)
     rows, total = paginate(session, stmt, page, repo.LAMP_TYPE_SORT, LampType.id)
     return Page(
         items=[service.to_read(r) for r in rows],

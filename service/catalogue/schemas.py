@@ -8,6 +8,7 @@ import math
 from datetime import datetime
 from typing import Annotated, Any, Literal
 
+from fastapi import Query
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
 from service.catalogue.model import LampModel
@@ -18,6 +19,11 @@ from service.catalogue.mortality import (
 )
 from service.reliability.lumen import MAX_FRACTION
 from service.reliability.technologies import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
+
+# List routes of retirable records (lamp types, sites, areas, fixtures) take this filter.
+IncludeRetiredQ = Annotated[
+    bool, Query(description="Also list retired records (hidden by default).")
+]
 
 # Weibull shapes a lamp type may have, given or fitted from mortality points.
 MIN_SHAPE, MAX_SHAPE = 0.1, 50.0
@@ -350,6 +356,9 @@ class LampTypeRead(BaseModel):
     extra: dict[str, Any] | None
     created_at: datetime
     updated_at: datetime
+    retired_at: datetime | None = Field(
+        default=None, description="When retired (kept for past orders and field fits)."
+    )
     model: LampModelRead | None = Field(
         default=None, description="The numbers the forecasts use and their sources."
     )

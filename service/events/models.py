@@ -20,11 +20,11 @@ class BurnoutReport(TimestampMixin, Base):
     __table_args__ = (Index("ix_burnout_reports_open", "status", "area_id"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"), index=True)
-    area_id: Mapped[int] = mapped_column(ForeignKey("areas.id", ondelete="CASCADE"))
-    fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="CASCADE"))
+    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="RESTRICT"), index=True)
+    area_id: Mapped[int] = mapped_column(ForeignKey("areas.id", ondelete="RESTRICT"))
+    fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="RESTRICT"))
     position_id: Mapped[int] = mapped_column(
-        ForeignKey("lamp_positions.id", ondelete="CASCADE"), index=True
+        ForeignKey("lamp_positions.id", ondelete="RESTRICT"), index=True
     )
     reported_at: Mapped[datetime]
     burn_hours: Mapped[float | None] = mapped_column(Float, default=None)  # if the team knows
@@ -46,9 +46,9 @@ class LampRemoval(Base):
     __table_args__ = (Index("ix_lamp_removals_type", "lamp_type_id", "site_id"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"))
-    fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="CASCADE"))
-    position_id: Mapped[int] = mapped_column(ForeignKey("lamp_positions.id", ondelete="CASCADE"))
+    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="RESTRICT"))
+    fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="RESTRICT"))
+    position_id: Mapped[int] = mapped_column(ForeignKey("lamp_positions.id", ondelete="RESTRICT"))
     lamp_type_id: Mapped[int] = mapped_column(ForeignKey("lamp_types.id", ondelete="RESTRICT"))
     installed_at: Mapped[datetime]
     removed_at: Mapped[datetime]

@@ -30,6 +30,7 @@ from service.events.checks import (
 from service.events.models import BurnoutReport, LampRemoval
 from service.events.reports import close_open_for_positions
 from service.readings.ages import position_ages
+from service.register.history import refuse_retired
 from service.register.models import Fixture, LampPosition
 from service.reliability.fleet import evaluate_fleet
 
@@ -268,6 +269,7 @@ def report_burnout(
         )
     fixture = session.get(Fixture, position.fixture_id)
     assert fixture is not None  # a position always belongs to a fixture (FK)
+    refuse_retired("fixture", "fixture_id", fixture)
     at = as_aware(reported_at)
     removal = _observe(
         session,

@@ -236,6 +236,7 @@ def forecast(
         fixture_id=fixture_id,
         lamp_type_id=lamp_type_id,
         at=at,
+        active_only=True,  # retired fixtures get no future work
     )
     types = load_fitted_types(
         session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind

@@ -51,7 +51,9 @@ def load_positions(
     at: datetime | None = None,
 ) -> PositionArrays:
     """Every lamp position of a site or an area, as arrays at a moment (default now)."""
-    pa = position_ages(session, site_id=site_id, area_id=area_id, at=at or utcnow())
+    pa = position_ages(
+        session, site_id=site_id, area_id=area_id, at=at or utcnow(), active_only=True
+    )
     return PositionArrays(
         position_id=np.asarray(pa.position_id, dtype=np.int64),
         fixture_id=np.asarray(pa.fixture_id, dtype=np.int64),

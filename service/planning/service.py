@@ -323,7 +323,8 @@ def site_plans(
 ) -> list[AreaPlan]:
     """Every area of a site, soonest due first; spot-only and undated areas last."""
     when = at or utcnow()
-    areas = session.scalars(select(Area).where(Area.site_id == site.id).order_by(Area.id)).all()
+    active = (Area.site_id == site.id, Area.retired_at.is_(None))
+    areas = session.scalars(select(Area).where(*active).order_by(Area.id)).all()
     pos = load_positions(session, site_id=site.id, at=when)
     last = last_relamps(session, [a.id for a in areas])
     plans = plan_areas(session, site, list(areas), pos, when, None, cache, last_relamps=last)

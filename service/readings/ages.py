@@ -126,11 +126,17 @@ def position_ages(
     at: datetime | None = None,
     lamp_type_id: int | None = None,
     position_ids: list[int] | None = None,
+    active_only: bool = False,
 ) -> PositionAges:
-    """Ages, starts and operating voltages of every position in a scope, at a moment."""
+    """Ages, starts and operating voltages of every position in a scope, at a moment.
+
+    active_only leaves out retired fixtures (forecasts and plans of future work).
+    """
     at = utcnow() if at is None else at
     t_at = at.timestamp()
     cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
+    if active_only:
+        cond.append(Fixture.retired_at.is_(None))
     conn = session.connection()
     dialect = conn.dialect.name
     matrix = float_matrix(

@@ -32,10 +32,10 @@ class BurnHourRecord(Base):
     # key already cascades from the site, and a second per-row key check halves COPY speed.
     site_id: Mapped[int] = mapped_column(Integer, index=True)
     area_id: Mapped[int | None] = mapped_column(
-        ForeignKey("areas.id", ondelete="CASCADE"), default=None
+        ForeignKey("areas.id", ondelete="RESTRICT"), default=None
     )
     fixture_id: Mapped[int | None] = mapped_column(
-        ForeignKey("fixtures.id", ondelete="CASCADE"), default=None
+        ForeignKey("fixtures.id", ondelete="RESTRICT"), default=None
     )
     kind: Mapped[str] = mapped_column(String(10))
     period_start: Mapped[datetime]
@@ -61,12 +61,12 @@ class VoltageReading(Base):
     )
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"), index=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="RESTRICT"), index=True)
     area_id: Mapped[int | None] = mapped_column(
-        ForeignKey("areas.id", ondelete="CASCADE"), default=None
+        ForeignKey("areas.id", ondelete="RESTRICT"), default=None
     )
     fixture_id: Mapped[int | None] = mapped_column(
-        ForeignKey("fixtures.id", ondelete="CASCADE"), default=None
+        ForeignKey("fixtures.id", ondelete="RESTRICT"), default=None
     )
     measured_at: Mapped[datetime]
     volts: Mapped[float] = mapped_column(Float)

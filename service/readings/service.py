@@ -76,6 +76,21 @@ def _match(
     return found, sites[at], zones[at]
 
 
+def _retired_ids(session: Session, model: type[Fixture] | type[Area], wanted: IntArray) -> set[int]:
+    """The retired ones among the wanted fixture or area ids (readings on them are refused)."""
+    out: set[int] = set()
+    uniq = np.unique(wanted[wanted > 0]).tolist()
+    chunk = get_settings().bulk_chunk_rows
+    for i in range(0, len(uniq), chunk):
+        part = uniq[i : i + chunk]
+        out.update(
+            session.scalars(
+                select(model.id).where(model.id.in_(part), model.retired_at.is_not(None))
+            )
+        )
+    return out
+
+
 def resolve_targets(
     session: Session, c: Columns, errors: RowErrors, *, lock: bool = False
 ) -> tuple[IntArray, IntArray, IntArray, list[str | None]]:
@@ -105,6 +120,10 @@ def resolve_targets(
         zones[found] = zone[found]
         for i in np.nonzero(rows & ~found)[0].tolist():
             errors.add(int(c.numbers[i]), field, f"{label} {int(ids[i])} does not exist")
+        retired = _retired_ids(session, model, ids[rows & found])
+        if retired:  # readings on retired records are refused (409)
+            for i in np.nonzero(rows & found & np.isin(ids, list(retired)))[0].tolist():
+                errors.add(int(c.numbers[i]), field, f"{int(ids[i])} is retired", conflict=True)
     return fid, aid, site, zones.tolist()
 
 

@@ -10,6 +10,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
+from service.catalogue.schemas import IncludeRetiredQ
 from service.register import areas
 from service.register import repository as repo
 from service.register.models import ACCESS_METHODS, Area
@@ -30,9 +31,10 @@ def list_areas(
         str | None, Query(description=f"One of {', '.join(ACCESS_METHODS)}.")
     ] = None,
     name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
+    include_retired: IncludeRetiredQ = False,
 ) -> Page[AreaRead]:
     """List areas, filtered and sorted (sort: name, id, site_id, access_method, created_at)."""
-    stmt = repo.area_query(site_id, access_method, name)
+    stmt = repo.area_query(site_id, access_method, name, include_retired)
     rows, total = paginate(session, stmt, page, repo.AREA_SORT, Area.id)
     return page_of(AreaRead, rows, total, page)
 

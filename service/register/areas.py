@@ -7,7 +7,7 @@ from sqlalchemy.orm import Session
 from service.api.errors import Conflict, Invalid, NotFound
 from service.db.crud import apply_patch, get_or_404
 from service.register import repository as repo
-from service.register.history import check_area
+from service.register.history import check_area, delete_without_history, refuse_retired
 from service.register.models import Area, Site
 from service.register.schemas import AreaCreate, AreaUpdate
 
@@ -42,7 +42,7 @@ def _site_for(session: Session, site_id: int) -> Site:
 
 def create_area(session: Session, body: AreaCreate) -> Area:
     """Add an area to a site; names are unique within the site."""
-    _site_for(session, body.site_id)
+    refuse_retired("site", "site_id", _site_for(session, body.site_id))
     if repo.area_name_taken(session, body.site_id, body.name):
         raise Conflict(f"The site already has an area named '{body.name}'.", field="name")
     area = Area(**body.model_dump())
@@ -81,5 +81,4 @@ def delete_area(session: Session, area_id: int) -> None:
     """Delete an area without history (409 naming the history otherwise)."""
     area = get_area(session, area_id)
     check_area(session, area_id)
-    session.delete(area)
-    session.flush()
+    delete_without_history(session, "The area", area)

@@ -90,6 +90,7 @@ class Names:
     areas: dict[tuple[int, str], int]
     types: dict[str, tuple[int, str, str]]  # code -> (id, technology, ballast behaviour)
     existing: dict[tuple[int, str], tuple[int, int]]  # (site, tag) -> (id, lamps)
+    retired_areas: frozenset[int] = frozenset()  # no new or moved fixtures go there
 
 
 @dataclass(kw_only=True)
@@ -188,7 +189,10 @@ def load_names(session: Session, site_names: set[str]) -> Names:
             Fixture.site_id.in_(site_ids)
         )
         existing = {(s, t): (i, k) for i, s, t, k in session.execute(stmt)}
-    return Names(sites=sites, areas=areas, types=types, existing=existing)
+    retired = session.scalars(select(Area.id).where(Area.retired_at.is_not(None)))
+    return Names(
+        sites=sites, areas=areas, types=types, existing=existing, retired_areas=frozenset(retired)
+    )
 
 
 def _resolve(f: FixtureCells, i: int, names: Names, errors: RowErrors) -> dict[str, Any] | None:
@@ -202,6 +206,9 @@ def _resolve(f: FixtureCells, i: int, names: Names, errors: RowErrors) -> dict[s
     area_id = names.areas.get((site_id, area))
     if area_id is None:
         errors.add(n, "area", f"site '{site}' has no area named '{area}'")
+    elif area_id in names.retired_areas:
+        errors.add(n, "area", f"area '{area}' is retired", conflict=True)
+        return None
     lt = names.types.get(code)
     if lt is None:
         errors.add(n, "lamp_type", f"no lamp type with code '{code}'")

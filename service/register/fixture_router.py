@@ -14,6 +14,7 @@ from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import MAX_ID, IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
+from service.catalogue.schemas import IncludeRetiredQ
 from service.register import fixtures
 from service.register import repository as repo
 from service.register.models import Fixture, LampPosition
@@ -54,9 +55,10 @@ def list_fixtures(
     area_id: AreaQ = None,
     lamp_type_id: LampTypeQ = None,
     tag: TagQ = None,
+    include_retired: IncludeRetiredQ = False,
 ) -> Page[FixtureRead]:
     """List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on)."""
-    stmt = repo.fixture_query(site_id, area_id, lamp_type_id, tag)
+    stmt = repo.fixture_query(site_id, area_id, lamp_type_id, tag, include_retired)
     rows, total = paginate(session, stmt, page, repo.FIXTURE_SORT, Fixture.id)
     return page_of(FixtureRead, rows, total, page)
 

@@ -12,7 +12,12 @@ from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.register import repository as repo
-from service.register.history import check_fixture
+from service.register.history import (
+    check_fixture,
+    check_positions,
+    delete_without_history,
+    refuse_retired,
+)
 from service.register.models import Area, Fixture, LampPosition
 from service.register.schemas import FixtureCreate, FixtureUpdate, PositionUpdate
 from service.reliability.technologies import TECHNOLOGY_DEFAULTS
@@ -99,6 +104,8 @@ def create_fixture(session: Session, body: FixtureCreate) -> Fixture:
     lt = session.get(LampType, body.lamp_type_id)
     if lt is None:
         raise _missing("lamp type", "lamp_type_id", body.lamp_type_id)
+    refuse_retired("area", "area_id", area)
+    refuse_retired("lamp type", "lamp_type_id", lt)
     ballast = body.ballast_kind or lamp_ballast(lt)
     problem = ballast_problem(lt.technology, ballast)
     if problem:
@@ -136,9 +143,12 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
             raise _missing("area", "area_id", sent["area_id"])
         if area.site_id != fixture.site_id:
             raise _invalid("area_id", "a fixture can move only to an area of its own site")
+        refuse_retired("area", "area_id", area)
     lt = session.get(LampType, sent.get("lamp_type_id", fixture.lamp_type_id))
     if lt is None:
         raise _missing("lamp type", "lamp_type_id", sent["lamp_type_id"])
+    if "lamp_type_id" in sent and sent["lamp_type_id"] != fixture.lamp_type_id:
+        refuse_retired("lamp type", "lamp_type_id", lt)
     if "lamp_type_id" in sent and "ballast_kind" not in sent:
         old = session.get(LampType, fixture.lamp_type_id)
         if old is not None and fixture.ballast_kind == lamp_ballast(old):
@@ -157,8 +167,10 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
             row.pop("fixture_id")
             fixture.positions.append(LampPosition(**row))
     elif new_count < len(positions):
+        # Positions with removals or reports stay: their history would block the delete.
+        check_positions(session, [p.id for p in positions[new_count:]])
         for pos in positions[new_count:]:
-            fixture.positions.remove(pos)  # delete-orphan removes the row and its history
+            fixture.positions.remove(pos)  # delete-orphan removes the row
     for name, value in sent.items():
         setattr(fixture, name, value)
     session.flush()
@@ -169,8 +181,7 @@ def delete_fixture(session: Session, fixture_id: int) -> None:
     """Delete a fixture without history (409 naming the history otherwise)."""
     fixture = get_fixture(session, fixture_id)
     check_fixture(session, fixture_id)
-    session.delete(fixture)
-    session.flush()
+    delete_without_history(session, "The fixture", fixture)
 
 
 def list_positions(session: Session, fixture_id: int) -> list[LampPosition]:

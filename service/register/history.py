@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from sqlalchemy import ColumnElement, Select, func, or_, select
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict
@@ -69,6 +72,31 @@ def refuse_if_history(what: str, counts: dict[str, int]) -> None:
         )
 
 
+def delete_without_history(session: Session, what: str, row: object) -> None:
+    """Hard-delete a row whose history was checked; a RESTRICT hit (history added meanwhile) is 409."""
+    try:
+        with session.begin_nested():  # a savepoint, so the request can still answer
+            session.delete(row)
+            session.flush()
+    except IntegrityError:
+        raise Conflict(
+            f"{what} gained history while being deleted; nothing was deleted. Retire it instead.",
+        ) from None
+
+
+def check_positions(session: Session, position_ids: list[int]) -> None:
+    """409 if lamp positions about to be dropped have removals or burnout reports."""
+    if not position_ids:
+        return
+    counts = {
+        "removals": _count(session, LampRemoval, LampRemoval.position_id.in_(position_ids)),
+        "burnout reports": _count(
+            session, BurnoutReport, BurnoutReport.position_id.in_(position_ids)
+        ),
+    }
+    refuse_if_history("A lamp position to drop", {k: v for k, v in counts.items() if v})
+
+
 def check_site(session: Session, site_id: int) -> None:
     """409 if the site has any history."""
     fx = select(Fixture.id).where(Fixture.site_id == site_id)
@@ -87,3 +115,13 @@ def check_fixture(session: Session, fixture_id: int) -> None:
     """409 if the fixture has any history."""
     fx = select(Fixture.id).where(Fixture.id == fixture_id)
     refuse_if_history("The fixture", history_counts(session, fx, None))
+
+
+def refuse_retired(label: str, field: str, record: Any) -> None:
+    """409 when something new would be added under (or on) a retired record."""
+    if record.retired_at is not None:
+        raise Conflict(
+            f"{field} {record.id}: the {label} is retired; nothing new can be added to it.",
+            field=field,
+            retired_at=record.retired_at.isoformat(),
+        )

@@ -33,6 +33,8 @@ class Site(TimestampMixin, Base):
     weekly_run_time: Mapped[str] = mapped_column(String(5), default="06:00")  # HH:MM local
     lookahead_weeks: Mapped[int] = mapped_column(Integer, default=4)
     notes: Mapped[str | None] = mapped_column(String(2000), default=None)
+    # Set when retired: kept with its history, hidden from lists, no new work planned.
+    retired_at: Mapped[datetime | None] = mapped_column(default=None)
 
     areas: Mapped[list[Area]] = relationship(back_populates="site", passive_deletes=True)
 
@@ -67,6 +69,8 @@ class Area(TimestampMixin, Base):
     starts_per_day: Mapped[float] = mapped_column(Float, default=1.0)
     light_floor: Mapped[float | None] = mapped_column(Float, default=None)  # fraction of initial
     burnout_ceiling: Mapped[float | None] = mapped_column(Float, default=None)  # share of positions
+    # Set when retired: kept with its history, hidden from lists, no new work planned.
+    retired_at: Mapped[datetime | None] = mapped_column(default=None)
 
     site: Mapped[Site] = relationship(back_populates="areas")
     fixtures: Mapped[list[Fixture]] = relationship(back_populates="area", passive_deletes=True)
@@ -113,6 +117,8 @@ class Fixture(TimestampMixin, Base):
     ballast_kind: Mapped[str] = mapped_column(String(20), default="none")
     measured_voltage_v: Mapped[float | None] = mapped_column(Float, default=None)
     installed_on: Mapped[date | None] = mapped_column(default=None)
+    # Set when retired: kept with its history, hidden from lists, no new work planned.
+    retired_at: Mapped[datetime | None] = mapped_column(default=None)
 
     area: Mapped[Area] = relationship(back_populates="fixtures")
     positions: Mapped[list[LampPosition]] = relationship(

@@ -17,9 +17,13 @@ SITE_SORT = {
 }
 
 
-def site_query(name_contains: str | None = None, time_zone: str | None = None) -> Select[Any]:
-    """Sites filtered by a name fragment (case-insensitive) and time zone."""
+def site_query(
+    name_contains: str | None = None, time_zone: str | None = None, include_retired: bool = True
+) -> Select[Any]:
+    """Sites filtered by a name fragment (case-insensitive), time zone and retirement."""
     stmt = select(Site)
+    if not include_retired:
+        stmt = stmt.where(Site.retired_at.is_(None))
     if name_contains:
         stmt = stmt.where(Site.name.ilike(f"%{name_contains}%"))
     if time_zone:
@@ -48,9 +52,12 @@ def area_query(
     site_id: int | None = None,
     access_method: str | None = None,
     name_contains: str | None = None,
+    include_retired: bool = True,
 ) -> Select[Any]:
-    """Areas filtered by site, access method and a name fragment (any case)."""
+    """Areas filtered by site, access method, a name fragment (any case) and retirement."""
     stmt = select(Area)
+    if not include_retired:
+        stmt = stmt.where(Area.retired_at.is_(None))
     if site_id is not None:
         stmt = stmt.where(Area.site_id == site_id)
     if access_method:
@@ -86,9 +93,12 @@ def fixture_query(
     area_id: int | None = None,
     lamp_type_id: int | None = None,
     tag_contains: str | None = None,
+    include_retired: bool = True,
 ) -> Select[Any]:
-    """Fixtures (with positions loaded) filtered by site, area, lamp type and tag fragment."""
+    """Fixtures (with positions) filtered by site, area, lamp type, tag fragment, retirement."""
     stmt = select(Fixture).options(selectinload(Fixture.positions))
+    if not include_retired:
+        stmt = stmt.where(Fixture.retired_at.is_(None))
     if site_id is not None:
         stmt = stmt.where(Fixture.site_id == site_id)
     if area_id is not None:

@@ -10,6 +10,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
+from service.catalogue.schemas import IncludeRetiredQ
 from service.register import area_router, fixture_router, lamp_type_router, service
 from service.register import repository as repo
 from service.register.models import Site
@@ -25,9 +26,11 @@ def list_sites(
     page: PageDep,
     name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
     time_zone: Annotated[str | None, Query(description="Exact IANA time zone.")] = None,
+    include_retired: IncludeRetiredQ = False,
 ) -> Page[SiteRead]:
     """List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v)."""
-    rows, total = paginate(session, repo.site_query(name, time_zone), page, repo.SITE_SORT, Site.id)
+    stmt = repo.site_query(name, time_zone, include_retired)
+    rows, total = paginate(session, stmt, page, repo.SITE_SORT, Site.id)
     return page_of(SiteRead, rows, total, page)
 
 

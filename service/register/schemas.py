@@ -110,6 +110,9 @@ class SiteRead(SiteFields):
     version: int = Field(description="Record version; the ETag, and what If-Match compares.")
     created_at: datetime
     updated_at: datetime
+    retired_at: datetime | None = Field(
+        default=None, description="When retired (kept with its history, hidden from lists)."
+    )
 
 
 class AreaFields(BaseModel):
@@ -176,6 +179,9 @@ class AreaRead(AreaFields):
     hours_per_start: float | None
     created_at: datetime
     updated_at: datetime
+    retired_at: datetime | None = Field(
+        default=None, description="When retired (kept with its history, hidden from lists)."
+    )
 
 
 class PositionRead(BaseModel):
@@ -266,3 +272,6 @@ class FixtureRead(BaseModel):
     positions: list[PositionRead]
     created_at: datetime
     updated_at: datetime
+    retired_at: datetime | None = Field(
+        default=None, description="When retired (kept with its history, hidden from lists)."
+    )

@@ -7,7 +7,7 @@ from sqlalchemy.orm import Session
 from service.api.errors import Conflict
 from service.db.crud import apply_patch, get_or_404
 from service.register import repository as repo
-from service.register.history import check_site
+from service.register.history import check_site, delete_without_history
 from service.register.models import Site
 from service.register.schemas import SiteCreate, SiteUpdate
 
@@ -41,5 +41,4 @@ def delete_site(session: Session, site_id: int) -> None:
     """Delete a site without history (409 naming the history otherwise)."""
     site = get_site(session, site_id)
     check_site(session, site_id)
-    session.delete(site)
-    session.flush()
+    delete_without_history(session, "The site", site)

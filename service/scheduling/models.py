@@ -43,7 +43,7 @@ class WeeklyRun(Base):
     __tablename__ = "weekly_runs"
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"), index=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="RESTRICT"), index=True)
     iso_week: Mapped[str] = mapped_column(String(8))
     trigger: Mapped[str] = mapped_column(String(10))
     started_at: Mapped[datetime]

@@ -64,6 +64,7 @@ def _fixtures(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[i
     stmt = (
         select(Fixture.id, Fixture.area_id, Fixture.tag, Fixture.location, Fixture.lamp_type_id)
         .where(Fixture.site_id == site_id, Fixture.area_id.in_(list(area_ids)))
+        .where(Fixture.retired_at.is_(None))
         .order_by(Fixture.area_id, Fixture.location, Fixture.tag)
     )
     for fid, aid, tag, loc, lt in session.execute(stmt).all():
@@ -80,6 +81,7 @@ def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[
         select(LampPosition.fixture_id, LampPosition.id, LampPosition.position_no)
         .join(Fixture, Fixture.id == LampPosition.fixture_id)
         .where(Fixture.site_id == site_id, Fixture.area_id.in_(list(area_ids)))
+        .where(Fixture.retired_at.is_(None))
         .order_by(LampPosition.fixture_id, LampPosition.position_no)
     )
     for fid, pid, no in session.execute(stmt).all():
@@ -96,6 +98,11 @@ def _open_reports(session: Session, site_id: int, area_ids: Sequence[int] | None
             BurnoutReport.position_id,
         )
         .where(BurnoutReport.site_id == site_id, BurnoutReport.status == "open")
+        .where(
+            BurnoutReport.fixture_id.not_in(
+                select(Fixture.id).where(Fixture.retired_at.is_not(None))
+            )
+        )
         .order_by(BurnoutReport.area_id, BurnoutReport.fixture_id, BurnoutReport.id)
     )
     if area_ids is not None:
@@ -139,7 +146,7 @@ def issue_orders(
     result = IssueResult()
     today = local_today(site, at)
     horizon = today + timedelta(weeks=lookahead_weeks)
-    q = select(Area).where(Area.site_id == site.id).order_by(Area.id)
+    q = select(Area).where(Area.site_id == site.id, Area.retired_at.is_(None)).order_by(Area.id)
     if area_id is not None:
         q = q.where(Area.id == area_id)
     areas = {a.id: a for a in session.scalars(q).all()}

@@ -46,8 +46,8 @@ class WorkOrder(TimestampMixin, Base):
     )
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="CASCADE"))
-    area_id: Mapped[int] = mapped_column(ForeignKey("areas.id", ondelete="CASCADE"), index=True)
+    site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="RESTRICT"))
+    area_id: Mapped[int] = mapped_column(ForeignKey("areas.id", ondelete="RESTRICT"), index=True)
     kind: Mapped[str] = mapped_column(String(20))
     state: Mapped[str] = mapped_column(String(12), default="draft")
     iso_week: Mapped[str | None] = mapped_column(String(8), default=None)  # e.g. 2026-W49
@@ -89,7 +89,7 @@ class WorkOrderLine(Base):
     work_order_id: Mapped[int] = mapped_column(
         ForeignKey("work_orders.id", ondelete="CASCADE"), index=True
     )
-    fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="CASCADE"))
+    fixture_id: Mapped[int] = mapped_column(ForeignKey("fixtures.id", ondelete="RESTRICT"))
     fixture_tag: Mapped[str] = mapped_column(String(64))
     location: Mapped[str | None] = mapped_column(String(300), default=None)
     lamp_type_id: Mapped[int] = mapped_column(ForeignKey("lamp_types.id", ondelete="RESTRICT"))

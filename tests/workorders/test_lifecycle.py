@@ -62,9 +62,10 @@ def test_every_transition(
     if target == start:  # a retried transition that already happened answers the order
         assert r.status_code == 200, r.text
         assert r.json()["state"] == start
-        assert r.json()["version"] == client.get(
-            f"/api/v1/work-orders/{oid}", headers=writer
-        ).json()["version"]
+        assert (
+            r.json()["version"]
+            == client.get(f"/api/v1/work-orders/{oid}", headers=writer).json()["version"]
+        )
     elif target in TRANSITIONS[start]:
         assert r.status_code == 200, r.text
         assert r.json()["state"] == target

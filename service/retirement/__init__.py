@@ -1,0 +1,1 @@
+"""Retiring sites, areas, fixtures and lamp types that have history."""

@@ -1,0 +1,101 @@
+"""Two clients retiring the same fixture, or retiring it while the weekly run issues orders.
+
+Threads released together by a barrier, each in its own session and committed transaction
+on a database of the module's own; repeated REPEATS times on fresh records.
+"""
+
+from __future__ import annotations
+
+import threading
+from collections.abc import Callable
+from datetime import datetime
+from functools import partial
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session, sessionmaker
+
+from service.api.errors import DomainError
+from service.db.session import begin_write
+from service.register.models import Fixture
+from service.retirement import service as retire
+from service.scheduling.runner import run_site_week
+from service.workorders.models import WorkOrder, WorkOrderLine
+from tests.planning import builders as b
+from tests.service.workorders import test_order_races as races
+
+# The race module's own committed database (a SQLite file, or a scratch PostgreSQL one).
+race_engine = races.race_engine
+factory = races.factory
+
+REPEATS = 20
+
+
+def _both(calls: list[Callable[[], Any]]) -> list[Any]:
+    """Run the calls in threads released together; results or the exceptions raised."""
+    barrier = threading.Barrier(len(calls))
+    out: list[Any] = [None] * len(calls)
+
+    def run(i: int) -> None:
+        barrier.wait()
+        try:
+            out[i] = calls[i]()
+        except Exception as exc:  # the test inspects what each got
+            out[i] = exc
+
+    threads = [threading.Thread(target=run, args=(i,)) for i in range(len(calls))]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    return out
+
+
+def _fixture(make: sessionmaker[Session], hours: float = 0.0) -> tuple[int, int]:
+    """A committed site with one area of 3 fixtures; (site id, first fixture id)."""
+    with make() as s:
+        site = b.site(s)
+        lt = b.lamp_type(s)
+        area = b.area(s, site)
+        fx = b.fixtures(s, area, lt, 3, hours_at_install=hours)
+        s.commit()
+        return site.id, fx[0].id
+
+
+def _retire(make: sessionmaker[Session], fixture_id: int) -> datetime | None:
+    with make() as s:
+        begin_write(s)
+        at = retire.retire_fixture(s, fixture_id).retired_at
+        s.commit()
+        return at
+
+
+def test_two_retires_at_once_both_answer_the_same_record(
+    factory: sessionmaker[Session],
+) -> None:
+    for _ in range(REPEATS):
+        _, fid = _fixture(factory)
+        got = _both([partial(_retire, factory, fid), partial(_retire, factory, fid)])
+        assert all(isinstance(g, datetime) for g in got), got
+        assert got[0] == got[1]
+
+
+def test_retire_against_weekly_run_never_leaves_a_retired_fixture_on_an_open_order(
+    factory: sessionmaker[Session],
+) -> None:
+    for _ in range(REPEATS):
+        site_id, fid = _fixture(factory, hours=20_000.0)  # overdue: the run issues a group order
+        got = _both([partial(_retire, factory, fid), partial(run_site_week, factory, site_id)])
+        with factory() as s:
+            fixture = s.get(Fixture, fid)
+            assert fixture is not None
+            on_open = s.scalars(
+                select(WorkOrder.id)
+                .join(WorkOrderLine)
+                .where(WorkOrderLine.fixture_id == fid, WorkOrder.state == "issued")
+            ).all()
+        if isinstance(got[0], DomainError):
+            assert got[0].status == 409 and on_open  # the run won: retiring waits for the order
+            assert fixture.retired_at is None
+        else:
+            assert fixture.retired_at is not None and not on_open  # retired first: no work
