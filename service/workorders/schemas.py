@@ -81,6 +81,14 @@ class WorkOrderRead(BaseModel):
     state_changed_at: datetime | None
     completed_at: datetime | None
     cancel_reason: str | None
+    covered_by_order_id: int | None = Field(
+        default=None,
+        description="Spot orders: the group order that took this one over (settles it when "
+        "done, releases it when cancelled).",
+    )
+    covers: list[int] = Field(
+        default_factory=list, description="Group orders: the spot orders this one covers."
+    )
     created_at: datetime
     updated_at: datetime
     lines: list[LineRead] | None = None

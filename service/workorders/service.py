@@ -13,7 +13,7 @@ from datetime import datetime, timedelta
 
 from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, object_session
 from sqlalchemy.orm.exc import StaleDataError
 
 from service.api.errors import Conflict, Invalid, NotFound
@@ -22,8 +22,8 @@ from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
 from service.register.models import Area, LampPosition, Site
 from service.workorders import removals
-from service.workorders.issue import GROUP, OPEN_STATES, SPOT, issue_orders
-from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.issue import GROUP, SPOT, issue_orders
+from service.workorders.models import OPEN_STATES, WorkOrder, WorkOrderLine, WorkOrderState
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate, WorkOrderUpdate
 
 TRANSITIONS: dict[str, tuple[str, ...]] = {
@@ -122,11 +122,44 @@ def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
                 allowed_next=[],
             )
         return order
-    _move(order, "cancelled", utcnow())
+    now = utcnow()
+    _move(order, "cancelled", now)
     order.cancel_reason = body.reason
     removals.release_reports(session, order.id)
+    for spot in _covered_open(session, order):  # they stay open, to be done on their own
+        spot.covered_by_order_id = None
+        spot.updated_at = now
     flush_order(session, order)
     return order
+
+
+def _covered_open(session: Session, order: WorkOrder) -> list[WorkOrder]:
+    """The open spot orders a group order covers, each row-locked (lowest id first)."""
+    ids = session.scalars(
+        select(WorkOrder.id)
+        .where(WorkOrder.covered_by_order_id == order.id, WorkOrder.state.in_(OPEN_STATES))
+        .order_by(WorkOrder.id)
+    ).all()
+    spots = [lock_order(session, i) for i in ids]
+    return [s for s in spots if s.state in OPEN_STATES and s.covered_by_order_id == order.id]
+
+
+def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now: datetime) -> None:
+    """A done group order settles the spot orders it covers: done, no removals of their own.
+
+    The group order already replaced (and recorded) their lamps and closed their reports;
+    reports of positions it did not replace (skipped there) go back to open.
+    """
+    for spot in spots:
+        session = object_session(spot)
+        assert session is not None
+        removals.release_reports(session, spot.id)
+        note = f"Replaced by group order {order.id}."
+        spot.notes = note if not spot.notes else f"{spot.notes}\n{note}"[-2000:]
+        spot.state = WorkOrderState.DONE
+        spot.state_changed_at = now
+        spot.completed_at = at
+        spot.updated_at = now
 
 
 def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
@@ -223,6 +256,9 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
         return _repeat_of_completion(order, body)
     if "done" not in TRANSITIONS[order.state]:
         _move(order, "done", utcnow())  # raises the 409 with the allowed moves
+    # Lock covered spot orders before reading positions: a concurrent completion of one of
+    # them finishes first (and is then skipped), so no lamp is recorded twice.
+    covered = _covered_open(session, order)
     now = utcnow()
     at = body.completed_at or now
     if at.tzinfo is None:
@@ -287,6 +323,7 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
     if to_close:
         removals.close_reports(session, sorted(set(to_close)), order.id, closed_at=at)
     removals.release_reports(session, order.id)  # reports of skipped fixtures reopen
+    _settle_covered(covered, order, at, now)
     _move(order, "done", now)
     order.completed_at = at
     flush_order(session, order)

@@ -62,9 +62,10 @@ def test_every_transition(
     if target == start:  # a retried transition that already happened answers the order
         assert r.status_code == 200, r.text
         assert r.json()["state"] == start
-        assert r.json()["version"] == client.get(
-            f"/api/v1/work-orders/{oid}", headers=writer
-        ).json()["version"]
+        assert (
+            r.json()["version"]
+            == client.get(f"/api/v1/work-orders/{oid}", headers=writer).json()["version"]
+        )
     elif target in TRANSITIONS[start]:
         assert r.status_code == 200, r.text
         assert r.json()["state"] == target
@@ -276,8 +277,19 @@ def test_spot_order_after_a_group_relamp_records_nothing_twice(
     url = "/api/v1/work-orders/{}/complete"
     r = client.post(url.format(group["id"]), json={"others": "replaced"}, headers=writer)
     assert r.status_code == 200
+    # The group order covered the spot order and settled it: nothing is left to send.
+    got = client.get(f"/api/v1/work-orders/{spot['id']}", headers=writer).json()
+    assert got["state"] == "done" and got["covered_by_order_id"] == group["id"]
+    assert f"Replaced by group order {group['id']}" in got["notes"]
+    assert client.get(f"/api/v1/work-orders/{group['id']}", headers=writer).json()["covers"] == [
+        spot["id"]
+    ]
+    page = client.get(f"/api/v1/work-orders/{spot['id']}/print", headers=writer).text
+    assert f"Covered by group order {group['id']}" in page
+    page = client.get(f"/api/v1/work-orders/{group['id']}/print", headers=writer).text
+    assert f"Covers spot order(s) {spot['id']}" in page and "reported dark (1)" in page
     r = client.post(url.format(spot["id"]), json={"others": "replaced"}, headers=writer)
-    assert r.status_code == 200
+    assert r.status_code == 409  # already settled; a completion of its own changes nothing
     recs = db.scalars(select(LampRemoval).where(LampRemoval.position_id == dark.id)).all()
     assert len(recs) == 1 and recs[0].failed  # the one failure, not a second at zero hours
     assert (
