@@ -295,3 +295,32 @@ def test_spot_order_after_a_group_relamp_records_nothing_twice(
     assert (
         db.scalars(select(LampRemoval).where(LampRemoval.work_order_id == spot["id"])).all() == []
     )
+
+
+def test_per_position_completion_over_http(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    area_id, fx = _area(db, n=2)
+    order = _in_progress(client, writer, area_id, "group_relamp")
+    p0, p1 = fx[0].positions
+    body = {
+        "positions": [
+            {"position_id": p0.id, "outcome": "found_dark"},
+            {"position_id": p1.id, "outcome": "skipped", "reason": "fixture lens cracked"},
+        ],
+        "others": "replaced",
+    }
+    url = f"/api/v1/work-orders/{order['id']}/complete"
+    r = client.post(url, json=body, headers=writer)
+    assert r.status_code == 200, r.text
+    line = next(ln for ln in r.json()["lines"] if ln["fixture_id"] == fx[0].id)
+    assert line["outcome"] == "partial"
+    assert line["position_outcomes"][1] == {
+        "position_id": p1.id,
+        "outcome": "skipped",
+        "reason": "fixture lens cracked",
+    }
+    assert client.post(url, json=body, headers=writer).status_code == 200  # retry
+    bad = {"positions": [{"position_id": p0.id, "outcome": "skipped"}], "others": "replaced"}
+    r = client.post(url, json=bad, headers=writer)
+    assert r.status_code == 422
