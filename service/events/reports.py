@@ -1,6 +1,7 @@
-"""Burnout report states: open (dark, no order), ordered (on a spot work order), closed.
+"""Burnout report states: open (dark, no order), ordered (on an open work order), closed.
 
-Services flush; the caller's transaction commits.
+Every change of a report's state goes through this module. Services flush; the caller's
+transaction commits.
 """
 
 from __future__ import annotations
@@ -21,6 +22,36 @@ OPEN, ORDERED, CLOSED = (
     BurnoutReportState.ORDERED,
     BurnoutReportState.CLOSED,
 )
+
+
+def new_report(
+    session: Session,
+    *,
+    site_id: int,
+    area_id: int,
+    fixture_id: int,
+    position_id: int,
+    reported_at: datetime,
+    burn_hours: float | None,
+    note: str | None,
+    removal_id: int,
+    replaced: bool,
+) -> BurnoutReport:
+    """A new report: open, or closed at once when the lamp was replaced on the spot."""
+    report = BurnoutReport(
+        site_id=site_id,
+        area_id=area_id,
+        fixture_id=fixture_id,
+        position_id=position_id,
+        reported_at=reported_at,
+        burn_hours=burn_hours,
+        status=CLOSED if replaced else OPEN,
+        closed_at=reported_at if replaced else None,
+        note=note,
+        removal_id=removal_id,
+    )
+    session.add(report)
+    return report
 
 
 def open_burnout_reports(

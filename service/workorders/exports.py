@@ -69,7 +69,10 @@ h3{font-size:1rem;margin:1rem 0 .2rem}
 @media print{body{margin:0}section.location{break-inside:avoid}a{color:inherit}}
 """
 
-KIND_LABEL = {"group_relamp": "Group relamp", "spot_replacement": "Spot replacement"}
+KIND_LABEL: dict[str, str] = {
+    WorkOrderKind.GROUP_RELAMP: "Group relamp",
+    WorkOrderKind.SPOT_REPLACEMENT: "Spot replacement",
+}
 
 
 def _paragraphs(text: str) -> str:

@@ -1,7 +1,7 @@
 """Build group and spot orders for a site in bulk (Core inserts, one statement per table).
 
 Used by the weekly run (orders "issued", keyed by ISO week) and by a person creating one
-order by hand (a "draft" without a week). A group order covers every fixture of the lamp
+order by hand (a draft without a week). A group order covers every fixture of the lamp
 types due in the area; a spot order batches the area's open burnout reports, which become
 "ordered" and point at it.
 

@@ -9,10 +9,10 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from service.api.ids import Id
 from service.api.times import Day, Timestamp
-from service.workorders.models import LineOutcome
+from service.workorders.models import LineOutcome, WorkOrderKind, WorkOrderState
 
-Kind = Literal["group_relamp", "spot_replacement"]
-State = Literal["draft", "issued", "in_progress", "done", "cancelled"]
+Kind = WorkOrderKind
+State = WorkOrderState
 
 
 class WorkOrderCreate(BaseModel):
@@ -37,6 +37,7 @@ class WorkOrderUpdate(BaseModel):
     due_on: Day | None = None
 
 
+# LineOutcome without "partial" (a line summary only); kept in step with it by a unit test.
 PositionResult = Literal["replaced", "found_dark", "skipped"]
 
 
@@ -118,12 +119,12 @@ class FixtureOutcome(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     fixture_id: Id
-    outcome: Literal["replaced", "skipped"]
+    outcome: Literal[LineOutcome.REPLACED, LineOutcome.SKIPPED]
     reason: str | None = Field(default=None, min_length=1, max_length=500)
 
     @model_validator(mode="after")
     def _reason_for_skips(self) -> FixtureOutcome:
-        if self.outcome == "skipped" and not self.reason:
+        if self.outcome == LineOutcome.SKIPPED and not self.reason:
             raise ValueError("a skipped fixture needs a reason")
         return self
 
@@ -142,7 +143,7 @@ class PositionOutcome(BaseModel):
 
     @model_validator(mode="after")
     def _reason_for_skips(self) -> PositionOutcome:
-        if self.outcome == "skipped" and not self.reason:
+        if self.outcome == LineOutcome.SKIPPED and not self.reason:
             raise ValueError("a skipped position needs a reason")
         return self
 
@@ -158,7 +159,7 @@ class CompleteBody(BaseModel):
 
     outcomes: list[FixtureOutcome] = Field(default_factory=list, max_length=100_000)
     positions: list[PositionOutcome] = Field(default_factory=list, max_length=100_000)
-    others: Literal["replaced"] | None = Field(
+    others: Literal[LineOutcome.REPLACED] | None = Field(
         default=None, description="Outcome of every fixture not listed."
     )
     completed_at: Timestamp | None = Field(default=None, description="Default: now.")

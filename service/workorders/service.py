@@ -21,8 +21,8 @@ from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
 from service.events import reports
+from service.events import service as events
 from service.register.models import Area, LampPosition, Site
-from service.workorders import removals
 from service.workorders.issue import GROUP, SPOT, issue_orders
 from service.workorders.models import (
     OPEN_STATES,
@@ -33,12 +33,13 @@ from service.workorders.models import (
 )
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate, WorkOrderUpdate
 
-TRANSITIONS: dict[str, tuple[str, ...]] = {
-    "draft": ("issued", "cancelled"),
-    "issued": ("in_progress", "cancelled"),
-    "in_progress": ("done", "cancelled"),
-    "done": (),
-    "cancelled": (),
+_S = WorkOrderState
+TRANSITIONS: dict[str, tuple[WorkOrderState, ...]] = {
+    _S.DRAFT: (_S.ISSUED, _S.CANCELLED),
+    _S.ISSUED: (_S.IN_PROGRESS, _S.CANCELLED),
+    _S.IN_PROGRESS: (_S.DONE, _S.CANCELLED),
+    _S.DONE: (),
+    _S.CANCELLED: (),
 }
 CLOCK_SKEW = timedelta(minutes=5)  # completion times this far ahead of our clock are accepted
 
@@ -110,18 +111,18 @@ def _simple_move(session: Session, order_id: int, to: str) -> WorkOrder:
 
 def issue(session: Session, order_id: int) -> WorkOrder:
     """draft -> issued (a repeat on an issued order answers it unchanged)."""
-    return _simple_move(session, order_id, "issued")
+    return _simple_move(session, order_id, WorkOrderState.ISSUED)
 
 
 def start(session: Session, order_id: int) -> WorkOrder:
     """issued -> in_progress (a repeat on a started order answers it unchanged)."""
-    return _simple_move(session, order_id, "in_progress")
+    return _simple_move(session, order_id, WorkOrderState.IN_PROGRESS)
 
 
 def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
     """Cancel an open order: positions stay as they were; batched reports go back to open."""
     order = lock_order(session, order_id)
-    if _already(order, "cancelled"):
+    if _already(order, WorkOrderState.CANCELLED):
         if body.reason is not None and body.reason != order.cancel_reason:
             raise Conflict(
                 f"Work order {order.id} is already cancelled with another reason.",
@@ -130,9 +131,9 @@ def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
             )
         return order
     now = utcnow()
-    _move(order, "cancelled", now)
+    _move(order, WorkOrderState.CANCELLED, now)
     order.cancel_reason = body.reason
-    removals.release_reports(session, order.id)
+    reports.reopen_reports(session, order.id)
     for spot in _covered_open(session, order):  # they stay open, to be done on their own
         spot.covered_by_order_id = None
         spot.updated_at = now
@@ -160,7 +161,7 @@ def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now:
     for spot in spots:
         session = object_session(spot)
         assert session is not None
-        removals.release_reports(session, spot.id)
+        reports.reopen_reports(session, spot.id)
         note = f"Replaced by group order {order.id}."
         spot.notes = note if not spot.notes else f"{spot.notes}\n{note}"[-2000:]
         spot.state = WorkOrderState.DONE
@@ -205,7 +206,7 @@ def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
             at=utcnow(),
             iso_week=None,
             run_id=None,
-            state="draft",
+            state=WorkOrderState.DRAFT,
             lookahead_weeks=0,
             area_id=area.id,
             kinds=(body.kind,),
@@ -317,7 +318,7 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
             {"position_id": pid, "outcome": str(o), "reason": r} for pid, o, r in entries
         ]
     _record(session, order, resolved, at)
-    removals.release_reports(session, order.id)  # reports of skipped positions reopen
+    reports.reopen_reports(session, order.id)  # reports of skipped positions reopen
     _settle_covered(covered, order, at, now)
     _move(order, WorkOrderState.DONE, now)
     order.completed_at = at
@@ -351,10 +352,10 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
     # lamps still burning at a group relamp are censored observations.
     for group, failed, reason in (
         (dark_positions, True, "burnout"),
-        (burning_positions, False, "group_relamp"),
+        (burning_positions, False, "group_relamp"),  # a removal reason, not a kind
     ):
         if group:
-            removals.record_removals(
+            events.record_removals(
                 session, group, removed_at=at, failed=failed, reason=reason, work_order_id=order.id
             )
     if to_close:

@@ -36,3 +36,11 @@ def test_line_summary() -> None:
         LineOutcome.PARTIAL,
         "socket",
     )
+
+
+def test_position_results_are_the_line_outcomes_but_partial() -> None:
+    from typing import get_args
+
+    from service.workorders.schemas import PositionResult
+
+    assert set(get_args(PositionResult)) == set(LineOutcome) - {LineOutcome.PARTIAL}
