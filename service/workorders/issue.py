@@ -18,6 +18,7 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
+from functools import partial
 from typing import Any
 
 from sqlalchemy import insert, select, update
@@ -143,7 +144,7 @@ def cover_spot_orders(session: Session, group_order_id: int, area_id: int, at: d
             updated_at=at,
             version=WorkOrder.version + 1,  # Core UPDATE: bump the ORM's version by hand
         )
-        .execution_options(synchronize_session=False)
+        .execution_options(synchronize_session="fetch")  # loaded spot orders see it
     )
 
 
@@ -203,6 +204,9 @@ def issue_orders(
     for r in all_reports:
         per_area.setdefault(r.area_id, []).append(r)
 
+    mk = partial(
+        _order, site, state=state, iso_week=iso_week, run_id=run_id, contents=contents, now=at
+    )
     built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]] = []
     for aid in sorted(group_types):
         types, due, plan = group_types[aid]
@@ -211,20 +215,8 @@ def issue_orders(
         )
         if ls:
             taken = [r.id for r in per_area.get(aid, []) if r.status == BurnoutReportState.OPEN]
-            order = _order(
-                site,
-                areas[aid],
-                GROUP,
-                state,
-                iso_week,
-                run_id,
-                due,
-                ls,
-                areas[aid].group_minutes_per_lamp,
-                contents,
-                at,
-                _plan_info(plan, types),
-            )
+            minutes = areas[aid].group_minutes_per_lamp
+            order = mk(areas[aid], GROUP, due, ls, minutes, _plan_info(plan, types))
             built.append((order, ls, taken))
     grouped = {o["area_id"] for o, _, _ in built}
     if SPOT in kinds:
@@ -234,20 +226,7 @@ def issue_orders(
             if not rs or aid in grouped or (aid, SPOT) in existing:
                 continue
             ls = _spot_lines(rs, fixtures.get(aid, []), pos_no, contents)
-            order = _order(
-                site,
-                areas[aid],
-                SPOT,
-                state,
-                iso_week,
-                run_id,
-                today,
-                ls,
-                areas[aid].spot_minutes_per_lamp,
-                contents,
-                at,
-                None,
-            )
+            order = mk(areas[aid], SPOT, today, ls, areas[aid].spot_minutes_per_lamp, None)
             order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
             built.append((order, ls, [r.id for r in rs]))
     if built:
@@ -412,16 +391,18 @@ def _order(
     site: Site,
     area: Area,
     kind: str,
-    state: str,
-    iso_week: str | None,
-    run_id: int | None,
     due: date,
     lines: list[dict[str, Any]],
     minutes_per_lamp: float,
+    plan: dict[str, Any] | None,
+    *,
+    state: str,
+    iso_week: str | None,
+    run_id: int | None,
     contents: dict[int, LampContent],
     now: datetime,
-    plan: dict[str, Any] | None,
 ) -> dict[str, Any]:
+    """The row of one new order (lamp count, labour and cautions from its lines)."""
     qty = sum(x["quantity"] for x in lines)
     lamps = [contents[lt] for lt in sorted({x["lamp_type_id"] for x in lines})]
     return {

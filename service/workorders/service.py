@@ -161,8 +161,10 @@ def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now:
     for spot in spots:
         session = object_session(spot)
         assert session is not None
-        reports.reopen_reports(session, spot.id)
+        reopened = reports.reopen_reports(session, spot.id)
         note = f"Replaced by group order {order.id}."
+        if reopened:
+            note += f" {reopened} burnout report(s) reopened: skipped on the group order."
         spot.notes = note if not spot.notes else f"{spot.notes}\n{note}"[-2000:]
         spot.state = WorkOrderState.DONE
         spot.state_changed_at = now

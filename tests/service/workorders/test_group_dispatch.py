@@ -199,3 +199,27 @@ def test_spot_order_in_an_area_with_an_open_group_order_is_covered_from_the_star
         )
         == 0
     )
+
+
+def test_a_lamp_skipped_on_the_group_order_goes_back_to_open(db: Session) -> None:
+    a, fx, rep = _area_with_dark_lamp(db)
+    spot = _started(db, a.id, SPOT)
+    group = _started(db, a.id, GROUP)
+    body = CompleteBody.model_validate(
+        {
+            "positions": [
+                {"position_id": fx[0].positions[0].id, "outcome": "skipped", "reason": "no lift"}
+            ],
+            "others": "replaced",
+        }
+    )
+    orders.complete(db, group.id, body)
+    db.commit()
+    db.expire_all()
+    assert spot.state == "done" and spot.notes is not None
+    assert "1 burnout report(s) reopened" in spot.notes
+    report = db.get(BurnoutReport, rep.id)
+    assert report is not None and report.status == "open" and report.work_order_id is None
+    # The next order for the area picks the dark lamp up again.
+    again = orders.create(db, WorkOrderCreate(area_id=a.id, kind=SPOT))
+    assert again.lines[0].report_ids == [rep.id]
