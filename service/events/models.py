@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import enum
 from datetime import datetime
 
 from sqlalchemy import Boolean, Float, ForeignKey, Index, Integer, String
@@ -10,7 +11,17 @@ from sqlalchemy.orm import Mapped, mapped_column
 from service.db.base import Base, TimestampMixin
 
 REMOVAL_REASONS = ("burnout", "group_relamp", "spot_relamp", "damage", "upgrade", "other")
-REPORT_STATES = ("open", "ordered", "closed")
+
+
+class BurnoutReportState(enum.StrEnum):
+    """A report's life: changed only by service.events.reports."""
+
+    OPEN = "open"  # dark, no order has taken it in
+    ORDERED = "ordered"  # on an open work order (spot, or a group order's reported-dark line)
+    CLOSED = "closed"  # a replacement dealt with it
+
+
+REPORT_STATES = tuple(BurnoutReportState)
 
 
 class BurnoutReport(TimestampMixin, Base):
@@ -28,7 +39,7 @@ class BurnoutReport(TimestampMixin, Base):
     )
     reported_at: Mapped[datetime]
     burn_hours: Mapped[float | None] = mapped_column(Float, default=None)  # if the team knows
-    status: Mapped[str] = mapped_column(String(10), default="open")
+    status: Mapped[str] = mapped_column(String(10), default=BurnoutReportState.OPEN.value)
     # Set when a spot work order takes the report in (no FK: work orders come later).
     work_order_id: Mapped[int | None] = mapped_column(Integer, default=None, index=True)
     note: Mapped[str | None] = mapped_column(String(500), default=None)

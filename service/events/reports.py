@@ -1,6 +1,7 @@
-"""Burnout report states: open (dark, no order), ordered (on a spot work order), closed.
+"""Burnout report states: open (dark, no order), ordered (on an open work order), closed.
 
-Services flush; the caller's transaction commits.
+Every change of a report's state goes through this module. Services flush; the caller's
+transaction commits.
 """
 
 from __future__ import annotations
@@ -14,14 +15,50 @@ from sqlalchemy.orm import Session
 from service.api.errors import Conflict
 from service.db.base import utcnow
 from service.events.checks import as_aware
-from service.events.models import BurnoutReport
+from service.events.models import BurnoutReport, BurnoutReportState
+
+OPEN, ORDERED, CLOSED = (
+    BurnoutReportState.OPEN,
+    BurnoutReportState.ORDERED,
+    BurnoutReportState.CLOSED,
+)
+
+
+def new_report(
+    session: Session,
+    *,
+    site_id: int,
+    area_id: int,
+    fixture_id: int,
+    position_id: int,
+    reported_at: datetime,
+    burn_hours: float | None,
+    note: str | None,
+    removal_id: int,
+    replaced: bool,
+) -> BurnoutReport:
+    """A new report: open, or closed at once when the lamp was replaced on the spot."""
+    report = BurnoutReport(
+        site_id=site_id,
+        area_id=area_id,
+        fixture_id=fixture_id,
+        position_id=position_id,
+        reported_at=reported_at,
+        burn_hours=burn_hours,
+        status=CLOSED if replaced else OPEN,
+        closed_at=reported_at if replaced else None,
+        note=note,
+        removal_id=removal_id,
+    )
+    session.add(report)
+    return report
 
 
 def open_burnout_reports(
     session: Session, *, site_id: int | None = None, area_id: int | None = None
 ) -> list[BurnoutReport]:
     """Reports still "open" (dark lamps no work order has taken in), oldest first."""
-    stmt = select(BurnoutReport).where(BurnoutReport.status == "open")
+    stmt = select(BurnoutReport).where(BurnoutReport.status == OPEN)
     if site_id is not None:
         stmt = stmt.where(BurnoutReport.site_id == site_id)
     if area_id is not None:
@@ -42,8 +79,8 @@ def take_for_order(
     for i in range(0, len(ids), 5000):  # keep IN lists bounded
         result = session.execute(
             update(BurnoutReport)
-            .where(BurnoutReport.id.in_(ids[i : i + 5000]), BurnoutReport.status == "open")
-            .values(status="ordered", work_order_id=work_order_id, updated_at=at)
+            .where(BurnoutReport.id.in_(ids[i : i + 5000]), BurnoutReport.status == OPEN)
+            .values(status=ORDERED, work_order_id=work_order_id, updated_at=at)
             .execution_options(synchronize_session=False)
         )
         taken += int(getattr(result, "rowcount", 0) or 0)
@@ -69,8 +106,8 @@ def reopen_reports(session: Session, work_order_id: int) -> int:
     """Return a cancelled order's "ordered" reports to "open"; how many."""
     result = session.execute(
         update(BurnoutReport)
-        .where(BurnoutReport.work_order_id == work_order_id, BurnoutReport.status == "ordered")
-        .values(status="open", work_order_id=None)
+        .where(BurnoutReport.work_order_id == work_order_id, BurnoutReport.status == ORDERED)
+        .values(status=OPEN, work_order_id=None)
     )
     session.flush()
     return int(getattr(result, "rowcount", 0) or 0)
@@ -87,13 +124,13 @@ def close_reports(
     reports = list(
         session.scalars(
             select(BurnoutReport).where(
-                BurnoutReport.id.in_(list(report_ids)), BurnoutReport.status != "closed"
+                BurnoutReport.id.in_(list(report_ids)), BurnoutReport.status != CLOSED
             )
         )
     )
     when = utcnow() if closed_at is None else as_aware(closed_at)
     for r in reports:
-        r.status = "closed"
+        r.status = CLOSED
         r.closed_at = when
         if work_order_id is not None:
             r.work_order_id = work_order_id
@@ -107,7 +144,20 @@ def close_open_for_positions(
     """Close every report not yet closed on these positions, as of `at`."""
     ids = session.scalars(
         select(BurnoutReport.id).where(
-            BurnoutReport.position_id.in_(list(position_ids)), BurnoutReport.status != "closed"
+            BurnoutReport.position_id.in_(list(position_ids)), BurnoutReport.status != CLOSED
         )
     ).all()
     close_reports(session, list(ids), work_order_id, closed_at=at)
+
+
+def not_closed_on_positions(session: Session, position_ids: Sequence[int]) -> dict[int, list[int]]:
+    """Reports not yet closed (open or ordered), per position."""
+    out: dict[int, list[int]] = {}
+    ids = list(position_ids)
+    for i in range(0, len(ids), 5000):  # keep IN lists bounded
+        stmt = select(BurnoutReport.position_id, BurnoutReport.id).where(
+            BurnoutReport.position_id.in_(ids[i : i + 5000]), BurnoutReport.status != CLOSED
+        )
+        for pid, rid in session.execute(stmt).all():
+            out.setdefault(pid, []).append(rid)
+    return out

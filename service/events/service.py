@@ -20,6 +20,7 @@ from service.api.errors import Conflict
 from service.catalogue.resolved import load_types
 from service.db.base import utcnow
 from service.db.crud import get_or_404
+from service.events import reports
 from service.events.checks import (
     as_aware,
     check_after_install,
@@ -27,7 +28,7 @@ from service.events.checks import (
     check_not_future,
     check_reason,
 )
-from service.events.models import BurnoutReport, LampRemoval
+from service.events.models import BurnoutReport, BurnoutReportState, LampRemoval
 from service.events.reports import close_open_for_positions
 from service.readings.ages import position_ages
 from service.register.history import refuse_retired
@@ -259,7 +260,8 @@ def report_burnout(
     if position.burned_out_at is not None:
         open_id = session.scalar(
             select(BurnoutReport.id).where(
-                BurnoutReport.position_id == position.id, BurnoutReport.status != "closed"
+                BurnoutReport.position_id == position.id,
+                BurnoutReport.status != BurnoutReportState.CLOSED,
             )
         )
         raise Conflict(
@@ -280,22 +282,20 @@ def report_burnout(
         work_order_id=None,
         burn_hours=burn_hours,
     )
-    report = BurnoutReport(
+    report = reports.new_report(
+        session,
         site_id=fixture.site_id,
         area_id=fixture.area_id,
         fixture_id=fixture.id,
         position_id=position.id,
         reported_at=at,
         burn_hours=burn_hours,
-        status="open",
         note=note,
         removal_id=removal.id,
+        replaced=replaced,
     )
-    session.add(report)
     position.burned_out_at = at
     if replaced:
-        report.status = "closed"
-        report.closed_at = at
         _reset(position, at)
     session.flush()
     return report

@@ -8,7 +8,7 @@ import re
 from html import escape
 from itertools import groupby
 
-from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.models import WorkOrder, WorkOrderKind, WorkOrderLine
 
 CSV_COLUMNS = (
     "work_order_id",
@@ -69,7 +69,10 @@ h3{font-size:1rem;margin:1rem 0 .2rem}
 @media print{body{margin:0}section.location{break-inside:avoid}a{color:inherit}}
 """
 
-KIND_LABEL = {"group_relamp": "Group relamp", "spot_replacement": "Spot replacement"}
+KIND_LABEL: dict[str, str] = {
+    WorkOrderKind.GROUP_RELAMP: "Group relamp",
+    WorkOrderKind.SPOT_REPLACEMENT: "Spot replacement",
+}
 
 
 def _paragraphs(text: str) -> str:
@@ -80,6 +83,31 @@ def natural_key(text: str) -> tuple[tuple[int, int | str], ...]:
     """Sort key that orders "can 2" before "can 10" (numbers compared as numbers)."""
     parts = re.split(r"(\d+)", text.casefold())
     return tuple((0, int(p)) if p.isdigit() else (1, p) for p in parts if p)
+
+
+def _dark_flag(order: WorkOrder, ln: WorkOrderLine) -> str:
+    """On a group order, mark fixtures with lamps already reported dark."""
+    if order.kind != WorkOrderKind.GROUP_RELAMP or not ln.report_ids:
+        return ""
+    return f"<br><em>reported dark ({len(ln.report_ids)})</em>"
+
+
+def _cover_notes(order: WorkOrder) -> list[str]:
+    """Say which orders one visit answers, so no second crew is sent."""
+    out = []
+    if order.covered_by_order_id is not None:
+        out.append(
+            f'<p class="cover"><strong>Covered by group order {order.covered_by_order_id}:'
+            "</strong> its crew replaces these lamps; do not send a separate crew.</p>"
+        )
+    covers = order.covers
+    if covers:
+        ids = ", ".join(str(i) for i in covers)
+        out.append(
+            f'<p class="cover"><strong>Covers spot order(s) {escape(ids)}:</strong> '
+            "their reported-dark lamps are on this order; completing it settles them.</p>"
+        )
+    return out
 
 
 def print_page(order: WorkOrder, lines: list[WorkOrderLine], site_name: str, area_name: str) -> str:
@@ -106,6 +134,7 @@ def print_page(order: WorkOrder, lines: list[WorkOrderLine], site_name: str, are
         *[f"<dt>{escape(k)}</dt><dd>{escape(v)}</dd>" for k, v in meta],
         "</dl>",
     ]
+    out.extend(_cover_notes(order))
     if order.notes:
         out.append(f"<p><strong>Notes:</strong> {escape(order.notes)}</p>")
     out.append("<main>")
@@ -126,7 +155,8 @@ def print_page(order: WorkOrder, lines: list[WorkOrderLine], site_name: str, are
                 for n in ln.position_nos
             )
             out.append(
-                f"<tr><td>{escape(ln.fixture_tag)}</td><td>{escape(ln.lamp_type_code)}</td>"
+                f"<tr><td>{escape(ln.fixture_tag)}{_dark_flag(order, ln)}</td>"
+                f"<td>{escape(ln.lamp_type_code)}</td>"
                 f"<td>{boxes}</td><td>{escape(ln.skip_reason or '')}</td></tr>"
             )
         out.append("</tbody></table></section>")

@@ -1,9 +1,16 @@
 """Build group and spot orders for a site in bulk (Core inserts, one statement per table).
 
 Used by the weekly run (orders "issued", keyed by ISO week) and by a person creating one
-order by hand (a "draft" without a week). A group order covers every fixture of the lamp
+order by hand (a draft without a week). A group order covers every fixture of the lamp
 types due in the area; a spot order batches the area's open burnout reports, which become
 "ordered" and point at it.
+
+No double dispatch: an area that gets a group order gets no spot order. Its open reports go
+onto the group order (report_ids on the lines flag those positions as reported dark; a
+reported fixture of a lamp type not due gets a line of its reported positions only), and
+any spot order still open in the area is covered by the group order (covered_by_order_id),
+which settles it when done and releases it when cancelled. A spot order made while the area
+has an open group order is covered by that group order from the start.
 """
 
 from __future__ import annotations
@@ -11,24 +18,30 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
+from functools import partial
 from typing import Any
 
-from sqlalchemy import insert, select
+from sqlalchemy import insert, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.events import reports
-from service.events.models import BurnoutReport
+from service.events.models import BurnoutReport, BurnoutReportState
 from service.planning.engine import PlanCache
 from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site
-from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.models import (
+    OPEN_STATES,
+    WorkOrder,
+    WorkOrderKind,
+    WorkOrderLine,
+)
 from service.workorders.repository import last_group_relamps
 from service.workorders.texts import LampContent, disposal_instructions, safety_cautions
 
-OPEN_STATES = ("draft", "issued", "in_progress")
-GROUP, SPOT = "group_relamp", "spot_replacement"
+GROUP, SPOT = WorkOrderKind.GROUP_RELAMP, WorkOrderKind.SPOT_REPLACEMENT
+__all__ = ["GROUP", "OPEN_STATES", "SPOT", "IssueResult", "issue_orders"]
 
 
 @dataclass
@@ -89,16 +102,22 @@ def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[
     return out
 
 
-def _open_reports(session: Session, site_id: int, area_ids: Sequence[int] | None) -> list[Any]:
+def _open_reports(
+    session: Session,
+    site_id: int,
+    area_ids: Sequence[int] | None,
+    states: Sequence[str] = (BurnoutReportState.OPEN,),
+) -> list[Any]:
     stmt = (
         select(
             BurnoutReport.id,
             BurnoutReport.area_id,
             BurnoutReport.fixture_id,
             BurnoutReport.position_id,
+            BurnoutReport.status,
         )
-        .where(BurnoutReport.site_id == site_id, BurnoutReport.status == "open")
-        .where(
+        .where(BurnoutReport.site_id == site_id, BurnoutReport.status.in_(list(states)))
+        .where(  # retired fixtures get no new work
             BurnoutReport.fixture_id.not_in(
                 select(Fixture.id).where(Fixture.retired_at.is_not(None))
             )
@@ -110,12 +129,31 @@ def _open_reports(session: Session, site_id: int, area_ids: Sequence[int] | None
     return list(session.execute(stmt).all())
 
 
-def _busy_areas(session: Session, site_id: int) -> set[int]:
-    """Areas with a group order still open (no second group order until it is closed)."""
-    stmt = select(WorkOrder.area_id).where(
+def _busy_areas(session: Session, site_id: int) -> dict[int, int]:
+    """Areas with a group order still open -> that order (no second one until it is closed)."""
+    stmt = select(WorkOrder.area_id, WorkOrder.id).where(
         WorkOrder.site_id == site_id, WorkOrder.kind == GROUP, WorkOrder.state.in_(OPEN_STATES)
     )
-    return set(session.scalars(stmt).all())
+    return {a: o for a, o in session.execute(stmt).all()}
+
+
+def cover_spot_orders(session: Session, group_order_id: int, area_id: int, at: datetime) -> None:
+    """Let a new group order cover the area's open spot orders (one crew visit, not two)."""
+    session.execute(
+        update(WorkOrder)
+        .where(
+            WorkOrder.area_id == area_id,
+            WorkOrder.kind == SPOT,
+            WorkOrder.state.in_(OPEN_STATES),
+            WorkOrder.covered_by_order_id.is_(None),
+        )
+        .values(
+            covered_by_order_id=group_order_id,
+            updated_at=at,
+            version=WorkOrder.version + 1,  # Core UPDATE: bump the ORM's version by hand
+        )
+        .execution_options(synchronize_session="fetch")  # loaded spot orders see it
+    )
 
 
 def _existing(session: Session, site_id: int, iso_week: str | None) -> set[tuple[int, str]]:
@@ -145,134 +183,162 @@ def issue_orders(
     """Create the group and spot orders a site (or one area) needs now; flushes, no commit."""
     result = IssueResult()
     today = local_today(site, at)
-    horizon = today + timedelta(weeks=lookahead_weeks)
     q = select(Area).where(Area.site_id == site.id, Area.retired_at.is_(None)).order_by(Area.id)
     if area_id is not None:
         q = q.where(Area.id == area_id)
     areas = {a.id: a for a in session.scalars(q).all()}
     existing = _existing(session, site.id, iso_week)
-    now = at
-
-    # Which lamp types of which areas get a group relamp.
+    busy = _busy_areas(session, site.id)  # an earlier group order is still open
     group_types: dict[int, tuple[set[int], date, AreaPlan]] = {}
     if GROUP in kinds:
-        busy = _busy_areas(session, site.id)  # an earlier group order is still open
         done = {a for a in areas if (a, GROUP) in existing}  # this week has it already
         result.already_there += len(done)
         todo = [a for a in areas.values() if a.id not in busy and a.id not in done]
-        plans = []
-        if todo:
-            pos = load_positions(session, site_id=site.id, area_id=area_id, at=at)
-            last = last_group_relamps(session, [a.id for a in todo])
-            plans = plan_areas(session, site, todo, pos, at, None, cache, last_relamps=last)
-        for plan in plans:
-            aid = plan.area.id
-            due_groups = [g for g in plan.groups if g.due_on is not None and g.due_on <= horizon]
-            if whole_area:
-                due_groups = list(plan.groups)
-            if due_groups:
-                soonest = min((g.due_on for g in due_groups if g.due_on), default=today)
-                types = {g.lamp_type_id for g in due_groups}
-                group_types[aid] = (types, max(soonest, today), plan)
-
-    reports_by_area: dict[int, list[Any]] = {}
-    if SPOT in kinds:
-        for r in _open_reports(session, site.id, list(areas) if area_id is not None else None):
-            if (r.area_id, SPOT) in existing:
-                continue
-            reports_by_area.setdefault(r.area_id, []).append(r)
-        result.already_there += sum(1 for a, k in existing if k == SPOT and a in areas)
-
-    wanted = sorted(set(group_types) | set(reports_by_area))
+        horizon = today + timedelta(weeks=lookahead_weeks)
+        group_types = _due_types(
+            session, site, todo, area_id, at, today, horizon, whole_area, cache
+        )
+    # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
+    # order a new group order will cover) only flag their positions on the group order.
+    scope = list(areas) if area_id is not None else None
+    states = (BurnoutReportState.OPEN, BurnoutReportState.ORDERED)
+    all_reports = [r for r in _open_reports(session, site.id, scope, states) if r.area_id in areas]
+    wanted = sorted(set(group_types) | {r.area_id for r in all_reports})
     fixtures = _fixtures(session, site.id, wanted)
     positions = _positions(session, site.id, list(group_types))
-    lt_ids = {f[3] for aid in wanted for f in fixtures.get(aid, [])}
-    contents = _contents(session, lt_ids)
+    pos_no = _position_numbers(session, [r.position_id for r in all_reports])
+    contents = _contents(session, {f[3] for aid in wanted for f in fixtures.get(aid, [])})
+    per_area: dict[int, list[Any]] = {}
+    for r in all_reports:
+        per_area.setdefault(r.area_id, []).append(r)
 
-    orders: list[dict[str, Any]] = []
-    lines: list[list[dict[str, Any]]] = []
-    report_links: list[list[int]] = []
+    mk = partial(
+        _order, site, state=state, iso_week=iso_week, run_id=run_id, contents=contents, now=at
+    )
+    built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]] = []
     for aid in sorted(group_types):
         types, due, plan = group_types[aid]
-        area = areas[aid]
-        ls = []
-        for fid, tag, loc, lt in fixtures.get(aid, []):
-            if lt not in types:
-                continue
-            ps = positions.get(fid, [])
-            if ps:
-                ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, None))
-        if not ls:
-            continue
-        qty = sum(x["quantity"] for x in ls)
-        first = plan.first
-        info = None
-        if first is not None:
-            p = first.group.plan
-            info = {
-                "interval_h": p.interval_h,
-                "binding": p.binding,
-                "group_age_h": first.group_age_h,
-                "lamp_types": sorted(types),
-            }
-        used = [contents[x] for x in types]
-        orders.append(
-            _order(
-                site,
-                area,
-                GROUP,
-                state,
-                iso_week,
-                run_id,
-                due,
-                qty,
-                qty * area.group_minutes_per_lamp,
-                used,
-                now,
-                info,
-            )
+        ls = _group_lines(
+            fixtures.get(aid, []), types, positions, per_area.get(aid, []), pos_no, contents
         )
-        lines.append(ls)
-        report_links.append([])
-    fix_index = {f[0]: f for aid in reports_by_area for f in fixtures.get(aid, [])}
-    pos_no = _position_numbers(
-        session, [r.position_id for rs in reports_by_area.values() for r in rs]
-    )
-    for aid in sorted(reports_by_area):
-        area = areas[aid]
-        per_fixture: dict[int, list[Any]] = {}
-        for r in reports_by_area[aid]:
-            per_fixture.setdefault(r.fixture_id, []).append(r)
-        ls = []
-        for fid, rs in per_fixture.items():
-            _, tag, loc, lt = fix_index[fid]
+        if ls:
+            taken = [r.id for r in per_area.get(aid, []) if r.status == BurnoutReportState.OPEN]
+            minutes = areas[aid].group_minutes_per_lamp
+            order = mk(areas[aid], GROUP, due, ls, minutes, _plan_info(plan, types))
+            built.append((order, ls, taken))
+    grouped = {o["area_id"] for o, _, _ in built}
+    if SPOT in kinds:
+        result.already_there += sum(1 for a, k in existing if k == SPOT and a in areas)
+        for aid in sorted(per_area):
+            rs = [r for r in per_area[aid] if r.status == BurnoutReportState.OPEN]
+            if not rs or aid in grouped or (aid, SPOT) in existing:
+                continue
+            ls = _spot_lines(rs, fixtures.get(aid, []), pos_no, contents)
+            order = mk(areas[aid], SPOT, today, ls, areas[aid].spot_minutes_per_lamp, None)
+            order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
+            built.append((order, ls, [r.id for r in rs]))
+    if built:
+        _write(session, built, result, at, checkpoint)
+    return result
+
+
+def _due_types(
+    session: Session,
+    site: Site,
+    todo: list[Area],
+    area_id: int | None,
+    at: datetime,
+    today: date,
+    horizon: date,
+    whole_area: bool,
+    cache: PlanCache | None,
+) -> dict[int, tuple[set[int], date, AreaPlan]]:
+    """Which lamp types of which areas get a group relamp, with the due date and the plan."""
+    out: dict[int, tuple[set[int], date, AreaPlan]] = {}
+    if not todo:
+        return out
+    pos = load_positions(session, site_id=site.id, area_id=area_id, at=at)
+    last = last_group_relamps(session, [a.id for a in todo])
+    for plan in plan_areas(session, site, todo, pos, at, None, cache, last_relamps=last):
+        due_groups = [g for g in plan.groups if g.due_on is not None and g.due_on <= horizon]
+        if whole_area:
+            due_groups = list(plan.groups)
+        if due_groups:
+            soonest = min((g.due_on for g in due_groups if g.due_on), default=today)
+            out[plan.area.id] = ({g.lamp_type_id for g in due_groups}, max(soonest, today), plan)
+    return out
+
+
+def _plan_info(plan: AreaPlan, types: set[int]) -> dict[str, Any] | None:
+    first = plan.first
+    if first is None:
+        return None
+    p = first.group.plan
+    return {
+        "interval_h": p.interval_h,
+        "binding": p.binding,
+        "group_age_h": first.group_age_h,
+        "lamp_types": sorted(types),
+    }
+
+
+def _group_lines(
+    fixtures: list[Any],
+    types: set[int],
+    positions: dict[int, list[Any]],
+    reports: list[Any],
+    pos_no: dict[int, int],
+    contents: dict[int, LampContent],
+) -> list[dict[str, Any]]:
+    """Every fixture of the due types, plus the reported positions of any other fixture."""
+    by_fixture: dict[int, list[Any]] = {}
+    for r in reports:
+        by_fixture.setdefault(r.fixture_id, []).append(r)
+    ls = []
+    for fid, tag, loc, lt in fixtures:
+        rs = by_fixture.get(fid, [])
+        if lt in types:
+            ps = positions.get(fid, [])
+            on_line = {p[0] for p in ps}
+            rids = [r.id for r in rs if r.position_id in on_line] or None
+        else:  # not due: only its dark lamps, so no spot order is needed beside
             ps = sorted(
                 {(r.position_id, pos_no.get(r.position_id, 0)) for r in rs}, key=lambda x: x[1]
             )
-            ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, [r.id for r in rs]))
-        qty = sum(x["quantity"] for x in ls)
-        used = [contents[lt] for lt in {x["lamp_type_id"] for x in ls}]
-        orders.append(
-            _order(
-                site,
-                area,
-                SPOT,
-                state,
-                iso_week,
-                run_id,
-                today,
-                qty,
-                qty * area.spot_minutes_per_lamp,
-                used,
-                now,
-                None,
-            )
-        )
-        lines.append(ls)
-        report_links.append([r.id for r in reports_by_area[aid]])
-    if not orders:
-        return result
+            rids = [r.id for r in rs] or None
+        if ps:
+            ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, rids))
+    return ls
 
+
+def _spot_lines(
+    reports: list[Any],
+    fixtures: list[Any],
+    pos_no: dict[int, int],
+    contents: dict[int, LampContent],
+) -> list[dict[str, Any]]:
+    """One line per reported fixture with its reported positions."""
+    fix_index = {f[0]: f for f in fixtures}
+    per_fixture: dict[int, list[Any]] = {}
+    for r in reports:
+        per_fixture.setdefault(r.fixture_id, []).append(r)
+    ls = []
+    for fid, rs in per_fixture.items():
+        _, tag, loc, lt = fix_index[fid]
+        ps = sorted({(r.position_id, pos_no.get(r.position_id, 0)) for r in rs}, key=lambda x: x[1])
+        ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, [r.id for r in rs]))
+    return ls
+
+
+def _write(
+    session: Session,
+    built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]],
+    result: IssueResult,
+    at: datetime,
+    checkpoint: Callable[[str], None] | None,
+) -> None:
+    """Insert orders and lines, take the reports, and let group orders cover spot orders."""
+    orders = [o for o, _, _ in built]
     ids = (
         session.execute(
             insert(WorkOrder).returning(WorkOrder.id, sort_by_parameter_order=True), orders
@@ -283,17 +349,17 @@ def issue_orders(
     if checkpoint is not None:  # tests inject failures here: orders written, lines not yet
         checkpoint("orders_inserted")
     flat = []
-    for oid, ls in zip(ids, lines, strict=True):
+    for oid, (_, ls, _) in zip(ids, built, strict=True):
         for x in ls:
             x["work_order_id"] = oid
             flat.append(x)
     session.execute(insert(WorkOrderLine), flat)
-    for oid, rs in zip(ids, report_links, strict=True):
-        if rs:
-            reports.take_for_order(session, rs, oid, at=now)
-    for oid, o in zip(ids, orders, strict=True):
+    for oid, (o, _, taken) in zip(ids, built, strict=True):
+        if taken:
+            reports.take_for_order(session, taken, oid, at=at)
+        if o["kind"] == GROUP:
+            cover_spot_orders(session, oid, o["area_id"], at)
         result.created.append((oid, o["area_id"], o["kind"]))
-    return result
 
 
 def _position_numbers(session: Session, ids: list[int]) -> dict[int, int]:
@@ -334,16 +400,20 @@ def _order(
     site: Site,
     area: Area,
     kind: str,
+    due: date,
+    lines: list[dict[str, Any]],
+    minutes_per_lamp: float,
+    plan: dict[str, Any] | None,
+    *,
     state: str,
     iso_week: str | None,
     run_id: int | None,
-    due: date,
-    qty: int,
-    minutes: float,
-    lamps: list[LampContent],
+    contents: dict[int, LampContent],
     now: datetime,
-    plan: dict[str, Any] | None,
 ) -> dict[str, Any]:
+    """The row of one new order (lamp count, labour and cautions from its lines)."""
+    qty = sum(x["quantity"] for x in lines)
+    lamps = [contents[lt] for lt in sorted({x["lamp_type_id"] for x in lines})]
     return {
         "site_id": site.id,
         "area_id": area.id,
@@ -354,7 +424,7 @@ def _order(
         "due_on": due,
         "access_method": area.access_method,
         "lamp_quantity": qty,
-        "estimated_labour_h": round(minutes / 60.0, 2),  # hours
+        "estimated_labour_h": round(qty * minutes_per_lamp / 60.0, 2),  # hours
         "disposal_instructions": disposal_instructions(lamps),
         "safety_cautions": safety_cautions(lamps, area.access_method),
         "external_reference": None,
@@ -363,6 +433,7 @@ def _order(
         "completed_at": None,
         "cancel_reason": None,
         "plan": plan,
+        "covered_by_order_id": None,
         "created_at": now,
         "updated_at": now,
     }

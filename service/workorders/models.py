@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import enum
 from datetime import date, datetime
 from typing import Any
 
@@ -20,9 +21,37 @@ from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from service.db.base import Base, TimestampMixin
 
-KINDS = ("group_relamp", "spot_replacement")
-STATES = ("draft", "issued", "in_progress", "done", "cancelled")
-OUTCOMES = ("replaced", "skipped")
+
+class WorkOrderKind(enum.StrEnum):
+    """What an order asks a team to do."""
+
+    GROUP_RELAMP = "group_relamp"
+    SPOT_REPLACEMENT = "spot_replacement"
+
+
+class WorkOrderState(enum.StrEnum):
+    """Where an order stands (moves: service.workorders.service.TRANSITIONS)."""
+
+    DRAFT = "draft"
+    ISSUED = "issued"
+    IN_PROGRESS = "in_progress"
+    DONE = "done"
+    CANCELLED = "cancelled"
+
+
+class LineOutcome(enum.StrEnum):
+    """What happened at a lamp position (or, summed up, at a line's fixture)."""
+
+    REPLACED = "replaced"  # the lamp was burning when taken out
+    FOUND_DARK = "found_dark"  # dark on arrival without a report: a failure
+    SKIPPED = "skipped"  # left in place (its age keeps running); needs a reason
+    PARTIAL = "partial"  # line only: some positions of the fixture skipped, some not
+
+
+KINDS = tuple(WorkOrderKind)
+STATES = tuple(WorkOrderState)
+OUTCOMES = tuple(LineOutcome)
+OPEN_STATES = (WorkOrderState.DRAFT, WorkOrderState.ISSUED, WorkOrderState.IN_PROGRESS)
 OPEN_GROUP_SQL = "kind = 'group_relamp' AND state IN ('draft', 'issued', 'in_progress')"
 
 
@@ -49,7 +78,7 @@ class WorkOrder(TimestampMixin, Base):
     site_id: Mapped[int] = mapped_column(ForeignKey("sites.id", ondelete="RESTRICT"))
     area_id: Mapped[int] = mapped_column(ForeignKey("areas.id", ondelete="RESTRICT"), index=True)
     kind: Mapped[str] = mapped_column(String(20))
-    state: Mapped[str] = mapped_column(String(12), default="draft")
+    state: Mapped[str] = mapped_column(String(12), default=WorkOrderState.DRAFT.value)
     iso_week: Mapped[str | None] = mapped_column(String(8), default=None)  # e.g. 2026-W49
     run_id: Mapped[int | None] = mapped_column(
         ForeignKey("weekly_runs.id", ondelete="SET NULL"), default=None
@@ -67,6 +96,10 @@ class WorkOrder(TimestampMixin, Base):
     cancel_reason: Mapped[str | None] = mapped_column(String(500), default=None)
     # The plan figures behind a group order (interval, binding reason, group age), for audit.
     plan: Mapped[dict[str, Any] | None] = mapped_column(JSON, default=None)
+    # A spot order a group order took over (same area): settled or released with it.
+    covered_by_order_id: Mapped[int | None] = mapped_column(
+        ForeignKey("work_orders.id", ondelete="SET NULL"), default=None, index=True
+    )
     # Bumped and checked by every UPDATE (optimistic lock): a stale writer gets 409.
     version: Mapped[int] = mapped_column(Integer, server_default="1")
 
@@ -78,6 +111,15 @@ class WorkOrder(TimestampMixin, Base):
         cascade="all, delete-orphan",
         passive_deletes=True,
     )
+    # The spot orders this group order covers (read only: set through covered_by_order_id).
+    covered: Mapped[list[WorkOrder]] = relationship(
+        foreign_keys=[covered_by_order_id], order_by="WorkOrder.id", viewonly=True
+    )
+
+    @property
+    def covers(self) -> list[int]:
+        """Ids of the spot orders this order covers."""
+        return [o.id for o in self.covered]
 
 
 class WorkOrderLine(Base):
@@ -97,10 +139,12 @@ class WorkOrderLine(Base):
     quantity: Mapped[int] = mapped_column(Integer)
     position_ids: Mapped[list[int]] = mapped_column(JSON)
     position_nos: Mapped[list[int]] = mapped_column(JSON)
-    # Spot orders: the burnout reports this line answers.
+    # The burnout reports this line answers (its positions were reported dark).
     report_ids: Mapped[list[int] | None] = mapped_column(JSON, default=None)
     outcome: Mapped[str | None] = mapped_column(String(10), default=None)
     skip_reason: Mapped[str | None] = mapped_column(String(500), default=None)
+    # At completion: [{"position_id", "outcome", "reason"}] in position order.
+    position_outcomes: Mapped[list[dict[str, Any]] | None] = mapped_column(JSON, default=None)
     extra: Mapped[dict[str, Any] | None] = mapped_column(JSON, default=None)
 
     order: Mapped[WorkOrder] = relationship(back_populates="lines")

@@ -36,7 +36,11 @@ def read(order: WorkOrder, *, lines: bool = True) -> WorkOrderRead:
     """Shape an order for a response."""
     fields = {c: getattr(order, c) for c in WorkOrderRead.model_fields if c in _COLUMNS}
     body = WorkOrderRead.model_validate(
-        {**fields, "allowed_next": list(service.TRANSITIONS[order.state])}
+        {
+            **fields,
+            "allowed_next": list(service.TRANSITIONS[order.state]),
+            "covers": order.covers,
+        }
     )
     if lines:
         body.lines = [LineRead.model_validate(ln) for ln in order.lines]

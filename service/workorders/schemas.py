@@ -9,9 +9,10 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from service.api.ids import Id
 from service.api.times import Day, Timestamp
+from service.workorders.models import LineOutcome, WorkOrderKind, WorkOrderState
 
-Kind = Literal["group_relamp", "spot_replacement"]
-State = Literal["draft", "issued", "in_progress", "done", "cancelled"]
+Kind = WorkOrderKind
+State = WorkOrderState
 
 
 class WorkOrderCreate(BaseModel):
@@ -36,6 +37,10 @@ class WorkOrderUpdate(BaseModel):
     due_on: Day | None = None
 
 
+# LineOutcome without "partial" (a line summary only); kept in step with it by a unit test.
+PositionResult = Literal["replaced", "found_dark", "skipped"]
+
+
 class LineRead(BaseModel):
     """One fixture of an order."""
 
@@ -50,9 +55,23 @@ class LineRead(BaseModel):
     quantity: int
     position_ids: list[int]
     position_nos: list[int]
-    report_ids: list[int] | None
-    outcome: Literal["replaced", "skipped"] | None
+    report_ids: list[int] | None = Field(
+        description="Burnout reports this line answers: its positions were reported dark."
+    )
+    outcome: LineOutcome | None = Field(
+        description="replaced, skipped, or partial (some positions skipped); found_dark "
+        "positions count as replaced."
+    )
     skip_reason: str | None
+    position_outcomes: list[PositionOutcomeRead] | None = None
+
+
+class PositionOutcomeRead(BaseModel):
+    """What happened at one lamp position, as recorded at completion."""
+
+    position_id: int
+    outcome: PositionResult
+    reason: str | None = None
 
 
 class WorkOrderRead(BaseModel):
@@ -81,6 +100,14 @@ class WorkOrderRead(BaseModel):
     state_changed_at: datetime | None
     completed_at: datetime | None
     cancel_reason: str | None
+    covered_by_order_id: int | None = Field(
+        default=None,
+        description="Spot orders: the group order that took this one over (settles it when "
+        "done, releases it when cancelled).",
+    )
+    covers: list[int] = Field(
+        default_factory=list, description="Group orders: the spot orders this one covers."
+    )
     created_at: datetime
     updated_at: datetime
     lines: list[LineRead] | None = None
@@ -92,23 +119,47 @@ class FixtureOutcome(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     fixture_id: Id
-    outcome: Literal["replaced", "skipped"]
+    outcome: Literal[LineOutcome.REPLACED, LineOutcome.SKIPPED]
     reason: str | None = Field(default=None, min_length=1, max_length=500)
 
     @model_validator(mode="after")
     def _reason_for_skips(self) -> FixtureOutcome:
-        if self.outcome == "skipped" and not self.reason:
+        if self.outcome == LineOutcome.SKIPPED and not self.reason:
             raise ValueError("a skipped fixture needs a reason")
         return self
 
 
+class PositionOutcome(BaseModel):
+    """What happened at one lamp position (overrides its fixture's outcome)."""
+
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+    position_id: Id
+    outcome: PositionResult = Field(
+        description="replaced (was burning), found_dark (dark without a report: recorded as "
+        "a failure), skipped (left in place; its age keeps running)."
+    )
+    reason: str | None = Field(default=None, min_length=1, max_length=500)
+
+    @model_validator(mode="after")
+    def _reason_for_skips(self) -> PositionOutcome:
+        if self.outcome == LineOutcome.SKIPPED and not self.reason:
+            raise ValueError("a skipped position needs a reason")
+        return self
+
+
 class CompleteBody(BaseModel):
-    """Per-fixture outcomes; fixtures not listed take `others` (or the request is refused)."""
+    """Per-fixture and per-position outcomes; positions listed override their fixture's.
+
+    A fixture neither listed nor with all its positions listed takes `others` (or the
+    request is refused).
+    """
 
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
     outcomes: list[FixtureOutcome] = Field(default_factory=list, max_length=100_000)
-    others: Literal["replaced"] | None = Field(
+    positions: list[PositionOutcome] = Field(default_factory=list, max_length=100_000)
+    others: Literal[LineOutcome.REPLACED] | None = Field(
         default=None, description="Outcome of every fixture not listed."
     )
     completed_at: Timestamp | None = Field(default=None, description="Default: now.")

@@ -13,25 +13,33 @@ from datetime import datetime, timedelta
 
 from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, object_session
 from sqlalchemy.orm.exc import StaleDataError
 
 from service.api.errors import Conflict, Invalid, NotFound
 from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
+from service.events import reports
+from service.events import service as events
 from service.register.models import Area, LampPosition, Site
-from service.workorders import removals
-from service.workorders.issue import GROUP, OPEN_STATES, SPOT, issue_orders
-from service.workorders.models import WorkOrder, WorkOrderLine
+from service.workorders.issue import GROUP, SPOT, issue_orders
+from service.workorders.models import (
+    OPEN_STATES,
+    LineOutcome,
+    WorkOrder,
+    WorkOrderLine,
+    WorkOrderState,
+)
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate, WorkOrderUpdate
 
-TRANSITIONS: dict[str, tuple[str, ...]] = {
-    "draft": ("issued", "cancelled"),
-    "issued": ("in_progress", "cancelled"),
-    "in_progress": ("done", "cancelled"),
-    "done": (),
-    "cancelled": (),
+_S = WorkOrderState
+TRANSITIONS: dict[str, tuple[WorkOrderState, ...]] = {
+    _S.DRAFT: (_S.ISSUED, _S.CANCELLED),
+    _S.ISSUED: (_S.IN_PROGRESS, _S.CANCELLED),
+    _S.IN_PROGRESS: (_S.DONE, _S.CANCELLED),
+    _S.DONE: (),
+    _S.CANCELLED: (),
 }
 CLOCK_SKEW = timedelta(minutes=5)  # completion times this far ahead of our clock are accepted
 
@@ -103,18 +111,18 @@ def _simple_move(session: Session, order_id: int, to: str) -> WorkOrder:
 
 def issue(session: Session, order_id: int) -> WorkOrder:
     """draft -> issued (a repeat on an issued order answers it unchanged)."""
-    return _simple_move(session, order_id, "issued")
+    return _simple_move(session, order_id, WorkOrderState.ISSUED)
 
 
 def start(session: Session, order_id: int) -> WorkOrder:
     """issued -> in_progress (a repeat on a started order answers it unchanged)."""
-    return _simple_move(session, order_id, "in_progress")
+    return _simple_move(session, order_id, WorkOrderState.IN_PROGRESS)
 
 
 def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
     """Cancel an open order: positions stay as they were; batched reports go back to open."""
     order = lock_order(session, order_id)
-    if _already(order, "cancelled"):
+    if _already(order, WorkOrderState.CANCELLED):
         if body.reason is not None and body.reason != order.cancel_reason:
             raise Conflict(
                 f"Work order {order.id} is already cancelled with another reason.",
@@ -122,11 +130,46 @@ def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
                 allowed_next=[],
             )
         return order
-    _move(order, "cancelled", utcnow())
+    now = utcnow()
+    _move(order, WorkOrderState.CANCELLED, now)
     order.cancel_reason = body.reason
-    removals.release_reports(session, order.id)
+    reports.reopen_reports(session, order.id)
+    for spot in _covered_open(session, order):  # they stay open, to be done on their own
+        spot.covered_by_order_id = None
+        spot.updated_at = now
     flush_order(session, order)
     return order
+
+
+def _covered_open(session: Session, order: WorkOrder) -> list[WorkOrder]:
+    """The open spot orders a group order covers, each row-locked (lowest id first)."""
+    ids = session.scalars(
+        select(WorkOrder.id)
+        .where(WorkOrder.covered_by_order_id == order.id, WorkOrder.state.in_(OPEN_STATES))
+        .order_by(WorkOrder.id)
+    ).all()
+    spots = [lock_order(session, i) for i in ids]
+    return [s for s in spots if s.state in OPEN_STATES and s.covered_by_order_id == order.id]
+
+
+def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now: datetime) -> None:
+    """A done group order settles the spot orders it covers: done, no removals of their own.
+
+    The group order already replaced (and recorded) their lamps and closed their reports;
+    reports of positions it did not replace (skipped there) go back to open.
+    """
+    for spot in spots:
+        session = object_session(spot)
+        assert session is not None
+        reopened = reports.reopen_reports(session, spot.id)
+        note = f"Replaced by group order {order.id}."
+        if reopened:
+            note += f" {reopened} burnout report(s) reopened: skipped on the group order."
+        spot.notes = note if not spot.notes else f"{spot.notes}\n{note}"[-2000:]
+        spot.state = WorkOrderState.DONE
+        spot.state_changed_at = now
+        spot.completed_at = at
+        spot.updated_at = now
 
 
 def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
@@ -165,7 +208,7 @@ def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
             at=utcnow(),
             iso_week=None,
             run_id=None,
-            state="draft",
+            state=WorkOrderState.DRAFT,
             lookahead_weeks=0,
             area_id=area.id,
             kinds=(body.kind,),
@@ -185,117 +228,155 @@ def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
     return order
 
 
-def _outcomes(order: WorkOrder, body: CompleteBody) -> dict[int, tuple[str, str | None]]:
+Entry = tuple[int, str, str | None]  # (position id, outcome, reason)
+Resolved = dict[int, list[Entry]]  # line id -> its positions' outcomes, in position order
+REPLACED, FOUND_DARK, SKIPPED = LineOutcome.REPLACED, LineOutcome.FOUND_DARK, LineOutcome.SKIPPED
+
+
+def _err(field: str, message: str) -> dict[str, str]:
+    return {"field": field, "in": "body", "message": message}
+
+
+def _outcomes(order: WorkOrder, body: CompleteBody) -> Resolved:
+    """Each line's per-position outcomes from the body (positions override fixtures)."""
     by_fixture = {ln.fixture_id: ln for ln in order.lines}
-    got: dict[int, tuple[str, str | None]] = {}
+    on_order = {pid for ln in order.lines for pid in ln.position_ids}
+    fixture_got: dict[int, tuple[str, str | None]] = {}
+    pos_got: dict[int, tuple[str, str | None]] = {}
     errors = []
     for i, o in enumerate(body.outcomes):
         if o.fixture_id not in by_fixture:
-            errors.append(
-                {"field": f"outcomes.{i}.fixture_id", "in": "body", "message": "not on this order"}
-            )
-        elif o.fixture_id in got:
-            errors.append(
-                {"field": f"outcomes.{i}.fixture_id", "in": "body", "message": "given twice"}
-            )
+            errors.append(_err(f"outcomes.{i}.fixture_id", "not on this order"))
+        elif o.fixture_id in fixture_got:
+            errors.append(_err(f"outcomes.{i}.fixture_id", "given twice"))
         else:
-            got[o.fixture_id] = (o.outcome, o.reason)
-    missing = [f for f in by_fixture if f not in got]
+            fixture_got[o.fixture_id] = (o.outcome, o.reason)
+    for i, p in enumerate(body.positions):
+        if p.position_id not in on_order:
+            errors.append(_err(f"positions.{i}.position_id", "not on this order"))
+        elif p.position_id in pos_got:
+            errors.append(_err(f"positions.{i}.position_id", "given twice"))
+        else:
+            pos_got[p.position_id] = (p.outcome, p.reason)
+    missing = [
+        f
+        for f, ln in by_fixture.items()
+        if f not in fixture_got and any(pid not in pos_got for pid in ln.position_ids)
+    ]
     if missing and body.others is None:
         errors.append(
-            {
-                "field": "outcomes",
-                "in": "body",
-                "message": f"no outcome for fixtures {missing[:20]}; list them or set 'others'",
-            }
+            _err("outcomes", f"no outcome for fixtures {missing[:20]}; list them or set 'others'")
         )
     if errors:
-        raise Invalid("Some fixture outcomes are wrong or missing.", errors=errors)
-    for f in missing:
-        got[f] = ("replaced", None)
-    return got
+        raise Invalid("Some fixture or position outcomes are wrong or missing.", errors=errors)
+    out: Resolved = {}
+    for ln in order.lines:
+        default = fixture_got.get(ln.fixture_id, (REPLACED, None))
+        out[ln.id] = [(pid, *pos_got.get(pid, default)) for pid in ln.position_ids]
+    return out
 
 
-def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
-    """in_progress -> done with per-fixture outcomes; replaced positions restart at zero."""
-    order = lock_order(session, order_id)
-    if _already(order, "done"):
-        return _repeat_of_completion(order, body)
-    if "done" not in TRANSITIONS[order.state]:
-        _move(order, "done", utcnow())  # raises the 409 with the allowed moves
-    now = utcnow()
-    at = body.completed_at or now
+def _summary(entries: list[Entry]) -> tuple[str, str | None]:
+    """A line's outcome and skip reason from its positions' outcomes."""
+    skipped = [e for e in entries if e[1] == SKIPPED]
+    reasons = "; ".join(dict.fromkeys(e[2] for e in skipped if e[2])) or None
+    if not skipped:
+        return REPLACED, None
+    outcome = SKIPPED if len(skipped) == len(entries) else LineOutcome.PARTIAL
+    return outcome, reasons[:500] if reasons else None
+
+
+def _check_time(order: WorkOrder, at: datetime, now: datetime) -> None:
     if at.tzinfo is None:
         raise Invalid(
             "completed_at needs a UTC offset.",
-            errors=[{"field": "completed_at", "in": "body", "message": "no offset"}],
+            errors=[_err("completed_at", "no offset")],
         )
     if at > now + CLOCK_SKEW or at < order.created_at - CLOCK_SKEW:
         raise Invalid(
             "completed_at must lie between the order's creation and now.",
-            errors=[{"field": "completed_at", "in": "body", "message": "out of range"}],
+            errors=[_err("completed_at", "out of range")],
         )
-    outcomes = _outcomes(order, body)
-    replaced_ids = [
-        pid
-        for ln in order.lines
-        if outcomes[ln.fixture_id][0] == "replaced"
-        for pid in ln.position_ids
-    ]
-    positions = {
-        p.id: p
-        for p in session.scalars(select(LampPosition).where(LampPosition.id.in_(replaced_ids)))
-    }
-    open_reports = removals.reports_on_positions(session, replaced_ids)
-    to_close: list[int] = []
-    dark_positions: list[LampPosition] = []
-    burning_positions: list[LampPosition] = []
+
+
+def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
+    """in_progress -> done with per-fixture or per-position outcomes; new lamps start at zero."""
+    order = lock_order(session, order_id)
+    if _already(order, WorkOrderState.DONE):
+        return _repeat_of_completion(order, body)
+    if WorkOrderState.DONE not in TRANSITIONS[order.state]:
+        _move(order, WorkOrderState.DONE, utcnow())  # raises the 409 with the allowed moves
+    # Lock covered spot orders before reading positions: a concurrent completion of one of
+    # them finishes first (and is then skipped), so no lamp is recorded twice.
+    covered = _covered_open(session, order)
+    now = utcnow()
+    at = body.completed_at or now
+    _check_time(order, at, now)
+    resolved = _outcomes(order, body)
     for ln in order.lines:
-        outcome, reason = outcomes[ln.fixture_id]
-        ln.outcome, ln.skip_reason = outcome, reason
-        if outcome != "replaced":
-            continue
-        for pid in ln.position_ids:
-            pos = positions.get(pid)
-            if pos is None:  # the position was removed from the register meanwhile
-                continue
-            dark = pos.burned_out_at is not None or pid in open_reports
-            if order.kind == SPOT and not dark:
-                continue  # another order (e.g. this week's group relamp) already replaced it
-            (dark_positions if dark else burning_positions).append(pos)
-            to_close.extend(open_reports.get(pid, []))
-    # Burned-out lamps are failures (their report already wrote the record: it is reused);
-    # lamps still burning at a group relamp are censored observations.
-    if dark_positions:
-        removals.record_removals(
-            session,
-            dark_positions,
-            removed_at=at,
-            failed=True,
-            reason="burnout",
-            work_order_id=order.id,
-        )
-    if burning_positions:
-        removals.record_removals(
-            session,
-            burning_positions,
-            removed_at=at,
-            failed=False,
-            reason="group_relamp",
-            work_order_id=order.id,
-        )
-    if to_close:
-        removals.close_reports(session, sorted(set(to_close)), order.id, closed_at=at)
-    removals.release_reports(session, order.id)  # reports of skipped fixtures reopen
-    _move(order, "done", now)
+        entries = resolved[ln.id]
+        ln.outcome, ln.skip_reason = _summary(entries)
+        ln.position_outcomes = [
+            {"position_id": pid, "outcome": str(o), "reason": r} for pid, o, r in entries
+        ]
+    _record(session, order, resolved, at)
+    reports.reopen_reports(session, order.id)  # reports of skipped positions reopen
+    _settle_covered(covered, order, at, now)
+    _move(order, WorkOrderState.DONE, now)
     order.completed_at = at
     flush_order(session, order)
     return order
 
 
+def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime) -> None:
+    """Removals for every lamp taken out; close the reports those lamps answer."""
+    taken = {pid: o for entries in resolved.values() for pid, o, _ in entries if o != SKIPPED}
+    positions = {
+        p.id: p
+        for p in session.scalars(select(LampPosition).where(LampPosition.id.in_(list(taken))))
+    }
+    open_reports = reports.not_closed_on_positions(session, list(taken))
+    to_close: list[int] = []
+    dark_positions: list[LampPosition] = []
+    burning_positions: list[LampPosition] = []
+    for pid, outcome in taken.items():
+        pos = positions.get(pid)
+        if pos is None:  # the position was removed from the register meanwhile
+            continue
+        # Found dark without a report is still a failure: recording it as censored
+        # ("still burning") would bias the field life upwards.
+        dark = outcome == FOUND_DARK or pos.burned_out_at is not None or pid in open_reports
+        if order.kind == SPOT and not dark:
+            continue  # another order (e.g. this week's group relamp) already replaced it
+        (dark_positions if dark else burning_positions).append(pos)
+        to_close.extend(open_reports.get(pid, []))
+    # Burned-out lamps are failures (their report already wrote the record: it is reused);
+    # lamps still burning at a group relamp are censored observations.
+    for group, failed, reason in (
+        (dark_positions, True, "burnout"),
+        (burning_positions, False, "group_relamp"),  # a removal reason, not a kind
+    ):
+        if group:
+            events.record_removals(
+                session, group, removed_at=at, failed=failed, reason=reason, work_order_id=order.id
+            )
+    if to_close:
+        reports.close_reports(session, sorted(set(to_close)), order.id, closed_at=at)
+
+
+def _recorded(ln: WorkOrderLine) -> list[Entry]:
+    """A done line's per-position outcomes (lines done before they were stored: derived)."""
+    if ln.position_outcomes is not None:
+        return [(e["position_id"], e["outcome"], e.get("reason")) for e in ln.position_outcomes]
+    return [(pid, ln.outcome or "", ln.skip_reason) for pid in ln.position_ids]
+
+
 def _repeat_of_completion(order: WorkOrder, body: CompleteBody) -> WorkOrder:
-    """A completion sent again: the same outcomes answer the order; other outcomes are 409."""
-    recorded = {ln.fixture_id: (ln.outcome, ln.skip_reason) for ln in order.lines}
+    """A completion sent again: the same outcomes answer the order; other outcomes are 409.
+
+    Compared per position, so a retry in either form (per fixture or per position) matches.
+    """
+    recorded = {ln.id: _recorded(ln) for ln in order.lines}
     same_time = body.completed_at is None or body.completed_at == order.completed_at
     if same_time and _outcomes(order, body) == recorded:
         return order

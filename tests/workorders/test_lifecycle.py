@@ -277,10 +277,50 @@ def test_spot_order_after_a_group_relamp_records_nothing_twice(
     url = "/api/v1/work-orders/{}/complete"
     r = client.post(url.format(group["id"]), json={"others": "replaced"}, headers=writer)
     assert r.status_code == 200
+    # The group order covered the spot order and settled it: nothing is left to send.
+    got = client.get(f"/api/v1/work-orders/{spot['id']}", headers=writer).json()
+    assert got["state"] == "done" and got["covered_by_order_id"] == group["id"]
+    assert f"Replaced by group order {group['id']}" in got["notes"]
+    assert client.get(f"/api/v1/work-orders/{group['id']}", headers=writer).json()["covers"] == [
+        spot["id"]
+    ]
+    page = client.get(f"/api/v1/work-orders/{spot['id']}/print", headers=writer).text
+    assert f"Covered by group order {group['id']}" in page
+    page = client.get(f"/api/v1/work-orders/{group['id']}/print", headers=writer).text
+    assert f"Covers spot order(s) {spot['id']}" in page and "reported dark (1)" in page
     r = client.post(url.format(spot["id"]), json={"others": "replaced"}, headers=writer)
-    assert r.status_code == 200
+    assert r.status_code == 409  # already settled; a completion of its own changes nothing
     recs = db.scalars(select(LampRemoval).where(LampRemoval.position_id == dark.id)).all()
     assert len(recs) == 1 and recs[0].failed  # the one failure, not a second at zero hours
     assert (
         db.scalars(select(LampRemoval).where(LampRemoval.work_order_id == spot["id"])).all() == []
     )
+
+
+def test_per_position_completion_over_http(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    area_id, fx = _area(db, n=2)
+    order = _in_progress(client, writer, area_id, "group_relamp")
+    p0, p1 = fx[0].positions
+    body = {
+        "positions": [
+            {"position_id": p0.id, "outcome": "found_dark"},
+            {"position_id": p1.id, "outcome": "skipped", "reason": "fixture lens cracked"},
+        ],
+        "others": "replaced",
+    }
+    url = f"/api/v1/work-orders/{order['id']}/complete"
+    r = client.post(url, json=body, headers=writer)
+    assert r.status_code == 200, r.text
+    line = next(ln for ln in r.json()["lines"] if ln["fixture_id"] == fx[0].id)
+    assert line["outcome"] == "partial"
+    assert line["position_outcomes"][1] == {
+        "position_id": p1.id,
+        "outcome": "skipped",
+        "reason": "fixture lens cracked",
+    }
+    assert client.post(url, json=body, headers=writer).status_code == 200  # retry
+    bad = {"positions": [{"position_id": p0.id, "outcome": "skipped"}], "others": "replaced"}
+    r = client.post(url, json=bad, headers=writer)
+    assert r.status_code == 422
