@@ -10,15 +10,18 @@ For every path under /api/v1, before anything parses the query or the body:
 
 For every path, a body longer than ``max_body_bytes`` is refused with 413: at once when
 its Content-Length says so, else while it streams in (the receive channel counts bytes),
-so it is never read in full. Key use is written to ``api_keys.last_used_at`` after the
+so it is never read in full. At most db_pool_size + db_max_overflow requests are let in at
+once; the others queue in the event loop (no connection or thread held). Key use is written to ``api_keys.last_used_at`` after the
 answer has gone out (service/keys/usage.py), never inside the request's transaction.
 """
 
 from __future__ import annotations
 
+import asyncio
 import logging
 from urllib.parse import parse_qsl, urlencode
 
+import anyio
 import anyio.to_thread
 from fastapi import FastAPI
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
@@ -78,6 +81,15 @@ class GateMiddleware:
 
     def __init__(self, app: ASGIApp) -> None:
         self.app = app
+        self._slots: tuple[asyncio.AbstractEventLoop, anyio.Semaphore] | None = None
+
+    def _semaphore(self) -> anyio.Semaphore:
+        """The slots of the running event loop (a test client runs one loop per client)."""
+        loop = asyncio.get_running_loop()
+        if self._slots is None or self._slots[0] is not loop:
+            settings = get_settings()
+            self._slots = (loop, anyio.Semaphore(settings.db_pool_size + settings.db_max_overflow))
+        return self._slots[1]
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         """Answer 400/401/413 itself, or pass the request on with a counting receive."""
@@ -86,20 +98,26 @@ class GateMiddleware:
             return
         path = scope["path"]
         limit = get_settings().max_body_bytes
-        if _is_api(path):
-            refusal = self._refusal(scope)
-            if refusal is not None:
-                await refusal(scope, receive, send)
+        # Admission: at most as many requests inside as the pool has connections. The rest
+        # wait here, holding neither a connection nor a worker thread, so a request that
+        # holds SQLite's write lock always gets the thread it needs to finish.
+        async with self._semaphore():
+            if _is_api(path):
+                # The lookup blocks on the pool and the database: never on the event loop.
+                refusal = await anyio.to_thread.run_sync(self._refusal, scope)
+                if refusal is not None:
+                    await refusal(scope, receive, send)
+                    return
+            length = _content_length(scope)
+            if length is not None and length > limit:
+                await _too_large(path, limit)(scope, receive, send)
                 return
-        length = _content_length(scope)
-        if length is not None and length > limit:
-            await _too_large(path, limit)(scope, receive, send)
-            return
-        await self._pass_on(scope, receive, send, limit)
-        if recorder.has_due():
-            # After the answer went out: record key use in a short write of its own.
-            app = scope.get("app")
-            await anyio.to_thread.run_sync(recorder.flush, lambda: short_session(app, write=False))
+            await self._pass_on(scope, receive, send, limit)
+            if recorder.has_due():
+                # After the answer went out: record key use in a short write of its own.
+                app = scope.get("app")
+                opener = lambda: short_session(app, write=False)  # noqa: E731
+                await anyio.to_thread.run_sync(recorder.flush, opener)
 
     def _refusal(self, scope: Scope) -> ASGIApp | None:
         """The 400 / 401 / 503 answer for an API request, or None when the key is good."""

@@ -19,7 +19,7 @@ from contextlib import AbstractContextManager
 from datetime import datetime
 
 from sqlalchemy import or_, select, update
-from sqlalchemy.exc import OperationalError
+from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
@@ -86,8 +86,9 @@ class UsageRecorder:
             try:
                 with opener() as session:
                     done = write_last_used(session, batch)
-            except OperationalError as exc:
-                log.info("key use not written, database busy: %s", exc.orig)
+            except SQLAlchemyError as exc:
+                # Busy (SQLite lock, pool exhausted, lost connection): skip, keep the notes.
+                log.info("key use not written, database busy: %s", exc)
                 return 0
             now = self.clock()
             with self._lock:

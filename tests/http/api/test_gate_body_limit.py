@@ -151,3 +151,54 @@ def test_gate_answers_413_when_a_route_body_streams_past_the_limit(tiny_limit: i
     asyncio.run(gate.GateMiddleware(reads_everything)(scope, receive, send))
     assert sent[0]["type"] == "http.response.start" and sent[0]["status"] == 413
     assert taken == tiny_limit // CHUNK + 1
+
+
+def test_requests_beyond_the_pool_wait_at_the_gate(monkeypatch: pytest.MonkeyPatch) -> None:
+    """With one pooled connection, a second request enters only when the first is done."""
+    monkeypatch.setenv("LAMPKEEPER_DB_POOL_SIZE", "1")
+    monkeypatch.setenv("LAMPKEEPER_DB_MAX_OVERFLOW", "0")
+    get_settings.cache_clear()
+    inside: list[str] = []
+    events: list[str] = []
+
+    async def scenario() -> None:
+        release = asyncio.Event()
+        first_in = asyncio.Event()
+
+        async def app(scope: Any, receive: Any, send: Any) -> None:
+            inside.append(scope["path"])
+            events.append(f"in {scope['path']}")
+            if scope["path"] == "/first":
+                first_in.set()
+                await release.wait()
+            events.append(f"out {scope['path']}")
+
+        gated = gate.GateMiddleware(app)
+
+        async def call(path: str) -> None:
+            scope = {"type": "http", "method": "GET", "path": path, "headers": []}
+            scope["query_string"] = b""
+
+            async def receive() -> dict[str, Any]:
+                return {"type": "http.request", "body": b""}
+
+            async def send(_m: Any) -> None:
+                return None
+
+            await gated(scope, receive, send)
+
+        first = asyncio.create_task(call("/first"))
+        await first_in.wait()
+        second = asyncio.create_task(call("/second"))
+        for _ in range(20):  # let the second run as far as it can
+            await asyncio.sleep(0)
+        assert inside == ["/first"]  # it waits at the gate
+        release.set()
+        await asyncio.gather(first, second)
+
+    try:
+        asyncio.run(scenario())
+    finally:
+        monkeypatch.undo()
+        get_settings.cache_clear()
+    assert events == ["in /first", "out /first", "in /second", "out /second"]

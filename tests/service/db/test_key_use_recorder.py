@@ -135,3 +135,17 @@ def test_find_active_is_a_read(db: Session) -> None:
     found = keys_service.find_active(db, secret)
     assert found is not None and found.last_used_at is None
     assert not db.dirty and not db.new
+
+
+def test_an_exhausted_pool_skips_the_write(committed_key: int) -> None:
+    from sqlalchemy.exc import TimeoutError as PoolTimeout
+
+    @contextmanager
+    def exhausted() -> Iterator[Session]:
+        raise PoolTimeout("QueuePool limit of size 10 overflow 10 reached")
+        yield  # pragma: no cover
+
+    rec = UsageRecorder(clock=Clock())
+    rec.note(committed_key)
+    assert rec.flush(exhausted) == 0
+    assert committed_key in rec.pending()
