@@ -38,6 +38,8 @@ API_PREFIX = "/api/v1"
 # Query parameter names that carry credentials in other APIs; never accepted here.
 KEY_PARAMS = frozenset({"api_key", "key", "token", "access_token"})
 REDACTED = "REDACTED"
+# The liveness probe touches no database: it must answer even while requests queue here.
+UNGATED = frozenset({"/healthz"})
 
 
 def bearer_token(scope: Scope) -> str | None:
@@ -93,7 +95,7 @@ class GateMiddleware:
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         """Answer 400/401/413 itself, or pass the request on with a counting receive."""
-        if scope["type"] != "http":
+        if scope["type"] != "http" or scope["path"] in UNGATED:
             await self.app(scope, receive, send)
             return
         path = scope["path"]

@@ -202,3 +202,48 @@ def test_requests_beyond_the_pool_wait_at_the_gate(monkeypatch: pytest.MonkeyPat
         monkeypatch.undo()
         get_settings.cache_clear()
     assert events == ["in /first", "out /first", "in /second", "out /second"]
+
+
+def test_liveness_probe_skips_the_queue(monkeypatch: pytest.MonkeyPatch) -> None:
+    """/healthz answers even when every slot is taken."""
+    monkeypatch.setenv("LAMPKEEPER_DB_POOL_SIZE", "1")
+    monkeypatch.setenv("LAMPKEEPER_DB_MAX_OVERFLOW", "0")
+    get_settings.cache_clear()
+    seen: list[str] = []
+
+    async def scenario() -> None:
+        release = asyncio.Event()
+        busy = asyncio.Event()
+
+        async def app(scope: Any, receive: Any, send: Any) -> None:
+            seen.append(scope["path"])
+            if scope["path"] == "/slow":
+                busy.set()
+                await release.wait()
+
+        gated = gate.GateMiddleware(app)
+
+        async def call(path: str) -> None:
+            scope = {"type": "http", "method": "GET", "path": path, "headers": []}
+            scope["query_string"] = b""
+
+            async def receive() -> dict[str, Any]:
+                return {"type": "http.request", "body": b""}
+
+            async def send(_m: Any) -> None:
+                return None
+
+            await gated(scope, receive, send)
+
+        slow = asyncio.create_task(call("/slow"))
+        await busy.wait()
+        await call("/healthz")  # would wait forever behind /slow if it queued
+        assert seen == ["/slow", "/healthz"]
+        release.set()
+        await slow
+
+    try:
+        asyncio.run(scenario())
+    finally:
+        monkeypatch.undo()
+        get_settings.cache_clear()
