@@ -32,6 +32,9 @@ class Settings(BaseSettings):
     db_pool_timeout_s: float = Field(default=10.0, gt=0, le=600)
     # SQLite: seconds a writer waits for the write lock before the request answers 503.
     sqlite_busy_timeout_s: float = Field(default=30.0, gt=0, le=600)
+    # Bytes a request body may carry before it is refused with 413 (Content-Length, or
+    # counted while a chunked body streams in); a few times the largest real bulk upload.
+    max_body_bytes: int = Field(default=256 * 1024 * 1024, ge=1)
     # How long a finished Idempotency-Key answer is replayed (hours).
     idempotency_ttl_h: float = Field(default=24.0, gt=0, le=24 * 365)
     # How long an unfinished claim blocks a retry before it counts as abandoned (seconds).

@@ -10,6 +10,7 @@ from fastapi import APIRouter, Depends, FastAPI
 
 from service import __version__
 from service.api.errors import install_error_handlers
+from service.api.gate import install_gate
 from service.api.guard import check_request
 from service.api.health import router as health_router
 from service.api.home import router as home_router
@@ -80,6 +81,7 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     )
     install_error_handlers(app)
     install_retries(app)
+    install_gate(app)  # added last, so it runs first: key check and body limit before all
     app.include_router(health_router)
     app.include_router(home_router)
     for router in DOMAIN_ROUTERS:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import logging
 from typing import Any
 
-from fastapi import FastAPI, Request
+from fastapi import FastAPI, HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 from sqlalchemy.exc import DBAPIError, DisconnectionError, IntegrityError
@@ -67,6 +67,19 @@ class TooLarge(DomainError):
     """A bulk upload beyond the configured row limit (413)."""
 
     status, title, kind = 413, "Too large", "too-large"
+
+
+class BodyTooLarge(HTTPException):
+    """A request body beyond max_body_bytes, raised while it streams in (413).
+
+    An HTTPException, not a DomainError: FastAPI turns any other error raised while it
+    reads a body into a 400.
+    """
+
+    kind = "too-large"
+
+    def __init__(self, limit: int) -> None:
+        super().__init__(413, f"The request body is larger than the limit of {limit} bytes.")
 
 
 def problem(
@@ -145,16 +158,28 @@ def _is_transient(exc: DBAPIError) -> bool:
     return any(marker in text for marker in _TRANSIENT)
 
 
-def _busy_response(request: Request, exc: Exception) -> JSONResponse:
-    log.warning("database busy on %s: %s", request.url.path, exc)
+def is_busy_error(exc: BaseException) -> bool:
+    """True for database errors that a retry resolves (pool, connection, lock, timeout)."""
+    if isinstance(exc, (PoolTimeout, DisconnectionError)):
+        return True
+    return isinstance(exc, DBAPIError) and _is_transient(exc)
+
+
+def busy_problem(path: str, exc: BaseException) -> JSONResponse:
+    """The 503 + Retry-After answer to a busy or lost database."""
+    log.warning("database busy on %s: %s", path, exc)
     return problem(
         503,
         "Busy",
         "The database was busy or its connection was lost; nothing was saved. Send it again.",
         kind="busy",
-        instance=request.url.path,
+        instance=path,
         headers={"Retry-After": "1"},
     )
+
+
+def _busy_response(request: Request, exc: Exception) -> JSONResponse:
+    return busy_problem(request.url.path, exc)
 
 
 def install_error_handlers(app: FastAPI) -> None:
@@ -194,7 +219,7 @@ def install_error_handlers(app: FastAPI) -> None:
             exc.status_code,
             titles.get(exc.status_code, "Error"),
             str(exc.detail),
-            kind=f"http-{exc.status_code}",
+            kind=getattr(exc, "kind", f"http-{exc.status_code}"),
             instance=request.url.path,
             headers=getattr(exc, "headers", None),
         )

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Iterator
+from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
@@ -88,6 +89,38 @@ def get_session(request: Request) -> Iterator[Session]:
     session = session_factory()()
     try:
         if request.method not in READ_ONLY_METHODS:
+            begin_write(session)
+        yield session
+        session.commit()
+    except BaseException:
+        session.rollback()
+        raise
+    finally:
+        session.close()
+
+
+@contextmanager
+def short_session(app: Any, *, write: bool) -> Iterator[Session]:
+    """A short transaction of its own for middleware, outside any request's transaction.
+
+    Uses the app's ``dependency_overrides[get_session]`` when set (tests share their
+    rolled-back transaction that way), else a fresh session; `write` opens it as a writer.
+    """
+    override = getattr(app, "dependency_overrides", {}).get(get_session)
+    if override is not None:
+        gen = override()
+        session = next(gen)
+        try:
+            yield session
+        except BaseException as exc:
+            gen.throw(exc)
+            raise
+        else:
+            next(gen, None)
+        return
+    session = session_factory()()
+    try:
+        if write:
             begin_write(session)
         yield session
         session.commit()

@@ -5,7 +5,6 @@ from __future__ import annotations
 import hashlib
 import secrets
 from collections.abc import Sequence
-from datetime import timedelta
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session
@@ -13,6 +12,7 @@ from sqlalchemy.orm import Session
 from service.api.errors import Conflict, NotFound
 from service.db.base import utcnow
 from service.keys.models import ApiKey
+from service.keys.usage import recorder
 
 SCOPE_RANK = {"read": 1, "write": 2, "admin": 3}
 KEY_PREFIX = "lk_"
@@ -42,14 +42,15 @@ def create_key(session: Session, name: str, scope: str) -> tuple[ApiKey, str]:
 
 
 def find_active(session: Session, presented: str) -> ApiKey | None:
-    """The active key matching a presented secret, or None."""
+    """The active key matching a presented secret, or None; a read only.
+
+    The use is noted in memory (service/keys/usage.py) and written to last_used_at later,
+    in a short transaction of its own, so checking a key never makes a read a writer.
+    """
     row = session.scalar(select(ApiKey).where(ApiKey.digest == digest(presented)))
     if row is None or row.revoked_at is not None:
         return None
-    now = utcnow()
-    # Touch last_used_at at most once a minute so reads stay cheap.
-    if row.last_used_at is None or now - row.last_used_at > timedelta(minutes=1):
-        row.last_used_at = now
+    recorder.note(row.id)
     return row
 
 

@@ -1,0 +1,372 @@
+"""Load a real uvicorn server with mixed reads and writes, on SQLite and on PostgreSQL.
+
+For each database: migrate, load the demo (`lampkeeper migrate`, `lampkeeper demo load`),
+create an admin key (`lampkeeper keys create`), start `lampkeeper serve` as a subprocess,
+then drive --clients threads (an httpx client each) for --seconds: lists, forecasts, relamp
+plans and printable orders; writes of burn hours, burnout reports and work-order
+transitions (create, issue, start, complete or cancel). Prints requests, answers by
+status and p50/p95/p99 latency per kind, then checks the database: every 201 write is
+stored, completes are done, no lamp removal is recorded twice for one position and time,
+at most one open group order per area. Exits 1 when a check fails or a 5xx other than 503
+was seen.
+
+Run: python benchmarks/bench_load.py [--clients 50] [--seconds 60] [--db sqlite,postgresql]
+     [--pg-url postgresql+psycopg://postgres@127.0.0.1:5432/test_edge]
+The PostgreSQL database is emptied (schema public dropped) first: give a scratch one.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import random
+import socket
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+from collections import Counter, defaultdict
+from dataclasses import dataclass, field
+from datetime import UTC, datetime, timedelta
+from pathlib import Path
+from typing import Any
+
+import httpx
+import numpy as np
+from sqlalchemy import create_engine, text
+
+ROOT = Path(__file__).resolve().parents[1]
+LAMPKEEPER = str(Path(sys.executable).with_name("lampkeeper"))
+DEFAULT_PG = "postgresql+psycopg://postgres@127.0.0.1:5432/test_edge"
+# Share of each kind of request in the mix (reads dominate, as in a maintenance office).
+MIX = {
+    "list": 30,
+    "forecast": 12,
+    "plan": 10,
+    "print": 8,
+    "burn_hours": 15,
+    "burnout": 10,
+    "transition": 15,
+}
+WRITE_KINDS = ("burn_hours", "burnout", "transition")
+
+
+@dataclass
+class Demo:
+    """The ids a client picks from."""
+
+    sites: list[int]
+    areas: list[int]
+    fixtures: list[int]
+    positions: list[int]
+
+
+@dataclass
+class Tally:
+    """What the clients saw, shared under a lock."""
+
+    lock: threading.Lock = field(default_factory=threading.Lock)
+    latency: dict[str, list[float]] = field(default_factory=lambda: defaultdict(list))
+    statuses: dict[str, Counter[int]] = field(default_factory=lambda: defaultdict(Counter))
+    created: dict[str, list[int]] = field(default_factory=lambda: defaultdict(list))
+    completed: list[int] = field(default_factory=list)
+    orders: list[int] = field(default_factory=list)
+
+    def add(self, kind: str, status: int, seconds: float) -> None:
+        with self.lock:
+            self.latency[kind].append(seconds)
+            self.statuses[kind][status] += 1
+
+
+def run(cmd: list[str], env: dict[str, str]) -> str:
+    """Run a lampkeeper command; its standard output."""
+    done = subprocess.run(cmd, env=env, cwd=ROOT, capture_output=True, text=True, check=False)
+    if done.returncode != 0:
+        raise SystemExit(f"{' '.join(cmd)} failed:\n{done.stdout}\n{done.stderr}")
+    return done.stdout
+
+
+def prepare(url: str, workdir: Path) -> tuple[dict[str, str], str]:
+    """Empty, migrate and load the demo into a database; (server env, admin key)."""
+    if url.startswith("postgresql"):
+        eng = create_engine(url)
+        with eng.begin() as conn:
+            conn.execute(text("DROP SCHEMA public CASCADE"))
+            conn.execute(text("CREATE SCHEMA public"))
+        eng.dispose()
+    env = {
+        **os.environ,
+        "LAMPKEEPER_DATABASE_URL": url,
+        "LAMPKEEPER_SCHEDULER_ENABLED": "false",
+        "LAMPKEEPER_LOG_LEVEL": "warning",
+    }
+    run([LAMPKEEPER, "migrate"], env)
+    run([LAMPKEEPER, "demo", "load", "--key-file", str(workdir / "demo-key.txt")], env)
+    key = run([LAMPKEEPER, "keys", "create", "--name", "bench", "--scope", "admin"], env)
+    return env, key.strip().splitlines()[-1]
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+def start_server(env: dict[str, str], port: int) -> subprocess.Popen[bytes]:
+    """Start `lampkeeper serve` and wait until /healthz answers."""
+    proc = subprocess.Popen(
+        [LAMPKEEPER, "serve", "--host", "127.0.0.1", "--port", str(port)], env=env, cwd=ROOT
+    )
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:
+        try:
+            if httpx.get(f"http://127.0.0.1:{port}/healthz", timeout=1).status_code == 200:
+                return proc
+        except httpx.HTTPError:
+            pass
+        if proc.poll() is not None:
+            raise SystemExit("the server exited at start-up")
+        time.sleep(0.2)
+    proc.terminate()
+    raise SystemExit("the server did not answer /healthz within 60 s")
+
+
+def load_demo_ids(url: str) -> Demo:
+    eng = create_engine(url)
+    with eng.connect() as conn:
+
+        def ids(table: str) -> list[int]:
+            return [r[0] for r in conn.execute(text(f"SELECT id FROM {table} ORDER BY id"))]
+
+        demo = Demo(ids("sites"), ids("areas"), ids("fixtures"), ids("lamp_positions"))
+    eng.dispose()
+    return demo
+
+
+class Client(threading.Thread):
+    """One client: picks a kind of request by MIX and sends it until the deadline."""
+
+    def __init__(self, no: int, base: str, key: str, demo: Demo, tally: Tally, until: float):
+        super().__init__(daemon=True)
+        self.no, self.demo, self.tally, self.until = no, demo, tally, until
+        self.rng = random.Random(no)
+        self.http = httpx.Client(
+            base_url=base + "/api/v1", headers={"Authorization": f"Bearer {key}"}, timeout=60
+        )
+        # Burn-hour periods: this client's own fixtures, hour by hour from 2025-01-01
+        # (before the demo's records), so no two uploads overlap (that would be a 409).
+        self.fixtures = demo.fixtures[no :: max(1, 50)] or demo.fixtures
+        self.cursor = {f: datetime(2025, 1, 1, tzinfo=UTC) for f in self.fixtures}
+        self.order: dict[str, Any] | None = None  # the order this client moves along
+
+    def call(self, kind: str, method: str, path: str, **kw: Any) -> httpx.Response | None:
+        t0 = time.perf_counter()
+        try:
+            r = self.http.request(method, path, **kw)
+        except httpx.HTTPError:
+            self.tally.add(kind, 0, time.perf_counter() - t0)  # 0: no answer
+            return None
+        self.tally.add(kind, r.status_code, time.perf_counter() - t0)
+        return r
+
+    def run(self) -> None:
+        kinds, weights = list(MIX), list(MIX.values())
+        while time.monotonic() < self.until:
+            kind = self.rng.choices(kinds, weights)[0]
+            getattr(self, kind)()
+        self.http.close()
+
+    def list(self) -> None:
+        path = self.rng.choice(["/fixtures", "/burnout-reports", "/work-orders", "/lamp-removals"])
+        self.call("list", "GET", path, params={"limit": 50})
+
+    def forecast(self) -> None:
+        self.call("forecast", "GET", f"/forecasts/areas/{self.rng.choice(self.demo.areas)}")
+
+    def plan(self) -> None:
+        self.call("plan", "GET", f"/areas/{self.rng.choice(self.demo.areas)}/relamp-plan")
+
+    def print(self) -> None:
+        with self.tally.lock:
+            orders = list(self.tally.orders)
+        if orders:
+            self.call("print", "GET", f"/work-orders/{self.rng.choice(orders)}/print")
+
+    def burn_hours(self) -> None:
+        fixture = self.rng.choice(self.fixtures)
+        start = self.cursor[fixture]
+        self.cursor[fixture] = start + timedelta(hours=1)
+        body = {
+            "fixture_id": fixture,
+            "period_start": start.isoformat(),
+            "period_end": (start + timedelta(hours=1)).isoformat(),
+            "hours": 0.75,
+        }
+        r = self.call("burn_hours", "POST", "/burn-hours", json=body)
+        self._created("burn_hours", r)
+
+    def burnout(self) -> None:
+        body = {
+            "position_id": self.rng.choice(self.demo.positions),
+            "reported_at": datetime.now(UTC).isoformat(),
+            "replaced": True,
+        }
+        self._created("burnout", self.call("burnout", "POST", "/burnout-reports", json=body))
+
+    def transition(self) -> None:
+        """Create a group order for an area, then issue, start, complete (or cancel) it."""
+        if self.order is None:
+            body = {"area_id": self.rng.choice(self.demo.areas), "kind": "group_relamp"}
+            r = self.call("transition", "POST", "/work-orders", json=body)
+            self._created("transition", r)
+            if r is not None and r.status_code == 201:
+                self.order = r.json()
+                with self.tally.lock:
+                    self.tally.orders.append(self.order["id"])
+            return
+        oid, state = self.order["id"], self.order["state"]
+        step = {"draft": "issue", "issued": "start", "in_progress": "complete"}[state]
+        if self.rng.random() < 0.1:
+            step = "cancel"
+        body = {"others": "replaced"} if step == "complete" else {}
+        r = self.call("transition", "POST", f"/work-orders/{oid}/{step}", json=body)
+        if r is not None and r.status_code == 200:
+            self.order = r.json()
+            if step == "complete":
+                with self.tally.lock:
+                    self.tally.completed.append(oid)
+        if (
+            self.order is None
+            or self.order["state"] in ("done", "cancelled")
+            or (r is not None and r.status_code >= 400)
+        ):
+            self.order = None
+
+    def _created(self, kind: str, r: httpx.Response | None) -> None:
+        if r is not None and r.status_code == 201:
+            with self.tally.lock:
+                self.tally.created[kind].append(int(r.json()["id"]))
+
+
+def report(label: str, tally: Tally, seconds: float) -> None:
+    total = sum(len(v) for v in tally.latency.values())
+    print(f"\n== {label}: {total} requests in {seconds:.0f} s ({total / seconds:.0f}/s)")
+    print(f"{'kind':<11}{'n':>7}{'p50 ms':>9}{'p95 ms':>9}{'p99 ms':>9}  statuses")
+    for kind in MIX:
+        lat = np.array(tally.latency.get(kind, [])) * 1000
+        if lat.size == 0:
+            continue
+        p50, p95, p99 = np.percentile(lat, [50, 95, 99])
+        statuses = " ".join(f"{s}:{n}" for s, n in sorted(tally.statuses[kind].items()))
+        print(f"{kind:<11}{lat.size:>7}{p50:>9.0f}{p95:>9.0f}{p99:>9.0f}  {statuses}")
+    everything = Counter[int]()
+    for c in tally.statuses.values():
+        everything.update(c)
+    print("all statuses:", dict(sorted(everything.items())))
+
+
+TABLES = {
+    "burn_hours": "burn_hour_records",
+    "burnout": "burnout_reports",
+    "transition": "work_orders",
+}
+
+
+def check(url: str, tally: Tally) -> list[str]:
+    """Every 201 stored, completes done, no duplicate removals, one open group per area."""
+    problems = []
+    eng = create_engine(url)
+    with eng.connect() as conn:
+        for kind, ids in tally.created.items():
+            stored = {r[0] for r in conn.execute(text(f"SELECT id FROM {TABLES[kind]}"))}
+            missing = set(ids) - stored
+            if missing:
+                problems.append(f"{kind}: {len(missing)} of {len(ids)} created rows missing")
+        for oid in tally.completed:
+            state = conn.execute(text("SELECT state FROM work_orders WHERE id = :i"), {"i": oid})
+            if state.scalar() != "done":
+                problems.append(f"work order {oid} answered complete but is not done")
+        dup = conn.execute(
+            text(
+                "SELECT position_id, removed_at, COUNT(*) FROM lamp_removals "
+                "GROUP BY position_id, removed_at HAVING COUNT(*) > 1"
+            )
+        ).all()
+        if dup:
+            problems.append(f"{len(dup)} duplicated removals (position, removed_at)")
+        groups = conn.execute(
+            text(
+                "SELECT area_id, COUNT(*) FROM work_orders WHERE kind = 'group_relamp' "
+                "AND state IN ('draft', 'issued', 'in_progress') GROUP BY area_id "
+                "HAVING COUNT(*) > 1"
+            )
+        ).all()
+        if groups:
+            problems.append(f"{len(groups)} areas with more than one open group order")
+    eng.dispose()
+    return problems
+
+
+def bench(label: str, url: str, clients: int, seconds: float) -> bool:
+    """Prepare, serve, load and check one database; True when every check passed."""
+    with tempfile.TemporaryDirectory() as tmp:
+        env, key = prepare(url, Path(tmp))
+        demo = load_demo_ids(url)
+        port = free_port()
+        proc = start_server(env, port)
+        tally = Tally()
+        try:
+            until = time.monotonic() + seconds
+            threads = [
+                Client(i, f"http://127.0.0.1:{port}", key, demo, tally, until)
+                for i in range(clients)
+            ]
+            for t in threads:
+                t.start()
+            for t in threads:
+                t.join()
+        finally:
+            proc.terminate()
+            proc.wait(timeout=30)
+        report(label, tally, seconds)
+        problems = check(url, tally)
+        created = {k: len(v) for k, v in tally.created.items()}
+        print(f"201 writes: {created}; completes: {len(tally.completed)}")
+        bad_5xx = sum(
+            n for c in tally.statuses.values() for s, n in c.items() if s >= 500 and s != 503
+        )
+        for p in problems:
+            print("CHECK FAILED:", p)
+        if bad_5xx:
+            print(f"CHECK FAILED: {bad_5xx} answers 5xx other than 503")
+        if not problems and not bad_5xx:
+            print(
+                "checks: every 201 stored, completes done, no duplicate removals, "
+                "at most one open group order per area"
+            )
+        return not problems and not bad_5xx
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--clients", type=int, default=50)
+    parser.add_argument("--seconds", type=float, default=60.0)
+    parser.add_argument("--db", default="sqlite,postgresql", help="sqlite, postgresql or both")
+    parser.add_argument("--pg-url", default=DEFAULT_PG)
+    args = parser.parse_args()
+    ok = True
+    for db in args.db.split(","):
+        if db == "sqlite":
+            with tempfile.TemporaryDirectory() as tmp:
+                url = f"sqlite:///{Path(tmp) / 'bench.sqlite3'}"
+                ok &= bench("SQLite", url, args.clients, args.seconds)
+        elif db == "postgresql":
+            ok &= bench("PostgreSQL", args.pg_url, args.clients, args.seconds)
+        else:
+            parser.error(f"unknown database {db}")
+    return 0 if ok else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())
