@@ -1,0 +1,157 @@
+"""In a real headless Chromium: sign-in per role, a phone burnout report, refusals."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+from selenium.webdriver.common.by import By
+from selenium.webdriver.support import expected_conditions as ec
+from selenium.webdriver.support.ui import Select, WebDriverWait
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from tests.browser.conftest import SCREENSHOTS, Server
+
+PASSWORD = "demo-lamps-2026"  # the demo people's password (service.seed.users)
+ROLES = {"vika": "viewer", "tamo": "technician", "pela": "planner", "ardo": "administrator"}
+
+
+def _wait(driver: Any) -> WebDriverWait:  # type: ignore[type-arg]
+    return WebDriverWait(driver, 30)
+
+
+def _shot(driver: Any, name: str) -> None:
+    driver.save_screenshot(str(SCREENSHOTS / f"{name}.png"))
+
+
+def sign_in(driver: Any, server: Server, username: str) -> None:
+    """Fill the sign-in form and wait for the overview."""
+    driver.get(f"{server.base}/sign-in")
+    driver.find_element(By.ID, "username").send_keys(username)
+    driver.find_element(By.ID, "password").send_keys(PASSWORD)
+    driver.find_element(By.CSS_SELECTOR, "form.stack button[type=submit]").click()
+    _wait(driver).until(ec.url_matches(r"/app$"))
+
+
+def _fixture_with_burning_lamp(server: Server) -> tuple[int, str, str, str]:
+    """(site id, site name, area name, tag) of a demo fixture whose lamps all burn."""
+    from service.db.session import make_engine
+    from service.register.models import Area, Fixture, LampPosition, Site
+
+    engine = make_engine(server.db_url)
+    with Session(engine) as s:
+        dark = select(LampPosition.fixture_id).where(LampPosition.burned_out_at.is_not(None))
+        row = s.execute(
+            select(Site.id, Site.name, Area.name, Fixture.tag)
+            .join(Area, Area.id == Fixture.area_id)
+            .join(Site, Site.id == Fixture.site_id)
+            .where(Fixture.id.not_in(dark))
+            .order_by(Fixture.id)
+        ).first()
+    engine.dispose()
+    assert row is not None
+    return int(row[0]), str(row[1]), str(row[2]), str(row[3])
+
+
+def _open_burnouts(driver: Any, server: Server, site_name: str) -> int:
+    driver.get(f"{server.base}/app")
+    for tr in driver.find_elements(By.CSS_SELECTOR, "table tbody tr"):
+        if tr.find_element(By.CSS_SELECTOR, "th").text == site_name:
+            return int(tr.find_elements(By.CSS_SELECTOR, "td")[0].text)
+    raise AssertionError(f"site {site_name!r} not on the overview")
+
+
+@pytest.mark.parametrize("username", list(ROLES))
+def test_sign_in_as_each_role(page: Any, server: Server, username: str) -> None:
+    sign_in(page, server, username)
+    header = page.find_element(By.CSS_SELECTOR, "header.top").text
+    assert f"({ROLES[username]})" in header
+    assert page.find_element(By.TAG_NAME, "h1").text == "Portfolio overview"
+    _shot(page, f"sign-in-{ROLES[username]}")
+
+
+def test_report_burnout_at_phone_width(page: Any, server: Server) -> None:
+    site_id, site_name, _, tag = _fixture_with_burning_lamp(server)
+    sign_in(page, server, "tamo")
+    before = _open_burnouts(page, server, site_name)
+    page.execute_cdp_cmd(
+        "Emulation.setDeviceMetricsOverride",
+        {"width": 360, "height": 780, "deviceScaleFactor": 2, "mobile": True},
+    )
+    page.get(f"{server.base}/app/report")
+    assert page.execute_script("return window.innerWidth") == 360
+    Select(page.find_element(By.ID, "site_id")).select_by_value(str(site_id))
+    page.find_element(By.ID, "tag").send_keys(tag)
+    page.find_element(By.CSS_SELECTOR, "main form button[type=submit]").click()
+    _wait(page).until(ec.title_contains(f"Fixture {tag}"))
+    # Large targets: the send button spans a thumb's height and nothing overflows sideways.
+    send = page.find_element(By.CSS_SELECTOR, "main form button[type=submit]")
+    assert send.size["height"] >= 48
+    assert page.execute_script("return document.documentElement.scrollWidth") <= 360
+    page.find_element(By.CSS_SELECTOR, "input[name=position_id]:not([disabled])").click()
+    page.find_element(By.ID, "note").send_keys("dark since the night shift")
+    _shot(page, "report-phone-form")
+    send.click()
+    _wait(page).until(ec.title_contains("Reported"))
+    assert "Burnout recorded" in page.find_element(By.TAG_NAME, "h1").text
+    _shot(page, "report-phone-done")
+    page.execute_cdp_cmd("Emulation.clearDeviceMetricsOverride", {})
+    assert _open_burnouts(page, server, site_name) == before + 1
+
+
+def _post(driver: Any, path: str, fields: dict[str, str]) -> int:
+    """POST a form from the page's own origin (with its cookie); the HTTP status."""
+    return int(
+        driver.execute_async_script(
+            "const [path, fields, done] = arguments;"
+            "fetch(path, {method: 'POST', body: new URLSearchParams(fields),"
+            " redirect: 'manual', credentials: 'same-origin'})"
+            ".then(r => done(r.status)).catch(() => done(-1));",
+            path,
+            fields,
+        )
+    )
+
+
+def _page_csrf(driver: Any) -> str:
+    return str(
+        driver.find_element(By.CSS_SELECTOR, "form.signout input[name=csrf_token]").get_attribute(
+            "value"
+        )
+    )
+
+
+def test_viewer_sees_no_write_buttons_and_forged_posts_fail(page: Any, server: Server) -> None:
+    _, _, _, tag = _fixture_with_burning_lamp(server)
+    sign_in(page, server, "vika")
+    page.get(f"{server.base}/app/work-orders/{server.order_id}")
+    assert "draft" in page.find_element(By.TAG_NAME, "main").text
+    # The only form a viewer sees is the sign-out in the header.
+    assert page.find_elements(By.CSS_SELECTOR, "main form") == []
+    _shot(page, "viewer-order")
+    site_id, _, _, tag = _fixture_with_burning_lamp(server)
+    page.get(f"{server.base}/f/{site_id}/{tag}")
+    assert page.find_elements(By.CSS_SELECTOR, "main form") == []
+    assert "can look but not report" in page.find_element(By.TAG_NAME, "main").text
+    # A forged POST with the viewer's own valid CSRF token is still refused by role.
+    token = _page_csrf(page)
+    assert _post(page, "/app/report", {"position_id": "1", "csrf_token": token}) == 403
+    order_url = f"/app/work-orders/{server.order_id}/issued"
+    assert _post(page, order_url, {"csrf_token": token}) == 403
+    page.get(f"{server.base}/app/work-orders/{server.order_id}")
+    assert "draft" in page.find_element(By.TAG_NAME, "main").text  # nothing changed
+
+
+def test_form_without_csrf_token_is_refused(page: Any, server: Server) -> None:
+    sign_in(page, server, "pela")
+    page.get(f"{server.base}/app/work-orders/{server.order_id}")
+    form = page.find_element(By.CSS_SELECTOR, f"main form[action$='/{server.order_id}/issued']")
+    page.execute_script("arguments[0].querySelector('input[name=csrf_token]').remove()", form)
+    form.find_element(By.CSS_SELECTOR, "button").click()
+    _wait(page).until(ec.title_contains("Not allowed"))
+    assert "CSRF" in page.find_element(By.TAG_NAME, "main").text
+    _shot(page, "csrf-refused")
+    assert _post(page, f"/app/work-orders/{server.order_id}/issued", {}) == 403
+    page.get(f"{server.base}/app/work-orders/{server.order_id}")
+    assert "draft" in page.find_element(By.TAG_NAME, "main").text
