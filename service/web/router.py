@@ -9,6 +9,8 @@ from fastapi import APIRouter, Form, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
+from pydantic import ValidationError
+from sqlalchemy.orm import Session
 
 from service.api.auth import SessionDep
 from service.api.errors import DomainError
@@ -16,9 +18,17 @@ from service.db.base import utcnow
 from service.register.models import Site
 from service.users import service as users
 from service.web import queries
-from service.web.auth import COOKIE, VisitorDep, check_post, client_ip, set_cookie_secure
+from service.web.auth import (
+    COOKIE,
+    Visitor,
+    VisitorDep,
+    check_post,
+    client_ip,
+    set_cookie_secure,
+)
 from service.workorders import exports
 from service.workorders import service as orders_service
+from service.workorders.schemas import CancelBody, CompleteBody, FixtureOutcome
 
 HERE = Path(__file__).parent
 templates = Jinja2Templates(directory=str(HERE / "templates"))  # autoescapes .html
@@ -211,25 +221,116 @@ def order_detail(
     request: Request, session: SessionDep, visitor: VisitorDep, order_id: int
 ) -> HTMLResponse:
     """One order, its lines and the state buttons the role and state allow."""
+    return _order_page(request, session, visitor, order_id)
+
+
+def _order_page(
+    request: Request,
+    session: Session,
+    visitor: Visitor,
+    order_id: int,
+    status_code: int = 200,
+    error: str | None = None,
+    errors: list[str] | None = None,
+) -> HTMLResponse:
     order = orders_service.get_order(session, order_id)
-    buttons = [
-        b for b in _BUTTONS if b[0] in orders_service.TRANSITIONS[order.state] and visitor.can(b[2])
-    ]
+    allowed = orders_service.TRANSITIONS[order.state]
+    buttons = [b for b in _BUTTONS if b[0] in allowed and visitor.can(b[2])]
     return page(
         request,
         "order.html",
+        status_code,
         visitor=visitor,
         order=order,
         buttons=buttons,
+        can_complete="done" in allowed and visitor.can("complete_order"),
+        can_cancel="cancelled" in allowed and visitor.can("cancel_order"),
         lines=orders_service.lines_of(session, order_id),
         site=queries.site_names(session).get(order.site_id, ""),
         area=queries.area_name(session, order.area_id),
+        error=error,
+        errors=errors or [],
     )
 
 
-# (next state, button label, page action the role needs); completion and cancelling
-# need outcomes and reasons and are still done through the API.
+# (next state, button label, page action the role needs); completing and cancelling
+# have their own forms (outcomes per fixture, a reason) below.
 _BUTTONS = [("issued", "Issue", "issue_order"), ("in_progress", "Start work", "work_order")]
+Ids = Annotated[list[int], Form(max_length=100_000)]
+Texts = Annotated[list[str], Form(max_length=100_000)]
+
+
+@router.post("/app/work-orders/{order_id}/complete", response_class=HTMLResponse)
+def order_complete(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    order_id: int,
+    csrf_token: Text = "",
+    fixture_id: Ids = [],  # noqa: B006 (FastAPI copies form defaults)
+    outcome: Texts = [],  # noqa: B006
+    reason: Texts = [],  # noqa: B006
+) -> Response:
+    """Complete a started order with one outcome (and a reason for a skip) per fixture."""
+    check_post(visitor, csrf_token, "complete_order")
+    if not (len(fixture_id) == len(outcome) == len(reason)):
+        return _order_page(request, session, visitor, order_id, 422, "The form is incomplete.")
+    outcomes, errors = _outcomes_from_form(fixture_id, outcome, reason)
+    if errors:
+        return _order_page(
+            request, session, visitor, order_id, 422, "Some outcomes need fixing.", errors
+        )
+    body = CompleteBody(outcomes=outcomes)
+    try:
+        orders_service.complete(session, order_id, body)
+    except DomainError as exc:
+        session.rollback()  # nothing half-written stays
+        return _order_page(
+            request, session, visitor, order_id, exc.status, exc.detail, _error_lines(exc)
+        )
+    return see_other(f"/app/work-orders/{order_id}")
+
+
+def _error_lines(exc: DomainError) -> list[str]:
+    """The field messages a domain error carries, for the page."""
+    return [str(e.get("message", "")) for e in exc.errors or []]
+
+
+def _outcomes_from_form(
+    fixture_ids: list[int], outcomes: list[str], reasons: list[str]
+) -> tuple[list[FixtureOutcome], list[str]]:
+    """The outcome rows, and a readable error naming each row the schema refuses."""
+    rows, errors = [], []
+    for i, (f, o, r) in enumerate(zip(fixture_ids, outcomes, reasons, strict=True)):
+        try:
+            rows.append(FixtureOutcome(fixture_id=f, outcome=o, reason=r.strip() or None))
+        except ValidationError as exc:
+            why = "; ".join(e["msg"].removeprefix("Value error, ") for e in exc.errors())
+            errors.append(f"Row {i + 1} (fixture {f}): {why}")
+    return rows, errors
+
+
+@router.post("/app/work-orders/{order_id}/cancel", response_class=HTMLResponse)
+def order_cancel(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    order_id: int,
+    csrf_token: Text = "",
+    reason: Annotated[str, Form(max_length=500)] = "",
+) -> Response:
+    """Cancel an open order with a reason (planner and up)."""
+    check_post(visitor, csrf_token, "cancel_order")
+    if not reason.strip():
+        return _order_page(
+            request, session, visitor, order_id, 422, "Say why the order is cancelled."
+        )
+    try:
+        orders_service.cancel(session, order_id, CancelBody(reason=reason.strip()))
+    except DomainError as exc:
+        session.rollback()
+        return _order_page(request, session, visitor, order_id, exc.status, exc.detail)
+    return see_other(f"/app/work-orders/{order_id}")
 
 
 @router.post("/app/work-orders/{order_id}/{to}", response_class=HTMLResponse)
