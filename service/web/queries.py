@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, datetime
 
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
@@ -83,3 +83,33 @@ def orders(session: Session, site_id: int | None, state: str | None) -> Sequence
     if state:
         stmt = stmt.where(WorkOrder.state == state)
     return session.scalars(stmt.order_by(WorkOrder.due_on, WorkOrder.id).limit(500)).all()
+
+
+@dataclass(frozen=True)
+class OpenReport:
+    """An open or batched burnout report in an area, for its page."""
+
+    report_id: int
+    fixture_tag: str
+    position_no: int
+    reported_at: datetime
+    status: str
+
+
+def open_reports_in_area(session: Session, area_id: int) -> list[OpenReport]:
+    """The area's burnout reports not yet closed, newest first (at most 200)."""
+    stmt = (
+        select(
+            BurnoutReport.id,
+            Fixture.tag,
+            LampPosition.position_no,
+            BurnoutReport.reported_at,
+            BurnoutReport.status,
+        )
+        .join(Fixture, Fixture.id == BurnoutReport.fixture_id)
+        .join(LampPosition, LampPosition.id == BurnoutReport.position_id)
+        .where(BurnoutReport.area_id == area_id, BurnoutReport.status != "closed")
+        .order_by(BurnoutReport.reported_at.desc(), BurnoutReport.id.desc())
+        .limit(200)
+    )
+    return [OpenReport(int(r[0]), r[1], int(r[2]), r[3], r[4]) for r in session.execute(stmt)]

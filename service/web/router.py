@@ -15,9 +15,12 @@ from sqlalchemy.orm import Session
 from service.api.auth import SessionDep
 from service.api.errors import DomainError
 from service.db.base import utcnow
+from service.planning import service as planning
+from service.planning.present import area_plan_read
+from service.planning.service import WEEKS_PER_YEAR
 from service.register.models import Site
 from service.users import service as users
-from service.web import queries
+from service.web import charts, queries
 from service.web.auth import (
     COOKIE,
     Visitor,
@@ -101,9 +104,46 @@ def sign_out(
 
 @router.get("/app", response_class=HTMLResponse)
 def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTMLResponse:
-    """Each site's open burnouts, open orders and orders due."""
-    rows = queries.site_summaries(session, utcnow().date())
-    return page(request, "overview.html", visitor=visitor, rows=rows)
+    """Each site's open burnouts and orders, areas due soon, and the weekly burnout chart."""
+    now = utcnow()
+    today = now.date()
+    rows = queries.site_summaries(session, today)
+    plans = [p for s in queries.sites(session) for p in planning.site_plans(session, s, now)]
+    due = [p for p in plans if p.due_on is not None]
+    soon = [p for p in due if p.due_on is not None and (p.due_on - today).days < DUE_SOON_DAYS]
+    weekly = charts.weekly_burnouts(session, now, [p.due_on for p in due if p.due_on], today)
+    return page(
+        request,
+        "overview.html",
+        visitor=visitor,
+        rows=rows,
+        soon=soon,
+        due_soon_weeks=DUE_SOON_DAYS // 7,
+        weekly=weekly,
+    )
+
+
+DUE_SOON_DAYS = 8 * 7  # the overview lists group relamps due within this many days
+
+
+@router.get("/app/areas/{area_id}", response_class=HTMLResponse)
+def area_page(
+    request: Request, session: SessionDep, visitor: VisitorDep, area_id: int
+) -> HTMLResponse:
+    """An area's plan in words, its survival, light and cost charts, and its open burnouts."""
+    plan = planning.area_plan(session, area_id)
+    read = area_plan_read(plan)
+    return page(
+        request,
+        "area.html",
+        visitor=visitor,
+        plan=read,
+        area=plan.area,
+        site=plan.site,
+        groups=list(zip(read.lamp_types, charts.area_charts(session, plan), strict=True)),
+        weeks_per_year=WEEKS_PER_YEAR,
+        reports=queries.open_reports_in_area(session, area_id),
+    )
 
 
 @router.get("/app/report", response_class=HTMLResponse)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from itertools import pairwise
 from typing import Any
 
 import pytest
@@ -34,8 +35,8 @@ def sign_in(driver: Any, server: Server, username: str) -> None:
     _wait(driver).until(ec.url_matches(r"/app$"))
 
 
-def _fixture_with_burning_lamp(server: Server) -> tuple[int, str, str, str]:
-    """(site id, site name, area name, tag) of a demo fixture whose lamps all burn."""
+def _fixture_with_burning_lamp(server: Server) -> tuple[int, str, int, str]:
+    """(site id, site name, area id, tag) of a demo fixture whose lamps all burn."""
     from service.db.session import make_engine
     from service.register.models import Area, Fixture, LampPosition, Site
 
@@ -43,7 +44,7 @@ def _fixture_with_burning_lamp(server: Server) -> tuple[int, str, str, str]:
     with Session(engine) as s:
         dark = select(LampPosition.fixture_id).where(LampPosition.burned_out_at.is_not(None))
         row = s.execute(
-            select(Site.id, Site.name, Area.name, Fixture.tag)
+            select(Site.id, Site.name, Area.id, Fixture.tag)
             .join(Area, Area.id == Fixture.area_id)
             .join(Site, Site.id == Fixture.site_id)
             .where(Fixture.id.not_in(dark))
@@ -51,7 +52,7 @@ def _fixture_with_burning_lamp(server: Server) -> tuple[int, str, str, str]:
         ).first()
     engine.dispose()
     assert row is not None
-    return int(row[0]), str(row[1]), str(row[2]), str(row[3])
+    return int(row[0]), str(row[1]), int(row[2]), str(row[3])
 
 
 def _open_burnouts(driver: Any, server: Server, site_name: str) -> int:
@@ -72,7 +73,7 @@ def test_sign_in_as_each_role(page: Any, server: Server, username: str) -> None:
 
 
 def test_report_burnout_at_phone_width(page: Any, server: Server) -> None:
-    site_id, site_name, _, tag = _fixture_with_burning_lamp(server)
+    site_id, site_name, area_id, tag = _fixture_with_burning_lamp(server)
     sign_in(page, server, "tamo")
     before = _open_burnouts(page, server, site_name)
     page.execute_cdp_cmd(
@@ -98,6 +99,9 @@ def test_report_burnout_at_phone_width(page: Any, server: Server) -> None:
     _shot(page, "report-phone-done")
     page.execute_cdp_cmd("Emulation.clearDeviceMetricsOverride", {})
     assert _open_burnouts(page, server, site_name) == before + 1
+    page.get(f"{server.base}/app/areas/{area_id}")
+    reports = page.find_element(By.ID, "area-reports").text
+    assert tag in reports and "open" in reports
 
 
 def _post(driver: Any, path: str, fields: dict[str, str]) -> int:
@@ -155,3 +159,51 @@ def test_form_without_csrf_token_is_refused(page: Any, server: Server) -> None:
     assert _post(page, f"/app/work-orders/{server.order_id}/issued", {}) == 403
     page.get(f"{server.base}/app/work-orders/{server.order_id}")
     assert "draft" in page.find_element(By.TAG_NAME, "main").text
+
+
+def _chart(driver: Any, chart_id: str) -> dict[str, Any]:
+    """What the drawn uPlot instance holds: its data, series labels, canvas size and ink."""
+    _wait(driver).until(
+        lambda d: d.execute_script(f"return !!(window.lkCharts||{{}})['{chart_id}']")
+    )
+    got: dict[str, Any] = driver.execute_script(
+        "const u = window.lkCharts[arguments[0]];"
+        "const c = u.root.querySelector('canvas');"
+        "const px = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;"
+        "let ink = 0; for (let i = 3; i < px.length; i += 4) { if (px[i] > 0) ink++; }"
+        "const spec = JSON.parse(document.getElementById(arguments[0]).parentNode"
+        ".querySelector('script.chart-data').textContent);"
+        "return {data: u.data, labels: u.series.map(s => s.label), width: c.width,"
+        " ink: ink, spec: spec.data, axes: u.root.querySelectorAll('.u-label').length};",
+        chart_id,
+    )
+    return got
+
+
+def test_overview_and_area_charts_hold_the_demo_points(page: Any, server: Server) -> None:
+    sign_in(page, server, "pela")
+    weekly = _chart(page, "weekly-burnouts")
+    assert weekly["data"] == weekly["spec"]  # the drawn chart holds the server's numbers
+    assert weekly["data"][0] == list(range(1, 27))  # 26 weeks
+    burnouts = [v for col in weekly["data"][1:-1] for v in col if v is not None]
+    assert len(burnouts) >= 26 and all(v >= 0 for v in burnouts) and sum(burnouts) > 0
+    assert weekly["width"] > 0 and weekly["ink"] > 1000  # pixels were drawn
+    assert any("Group relamps due" in str(lbl) for lbl in weekly["labels"])
+    _shot(page, "overview-chart")
+    area_link = page.find_element(By.CSS_SELECTOR, "#areas-due a")
+    area_link.click()
+    _wait(page).until(ec.presence_of_element_located((By.ID, "plan-summary")))
+    assert "burn hours" in page.find_element(By.ID, "plan-summary").text
+    ids = page.execute_script("return Object.keys(window.lkCharts)")
+    survival = _chart(page, next(i for i in ids if i.startswith("survival-")))
+    here, catalogue = survival["data"][1], survival["data"][2]
+    assert here[0] == 1.0 and catalogue[0] == 1.0  # S(0) = 1
+    assert all(a >= b for a, b in pairwise(here))  # S(t) never rises
+    assert survival["ink"] > 1000
+    cost = _chart(page, next(i for i in ids if i.startswith("cost-")))
+    c_t, spot, chosen = cost["data"][1], cost["data"][2], cost["data"][3]
+    marked = [(x, y) for x, y in zip(cost["data"][0], chosen, strict=True) if y is not None]
+    assert len(marked) == 1  # the chosen interval, on the curve and below the spot line
+    assert marked[0][1] in c_t and marked[0][1] <= spot[0]
+    assert cost["data"] == cost["spec"]
+    _shot(page, "area-charts")
