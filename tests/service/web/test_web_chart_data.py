@@ -61,9 +61,9 @@ def test_cost_chart_marks_the_chosen_interval_on_the_curve(db: Session) -> None:
     assert x[i] == pytest.approx(g.group.plan.interval_h, rel=1e-5)
     assert chosen[i] == pytest.approx(g.group.plan.cost_rate * 1000, rel=1e-5)
     assert x == sorted(x) and len(x) <= charts.COST_POINTS + 1
-    # At the cost optimum the marked point is the curve's lowest (Brent-refined) point.
-    if g.group.plan.binding == "cost_optimum":
-        assert chosen[i] == pytest.approx(min(v for v in c_t if v is not None), rel=1e-6)
+    # No cap binds here, so the marked point is the curve's lowest (Brent-refined) point.
+    assert g.group.plan.binding == "cost_optimum"
+    assert chosen[i] == pytest.approx(min(v for v in c_t if v is not None), rel=1e-6)
     assert spot[0] == pytest.approx(g.group.plan.spot_only_rate * 1000, rel=1e-5)
 
 
