@@ -51,11 +51,18 @@ def _num(v: float) -> float | None:
 
 
 def chart(
-    chart_id: str, title: str, x_label: str, y_label: str, x: Sequence[float], series: list[Series]
+    chart_id: str,
+    title: str,
+    x_label: str,
+    y_label: str,
+    x: Sequence[float],
+    series: list[Series],
+    y_range: tuple[float, float] | None = None,
 ) -> Chart:
     """A chart spec: axes with units, series with dash patterns, column data."""
     return {
         "id": chart_id,
+        "y_range": list(y_range) if y_range else None,
         "title": title,
         "x_label": x_label,
         "y_label": y_label,
@@ -108,6 +115,7 @@ def survival_chart(g: TypeGroup, code: str, cat: CurveResult, here: CurveResult)
             Series(f"Here ({_conditions(g)}, {here.curve.method} curve)", here.survival.tolist()),
             Series("Catalogue (rated volts and cycle)", cat.survival.tolist()),
         ],
+        y_range=(0.0, 1.0),
     )
 
 

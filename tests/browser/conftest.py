@@ -37,6 +37,7 @@ class Server:
     base: str
     db_url: str
     order_id: int  # a draft group order made for the tests
+    second_order_id: int  # another area's draft group order, for the completion test
 
 
 def _free_port() -> int:
@@ -49,8 +50,8 @@ def _run(args: list[str], env: dict[str, str]) -> None:
     subprocess.run(args, env=env, check=True, capture_output=True, timeout=300)
 
 
-def _prepare_demo(db_url: str) -> int:
-    """Add the demo people (as `make run` does) and a draft group order; its id."""
+def _prepare_demo(db_url: str) -> tuple[int, int]:
+    """Add the demo people (as `make run` does) and two areas' draft group orders."""
     from sqlalchemy import select
 
     from service.db.session import make_engine
@@ -62,12 +63,13 @@ def _prepare_demo(db_url: str) -> int:
     engine = make_engine(db_url)
     with Session(engine) as session, session.begin():
         ensure_demo_users(session)
-        area_id = session.scalars(select(Area.id).order_by(Area.id)).first()
-        assert area_id is not None
-        order = orders.create(session, WorkOrderCreate(area_id=area_id, kind="group_relamp"))
-        order_id = order.id
+        first, second = session.scalars(select(Area.id).order_by(Area.id).limit(2)).all()
+        ids = tuple(
+            orders.create(session, WorkOrderCreate(area_id=a, kind="group_relamp")).id
+            for a in (first, second)
+        )
     engine.dispose()
-    return order_id
+    return ids[0], ids[1]
 
 
 def _wait_healthy(base: str, proc: subprocess.Popen[bytes]) -> None:
@@ -101,7 +103,7 @@ def server() -> Iterator[Server]:
     }
     _run([str(BIN / "lampkeeper"), "migrate"], env)
     _run([str(BIN / "lampkeeper"), "demo", "load", "--key-file", str(tmp / "key.txt")], env)
-    order_id = _prepare_demo(db_url)
+    order_id, second_order_id = _prepare_demo(db_url)
     port = _free_port()
     base = f"http://127.0.0.1:{port}"
     proc = subprocess.Popen(
@@ -122,7 +124,7 @@ def server() -> Iterator[Server]:
     )
     try:
         _wait_healthy(base, proc)
-        yield Server(base=base, db_url=db_url, order_id=order_id)
+        yield Server(base=base, db_url=db_url, order_id=order_id, second_order_id=second_order_id)
     finally:
         proc.terminate()
         try:

@@ -189,6 +189,7 @@ def test_overview_and_area_charts_hold_the_demo_points(page: Any, server: Server
     assert len(burnouts) >= 26 and all(v >= 0 for v in burnouts) and sum(burnouts) > 0
     assert weekly["width"] > 0 and weekly["ink"] > 1000  # pixels were drawn
     assert any("Group relamps due" in str(lbl) for lbl in weekly["labels"])
+    page.execute_script("document.getElementById('weekly-burnouts').scrollIntoView()")
     _shot(page, "overview-chart")
     area_link = page.find_element(By.CSS_SELECTOR, "#areas-due a")
     area_link.click()
@@ -206,4 +207,33 @@ def test_overview_and_area_charts_hold_the_demo_points(page: Any, server: Server
     assert len(marked) == 1  # the chosen interval, on the curve and below the spot line
     assert marked[0][1] in c_t and marked[0][1] <= spot[0]
     assert cost["data"] == cost["spec"]
+    page.execute_script("document.querySelector('.charts').scrollIntoView()")
     _shot(page, "area-charts")
+
+
+def test_technician_completes_an_order_with_a_skip(page: Any, server: Server) -> None:
+    oid = server.second_order_id
+    sign_in(page, server, "pela")  # a planner issues the order
+    page.get(f"{server.base}/app/work-orders/{oid}")
+    page.find_element(By.CSS_SELECTOR, f"form[action$='/{oid}/issued'] button").click()
+    _wait(page).until(ec.text_to_be_present_in_element((By.ID, "order-state"), "issued"))
+    page.delete_all_cookies()
+    sign_in(page, server, "tamo")  # the technician starts and completes it
+    page.get(f"{server.base}/app/work-orders/{oid}")
+    assert page.find_elements(By.CSS_SELECTOR, "form[action$='/cancel']") == []  # planner+
+    page.find_element(By.CSS_SELECTOR, f"form[action$='/{oid}/in_progress'] button").click()
+    _wait(page).until(ec.text_to_be_present_in_element((By.ID, "order-state"), "in_progress"))
+    assert "Isolate and lock off the power" in page.find_element(By.TAG_NAME, "main").text
+    form = page.find_element(By.CSS_SELECTOR, "form.complete")
+    selects = form.find_elements(By.CSS_SELECTOR, "select[name=outcome]")
+    reasons = form.find_elements(By.CSS_SELECTOR, "input[name=reason]")
+    assert len(selects) >= 2
+    Select(selects[-1]).select_by_value("skipped")
+    reasons[-1].send_keys("blocked by a parked van")
+    _shot(page, "order-complete-form")
+    form.find_element(By.CSS_SELECTOR, "button[type=submit]").click()
+    _wait(page).until(ec.text_to_be_present_in_element((By.ID, "order-state"), "done"))
+    lines = page.find_element(By.TAG_NAME, "main").text
+    assert "skipped: blocked by a parked van" in lines
+    assert lines.count("replaced") >= len(selects) - 1
+    _shot(page, "order-done")

@@ -25,7 +25,8 @@
       title: spec.title,
       width: width,
       height: Math.round(width * 0.5),
-      scales: { x: { time: false } },
+      scales: spec.y_range ? { x: { time: false }, y: { range: spec.y_range } }
+                           : { x: { time: false } },
       series: series,
       axes: [
         { label: spec.x_label, stroke: "#000", grid: { stroke: "#ddd" } },
