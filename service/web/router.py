@@ -118,6 +118,7 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
         visitor=visitor,
         rows=rows,
         soon=soon,
+        plans=plans,
         due_soon_weeks=DUE_SOON_DAYS // 7,
         weekly=weekly,
     )

@@ -72,4 +72,6 @@ def test_overview_has_weekly_chart_and_due_areas(client: TestClient, db: Session
     (weekly,) = [c for c in _specs(r.text) if c["id"] == "weekly-burnouts"]
     data = weekly["data"]
     assert isinstance(data, list) and len(data[0]) == 26
-    assert f'href="/app/areas/{a.id}"' in r.text  # long overdue: listed as due
+    due = r.text[r.text.index('id="areas-due"') : r.text.index('id="all-areas"')]
+    assert f'href="/app/areas/{a.id}"' in due  # long overdue: listed as due
+    assert f'href="/app/areas/{a.id}"' in r.text[r.text.index('id="all-areas"') :]
