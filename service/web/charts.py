@@ -20,11 +20,11 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.forecasting.ahead import expected_replacements
-from service.forecasting.service import evaluate_positions
 from service.forecasting.types import load_types
 from service.forecasting.whatif import CurveResult, lamp_curve
 from service.planning.service import AreaPlan, TypeGroup
 from service.readings.ages import position_ages
+from service.reliability.fleet import evaluate_fleet
 
 FloatArray = NDArray[np.float64]
 Chart = dict[str, Any]
@@ -209,9 +209,10 @@ def weekly_burnouts(
     if ages.size == 0:
         return None
     types = load_types(session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind)
-    pf = evaluate_positions(ages, types, float(weeks))
     k = types.index(ages.lamp_type_id, ages.ballast_kind)
-    age = np.where(ages.burned_out, 0.0, ages.age_h)
+    age = np.where(ages.burned_out, 0.0, ages.age_h)  # dark: a new lamp goes in now
+    # The effective Weibull scale of each position at its voltage and switching.
+    scale_h = evaluate_fleet(types.table, k, age, ages.voltage_v, ages.hours_per_start, 0.0).scale_h
     type_ids, per_type = np.unique(ages.lamp_type_id, return_inverse=True)
     # One call for every week's window (positions tiled week by week), so each lamp type's
     # renewal curve is solved once rather than once per week.
@@ -220,7 +221,7 @@ def weekly_burnouts(
     n = expected_replacements(
         types.table.shape,
         np.tile(k, weeks),
-        np.tile(pf.fleet.scale_h, weeks),
+        np.tile(scale_h, weeks),
         np.tile(age, weeks),
         week_no * np.tile(ages.burn_h_per_week, weeks),
     ).reshape(weeks, n_pos)
