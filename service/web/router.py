@@ -144,6 +144,8 @@ def area_page(
         groups=list(zip(read.lamp_types, charts.area_charts(session, plan), strict=True)),
         weeks_per_year=WEEKS_PER_YEAR,
         reports=queries.open_reports_in_area(session, area_id),
+        fixtures=queries.fixture_risks(session, area_id),
+        risk_weeks=queries.RISK_WEEKS,
     )
 
 

@@ -34,7 +34,7 @@ def test_area_page_plan_and_charts(client: TestClient, db: Session) -> None:
     s = b.site(db)
     a = b.area(db, s, name="Hall <script>alert(1)</script>", light_floor=0.7)
     lt = b.lamp_type(db, code="<b>T8</b>")
-    b.fixtures(db, a, lt, 4, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
+    fx = b.fixtures(db, a, lt, 4, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
     db.commit()
     _sign_in(client, db, "ana")
     r = client.get(f"/app/areas/{a.id}")
@@ -51,6 +51,11 @@ def test_area_page_plan_and_charts(client: TestClient, db: Session) -> None:
     assert "/static/vendor/uplot/uPlot.iife.min.js" in r.text
     assert client.get("/static/vendor/uplot/uPlot.iife.min.js").status_code == 200
     assert client.get("/static/charts.js").status_code == 200
+    table = r.text[r.text.index('id="area-fixtures"') :]
+    assert all(f"<td>{f.tag}</td>" in table for f in fx)
+    # 30 weeks at 60 burn hours a week: the oldest lamp has about 1,800 h.
+    ages = [int(x.replace(",", "")) for x in re.findall(r"<td>([\d,]+)</td><td>\d+%</td>", table)]
+    assert len(ages) == 4 and all(1700 <= h <= 1900 for h in ages)
 
 
 def test_area_page_needs_sign_in_and_a_real_area(client: TestClient, db: Session) -> None:
