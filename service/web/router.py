@@ -127,6 +127,25 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
 DUE_SOON_DAYS = 8 * 7  # the overview lists group relamps due within this many days
 
 
+@router.get("/app/sites/{site_id}", response_class=HTMLResponse)
+def site_page(
+    request: Request, session: SessionDep, visitor: VisitorDep, site_id: int
+) -> HTMLResponse:
+    """A site's areas with their plans in one line each, soonest due first."""
+    site = session.get(Site, site_id)
+    if site is None:
+        return page(
+            request,
+            "message.html",
+            404,
+            visitor=visitor,
+            title="No such site",
+            message=f"There is no site {site_id}.",
+        )
+    plans = [area_plan_read(p) for p in planning.site_plans(session, site)]
+    return page(request, "site.html", visitor=visitor, site=site, plans=plans)
+
+
 @router.get("/app/areas/{area_id}", response_class=HTMLResponse)
 def area_page(
     request: Request, session: SessionDep, visitor: VisitorDep, area_id: int

@@ -80,3 +80,18 @@ def test_overview_has_weekly_chart_and_due_areas(client: TestClient, db: Session
     due = r.text[r.text.index('id="areas-due"') : r.text.index('id="all-areas"')]
     assert f'href="/app/areas/{a.id}"' in due  # long overdue: listed as due
     assert f'href="/app/areas/{a.id}"' in r.text[r.text.index('id="all-areas"') :]
+
+
+def test_site_page_lists_areas_with_plans(client: TestClient, db: Session) -> None:
+    s = b.site(db, name="Works <i>North</i>")
+    a = b.area(db, s)
+    b.fixtures(db, a, b.lamp_type(db), 3, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
+    db.commit()
+    _sign_in(client, db, "di")
+    r = client.get(f"/app/sites/{s.id}")
+    assert r.status_code == 200
+    assert "Works &lt;i&gt;North" in r.text and "<i>North" not in r.text
+    rows = r.text[r.text.index('id="site-areas"') :]
+    assert f'href="/app/areas/{a.id}"' in rows and "<td>6</td>" in rows  # 3 fixtures x 2
+    assert client.get("/app/sites/999999").status_code == 404
+    assert f'href="/app/sites/{s.id}"' in client.get("/app").text
