@@ -18,13 +18,16 @@ from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from service.api.errors import NotFound
 from service.catalogue.models import LampType
 from service.forecasting.ahead import expected_replacements
-from service.forecasting.types import load_types
+from service.forecasting.fit import FieldFit, fit_field
+from service.forecasting.types import CurveInUse, catalogue_models, load_types
 from service.forecasting.whatif import CurveResult, lamp_curve
 from service.planning.service import AreaPlan, TypeGroup
 from service.readings.ages import position_ages
 from service.reliability.fleet import evaluate_fleet
+from service.reliability.weibull import Weibull
 
 FloatArray = NDArray[np.float64]
 Chart = dict[str, Any]
@@ -42,6 +45,7 @@ class Series:
     label: str
     values: Sequence[float | None]
     points_only: bool = False  # markers without a line (optima, events)
+    stepped: bool = False  # a step function (Kaplan-Meier)
 
 
 def _num(v: float) -> float | None:
@@ -67,7 +71,12 @@ def chart(
         "x_label": x_label,
         "y_label": y_label,
         "series": [
-            {"label": s.label, "dash": DASHES[i % len(DASHES)], "points_only": s.points_only}
+            {
+                "label": s.label,
+                "dash": DASHES[i % len(DASHES)],
+                "points_only": s.points_only,
+                "stepped": s.stepped,
+            }
             for i, s in enumerate(series)
         ],
         "data": [[_num(v) for v in x]]
@@ -254,3 +263,69 @@ def weekly_burnouts(
         list(range(1, weeks + 1)),
         series,
     )
+
+
+@dataclass(frozen=True)
+class FieldFitView:
+    """A lamp type's field fit for its page: the fit, the curve forecasts use, the chart."""
+
+    fit: FieldFit
+    code: str
+    chart: Chart | None
+    failures: int
+    censored: int
+
+
+def field_fit_view(session: Session, lamp_type_id: int) -> FieldFitView:
+    """Kaplan-Meier steps with their 95 % band beside the fitted and catalogue Weibulls."""
+    models = catalogue_models(session, [lamp_type_id])
+    if lamp_type_id not in models:
+        raise NotFound(f"lamp type {lamp_type_id} does not exist.", resource="lamp type")
+    model = models[lamp_type_id]
+    ff = fit_field(session, model, lamp_type_id)
+    code = type_codes(session, [lamp_type_id]).get(lamp_type_id, str(lamp_type_id))
+    km = ff.kaplan_meier
+    catalogue = Weibull(model.shape, model.scale_h)
+    t_end = 2.0 * catalogue.scale
+    if km is not None and km.t.size:
+        t_end = max(t_end, float(km.t.max()) * 1.1)
+    grid = np.linspace(0.0, t_end, CURVE_POINTS)
+    t = np.unique(np.concatenate((grid, km.t if km is not None else np.zeros(0))))
+    series = [Series("Catalogue Weibull", catalogue.sf(t).tolist())]
+    if ff.mle is not None:
+        fitted = Weibull(ff.mle.shape, ff.mle.scale)
+        series.append(Series("Fitted Weibull (field MLE)", fitted.sf(t).tolist()))
+    if km is not None and km.t.size:
+        # Kaplan-Meier is a right-continuous step function: the value of the last step at
+        # or before each t (1 before the first event time).
+        at = np.searchsorted(km.t, t, side="right") - 1
+        for label, values in (
+            ("Kaplan-Meier (field records)", km.survival),
+            ("Kaplan-Meier 95% lower", km.lower),
+            ("Kaplan-Meier 95% upper", km.upper),
+        ):
+            stepped = np.where(at >= 0, values[np.maximum(at, 0)], 1.0)
+            series.append(Series(label, stepped.tolist(), stepped=True))
+    return FieldFitView(
+        fit=ff,
+        code=code,
+        failures=int(ff.data.failed.sum()),
+        censored=int((~ff.data.failed).sum()),
+        chart=chart(
+            f"field-fit-{lamp_type_id}",
+            f"{code}: field survival against the curves",
+            "Burn hours at rated conditions (h)",
+            "Share still burning S(t) (0 to 1)",
+            t.tolist(),
+            series,
+            y_range=(0.0, 1.0),
+        ),
+    )
+
+
+def curves_in_use(session: Session, lamp_type_ids: Sequence[int]) -> dict[int, CurveInUse]:
+    """The life curve forecasts use per lamp type (catalogue or field fit, and why)."""
+    if not lamp_type_ids:
+        return {}
+    types = load_types(session, list(lamp_type_ids), field_fit=True)
+    return {int(i): c for i, c in zip(types.ids.tolist(), types.curves, strict=True)}

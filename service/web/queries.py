@@ -9,6 +9,7 @@ from datetime import date, datetime
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
+from service.catalogue.models import LampType
 from service.events.models import BurnoutReport
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.workorders.models import WorkOrder
@@ -163,3 +164,8 @@ def fixture_risks(session: Session, area_id: int, limit: int = 300) -> list[Fixt
         )
     rows.sort(key=lambda r: (-r.dark, -r.p_fail, r.tag))
     return rows[:limit]
+
+
+def lamp_types(session: Session) -> Sequence[LampType]:
+    """The catalogue by code."""
+    return session.scalars(select(LampType).order_by(LampType.code)).all()

@@ -127,6 +127,23 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
 DUE_SOON_DAYS = 8 * 7  # the overview lists group relamps due within this many days
 
 
+@router.get("/app/lamp-types", response_class=HTMLResponse)
+def lamp_types_page(request: Request, session: SessionDep, visitor: VisitorDep) -> HTMLResponse:
+    """The lamp catalogue with the life curve forecasts use for each type."""
+    rows = queries.lamp_types(session)
+    curves = charts.curves_in_use(session, [r.id for r in rows])
+    return page(request, "lamp_types.html", visitor=visitor, rows=rows, curves=curves)
+
+
+@router.get("/app/lamp-types/{lamp_type_id}", response_class=HTMLResponse)
+def lamp_type_page(
+    request: Request, session: SessionDep, visitor: VisitorDep, lamp_type_id: int
+) -> HTMLResponse:
+    """One lamp type: its field fit (Kaplan-Meier, fitted and catalogue Weibull) and choice."""
+    view = charts.field_fit_view(session, lamp_type_id)
+    return page(request, "lamp_type.html", visitor=visitor, view=view)
+
+
 @router.get("/app/sites/{site_id}", response_class=HTMLResponse)
 def site_page(
     request: Request, session: SessionDep, visitor: VisitorDep, site_id: int

@@ -15,7 +15,8 @@
         width: s.points_only ? 0 : 2,
         dash: s.dash,
         spanGaps: !s.points_only,
-        paths: s.points_only ? function () { return null; } : undefined,
+        paths: s.points_only ? function () { return null; }
+             : s.stepped ? uPlot.paths.stepped({ align: 1 }) : undefined,
         points: s.points_only ? { show: true, size: 11, width: 2, stroke: "#000", fill: "#f0a500" }
                               : { show: false },
       });
