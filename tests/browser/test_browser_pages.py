@@ -209,6 +209,15 @@ def test_overview_and_area_charts_hold_the_demo_points(page: Any, server: Server
     assert cost["data"] == cost["spec"]
     page.execute_script("document.querySelector('.charts').scrollIntoView()")
     _shot(page, "area-charts")
+    page.find_element(By.LINK_TEXT, "Lamp types").click()
+    page.find_element(By.CSS_SELECTOR, "#lamp-types tbody a").click()
+    fit_id = _wait(page).until(
+        lambda d: next(iter(d.execute_script("return Object.keys(window.lkCharts||{})")), None)
+    )
+    fit = _chart(page, fit_id)
+    assert fit["data"] == fit["spec"] and fit["ink"] > 1000
+    assert fit["labels"][1] == "Catalogue Weibull" and fit["data"][1][0] == 1.0
+    _shot(page, "lamp-type-field-fit")
 
 
 def test_technician_completes_an_order_with_a_skip(page: Any, server: Server) -> None:
