@@ -172,6 +172,8 @@ def can(role: str, action: str) -> bool:
     allowed: dict[str, set[Role]] = {
         "report_burnout": {Role.technician, Role.planner, Role.administrator},
         "work_order": {Role.technician, Role.planner, Role.administrator},
+        "complete_order": {Role.technician, Role.planner, Role.administrator},
         "issue_order": {Role.planner, Role.administrator},
+        "cancel_order": {Role.planner, Role.administrator},
     }
     return Role(role) in allowed.get(action, set())

@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, datetime
 
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
+from service.catalogue.models import LampType
 from service.events.models import BurnoutReport
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.workorders.models import WorkOrder
@@ -83,3 +84,88 @@ def orders(session: Session, site_id: int | None, state: str | None) -> Sequence
     if state:
         stmt = stmt.where(WorkOrder.state == state)
     return session.scalars(stmt.order_by(WorkOrder.due_on, WorkOrder.id).limit(500)).all()
+
+
+@dataclass(frozen=True)
+class OpenReport:
+    """An open or batched burnout report in an area, for its page."""
+
+    report_id: int
+    fixture_tag: str
+    position_no: int
+    reported_at: datetime
+    status: str
+
+
+def open_reports_in_area(session: Session, area_id: int) -> list[OpenReport]:
+    """The area's burnout reports not yet closed, newest first (at most 200)."""
+    stmt = (
+        select(
+            BurnoutReport.id,
+            Fixture.tag,
+            LampPosition.position_no,
+            BurnoutReport.reported_at,
+            BurnoutReport.status,
+        )
+        .join(Fixture, Fixture.id == BurnoutReport.fixture_id)
+        .join(LampPosition, LampPosition.id == BurnoutReport.position_id)
+        .where(BurnoutReport.area_id == area_id, BurnoutReport.status != "closed")
+        .order_by(BurnoutReport.reported_at.desc(), BurnoutReport.id.desc())
+        .limit(200)
+    )
+    return [OpenReport(int(r[0]), r[1], int(r[2]), r[3], r[4]) for r in session.execute(stmt)]
+
+
+@dataclass(frozen=True)
+class FixtureRisk:
+    """One fixture of an area page: its lamps' ages and the chance one fails soon."""
+
+    tag: str
+    location: str | None
+    positions: int
+    dark: int
+    max_age_h: float  # burn hours of its oldest lamp
+    p_fail: float  # highest chance over its burning lamps of failing within the horizon
+
+
+RISK_WEEKS = 13.0  # the area page's risk horizon, weeks
+
+
+def fixture_risks(session: Session, area_id: int, limit: int = 300) -> list[FixtureRisk]:
+    """An area's fixtures, riskiest first, from the forecasting service (at most `limit`)."""
+    from service.forecasting.service import forecast
+
+    pf = forecast(session, area_id=area_id, horizon_weeks=RISK_WEEKS).positions
+    ages = pf.ages
+    if ages.size == 0:
+        return []
+    by_fixture: dict[int, list[int]] = {}
+    for i, f in enumerate(ages.fixture_id.tolist()):
+        by_fixture.setdefault(int(f), []).append(i)
+    info = {
+        int(r[0]): (str(r[1]), r[2])
+        for r in session.execute(
+            select(Fixture.id, Fixture.tag, Fixture.location).where(Fixture.area_id == area_id)
+        )
+    }
+    rows = []
+    for f, idx in by_fixture.items():
+        burning = [i for i in idx if not ages.burned_out[i]]
+        tag, location = info.get(f, (str(f), None))
+        rows.append(
+            FixtureRisk(
+                tag=tag,
+                location=location,
+                positions=len(idx),
+                dark=len(idx) - len(burning),
+                max_age_h=float(max(ages.age_h[i] for i in idx)),
+                p_fail=float(max((pf.p_fail[i] for i in burning), default=0.0)),
+            )
+        )
+    rows.sort(key=lambda r: (-r.dark, -r.p_fail, r.tag))
+    return rows[:limit]
+
+
+def lamp_types(session: Session) -> Sequence[LampType]:
+    """The catalogue by code."""
+    return session.scalars(select(LampType).order_by(LampType.code)).all()

@@ -9,16 +9,29 @@ from fastapi import APIRouter, Form, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
+from pydantic import ValidationError
+from sqlalchemy.orm import Session
 
 from service.api.auth import SessionDep
 from service.api.errors import DomainError
 from service.db.base import utcnow
+from service.planning import service as planning
+from service.planning.present import area_plan_read
+from service.planning.service import WEEKS_PER_YEAR
 from service.register.models import Site
 from service.users import service as users
-from service.web import queries
-from service.web.auth import COOKIE, VisitorDep, check_post, client_ip, set_cookie_secure
+from service.web import charts, queries
+from service.web.auth import (
+    COOKIE,
+    Visitor,
+    VisitorDep,
+    check_post,
+    client_ip,
+    set_cookie_secure,
+)
 from service.workorders import exports
 from service.workorders import service as orders_service
+from service.workorders.schemas import CancelBody, CompleteBody, FixtureOutcome
 
 HERE = Path(__file__).parent
 templates = Jinja2Templates(directory=str(HERE / "templates"))  # autoescapes .html
@@ -91,9 +104,85 @@ def sign_out(
 
 @router.get("/app", response_class=HTMLResponse)
 def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTMLResponse:
-    """Each site's open burnouts, open orders and orders due."""
-    rows = queries.site_summaries(session, utcnow().date())
-    return page(request, "overview.html", visitor=visitor, rows=rows)
+    """Each site's open burnouts and orders, areas due soon, and the weekly burnout chart."""
+    now = utcnow()
+    today = now.date()
+    rows = queries.site_summaries(session, today)
+    plans = [p for s in queries.sites(session) for p in planning.site_plans(session, s, now)]
+    due = [p for p in plans if p.due_on is not None]
+    soon = [p for p in due if p.due_on is not None and (p.due_on - today).days < DUE_SOON_DAYS]
+    weekly = charts.weekly_burnouts(session, now, [p.due_on for p in due if p.due_on], today)
+    return page(
+        request,
+        "overview.html",
+        visitor=visitor,
+        rows=rows,
+        soon=soon,
+        plans=plans,
+        due_soon_weeks=DUE_SOON_DAYS // 7,
+        weekly=weekly,
+    )
+
+
+DUE_SOON_DAYS = 8 * 7  # the overview lists group relamps due within this many days
+
+
+@router.get("/app/lamp-types", response_class=HTMLResponse)
+def lamp_types_page(request: Request, session: SessionDep, visitor: VisitorDep) -> HTMLResponse:
+    """The lamp catalogue with the life curve forecasts use for each type."""
+    rows = queries.lamp_types(session)
+    curves = charts.curves_in_use(session, [r.id for r in rows])
+    return page(request, "lamp_types.html", visitor=visitor, rows=rows, curves=curves)
+
+
+@router.get("/app/lamp-types/{lamp_type_id}", response_class=HTMLResponse)
+def lamp_type_page(
+    request: Request, session: SessionDep, visitor: VisitorDep, lamp_type_id: int
+) -> HTMLResponse:
+    """One lamp type: its field fit (Kaplan-Meier, fitted and catalogue Weibull) and choice."""
+    view = charts.field_fit_view(session, lamp_type_id)
+    return page(request, "lamp_type.html", visitor=visitor, view=view)
+
+
+@router.get("/app/sites/{site_id}", response_class=HTMLResponse)
+def site_page(
+    request: Request, session: SessionDep, visitor: VisitorDep, site_id: int
+) -> HTMLResponse:
+    """A site's areas with their plans in one line each, soonest due first."""
+    site = session.get(Site, site_id)
+    if site is None:
+        return page(
+            request,
+            "message.html",
+            404,
+            visitor=visitor,
+            title="No such site",
+            message=f"There is no site {site_id}.",
+        )
+    plans = [area_plan_read(p) for p in planning.site_plans(session, site)]
+    return page(request, "site.html", visitor=visitor, site=site, plans=plans)
+
+
+@router.get("/app/areas/{area_id}", response_class=HTMLResponse)
+def area_page(
+    request: Request, session: SessionDep, visitor: VisitorDep, area_id: int
+) -> HTMLResponse:
+    """An area's plan in words, its survival, light and cost charts, and its open burnouts."""
+    plan = planning.area_plan(session, area_id)
+    read = area_plan_read(plan)
+    return page(
+        request,
+        "area.html",
+        visitor=visitor,
+        plan=read,
+        area=plan.area,
+        site=plan.site,
+        groups=list(zip(read.lamp_types, charts.area_charts(session, plan), strict=True)),
+        weeks_per_year=WEEKS_PER_YEAR,
+        reports=queries.open_reports_in_area(session, area_id),
+        fixtures=queries.fixture_risks(session, area_id),
+        risk_weeks=queries.RISK_WEEKS,
+    )
 
 
 @router.get("/app/report", response_class=HTMLResponse)
@@ -211,25 +300,116 @@ def order_detail(
     request: Request, session: SessionDep, visitor: VisitorDep, order_id: int
 ) -> HTMLResponse:
     """One order, its lines and the state buttons the role and state allow."""
+    return _order_page(request, session, visitor, order_id)
+
+
+def _order_page(
+    request: Request,
+    session: Session,
+    visitor: Visitor,
+    order_id: int,
+    status_code: int = 200,
+    error: str | None = None,
+    errors: list[str] | None = None,
+) -> HTMLResponse:
     order = orders_service.get_order(session, order_id)
-    buttons = [
-        b for b in _BUTTONS if b[0] in orders_service.TRANSITIONS[order.state] and visitor.can(b[2])
-    ]
+    allowed = orders_service.TRANSITIONS[order.state]
+    buttons = [b for b in _BUTTONS if b[0] in allowed and visitor.can(b[2])]
     return page(
         request,
         "order.html",
+        status_code,
         visitor=visitor,
         order=order,
         buttons=buttons,
+        can_complete="done" in allowed and visitor.can("complete_order"),
+        can_cancel="cancelled" in allowed and visitor.can("cancel_order"),
         lines=orders_service.lines_of(session, order_id),
         site=queries.site_names(session).get(order.site_id, ""),
         area=queries.area_name(session, order.area_id),
+        error=error,
+        errors=errors or [],
     )
 
 
-# (next state, button label, page action the role needs); completion and cancelling
-# need outcomes and reasons and are still done through the API.
+# (next state, button label, page action the role needs); completing and cancelling
+# have their own forms (outcomes per fixture, a reason) below.
 _BUTTONS = [("issued", "Issue", "issue_order"), ("in_progress", "Start work", "work_order")]
+Ids = Annotated[list[int], Form(max_length=100_000)]
+Texts = Annotated[list[str], Form(max_length=100_000)]
+
+
+@router.post("/app/work-orders/{order_id}/complete", response_class=HTMLResponse)
+def order_complete(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    order_id: int,
+    csrf_token: Text = "",
+    fixture_id: Ids = [],  # noqa: B006 (FastAPI copies form defaults)
+    outcome: Texts = [],  # noqa: B006
+    reason: Texts = [],  # noqa: B006
+) -> Response:
+    """Complete a started order with one outcome (and a reason for a skip) per fixture."""
+    check_post(visitor, csrf_token, "complete_order")
+    if not (len(fixture_id) == len(outcome) == len(reason)):
+        return _order_page(request, session, visitor, order_id, 422, "The form is incomplete.")
+    outcomes, errors = _outcomes_from_form(fixture_id, outcome, reason)
+    if errors:
+        return _order_page(
+            request, session, visitor, order_id, 422, "Some outcomes need fixing.", errors
+        )
+    body = CompleteBody(outcomes=outcomes)
+    try:
+        orders_service.complete(session, order_id, body)
+    except DomainError as exc:
+        session.rollback()  # nothing half-written stays
+        return _order_page(
+            request, session, visitor, order_id, exc.status, exc.detail, _error_lines(exc)
+        )
+    return see_other(f"/app/work-orders/{order_id}")
+
+
+def _error_lines(exc: DomainError) -> list[str]:
+    """The field messages a domain error carries, for the page."""
+    return [str(e.get("message", "")) for e in exc.errors or []]
+
+
+def _outcomes_from_form(
+    fixture_ids: list[int], outcomes: list[str], reasons: list[str]
+) -> tuple[list[FixtureOutcome], list[str]]:
+    """The outcome rows, and a readable error naming each row the schema refuses."""
+    rows, errors = [], []
+    for i, (f, o, r) in enumerate(zip(fixture_ids, outcomes, reasons, strict=True)):
+        try:
+            rows.append(FixtureOutcome(fixture_id=f, outcome=o, reason=r.strip() or None))
+        except ValidationError as exc:
+            why = "; ".join(e["msg"].removeprefix("Value error, ") for e in exc.errors())
+            errors.append(f"Row {i + 1} (fixture {f}): {why}")
+    return rows, errors
+
+
+@router.post("/app/work-orders/{order_id}/cancel", response_class=HTMLResponse)
+def order_cancel(
+    request: Request,
+    session: SessionDep,
+    visitor: VisitorDep,
+    order_id: int,
+    csrf_token: Text = "",
+    reason: Annotated[str, Form(max_length=500)] = "",
+) -> Response:
+    """Cancel an open order with a reason (planner and up)."""
+    check_post(visitor, csrf_token, "cancel_order")
+    if not reason.strip():
+        return _order_page(
+            request, session, visitor, order_id, 422, "Say why the order is cancelled."
+        )
+    try:
+        orders_service.cancel(session, order_id, CancelBody(reason=reason.strip()))
+    except DomainError as exc:
+        session.rollback()
+        return _order_page(request, session, visitor, order_id, exc.status, exc.detail)
+    return see_other(f"/app/work-orders/{order_id}")
 
 
 @router.post("/app/work-orders/{order_id}/{to}", response_class=HTMLResponse)

@@ -1,0 +1,178 @@
+"""A real server and a headless system Chromium for the browser tests.
+
+The server is `uvicorn` in a subprocess on a free port, on a temporary SQLite file built by
+`lampkeeper migrate` and `lampkeeper demo load` (the demo people are added as `make run`
+does). Chromium and chromedriver come from the operating system (.ci/run installs them);
+without them the tests are skipped, and nothing downloads a browser build.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import subprocess
+import sys
+import tempfile
+import time
+import urllib.request
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+from sqlalchemy.orm import Session
+
+CHROMIUM = os.environ.get("LAMPKEEPER_CHROMIUM", "/usr/bin/chromium")
+CHROMEDRIVER = os.environ.get("LAMPKEEPER_CHROMEDRIVER", "/usr/bin/chromedriver")
+SCREENSHOTS = Path(__file__).parent / "screenshots"
+BIN = Path(sys.executable).parent
+STARTUP_S = 60.0  # how long the server may take to answer /healthz (a loaded CI machine)
+
+
+@dataclass(frozen=True)
+class Server:
+    """The running app: its base URL and the SQLite URL behind it."""
+
+    base: str
+    db_url: str
+    order_id: int  # a draft group order made for the tests
+    second_order_id: int  # another area's draft group order, for the completion test
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+def _run(args: list[str], env: dict[str, str]) -> None:
+    subprocess.run(args, env=env, check=True, capture_output=True, timeout=300)
+
+
+def _prepare_demo(db_url: str) -> tuple[int, int]:
+    """Add the demo people (as `make run` does) and two areas' draft group orders."""
+    from sqlalchemy import select
+
+    from service.db.session import make_engine
+    from service.register.models import Area
+    from service.seed.users import ensure_demo_users
+    from service.workorders import service as orders
+    from service.workorders.schemas import WorkOrderCreate
+
+    engine = make_engine(db_url)
+    with Session(engine) as session, session.begin():
+        ensure_demo_users(session)
+        first, second = session.scalars(select(Area.id).order_by(Area.id).limit(2)).all()
+        ids = tuple(
+            orders.create(session, WorkOrderCreate(area_id=a, kind="group_relamp")).id
+            for a in (first, second)
+        )
+    engine.dispose()
+    return ids[0], ids[1]
+
+
+def _wait_healthy(base: str, proc: subprocess.Popen[bytes]) -> None:
+    deadline = time.monotonic() + STARTUP_S
+    while time.monotonic() < deadline:
+        if proc.poll() is not None:
+            raise RuntimeError(f"the server exited with {proc.returncode}")
+        try:
+            with urllib.request.urlopen(f"{base}/healthz", timeout=2) as r:
+                if r.status == 200:
+                    return
+        except OSError:
+            time.sleep(0.2)  # polling for start-up only; no test asserts on time
+    raise RuntimeError("the server did not answer /healthz")
+
+
+@pytest.fixture(scope="session")
+def server() -> Iterator[Server]:
+    """uvicorn on a free port against a fresh demo database (scheduler off)."""
+    if not (os.access(CHROMIUM, os.X_OK) and os.access(CHROMEDRIVER, os.X_OK)):
+        pytest.skip(
+            f"needs {CHROMIUM} and {CHROMEDRIVER} (apt-get install chromium chromium-driver)"
+        )
+    tmp = Path(tempfile.mkdtemp(prefix="lk-browser-"))
+    db_url = f"sqlite:///{tmp / 'browser.sqlite3'}"
+    env = {
+        **os.environ,
+        "LAMPKEEPER_DATABASE_URL": db_url,
+        "LAMPKEEPER_SCHEDULER_ENABLED": "false",
+        "LAMPKEEPER_LOG_LEVEL": "warning",
+    }
+    _run([str(BIN / "lampkeeper"), "migrate"], env)
+    _run([str(BIN / "lampkeeper"), "demo", "load", "--key-file", str(tmp / "key.txt")], env)
+    order_id, second_order_id = _prepare_demo(db_url)
+    port = _free_port()
+    base = f"http://127.0.0.1:{port}"
+    proc = subprocess.Popen(
+        [
+            str(BIN / "python"),
+            "-m",
+            "uvicorn",
+            "service.main:create_app",
+            "--factory",
+            "--host",
+            "127.0.0.1",
+            "--port",
+            str(port),
+            "--log-level",
+            "warning",
+        ],
+        env=env,
+    )
+    try:
+        _wait_healthy(base, proc)
+        yield Server(base=base, db_url=db_url, order_id=order_id, second_order_id=second_order_id)
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(timeout=20)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+@pytest.fixture(scope="session")
+def browser(server: Server) -> Iterator[object]:
+    """One headless Chromium for the run, with a fresh profile folder."""
+    from selenium import webdriver
+    from selenium.webdriver.chrome.service import Service
+
+    profile = tempfile.mkdtemp(prefix="lk-chromium-")
+    opts = webdriver.ChromeOptions()
+    opts.binary_location = CHROMIUM
+    for arg in (
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--no-first-run",
+        "--disable-dev-shm-usage",
+        f"--user-data-dir={profile}",
+        "--window-size=1280,900",
+    ):
+        opts.add_argument(arg)
+    driver = webdriver.Chrome(service=Service(executable_path=CHROMEDRIVER), options=opts)
+    driver.set_page_load_timeout(60)
+    SCREENSHOTS.mkdir(exist_ok=True)
+    try:
+        yield driver
+    finally:
+        driver.quit()
+        shutil.rmtree(profile, ignore_errors=True)
+
+
+@pytest.fixture()
+def page(browser: object, server: Server) -> Iterator[object]:
+    """The browser signed out, at desktop width, before each test."""
+    from selenium.webdriver.remote.webdriver import WebDriver
+
+    assert isinstance(browser, WebDriver)
+    browser.get(f"{server.base}/sign-in")
+    browser.delete_all_cookies()
+    browser.execute_cdp_cmd("Emulation.clearDeviceMetricsOverride", {})
+    yield browser
