@@ -20,9 +20,9 @@ from sqlalchemy.orm import Session
 
 from service.api.errors import NotFound
 from service.catalogue.models import LampType
+from service.catalogue.resolved import CurveInUse, catalogue_models
 from service.forecasting.ahead import expected_replacements
-from service.forecasting.fit import FieldFit, fit_field
-from service.forecasting.types import CurveInUse, catalogue_models, load_types
+from service.forecasting.fit import FieldFit, fit_field, load_fitted_types
 from service.forecasting.whatif import CurveResult, lamp_curve
 from service.planning.service import AreaPlan, TypeGroup
 from service.readings.ages import position_ages
@@ -217,7 +217,7 @@ def weekly_burnouts(
     ages = position_ages(session, at=at)
     if ages.size == 0:
         return None
-    types = load_types(session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind)
+    types = load_fitted_types(session, ages.lamp_type_id, ballast_kinds=ages.ballast_kind)
     k = types.index(ages.lamp_type_id, ages.ballast_kind)
     age = np.where(ages.burned_out, 0.0, ages.age_h)  # dark: a new lamp goes in now
     # The effective Weibull scale of each position at its voltage and switching.
@@ -327,5 +327,5 @@ def curves_in_use(session: Session, lamp_type_ids: Sequence[int]) -> dict[int, C
     """The life curve forecasts use per lamp type (catalogue or field fit, and why)."""
     if not lamp_type_ids:
         return {}
-    types = load_types(session, list(lamp_type_ids), field_fit=True)
+    types = load_fitted_types(session, list(lamp_type_ids))
     return {int(i): c for i, c in zip(types.ids.tolist(), types.curves, strict=True)}

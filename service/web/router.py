@@ -31,6 +31,7 @@ from service.web.auth import (
 )
 from service.workorders import exports
 from service.workorders import service as orders_service
+from service.workorders.repository import last_group_relamps
 from service.workorders.schemas import CancelBody, CompleteBody, FixtureOutcome
 
 HERE = Path(__file__).parent
@@ -108,7 +109,11 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
     now = utcnow()
     today = now.date()
     rows = queries.site_summaries(session, today)
-    plans = [p for s in queries.sites(session) for p in planning.site_plans(session, s, now)]
+    plans = [
+        p
+        for s in queries.sites(session)
+        for p in planning.site_plans(session, s, now, last_relamps=last_group_relamps)
+    ]
     due = [p for p in plans if p.due_on is not None]
     soon = [p for p in due if p.due_on is not None and (p.due_on - today).days < DUE_SOON_DAYS]
     weekly = charts.weekly_burnouts(session, now, [p.due_on for p in due if p.due_on], today)
@@ -159,7 +164,10 @@ def site_page(
             title="No such site",
             message=f"There is no site {site_id}.",
         )
-    plans = [area_plan_read(p) for p in planning.site_plans(session, site)]
+    plans = [
+        area_plan_read(p)
+        for p in planning.site_plans(session, site, last_relamps=last_group_relamps)
+    ]
     return page(request, "site.html", visitor=visitor, site=site, plans=plans)
 
 
@@ -168,7 +176,7 @@ def area_page(
     request: Request, session: SessionDep, visitor: VisitorDep, area_id: int
 ) -> HTMLResponse:
     """An area's plan in words, its survival, light and cost charts, and its open burnouts."""
-    plan = planning.area_plan(session, area_id)
+    plan = planning.area_plan(session, area_id, last_relamps=last_group_relamps)
     read = area_plan_read(plan)
     return page(
         request,

@@ -12,6 +12,7 @@ from service.db.base import utcnow
 from service.forecasting import service as forecasting
 from service.planning import service as planning
 from service.web import charts
+from service.workorders.repository import last_group_relamps
 from tests.planning import builders as b
 
 
@@ -52,7 +53,7 @@ def test_cost_chart_marks_the_chosen_interval_on_the_curve(db: Session) -> None:
     lt = b.lamp_type(db, weibull_shape=4.0)
     b.fixtures(db, a, lt, 20, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
     db.flush()
-    plan = planning.area_plan(db, a.id)
+    plan = planning.area_plan(db, a.id, last_relamps=last_group_relamps)
     (g,) = plan.groups
     spec = charts.cost_chart(g, lt.code, "EUR")
     x, c_t, spot, chosen = spec["data"]
