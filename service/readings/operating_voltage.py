@@ -19,7 +19,7 @@ from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session
 
 from service.readings.models import VoltageReading
-from service.readings.sql import epoch, float_matrix, target_keys
+from service.readings.repository import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock
 
 FloatArray = NDArray[np.float64]
