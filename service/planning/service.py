@@ -148,7 +148,7 @@ def _models(
     return models, curves, types.ballast_of(pos.lamp_type_id, pos.ballast_kind)
 
 
-def plan_areas(
+def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     site: Site,
     areas: Sequence[Area],

@@ -117,7 +117,7 @@ def empty_ages(at: datetime) -> PositionAges:
     )
 
 
-def position_ages(
+def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     *,
     site_id: int | None = None,

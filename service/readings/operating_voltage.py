@@ -26,7 +26,7 @@ FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
 
-def reading_voltages(
+def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     fixture_scope: Any,
     area_scope: Any,
