@@ -8,7 +8,7 @@ No web framework, no database: everything here can be called from a notebook.
 - lumen        lamp lumen depreciation curves, technology defaults
 - tm21         IES TM-21 projection of LED lumen maintenance from LM-80-style data
 - renewal      the renewal function M(t) and its density, for spot replacement counts
-- replacement  block (group) and age replacement intervals and their cost rates
+- replacement  block (group) replacement intervals and their cost rates
 - fitting      Weibull MLE with censoring, WeiBayes, Kaplan-Meier, field-or-catalogue rule
 - fleet        all of the above over whole fleets of lamp positions at once
 

@@ -1,4 +1,4 @@
-"""Group (block) and age replacement intervals, with the constraints a team sets.
+"""Group (block) replacement intervals, with the constraints a team sets.
 
 Block replacement [Barlow & Proschan, *Mathematical Theory of Reliability*, ch. 4]:
 every position in an area gets a new lamp every T burn hours, and failures in
@@ -25,8 +25,8 @@ Constraints, all upper limits on T in burn hours:
 The light floor and burnout ceiling are limits on a group plan; they do not
 force a group plan when spot replacement is cheaper.
 
-Age replacement is in age_replacement.py; cost per delivered megalumen-hour in
-megalumen.py (both share this module's search helper).
+Cost per delivered megalumen-hour is in megalumen.py (it shares this module's search
+helper).
 """
 
 from __future__ import annotations

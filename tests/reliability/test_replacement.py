@@ -1,4 +1,4 @@
-"""Group (block) and age replacement planning checks."""
+"""Group (block) replacement planning checks."""
 
 from __future__ import annotations
 
@@ -8,7 +8,6 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from service.reliability.age_replacement import age_cost_rate, plan_age_replacement
 from service.reliability.megalumen import cost_per_megalumen_hour
 from service.reliability.renewal import weibull_renewal
 from service.reliability.replacement import block_cost_rate, plan_block_replacement
@@ -153,7 +152,7 @@ def test_plan_rejects_bad_inputs() -> None:
 def test_cost_rates_finite_and_positive(
     shape: float, scale: float, c_group: float, c_spot: float, frac: float
 ) -> None:
-    # Barlow & Proschan: both cost rates are positive finite for positive costs and T > 0, and
+    # Barlow & Proschan: the cost rate is positive finite for positive costs and T > 0, and
     # the block rate is at least c_group/T + c_spot F(T)/T since M(T) >= F(T).
     w = Weibull(shape, scale)
     T = frac * w.mean()
@@ -162,42 +161,6 @@ def test_cost_rates_finite_and_positive(
     assert np.isfinite(c) and c > 0
     # (slack on the F term: in the first grid cells M ~ t^beta is interpolated to ~1% or 1e-8)
     assert c * T >= c_group + c_spot * (float(w.cdf(T)) * (1 - 1e-2) - 1e-8)
-    a = float(age_cost_rate(T, w, c_group, c_spot))
-    assert np.isfinite(a) and a > 0
-
-
-@pytest.mark.parametrize(("beta", "c_pm", "c_cm"), [(3.0, 1.0, 5.0), (5.5, 20.0, 70.0)])
-def test_age_replacement_matches_reliability_package(beta: float, c_pm: float, c_cm: float) -> None:
-    # Barlow & Proschan age replacement; reference: reliability's optimal_replacement_time with
-    # q=0 (as good as new), a grid search on 10,000 points over [1, 3 alpha] (field notes §9).
-    from reliability.Repairable_systems import optimal_replacement_time
-
-    alpha = 1000.0
-    ref = optimal_replacement_time(
-        c_pm,
-        c_cm,
-        alpha,
-        beta,
-        show_time_plot=False,
-        show_ratio_plot=False,
-        print_results=False,
-        q=0,
-    )
-    plan = plan_age_replacement(Weibull(beta, alpha), c_pm, c_cm)
-    assert plan.interval_h is not None
-    step = (3 * alpha - 1) / 9999
-    # A grid argmin of a unimodal function lies within one step of the true minimiser.
-    assert abs(plan.interval_h - ref.ORT) <= 1.01 * step
-    assert plan.cost_rate <= ref.min_cost * (1 + 1e-9)
-    assert plan.cost_rate == pytest.approx(ref.min_cost, rel=1e-5)
-    assert plan.run_to_failure_rate == pytest.approx(c_cm / Weibull(beta, alpha).mean())
-
-
-def test_age_replacement_exponential_runs_to_failure() -> None:
-    # Barlow & Proschan: with constant hazard, preventive replacement never pays.
-    plan = plan_age_replacement(Weibull(1.0, 5000.0), 1.0, 5.0)
-    assert plan.interval_h is None
-    assert plan.cost_rate == pytest.approx(5.0 / 5000.0)
 
 
 def test_megalumen_identity_with_constant_light() -> None:
