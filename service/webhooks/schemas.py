@@ -28,7 +28,7 @@ class SubscriptionUpdate(BaseModel):
 
     model_config = ConfigDict(extra="forbid")
 
-    url: str | None = URL_FIELD
+    url: str | None = Field(default=None, min_length=8, max_length=2000)
     types: list[ResourceType] | None = Field(default=None, max_length=20)
     description: str | None = Field(default=None, max_length=300)
     state: SubscriptionState | None = None
