@@ -39,7 +39,7 @@ def receiver() -> Iterator[Receiver]:
     rec = Receiver()
 
     class Handler(BaseHTTPRequestHandler):
-        def do_POST(self) -> None:  # noqa: N802 (http.server's naming)
+        def do_POST(self) -> None:
             size = int(self.headers.get("Content-Length", "0"))
             body = self.rfile.read(size)
             status, delay = rec.next_answer()
@@ -54,7 +54,7 @@ def receiver() -> Iterator[Receiver]:
             except OSError:
                 pass  # the client gave up (timeout)
 
-        def log_message(self, format: str, *args: object) -> None:  # noqa: A002
+        def log_message(self, format: str, *args: object) -> None:
             pass
 
     server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
