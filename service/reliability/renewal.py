@@ -92,9 +92,7 @@ def _series_inverse(p: FloatArray, n: int) -> FloatArray:
     b = min(n, _DIRECT_INVERSE)
     unit = np.zeros(b)
     unit[0] = 1.0
-    g[:b] = solve_triangular(
-        toeplitz(p[:b], np.zeros(b)), unit, lower=True, check_finite=False
-    )
+    g[:b] = solve_triangular(toeplitz(p[:b], np.zeros(b)), unit, lower=True, check_finite=False)
     k = b
     while k < n:
         k2 = min(2 * k, n)
@@ -125,15 +123,30 @@ def midpoint_scheme(cdf_values: FloatArray) -> FloatArray:
     p[:n] = -0.5 * (d_f[:-1] + d_f[1:])
     p[n] = -0.5 * d_f[n]  # ΔF_{n+1} lies past the grid; it never reaches M_0..M_n anyway
     p[0] += 1.0
-    inv = _series_inverse(p, n + 1)
-    size = sp_fft.next_fast_len(2 * n + 1, real=True)
-    m_vals: FloatArray = sp_fft.irfft(
-        sp_fft.rfft(cdf_values, size) * sp_fft.rfft(inv, size), size
-    )[: n + 1]
-    n0 = min(int(np.searchsorted(cdf_values, _EXACT_BELOW_F)) + 1, _EXACT_MAX, n + 1)
-    m_vals[:n0] = np.convolve(cdf_values[:n0], inv[:n0])[:n0]
+    m_vals = _series_divide(cdf_values, p)
     m_vals[0] = 0.0
     return m_vals
+
+
+def _series_divide(f: FloatArray, p: FloatArray) -> FloatArray:
+    """First len(f) coefficients of f(z)/p(z) (Karp–Markstein: Newton's last step fused)."""
+    n_all = f.size
+    if n_all <= _DIRECT_INVERSE:  # one triangular solve, no FFT
+        lower = toeplitz(p, np.zeros(n_all))
+        out: FloatArray = solve_triangular(lower, f, lower=True, check_finite=False)
+        return out
+    k = (n_all + 1) // 2
+    n0 = min(int(np.searchsorted(f, _EXACT_BELOW_F)) + 1, _EXACT_MAX, n_all)
+    g = _series_inverse(p, max(k, n0))
+    size = sp_fft.next_fast_len(n_all, real=True)  # >= 2k - 1: none of the products wrap
+    g_hat = sp_fft.rfft(g[:k], size)  # onto the coefficients that are read
+    y = sp_fft.irfft(sp_fft.rfft(f[:k], size) * g_hat, size)[:k]  # f/p mod z^k
+    residual = f[k:] - sp_fft.irfft(sp_fft.rfft(p, size) * sp_fft.rfft(y, size), size)[k:n_all]
+    out = np.empty(n_all)
+    out[:k] = y
+    out[k:] = sp_fft.irfft(sp_fft.rfft(residual, size) * g_hat, size)[: n_all - k]
+    out[:n0] = np.convolve(f[:n0], g[:n0])[:n0]
+    return out
 
 
 def renewal_on_grid(cdf_values: ArrayLike, step_h: float, *, direct: bool = False) -> FloatArray:
