@@ -232,6 +232,28 @@ class RenewalCurve:
         out: FloatArray = np.where(x <= 0.0, 0.0, np.maximum(val, 0.0) + beyond * self.density[-1])
         return out
 
+    def at_scalar(self, x: float) -> float:
+        """M(x) for one time in hours: `at` in plain floats (optimisers call it thousands of times)."""
+        h = float(self.t[1] - self.t[0])
+        n = self.t.size - 1
+        horizon = float(self.t[-1])
+        if x <= 0.0:
+            return 0.0
+        xc = min(x, horizon)
+        k = min(int(xc / h), n - 1)
+        s = (xc - float(self.t[k])) / h
+        s2 = s * s
+        s3 = s2 * s
+        m0, m1 = float(self.m[k]), float(self.m[k + 1])
+        d0, d1 = float(self.density[k]), float(self.density[k + 1])
+        val = (
+            (2 * s3 - 3 * s2 + 1) * m0
+            + (s3 - 2 * s2 + s) * h * d0
+            + (-2 * s3 + 3 * s2) * m1
+            + (s3 - s2) * h * d1
+        )
+        return max(val, 0.0) + max(x - horizon, 0.0) * float(self.density[-1])
+
     def density_at(self, t: ArrayLike) -> FloatArray:
         """Renewal density m(t) per burn hour, linear interpolation (last value past the end)."""
         x = np.asarray(t, dtype=np.float64)

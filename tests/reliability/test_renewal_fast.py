@@ -92,3 +92,13 @@ def test_weibull_renewal_uses_the_fast_solver() -> None:
     curve = weibull_renewal(w.shape, w.scale, 3.0 * w.mean(), n=2000)
     oracle = renewal_on_grid(weibull_cdf(curve.t, w.shape, w.scale), curve.step_h, direct=True)
     _agree(curve.m, oracle)
+
+
+def test_scalar_interpolant_equals_the_array_one() -> None:
+    # The same cubic Hermite formula in floats: equal to the array version to rounding,
+    # inside the grid, at grid points, at 0, below 0 and past the horizon.
+    curve = weibull_renewal(3.0, 1000.0, 3000.0, n=2000)
+    xs = [-5.0, 0.0, 1e-3, 0.75, 1.5, 999.9, 1000.0, 2999.0, 3000.0, 3500.0, 1e5]
+    xs += np.random.default_rng(5).uniform(0.0, 3200.0, 200).tolist()
+    for x in xs:
+        assert curve.at_scalar(x) == pytest.approx(float(curve.at(x)), rel=1e-13, abs=1e-300)
