@@ -28,9 +28,9 @@ def fail_before_lines(factory: sessionmaker[Session], message: str) -> Iterator[
     real = issue.write_rows
 
     def writer(session: Session, table: Any, *args: Any, **kwargs: Any) -> list[int]:
-        if table.name == "work_order_lines" and isinstance(session, factory.class_):
-            if session.bind is factory.kw.get("bind"):
-                raise RuntimeError(message)
+        ours = isinstance(session, factory.class_) and session.bind is factory.kw.get("bind")
+        if ours and table.name == "work_order_lines":
+            raise RuntimeError(message)
         return real(session, table, *args, **kwargs)
 
     event.listen(factory, "do_orm_execute", listener)
