@@ -20,8 +20,7 @@ from service.api.errors import Conflict, Invalid, NotFound
 from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
-from service.events import reports
-from service.events import service as events
+from service.events import removals, reports
 from service.register.models import Area, LampPosition, Site
 from service.workorders.issue import GROUP, SPOT, issue_orders
 from service.workorders.models import (
@@ -357,7 +356,7 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
         (burning_positions, False, "group_relamp"),  # a removal reason, not a kind
     ):
         if group:
-            events.record_removals(
+            removals.record_removals(
                 session, group, removed_at=at, failed=failed, reason=reason, work_order_id=order.id
             )
     if to_close:
