@@ -145,9 +145,7 @@ def _csv(site: str, area: str, lamp_type: str, rows: list[str]) -> bytes:
     return (head + "".join(f"{site},{area},{r}\n" for r in rows)).encode()
 
 
-def test_import_bad_row_shows_its_error_and_writes_nothing(
-    client: TestClient, db: Session
-) -> None:
+def test_import_bad_row_shows_its_error_and_writes_nothing(client: TestClient, db: Session) -> None:
     s = b.site(db)
     a = b.area(db, s)
     lt = b.lamp_type(db)
