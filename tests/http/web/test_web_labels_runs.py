@@ -85,3 +85,25 @@ def test_runs_page_start_now_by_role_and_repeat(client: TestClient, db: Session)
     assert (
         client.post("/app/runs", data={"csrf_token": token, "site_id": "999999"}).status_code == 404
     )
+
+
+def test_cautions_on_every_page_where_a_person_acts(client: TestClient, db: Session) -> None:
+    s = b.site(db)
+    a = b.area(db, s)
+    (fx,) = b.fixtures(db, a, b.lamp_type(db), 1, lamps=1)
+    db.commit()
+    sign_in_as(client, db, "planner")
+    for url in (
+        "/app",
+        "/app/report",
+        f"/f/{s.id}/{fx.tag}",
+        f"/app/areas/{a.id}",
+        f"/app/areas/{a.id}/labels",
+        "/app/fixtures/new",
+        f"/app/fixtures/{fx.id}/edit",
+        "/app/fixtures/import",
+        "/app/runs",
+    ):
+        html = client.get(url).text
+        assert "Isolate and lock off the power" in html, url
+        assert "mercury" in html and "UV" in html and "local codes" in html, url
