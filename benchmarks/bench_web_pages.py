@@ -73,7 +73,7 @@ def main() -> None:
     with Session(engine) as s, s.begin():
         if users.repo.by_username(s, "bench") is None:
             users.create_user(s, "bench", "Bench Viewer", "viewer", PASSWORD)
-        _, key = create_key(s, "bench", "read")
+        _, key = create_key(s, f"bench-{time.time_ns()}", "read")
         area_id = int(s.scalar(select(func.min(Area.id))) or 1)
 
     def sql_count() -> None:
