@@ -174,10 +174,36 @@ class OutlookRead(BaseModel):
     weeks: list[OutlookWeek]
 
 
-class BudgetRates(_In):
-    """A reporting currency and the user's rates: one unit of each site currency in it."""
+class BudgetRequest(_In):
+    """Budget options: a reporting currency with the user's rates, cleaning time, format."""
 
     reporting_currency: Currency | None = None
+    # One unit of each site currency in the reporting currency, e.g. {"USD": 0.92}.
     rates: dict[Currency, Annotated[float, Field(gt=0, le=1_000_000)]] = Field(
         default_factory=dict, max_length=200
     )
+    cleaning_minutes_per_lamp: float = Field(
+        default=0.0, ge=0, le=240, description="Fixture cleaning at each group relamp, minutes."
+    )
+    format: Literal["json", "csv"] = "json"
+
+
+class BudgetRow(BaseModel):
+    """One month's amount of one category and split for one site."""
+
+    site_id: int
+    currency: str
+    month: str
+    split: str
+    category: str
+    amount: float
+    reporting_currency: str | None = None
+    reporting_amount: float | None = None
+
+
+class BudgetRead(BaseModel):
+    """Budget rows and, with a reporting currency, the portfolio's monthly totals in it."""
+
+    months: int
+    rows: list[BudgetRow]
+    totals_by_month: dict[str, float] | None
