@@ -26,6 +26,7 @@ from service.readings.router import router as readings_router
 from service.register.router import router as register_router
 from service.retirement.router import router as retirement_router
 from service.scheduling.router import router as runs_router
+from service.stock.router import build_router as build_stock_router
 from service.web.install import install_web
 from service.webhooks.router import router as webhooks_router
 from service.workorders.repository import last_group_relamps
@@ -43,6 +44,7 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     forecasting_router,
     build_planning_router(last_group_relamps),
     workorders_router,
+    build_stock_router(last_group_relamps),
     retirement_router,
     runs_router,
     changes_router,

@@ -22,6 +22,7 @@ from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
 from service.events import removals, reports
 from service.register.models import Area, LampPosition, Site
+from service.workorders import stock_hooks
 from service.workorders.issue import GROUP, SPOT, issue_orders
 from service.workorders.models import (
     OPEN_STATES,
@@ -109,8 +110,14 @@ def _simple_move(session: Session, order_id: int, to: str) -> WorkOrder:
 
 
 def issue(session: Session, order_id: int) -> WorkOrder:
-    """draft -> issued (a repeat on an issued order answers it unchanged)."""
-    return _simple_move(session, order_id, WorkOrderState.ISSUED)
+    """draft -> issued, reserving its stocked lamps (a repeat answers it unchanged)."""
+    order = lock_order(session, order_id)
+    if _already(order, WorkOrderState.ISSUED):
+        return order
+    _move(order, WorkOrderState.ISSUED, utcnow())
+    flush_order(session, order)
+    stock_hooks.on_issued(session, order)
+    return order
 
 
 def start(session: Session, order_id: int) -> WorkOrder:
@@ -133,6 +140,7 @@ def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
     _move(order, WorkOrderState.CANCELLED, now)
     order.cancel_reason = body.reason
     reports.reopen_reports(session, order.id)
+    stock_hooks.on_cancelled(session, order)
     for spot in _covered_open(session, order):  # they stay open, to be done on their own
         spot.covered_by_order_id = None
         spot.updated_at = now
@@ -165,6 +173,7 @@ def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now:
         if reopened:
             note += f" {reopened} burnout report(s) reopened: skipped on the group order."
         spot.notes = note if not spot.notes else f"{spot.notes}\n{note}"[-2000:]
+        stock_hooks.on_settled(session, spot)
         spot.state = WorkOrderState.DONE
         spot.state_changed_at = now
         spot.completed_at = at
@@ -318,6 +327,7 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
         ln.position_outcomes = [
             {"position_id": pid, "outcome": str(o), "reason": r} for pid, o, r in entries
         ]
+    stock_hooks.on_completed(session, order)  # 409 before any removal when stock is short
     _record(session, order, resolved, at)
     reports.reopen_reports(session, order.id)  # reports of skipped positions reopen
     _settle_covered(covered, order, at, now)
