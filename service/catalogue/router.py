@@ -57,6 +57,7 @@ def list_lamp_types(
         total=total,
         limit=page.limit,
         offset=page.offset,
+        next_after=page.next_after,
     )
 
 

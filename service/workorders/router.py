@@ -84,6 +84,7 @@ def list_orders(
         total=total,
         limit=page.limit,
         offset=page.offset,
+        next_after=page.next_after,
     )
 
 
