@@ -65,6 +65,12 @@ class SiteFields(BaseModel):
     weekly_run_time: ClockTime = "06:00"
     lookahead_weeks: int = Field(default=4, ge=1, le=52)
     notes: str | None = Field(default=None, max_length=2000)
+    external_reference: str | None = Field(
+        default=None,
+        min_length=1,
+        max_length=200,
+        description="The id your own system keeps for it; unique among sites when set.",
+    )
 
 
 class SiteCreate(SiteFields):
@@ -72,7 +78,9 @@ class SiteCreate(SiteFields):
 
 
 # Site fields a PATCH may change but not empty (every one but notes).
-SITE_REQUIRED = tuple(name for name in SiteFields.model_fields if name != "notes")
+SITE_REQUIRED = tuple(
+    name for name in SiteFields.model_fields if name not in ("notes", "external_reference")
+)
 
 
 class SiteUpdate(BaseModel):
@@ -91,6 +99,7 @@ class SiteUpdate(BaseModel):
     weekly_run_time: ClockTime | None = None
     lookahead_weeks: int | None = Field(default=None, ge=1, le=52)
     notes: str | None = Field(default=None, max_length=2000)
+    external_reference: str | None = Field(default=None, min_length=1, max_length=200)
 
     @field_validator(*SITE_REQUIRED, mode="before")
     @classmethod
@@ -225,6 +234,12 @@ class FixtureFields(BaseModel):
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
     installed_on: Day | None = None
+    external_reference: str | None = Field(
+        default=None,
+        min_length=1,
+        max_length=200,
+        description="The id your own system keeps for it; unique among fixtures when set.",
+    )
 
 
 class FixtureCreate(FixtureFields):
@@ -251,6 +266,7 @@ class FixtureUpdate(BaseModel):
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
     installed_on: Day | None = None
+    external_reference: str | None = Field(default=None, min_length=1, max_length=200)
 
 
 class FixtureRead(BaseModel):
@@ -269,6 +285,7 @@ class FixtureRead(BaseModel):
     ballast_kind: str
     measured_voltage_v: float | None
     installed_on: date | None
+    external_reference: str | None = None
     positions: list[PositionRead]
     created_at: datetime
     updated_at: datetime

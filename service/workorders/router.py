@@ -10,6 +10,7 @@ from fastapi.responses import HTMLResponse
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
+from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, paginate
 from service.api.preconditions import locate, versioned
 from service.api.times import Timestamp
@@ -62,6 +63,7 @@ def list_orders(
         Query(description="ISO 8601 with offset: orders created or changed at or after it."),
     ] = None,
     include_lines: bool = False,
+    external_reference: ExternalReferenceQ = None,
 ) -> Page[WorkOrderRead]:
     """List orders (sort: id, due_on, updated_at, created_at, state); poll with changed_since."""
     if changed_since is not None and changed_since.tzinfo is None:
@@ -76,6 +78,7 @@ def list_orders(
         kind=kind,
         iso_week=iso_week,
         changed_since=changed_since,
+        external_reference=external_reference,
     )
     default = WorkOrder.updated_at if changed_since is not None else WorkOrder.id
     rows, total = paginate(session, stmt, page, repo.ORDER_SORT, default)
