@@ -10,7 +10,7 @@ from pydantic import BaseModel
 import service.register.fixture_bulk as fixture_bulk
 import service.register.fixture_export as fixture_export
 from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response
+from service.api.bulk import EXPORT_RESPONSES, UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import MAX_ID, IdPath
 from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, page_of, paginate
@@ -97,7 +97,7 @@ def import_fixtures(
     )
 
 
-@router.get("/fixtures/export", response_class=Response)
+@router.get("/fixtures/export", response_class=Response, responses=EXPORT_RESPONSES)
 def export_fixtures(
     session: SessionDep,
     _: ReadKey,

@@ -76,6 +76,24 @@ class SiteFields(BaseModel):
 class SiteCreate(SiteFields):
     """A new site."""
 
+    model_config = ConfigDict(
+        json_schema_extra={
+            "examples": [
+                {
+                    "name": "Northgate Depot",
+                    "time_zone": "Europe/Lisbon",
+                    "nominal_voltage_v": 230.0,
+                    "currency": "EUR",
+                    "energy_price_per_kwh": 0.21,
+                    "labour_rate_per_h": 38.0,
+                    "weekly_run_weekday": 0,
+                    "weekly_run_time": "06:00",
+                    "external_reference": "CMMS-SITE-0042",
+                }
+            ]
+        }
+    )
+
 
 # Site fields a PATCH may change but not empty (every one but notes).
 SITE_REQUIRED = tuple(
@@ -244,6 +262,22 @@ class FixtureFields(BaseModel):
 
 class FixtureCreate(FixtureFields):
     """A new fixture; its lamp positions are created with it."""
+
+    model_config = ConfigDict(
+        json_schema_extra={
+            "examples": [
+                {
+                    "tag": "NG-B2-017",
+                    "area_id": 3,
+                    "lamp_type_id": 2,
+                    "lamps_per_fixture": 2,
+                    "location": "Bay 2, row C",
+                    "installed_on": "2025-03-10",
+                    "external_reference": "CMMS-ASSET-88120",
+                }
+            ]
+        }
+    )
 
     area_id: Id
     # When the lamps now in it went in (default: installed_on at 00:00 UTC, else now) and

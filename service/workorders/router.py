@@ -8,6 +8,7 @@ from fastapi import APIRouter, Query, Request, Response, status
 from fastapi.responses import HTMLResponse
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.bulk import CSV_RESPONSES
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.lookups import ExternalReferenceQ
@@ -173,7 +174,7 @@ def order_lines(order_id: IdPath, session: SessionDep, _: ReadKey) -> list[LineR
     return [LineRead.model_validate(ln) for ln in service.lines_of(session, order_id)]
 
 
-@router.get("/work-orders/{order_id}/lines.csv", response_class=Response)
+@router.get("/work-orders/{order_id}/lines.csv", response_class=Response, responses=CSV_RESPONSES)
 def order_lines_csv(order_id: IdPath, session: SessionDep, _: ReadKey) -> Response:
     """An order's lines as CSV (UTF-8, one row per fixture)."""
     order = service.get_order(session, order_id)

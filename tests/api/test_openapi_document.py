@@ -143,3 +143,22 @@ def test_swagger_ui_can_authorise(client: TestClient) -> None:
     assert '"persistAuthorization": true' in page
     # No validator badge: Swagger UI would otherwise fetch it from validator.swagger.io.
     assert '"validatorUrl": null' in page
+
+
+def test_csv_is_declared_where_it_is_served_or_taken(doc: dict[str, Any]) -> None:
+    def ok_media(path: str, method: str = "get") -> set[str]:
+        return set(doc["paths"][path][method]["responses"]["200"]["content"])
+
+    assert ok_media("/api/v1/fixtures/export") == {"text/csv", "application/json"}
+    assert ok_media("/api/v1/lamp-types/export") == {"text/csv", "application/json"}
+    assert ok_media("/api/v1/work-orders/{order_id}/lines.csv") == {"text/csv"}
+    upload = doc["paths"]["/api/v1/fixtures/import"]["post"]["requestBody"]["content"]
+    assert "text/csv" in upload
+
+
+def test_main_request_bodies_carry_examples(doc: dict[str, Any]) -> None:
+    schemas = doc["components"]["schemas"]
+    for name in ("SiteCreate", "FixtureCreate", "WorkOrderCreate"):
+        (example,) = schemas[name]["examples"]
+        # Every example field is a field of the schema (extra fields are refused).
+        assert set(example) <= set(schemas[name]["properties"]), name
