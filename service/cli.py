@@ -9,12 +9,14 @@ from contextlib import contextmanager
 
 from sqlalchemy.orm import Session
 
+from service.changes import cli as changes_cli
 from service.config import get_settings
 from service.db.session import begin_write, session_factory
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
 from service.users import cli as users_cli
+from service.webhooks import cli as webhooks_cli
 
 Handler = Callable[[argparse.Namespace], int]
 
@@ -76,6 +78,7 @@ def cmd_serve(args: argparse.Namespace) -> int:
         host=host,
         port=port,
         log_level=settings.log_level.lower(),
+        access_log=False,  # service.api.observe writes one JSON line per request instead
     )
     return 0
 
@@ -151,6 +154,8 @@ EXTRA_COMMANDS.append(seed_cli.register)
 EXTRA_COMMANDS.append(runs_cli.register)
 EXTRA_COMMANDS.append(register_cli.register)
 EXTRA_COMMANDS.append(users_cli.register)
+EXTRA_COMMANDS.append(changes_cli.register)
+EXTRA_COMMANDS.append(webhooks_cli.register)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -14,7 +14,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
 from service.api.errors import Invalid
 from service.api.ids import IdQuery
-from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.pagination import OffsetPageDep, Page, PageDep, page_of, paginate
 from service.api.times import Timestamp
 from service.readings import burn_hours, voltage_upload
 from service.readings.ages import position_ages
@@ -146,7 +146,7 @@ def list_voltage_readings(
 def list_position_ages(
     session: SessionDep,
     _: ReadKey,
-    page: PageDep,
+    page: OffsetPageDep,
     site_id: IdQuery = None,
     area_id: IdQuery = None,
     fixture_id: IdQuery = None,

@@ -8,6 +8,7 @@ from fastapi import APIRouter, Query, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
+from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
 from service.catalogue.schemas import IncludeRetiredQ
@@ -27,9 +28,10 @@ def list_sites(
     name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
     time_zone: Annotated[str | None, Query(description="Exact IANA time zone.")] = None,
     include_retired: IncludeRetiredQ = False,
+    external_reference: ExternalReferenceQ = None,
 ) -> Page[SiteRead]:
     """List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v)."""
-    stmt = repo.site_query(name, time_zone, include_retired)
+    stmt = repo.site_query(name, time_zone, include_retired, external_reference)
     rows, total = paginate(session, stmt, page, repo.SITE_SORT, Site.id)
     return page_of(SiteRead, rows, total, page)
 
