@@ -71,7 +71,7 @@ class Row:
     amount: float
 
 
-def site_budget(
+def site_budget(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     site: Site,
     *,

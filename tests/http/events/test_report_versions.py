@@ -11,8 +11,7 @@ from sqlalchemy.orm import Session
 from sqlalchemy.orm.exc import StaleDataError
 
 from service.db.base import utcnow
-from service.events import reports
-from service.events import service as events
+from service.events import burnouts, reports
 from service.events.models import BurnoutReport
 from tests.planning import builders as b
 
@@ -22,7 +21,7 @@ def _report(db: Session) -> tuple[int, int]:
     s = b.site(db)
     a = b.area(db, s)
     fx = b.fixtures(db, a, b.lamp_type(db), 1, lamps=1, installed_at=utcnow() - timedelta(weeks=8))
-    report = events.report_burnout(
+    report = burnouts.report_burnout(
         db, position_id=fx[0].positions[0].id, reported_at=utcnow() - timedelta(days=1)
     )
     db.commit()
