@@ -16,10 +16,10 @@ from alembic import command
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 from sqlalchemy import Engine, text
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.health import alembic_config
-from service.db.session import get_session, make_engine
+from service.db.session import get_job_factory, get_session, make_engine
 from service.keys import service as keys_service
 from service.main import create_app
 
@@ -107,6 +107,10 @@ def client(app: FastAPI, db: Session) -> Iterator[TestClient]:
             raise
 
     app.dependency_overrides[get_session] = session_override
+    # Jobs that commit on their own (the weekly run) do so in savepoints of the same connection.
+    app.dependency_overrides[get_job_factory] = lambda: sessionmaker(
+        bind=db.get_bind(), expire_on_commit=False, join_transaction_mode="create_savepoint"
+    )
     try:
         with TestClient(app, raise_server_exceptions=False) as c:
             yield c

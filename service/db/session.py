@@ -6,9 +6,9 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import Request
+from fastapi import Depends, Request
 from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
@@ -82,6 +82,18 @@ def get_engine() -> Engine:
 def session_factory(engine: Engine | None = None) -> sessionmaker[Session]:
     """A session factory bound to an engine (the settings' engine by default)."""
     return sessionmaker(bind=engine or get_engine(), expire_on_commit=False, autoflush=False)
+
+
+def get_job_factory() -> sessionmaker[Session]:
+    """FastAPI dependency: the factory a route hands to a job that commits on its own.
+
+    The weekly run opens and commits its own short transactions; tests override this to
+    bind the factory to their rolled-back connection.
+    """
+    return session_factory()
+
+
+JobFactoryDep = Annotated[sessionmaker[Session], Depends(get_job_factory)]
 
 
 def get_session(request: Request) -> Iterator[Session]:

@@ -6,13 +6,13 @@ from typing import Annotated
 
 from fastapi import APIRouter, Query, Request, Response, status
 from sqlalchemy import select
-from sqlalchemy.orm import sessionmaker
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
+from service.db.session import JobFactoryDep
 from service.register.sites import get_site
 from service.scheduling.models import RunOutcome, WeeklyRun
 from service.scheduling.runner import run_site_week
@@ -55,6 +55,7 @@ def get_run(run_id: IdPath, session: SessionDep, _: ReadKey) -> RunRead:
 def start_run(
     site_id: IdPath,
     session: SessionDep,
+    jobs: JobFactoryDep,
     _: WriteKey,
     request: Request,
     response: Response,
@@ -74,9 +75,6 @@ def start_run(
     # transaction first (it may hold the key's last-use stamp): on SQLite a read transaction
     # left open across another connection's commit could no longer write.
     session.commit()
-    factory = sessionmaker(
-        bind=session.get_bind(), expire_on_commit=False, join_transaction_mode="create_savepoint"
-    )
-    run = run_site_week(factory, site_id, week=week, trigger="api")
+    run = run_site_week(jobs, site_id, week=week, trigger="api")
     response.headers["Location"] = str(request.url_for("get_run", run_id=run.id))
     return RunRead.model_validate(run)
