@@ -13,8 +13,8 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.api.ids import MAX_ID
+from tests import factories as fx
 from tests.api.test_bad_input_tour import assert_problem, error_fields, table_counts
-from tests.readings.test_burn_hours import _setup
 
 HUGE = [2**63, 10**30, -(10**30)]
 OUT_OF_RANGE = [0, -1, MAX_ID + 1, *HUGE]
@@ -138,7 +138,7 @@ def test_body_ids_must_be_json_integers(
 ) -> None:
     # Found by hand: lax validation read {"fixture_id": true} as fixture 1, and 7.0 or
     # "7" as fixture 7, and stored a reading there.
-    _, _, _, fixtures = _setup(db)
+    _, _, _, fixtures = fx.two_fixture_area(db)
     fid = fixtures[0].id
     row = {"fixture_id": as_json(fid), "measured_at": "2026-01-05T10:00:00+00:00", "volts": 230}
     before = table_counts(db)

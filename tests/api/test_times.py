@@ -12,8 +12,8 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
+from tests import factories as fx
 from tests.api.test_bad_input_tour import assert_problem, error_fields, table_counts
-from tests.readings import factory as fx
 
 FAR = ["0001-01-01T00:00:00+14:00", "9999-12-31T23:59:59-12:00", "1899-12-31T23:00:00Z"]
 

@@ -10,8 +10,8 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
+from tests import factories as fx
 from tests.api.test_bad_input_tour import assert_problem, error_fields, table_counts
-from tests.readings.test_burn_hours import _iso, _setup
 
 
 @pytest.mark.parametrize("literal", ["1e400", "1e308", "NaN", "-Infinity", "2000000"])
@@ -19,11 +19,11 @@ from tests.readings.test_burn_hours import _iso, _setup
 def test_burn_hours_out_of_range(
     client: TestClient, db: Session, writer: dict[str, str], path: str, literal: str
 ) -> None:
-    _, _, _, fixtures = _setup(db)
+    _, _, _, fixtures = fx.two_fixture_area(db)
     pos = fixtures[0].positions[0].id
     when = "reported_at" if "burnout" in path else "removed_at"
     extra = "" if "burnout" in path else ', "failed": true, "reason": "burnout"'
-    raw = f'{{"position_id": {pos}, "{when}": "{_iso(30)}", "burn_hours": {literal}{extra}}}'
+    raw = f'{{"position_id": {pos}, "{when}": "{fx.iso_days(30)}", "burn_hours": {literal}{extra}}}'
     before = table_counts(db)
     r = client.post(
         path, content=raw.encode(), headers={**writer, "content-type": "application/json"}

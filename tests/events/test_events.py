@@ -13,7 +13,7 @@ from service.events import burnouts, reports
 from service.events.models import LampRemoval
 from service.events.removals import record_removal, record_removals
 from service.register.models import LampPosition
-from tests.readings import factory as fx
+from tests import factories as fx
 
 T0 = fx.T0
 

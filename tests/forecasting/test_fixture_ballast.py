@@ -13,7 +13,7 @@ from sqlalchemy.orm import Session
 from service.events.removals import record_removals
 from service.register.models import LampPosition
 from service.reliability.conditions import voltage_effect
-from tests.readings import factory as fx
+from tests import factories as fx
 
 T0 = fx.T0
 AT = T0 + timedelta(days=200)

@@ -19,7 +19,7 @@ from service.reliability.fitting import fit_weibull, kaplan_meier
 from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.lumen import default_lumen_curve
 from service.reliability.renewal import weibull_renewal
-from tests.readings import factory as fx
+from tests import factories as fx
 
 T0 = fx.T0
 YEAR = T0 + timedelta(days=365)

@@ -11,8 +11,8 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
+from tests import factories as fx
 from tests.api.test_bad_input_tour import assert_problem, error_fields
-from tests.readings.test_burn_hours import _setup
 
 
 @pytest.mark.parametrize(
@@ -31,7 +31,7 @@ from tests.readings.test_burn_hours import _setup
 def test_curve_parameters_out_of_range(
     client: TestClient, db: Session, reader: dict[str, str], query: str, field: str
 ) -> None:
-    _, _, lt, _ = _setup(db)
+    _, _, lt, _ = fx.two_fixture_area(db)
     r = client.get(f"/api/v1/forecasts/curve?lamp_type_id={lt.id}&{query}", headers=reader)
     assert error_fields(assert_problem(r, 422)) == {field}
 
@@ -39,7 +39,7 @@ def test_curve_parameters_out_of_range(
 def test_curve_at_the_bounds_is_finite(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
-    _, _, lt, _ = _setup(db)
+    _, _, lt, _ = fx.two_fixture_area(db)
     for query in ("voltage_v=1&t_max_h=1", "voltage_v=1000&hours_per_start=0.01"):
         r = client.get(f"/api/v1/forecasts/curve?lamp_type_id={lt.id}&{query}", headers=reader)
         assert r.status_code == 200, r.text
@@ -55,7 +55,7 @@ def test_forecast_horizon_out_of_range(
 ) -> None:
     # Found by fuzzing on PostgreSQL: horizon_weeks=1.1e-308 gave expected_burnouts_spot
     # NaN, sent as null against the documented number.
-    s, a, lt, _ = _setup(db)
+    s, a, lt, _ = fx.two_fixture_area(db)
     for url in (
         f"/api/v1/forecasts/sites/{s.id}",
         f"/api/v1/forecasts/areas/{a.id}",
@@ -68,7 +68,7 @@ def test_forecast_horizon_out_of_range(
 def test_smallest_horizon_gives_numbers(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
-    s, _, _, _ = _setup(db)
+    s, _, _, _ = fx.two_fixture_area(db)
     r = client.get(f"/api/v1/forecasts/sites/{s.id}?horizon_weeks=0.001", headers=reader)
     assert r.status_code == 200, r.text
     assert all(v is not None for k, v in r.json()["summary"].items() if k != "mean_age_h")

@@ -18,8 +18,8 @@ from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.replacement import plan_block_replacement
 from service.reliability.weibull import Weibull
 from service.workorders.models import WorkOrder
+from tests import factories as fx
 from tests.planning import builders as b
-from tests.readings import factory as fx
 
 AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)  # 2 June 08:00 in Auckland
 

@@ -10,33 +10,20 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.readings.ages import position_ages
-from tests.readings import factory as fx
+from tests import factories as fx
 
 T0 = fx.T0
-
-
-def _setup(db: Session, **area_over: Any) -> tuple[Any, Any, Any, list[Any]]:
-    s = fx.site(db)
-    a = fx.area(db, s, **area_over)
-    lt = fx.lamp_type(db)
-    fixtures = fx.fixtures(db, a, lt, 2, lamps=2)
-    db.commit()
-    return s, a, lt, fixtures
-
-
-def _iso(days: float) -> str:
-    return (T0 + timedelta(days=days)).isoformat()
 
 
 def test_counter_readings_become_increments_and_ages(
     db: Session, client: TestClient, writer: dict[str, str]
 ) -> None:
-    _s, _a, _, fixtures = _setup(db, hours_per_day=None, days_per_week=None)
+    _s, _a, _, fixtures = fx.two_fixture_area(db, hours_per_day=None, days_per_week=None)
     f = fixtures[0]
     for day, value in ((0, 1000.0), (10, 1100.0), (20, 1250.0)):
         r = client.post(
             "/api/v1/burn-hours",
-            json={"fixture_id": f.id, "read_at": _iso(day), "counter_hours": value},
+            json={"fixture_id": f.id, "read_at": fx.iso_days(day), "counter_hours": value},
             headers=writer,
         )
         assert r.status_code == 201, r.text
@@ -45,7 +32,7 @@ def test_counter_readings_become_increments_and_ages(
     # Reset: the meter restarted from zero, so the increment is the new value.
     r = client.post(
         "/api/v1/burn-hours",
-        json={"fixture_id": f.id, "read_at": _iso(25), "counter_hours": 40, "counter_reset": True},
+        json={"fixture_id": f.id, "read_at": fx.iso_days(25), "counter_hours": 40, "counter_reset": True},
         headers=writer,
     )
     assert r.status_code == 201 and r.json()["hours"] == 40.0
@@ -59,7 +46,7 @@ def test_counter_readings_become_increments_and_ages(
 def test_area_records_then_schedule_accrues(
     db: Session, client: TestClient, writer: dict[str, str]
 ) -> None:
-    _s, a, _, _fixtures = _setup(db)  # schedule 12 h x 7 d = 84 h per week
+    _s, a, _, _fixtures = fx.two_fixture_area(db)  # schedule 12 h x 7 d = 84 h per week
     rows = [
         {"area_id": a.id, "day": (T0 + timedelta(days=d)).date().isoformat(), "hours": 10}
         for d in range(7)
@@ -74,7 +61,7 @@ def test_area_records_then_schedule_accrues(
 
 
 def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict[str, str]) -> None:
-    s, a, _, fixtures = _setup(db)
+    s, a, _, fixtures = fx.two_fixture_area(db)
     f0, f1 = fixtures
     at = T0 + timedelta(days=20)
     assert set(position_ages(db, site_id=s.id, at=at).voltage_source) == {"site_nominal"}
@@ -87,7 +74,7 @@ def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict
     for day, v in ((0, 240.0), (10, 220.0)):
         r = client.post(
             "/api/v1/voltage-readings",
-            json={"fixture_id": f0.id, "measured_at": _iso(day), "volts": v},
+            json={"fixture_id": f0.id, "measured_at": fx.iso_days(day), "volts": v},
             headers=writer,
         )
         assert r.status_code == 201, r.text
@@ -99,7 +86,7 @@ def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict
     db_area = a.id
     r = client.post(
         "/api/v1/voltage-readings",
-        json={"area_id": db_area, "measured_at": _iso(0), "volts": 236.0},
+        json={"area_id": db_area, "measured_at": fx.iso_days(0), "volts": 236.0},
         headers=writer,
     )
     assert r.status_code == 201
@@ -107,7 +94,7 @@ def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict
     assert ages.voltage_source.tolist() == ["latest_reading"] * 2
     assert ages.voltage_v.tolist() == [236.0, 236.0]
     api = client.get(
-        "/api/v1/position-ages", params={"fixture_id": f0.id, "at": _iso(20)}, headers=writer
+        "/api/v1/position-ages", params={"fixture_id": f0.id, "at": fx.iso_days(20)}, headers=writer
     )
     assert api.status_code == 200
     assert [p["voltage_source"] for p in api.json()["items"]] == ["readings_weighted"] * 2
@@ -116,8 +103,8 @@ def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict
 @pytest.mark.parametrize(
     ("row", "field"),
     [
-        ({"hours": -1.0, "period_start": _iso(0), "period_end": _iso(1)}, "hours"),
-        ({"hours": 25.0, "period_start": _iso(0), "period_end": _iso(1)}, "hours"),
+        ({"hours": -1.0, "period_start": fx.iso_days(0), "period_end": fx.iso_days(1)}, "hours"),
+        ({"hours": 25.0, "period_start": fx.iso_days(0), "period_end": fx.iso_days(1)}, "hours"),
         (
             {
                 "hours": 5.0,
@@ -126,14 +113,14 @@ def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict
             },
             "period_end",
         ),
-        ({"hours": 5.0, "period_start": _iso(1), "period_end": _iso(0)}, "period_end"),
-        ({"hours": 5.0, "period_start": "yesterday", "period_end": _iso(0)}, "period_start"),
+        ({"hours": 5.0, "period_start": fx.iso_days(1), "period_end": fx.iso_days(0)}, "period_end"),
+        ({"hours": 5.0, "period_start": "yesterday", "period_end": fx.iso_days(0)}, "period_start"),
     ],
 )
 def test_bad_burn_hours_store_nothing(
     db: Session, client: TestClient, writer: dict[str, str], row: dict[str, Any], field: str
 ) -> None:
-    _, a, _, _ = _setup(db)
+    _, a, _, _ = fx.two_fixture_area(db)
     r = client.post("/api/v1/burn-hours", json={"area_id": a.id, **row}, headers=writer)
     assert r.status_code == 422, r.text
     assert r.headers["content-type"].startswith("application/problem+json")
@@ -144,11 +131,11 @@ def test_bad_burn_hours_store_nothing(
 def test_counter_down_without_reset_and_unknown_targets(
     db: Session, client: TestClient, writer: dict[str, str]
 ) -> None:
-    _, _, _, fixtures = _setup(db)
+    _, _, _, fixtures = fx.two_fixture_area(db)
     f = fixtures[0]
-    ok = {"fixture_id": f.id, "read_at": _iso(0), "counter_hours": 500}
+    ok = {"fixture_id": f.id, "read_at": fx.iso_days(0), "counter_hours": 500}
     assert client.post("/api/v1/burn-hours", json=ok, headers=writer).status_code == 201
-    down = {"fixture_id": f.id, "read_at": _iso(1), "counter_hours": 400}
+    down = {"fixture_id": f.id, "read_at": fx.iso_days(1), "counter_hours": 400}
     r = client.post("/api/v1/burn-hours", json=down, headers=writer)
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "counter_hours"
     r = client.post(
@@ -159,13 +146,13 @@ def test_counter_down_without_reset_and_unknown_targets(
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "fixture_id"
     r = client.post(
         "/api/v1/voltage-readings",
-        json={"area_id": 999_999, "measured_at": _iso(0), "volts": 230},
+        json={"area_id": 999_999, "measured_at": fx.iso_days(0), "volts": 230},
         headers=writer,
     )
     assert r.status_code == 422
     r = client.post(
         "/api/v1/voltage-readings",
-        json={"fixture_id": f.id, "measured_at": _iso(0), "volts": -5},
+        json={"fixture_id": f.id, "measured_at": fx.iso_days(0), "volts": -5},
         headers=writer,
     )
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "volts"
@@ -176,7 +163,7 @@ def test_counter_down_without_reset_and_unknown_targets(
 def test_bulk_csv_is_all_or_nothing(
     db: Session, client: TestClient, writer: dict[str, str], reader: dict[str, str]
 ) -> None:
-    _, a, _, fixtures = _setup(db)
+    _, a, _, fixtures = fx.two_fixture_area(db)
     f = fixtures[0]
     good = "\n".join(
         ["fixture_id,area_id,day,hours,starts"]
@@ -210,7 +197,7 @@ def test_bulk_csv_is_all_or_nothing(
 def test_future_meter_reading_names_read_at(
     db: Session, client: TestClient, writer: dict[str, str]
 ) -> None:
-    _, _, _, fixtures = _setup(db)
+    _, _, _, fixtures = fx.two_fixture_area(db)
     rows = [
         {"fixture_id": fixtures[0].id, "read_at": "2999-01-01T00:00:00Z", "counter_hours": 5},
         {"fixture_id": fixtures[1].id, "day": "2999-01-01", "hours": 5},

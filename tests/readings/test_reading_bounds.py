@@ -11,8 +11,8 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
+from tests import factories as fx
 from tests.api.test_bad_input_tour import assert_problem, error_fields, table_counts
-from tests.readings.test_burn_hours import _iso, _setup
 
 
 @pytest.mark.parametrize("path", ["/api/v1/voltage-readings/bulk", "/api/v1/burn-hours/bulk"])
@@ -29,8 +29,8 @@ def test_empty_bulk_stores_nothing(
 def test_volts_out_of_range(
     client: TestClient, db: Session, writer: dict[str, str], volts: float
 ) -> None:
-    _, _, _, fixtures = _setup(db)
-    row = {"fixture_id": fixtures[0].id, "measured_at": _iso(1), "volts": volts}
+    _, _, _, fixtures = fx.two_fixture_area(db)
+    row = {"fixture_id": fixtures[0].id, "measured_at": fx.iso_days(1), "volts": volts}
     before = table_counts(db)
     one = client.post("/api/v1/voltage-readings", json=row, headers=writer)
     assert error_fields(assert_problem(one, 422)) == {"volts"}
@@ -45,7 +45,7 @@ def test_volts_out_of_range(
 def test_non_finite_hours(
     client: TestClient, db: Session, writer: dict[str, str], literal: str
 ) -> None:
-    _, _, _, fixtures = _setup(db)
+    _, _, _, fixtures = fx.two_fixture_area(db)
     raw = f'{{"fixture_id": {fixtures[0].id}, "day": "2025-01-02", "hours": {literal}}}'
     before = table_counts(db)
     r = client.post(

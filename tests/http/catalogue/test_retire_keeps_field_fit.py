@@ -11,7 +11,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.events.models import LampRemoval
-from tests.readings import factory as fx
+from tests import factories as fx
 
 N_FAILED = 12
 

@@ -10,7 +10,7 @@ from sqlalchemy.orm import Session
 
 from service.db.base import Base
 from service.register.models import Fixture, LampPosition
-from tests.readings import factory as fx
+from tests import factories as fx
 
 
 def _row_counts(db: Session) -> dict[str, int]:

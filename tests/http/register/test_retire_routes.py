@@ -9,7 +9,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.register.models import LampPosition
-from tests.readings import factory as fx
+from tests import factories as fx
 
 
 def _ids(client: TestClient, path: str, headers: dict[str, str], **params: object) -> set[int]:

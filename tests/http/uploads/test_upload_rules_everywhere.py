@@ -19,7 +19,7 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.readings.models import BurnHourRecord, VoltageReading
 from service.register.models import Fixture, LampPosition
-from tests.readings import factory as fx
+from tests import factories as fx
 
 ZONE = "Europe/Lisbon"  # UTC+1 in summer: a naive 12:00 there is 11:00 UTC
 

@@ -15,7 +15,7 @@ from sqlalchemy.orm import Session
 from service.readings.models import BurnHourRecord, VoltageReading
 from service.register.models import Area
 from service.uploads.write import Epoch, write_rows
-from tests.readings import factory as fx
+from tests import factories as fx
 
 AREAS: Table = Area.__table__  # type: ignore[assignment]
 BURN: Table = BurnHourRecord.__table__  # type: ignore[assignment]

@@ -13,7 +13,7 @@ from service.api.errors import Conflict
 from service.readings.burn_hours import BURN_UPLOAD, ingest_burn_hours
 from service.readings.models import BurnHourRecord
 from service.uploads.parse import RawBody, read_upload
-from tests.readings import factory as fx
+from tests import factories as fx
 
 
 @pytest.mark.postgres_only

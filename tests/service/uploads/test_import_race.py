@@ -14,7 +14,7 @@ from service.api.errors import Conflict
 from service.register.fixture_bulk import FIXTURE_UPLOAD, import_fixtures
 from service.register.models import Fixture
 from service.uploads.parse import RawBody, read_upload
-from tests.readings import factory as fx
+from tests import factories as fx
 
 
 @pytest.mark.postgres_only

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
+from datetime import UTC, datetime, timedelta
 from typing import Any
 
 from sqlalchemy.orm import Session
@@ -85,3 +85,18 @@ def fixtures(
         out.append(f)
     db.flush()
     return out
+
+
+def two_fixture_area(db: Session, **area_over: Any) -> tuple[Any, Any, Any, list[Any]]:
+    """A site, an area (area_over overrides), a lamp type, two fixtures of two lamps; committed."""
+    s = site(db)
+    a = area(db, s, **area_over)
+    lt = lamp_type(db)
+    fixtures_ = fixtures(db, a, lt, 2, lamps=2)
+    db.commit()
+    return s, a, lt, fixtures_
+
+
+def iso_days(days: float) -> str:
+    """T0 plus some days, as ISO 8601 with offset."""
+    return (T0 + timedelta(days=days)).isoformat()
