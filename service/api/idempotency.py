@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import logging
 import tempfile
 from collections.abc import Callable, Iterator
 from contextlib import AbstractContextManager, contextmanager
@@ -30,13 +31,15 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
-from service.api.errors import PROBLEM_MEDIA_TYPE
+from service.api.errors import PROBLEM_MEDIA_TYPE, busy_problem, is_busy_error
 from service.api.preconditions import install_precondition_handlers
 from service.config import get_settings
 from service.db.base import utcnow
 from service.db.session import begin_write, get_session, session_factory
 from service.idempotency.models import IdempotencyKey
 from service.keys import service as keys
+
+log = logging.getLogger(__name__)
 
 HEADER = "idempotency-key"
 METHODS = frozenset({"POST", "PUT", "PATCH", "DELETE"})
@@ -126,7 +129,13 @@ class IdempotencyMiddleware:
             return
         opener = self._opener(scope)
         run = anyio.to_thread.run_sync
-        api_key_id = await run(_api_key_id, opener, headers.get("authorization", ""))
+        try:
+            api_key_id = await run(_api_key_id, opener, headers.get("authorization", ""))
+        except Exception as exc:
+            if not is_busy_error(exc):
+                raise
+            await busy_problem(scope["path"], exc)(scope, receive, send)
+            return
         if api_key_id is None:  # the route answers 401 itself; nothing to remember
             await self.app(scope, receive, send)
             return
@@ -141,6 +150,12 @@ class IdempotencyMiddleware:
                 start, raw = _problem_message(scope["path"], exc)
                 await send(start)
                 await send({"type": "http.response.body", "body": raw})
+                return
+            except Exception as exc:
+                if not is_busy_error(exc):
+                    raise
+                # A lost or busy database while claiming: nothing ran, nothing is stored.
+                await busy_problem(scope["path"], exc)(scope, receive, send)
                 return
             if stored is not None:
                 await _replay(send, stored)
@@ -186,7 +201,13 @@ class IdempotencyMiddleware:
             for k, v in start.get("headers", [])
             if k.decode("latin-1").lower() in KEPT_HEADERS
         }
-        await anyio.to_thread.run_sync(finish, opener, ident, status, kept, b"".join(chunks))
+        try:
+            await anyio.to_thread.run_sync(finish, opener, ident, status, kept, b"".join(chunks))
+        except Exception as exc:
+            if not is_busy_error(exc):
+                raise
+            # The answer has gone out; the claim lapses after idempotency_inflight_s.
+            log.warning("could not store the answer for %s: %s", scope["path"], exc)
 
 
 async def _spool(receive: Receive, spool: Any) -> str:
