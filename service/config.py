@@ -17,7 +17,11 @@ class Settings(BaseSettings):
     database_url: str = "sqlite:///var/lampkeeper.sqlite3"
     host: str = "127.0.0.1"
     port: int = Field(default=8000, ge=1, le=65535)
-    log_level: str = "info"
+    log_level: str = Field(default="info", pattern="^(?i:debug|info|warning|error|critical)$")
+    # Log lines as JSON objects (one per line, for a log shipper) or plain text.
+    log_format: str = Field(default="json", pattern="^(json|text)$")
+    # /metrics without a key (for a scraper on a private network); else a read key.
+    metrics_public: bool = False
     # The weekly relamping run; off in tests and for one-off CLI commands.
     scheduler_enabled: bool = True
     # `lampkeeper serve` worker processes; None: the machine's cores on PostgreSQL, 1 on
@@ -57,6 +61,31 @@ class Settings(BaseSettings):
     # removal of that type refits at once (the cache key holds the removal counts); burn
     # hours of lamps still burning reach the fit within this bound.
     field_fit_cache_s: float = Field(default=30.0, ge=0, le=3600)
+    # Stock: weeks of lamp demand forecast, the cycle service level of reorder points and
+    # quantiles, and lamps broken in handling as a fraction of those fitted (common practice).
+    stock_horizon_weeks: int = Field(default=26, ge=1, le=104)
+    stock_service_level: float = Field(default=0.95, gt=0.5, lt=1.0)
+    stock_breakage_fraction: float = Field(default=0.02, ge=0.0, le=0.5)
+
+    # Change feed (service/changes): days a change is kept; a cursor older than that is 410.
+    change_retention_days: float = Field(default=30.0, gt=0, le=3650)
+    # Webhooks (service/webhooks): seconds between delivery passes of the scheduler.
+    webhook_poll_s: float = Field(default=5.0, gt=0, le=3600)
+    # Seconds a claimed delivery is leased to one worker; longer than the HTTP timeout.
+    webhook_lease_s: float = Field(default=60.0, gt=0, le=3600)
+    # Seconds allowed for one POST to a receiver (connect, write, read each).
+    webhook_timeout_s: float = Field(default=10.0, gt=0, le=300)
+    # Retry back-off: base * 2**(attempt-1) seconds, capped, with jitter; after
+    # webhook_give_up_s since the first attempt the delivery fails and the subscription pauses.
+    webhook_retry_base_s: float = Field(default=30.0, gt=0, le=86_400)
+    webhook_retry_cap_s: float = Field(default=3600.0, gt=0, le=86_400)
+    webhook_give_up_s: float = Field(default=86_400.0, gt=0, le=30 * 86_400)
+    # Deliveries claimed per pass.
+    webhook_batch: int = Field(default=50, ge=1, le=10_000)
+    # Targets on loopback (127.0.0.0/8, ::1) or private/link-local/reserved ranges are
+    # refused unless allowed here (a receiver on the same host or network).
+    webhook_allow_loopback: bool = False
+    webhook_allow_private: bool = False
 
 
 @lru_cache

@@ -108,7 +108,7 @@ def _burnout_interval(life: Weibull | RenewalCurve, share: float) -> float:
     return float(np.interp(share, life.cdf, life.t))  # F is non-decreasing
 
 
-def plan_block_replacement(
+def plan_block_replacement(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     life: Weibull | RenewalCurve,
     c_group: float,
     c_spot: float,
@@ -177,7 +177,7 @@ def plan_block_replacement(
     g_c = grid_cost[in_horizon]
 
     def cost(x: float) -> float:
-        return float((c_group + c_spot * curve.at(x)) / x)
+        return (c_group + c_spot * curve.at_scalar(float(x))) / x
 
     def minimise_up_to(limit: float) -> tuple[float, float, bool]:
         """Minimum of C over (0, limit]; flag True when it sits at the limit itself."""

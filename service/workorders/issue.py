@@ -21,27 +21,32 @@ from datetime import date, datetime, timedelta
 from functools import partial
 from typing import Any
 
-from sqlalchemy import insert, select, update
+from sqlalchemy import Table, insert, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
-from service.planning.engine import PlanCache
+from service.planning.group_plan import PlanCache
 from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site
+from service.uploads.write import write_rows
+from service.workorders import stock_hooks
 from service.workorders.models import (
     OPEN_STATES,
     WorkOrder,
     WorkOrderKind,
     WorkOrderLine,
+    WorkOrderState,
 )
 from service.workorders.repository import last_group_relamps
 from service.workorders.texts import LampContent, disposal_instructions, safety_cautions
 
 GROUP, SPOT = WorkOrderKind.GROUP_RELAMP, WorkOrderKind.SPOT_REPLACEMENT
 __all__ = ["GROUP", "OPEN_STATES", "SPOT", "IssueResult", "issue_orders"]
+
+_LINES: Table = WorkOrderLine.__table__  # type: ignore[assignment]
 
 
 @dataclass
@@ -239,7 +244,17 @@ def issue_orders(
             built.append((order, ls, [r.id for r in rs]))
     if built:
         _write(session, built, result, at, checkpoint)
+        if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
+            _reserve(session, site.id, [oid for oid, _, _ in result.created])
     return result
+
+
+def _reserve(session: Session, site_id: int, order_ids: list[int]) -> None:
+    """Reserve stocked lamps for orders just created issued (nothing when none are stocked)."""
+    if not order_ids or not stock_hooks.site_stocks_anything(session, site_id):
+        return
+    orders = session.scalars(select(WorkOrder).where(WorkOrder.id.in_(order_ids))).all()
+    stock_hooks.on_issued_many(session, orders)
 
 
 def _due_types(
@@ -353,7 +368,11 @@ def _write(
         for x in ls:
             x["work_order_id"] = oid
             flat.append(x)
-    session.execute(insert(WorkOrderLine), flat)
+    if flat:
+        # The bulk writer (COPY on PostgreSQL), not an ORM bulk insert: a 100,000-fixture
+        # weekly run writes tens of thousands of lines.
+        names = list(flat[0])
+        write_rows(session, _LINES, {k: [x[k] for x in flat] for k in names})
     for oid, (o, _, taken) in zip(ids, built, strict=True):
         if taken:
             reports.take_for_order(session, taken, oid, at=at)

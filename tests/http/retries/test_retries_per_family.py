@@ -15,7 +15,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from service.db.base import Base, utcnow
-from service.events import service as events
+from service.events import burnouts as events
 from service.events.models import LampRemoval
 from tests.readings import factory as fx
 
