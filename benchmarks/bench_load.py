@@ -100,6 +100,8 @@ def prepare(url: str, workdir: Path) -> tuple[dict[str, str], str]:
         "LAMPKEEPER_DATABASE_URL": url,
         "LAMPKEEPER_SCHEDULER_ENABLED": "false",
         "LAMPKEEPER_LOG_LEVEL": "warning",
+        # Serve this checkout's code, whatever the console script was installed from.
+        "PYTHONPATH": str(ROOT),
     }
     run([LAMPKEEPER, "migrate"], env)
     run([LAMPKEEPER, "demo", "load", "--key-file", str(workdir / "demo-key.txt")], env)
@@ -113,11 +115,13 @@ def free_port() -> int:
         return int(s.getsockname()[1])
 
 
+WORKERS = 1  # worker processes of the served app (--workers)
+
+
 def start_server(env: dict[str, str], port: int) -> subprocess.Popen[bytes]:
     """Start `lampkeeper serve` and wait until /healthz answers."""
-    proc = subprocess.Popen(
-        [LAMPKEEPER, "serve", "--host", "127.0.0.1", "--port", str(port)], env=env, cwd=ROOT
-    )
+    cmd = [LAMPKEEPER, "serve", "--host", "127.0.0.1", "--port", str(port)]
+    proc = subprocess.Popen([*cmd, "--workers", str(WORKERS)], env=env, cwd=ROOT)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:
         try:
@@ -351,10 +355,17 @@ def bench(label: str, url: str, clients: int, seconds: float) -> bool:
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--clients", type=int, default=50)
-    parser.add_argument("--seconds", type=float, default=60.0)
+    parser.add_argument("--seconds", "--duration", type=float, default=60.0, dest="seconds")
+    parser.add_argument("--quick", action="store_true", help="10 clients for 10 s (a smoke run)")
+    parser.add_argument("--workers", type=int, default=1, help="server worker processes")
     parser.add_argument("--db", default="sqlite,postgresql", help="sqlite, postgresql or both")
     parser.add_argument("--pg-url", default=DEFAULT_PG)
     args = parser.parse_args()
+    if args.quick:
+        args.clients, args.seconds = 10, 10.0
+    global WORKERS
+    WORKERS = args.workers
+    print(f"{args.clients} clients, {args.seconds:.0f} s, {WORKERS} worker(s)")
     ok = True
     for db in args.db.split(","):
         if db == "sqlite":

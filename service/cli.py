@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
@@ -72,15 +73,45 @@ def cmd_serve(args: argparse.Namespace) -> int:
             print(
                 f"  try: curl -H 'Authorization: Bearer {key}' http://{host}:{port}/api/v1/fixtures\n"
             )
-    uvicorn.run(
-        "service.main:create_app",
-        factory=True,
-        host=host,
-        port=port,
-        log_level=settings.log_level.lower(),
-        access_log=False,  # service.api.observe writes one JSON line per request instead
-    )
+    workers = worker_count(args.workers, settings.workers, settings.database_url)
+    if workers > 1 and settings.database_url.startswith("sqlite"):
+        print("--workers above 1 needs PostgreSQL: SQLite serves from one process.")
+        return 2
+    scheduler = None
+    if workers > 1:
+        # The scheduler runs here, in the supervisor, once; the workers (spawned, so they
+        # read the environment afresh) serve requests only. The weekly-run lock still
+        # keeps other replicas from running a site's week twice.
+        os.environ["LAMPKEEPER_SCHEDULER_ENABLED"] = "false"
+        if settings.scheduler_enabled:
+            from service.scheduling.scheduler import start_scheduler
+
+            scheduler = start_scheduler()
+    try:
+        uvicorn.run(
+            "service.main:create_app",
+            factory=True,
+            host=host,
+            port=port,
+            workers=workers,
+            log_level=settings.log_level.lower(),
+            access_log=False,  # service.api.observe writes one JSON line per request instead
+        )
+    finally:
+        if scheduler is not None:
+            scheduler.shutdown()
     return 0
+
+
+def worker_count(asked: int | None, configured: int | None, database_url: str) -> int:
+    """Worker processes: --workers, else LAMPKEEPER_WORKERS, else cores (PostgreSQL) or 1."""
+    if asked is not None:
+        return asked
+    if configured is not None:
+        return configured
+    if database_url.startswith("sqlite"):
+        return 1
+    return max(1, os.cpu_count() or 1)
 
 
 def cmd_keys_create(args: argparse.Namespace) -> int:
@@ -128,6 +159,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--host")
     p.add_argument("--port", type=int)
     p.add_argument("--print-demo-key", action="store_true", help="print the demo admin key")
+    p.add_argument(
+        "--workers",
+        type=int,
+        choices=range(1, 65),
+        metavar="N",
+        help="worker processes (default: cores on PostgreSQL, 1 on SQLite)",
+    )
     p.set_defaults(func=cmd_serve)
 
     keys = sub.add_parser("keys", help="manage API keys").add_subparsers(

@@ -24,6 +24,10 @@ class Settings(BaseSettings):
     metrics_public: bool = False
     # The weekly relamping run; off in tests and for one-off CLI commands.
     scheduler_enabled: bool = True
+    # `lampkeeper serve` worker processes; None: the machine's cores on PostgreSQL, 1 on
+    # SQLite (SQLite serves from one process). With more than one, the scheduler runs once,
+    # in the supervising process.
+    workers: int | None = Field(default=None, ge=1, le=64)
     # Where the Alembic migrations live; by default the source tree's migrations/ (set it
     # when the package is installed away from the source tree).
     migrations_dir: str | None = None
@@ -49,6 +53,14 @@ class Settings(BaseSettings):
     # Weekly-run lease (seconds): refreshed every third of it; a run not refreshed that long
     # counts as dead (its process stopped) and is reaped as failed.
     run_lease_seconds: float = Field(default=120.0, gt=0, le=86_400)
+    # Seconds a key found active is trusted without asking the database again (0: ask
+    # every time). A revoke clears it in the revoking process at once; other worker
+    # processes may accept the revoked key for at most this long.
+    key_cache_s: float = Field(default=5.0, ge=0, le=300)
+    # Seconds a lamp type's field-fit curve is reused (0: refit every time). A new lamp
+    # removal of that type refits at once (the cache key holds the removal counts); burn
+    # hours of lamps still burning reach the fit within this bound.
+    field_fit_cache_s: float = Field(default=30.0, ge=0, le=3600)
     # Stock: weeks of lamp demand forecast, the cycle service level of reorder points and
     # quantiles, and lamps broken in handling as a fraction of those fitted (common practice).
     stock_horizon_weeks: int = Field(default=26, ge=1, le=104)

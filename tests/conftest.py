@@ -20,7 +20,9 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.health import alembic_config
 from service.db.session import get_job_factory, get_session, make_engine
+from service.forecasting.fit_cache import cache as fit_cache
 from service.keys import service as keys_service
+from service.keys.cache import cache as key_cache
 from service.main import create_app
 
 
@@ -54,6 +56,16 @@ def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item
     for item in items:
         if "postgres_only" in item.keywords:
             item.add_marker(skip)
+
+
+@pytest.fixture(autouse=True)
+def _fresh_caches() -> Iterator[None]:
+    """Each test starts without cached keys or field fits (ids repeat across rollbacks)."""
+    key_cache.clear()
+    fit_cache.clear()
+    yield
+    key_cache.clear()
+    fit_cache.clear()
 
 
 @pytest.fixture(scope="session")

@@ -6,7 +6,8 @@ For every path under /api/v1, before anything parses the query or the body:
   and the query string is blanked out of the scope so the access log never shows it;
 - a missing, unknown or revoked Bearer key is refused with 401, so a caller without a
   key learns nothing about a route's parameters (scopes stay in the route dependencies);
-  the key is looked up in a short read transaction of its own.
+  the key is looked up in a short read transaction of its own, or found in the key
+  cache (service/keys/cache.py: trusted for ``key_cache_s`` seconds) without a thread hop.
 
 For every path, a body longer than ``max_body_bytes`` is refused with 413: at once when
 its Content-Length says so, else while it streams in (the receive channel counts bytes),
@@ -104,7 +105,7 @@ class GateMiddleware:
         # wait here, holding neither a connection nor a worker thread, so a request that
         # holds SQLite's write lock always gets the thread it needs to finish.
         async with self._semaphore():
-            if _is_api(path):
+            if _is_api(path) and not _cached_pass(scope):
                 # The lookup blocks on the pool and the database: never on the event loop.
                 refusal = await anyio.to_thread.run_sync(self._refusal, scope)
                 if refusal is not None:
@@ -141,9 +142,9 @@ class GateMiddleware:
         token = bearer_token(scope)
         if token is None:
             return _unauthorized(path, "Send an API key as 'Authorization: Bearer <key>'.")
+        app = scope.get("app")
         try:
-            with short_session(scope.get("app"), write=False) as session:
-                key = keys.find_active(session, token)
+            key = keys.active_key(lambda: short_session(app, write=False), token)
         except Exception as exc:
             if is_busy_error(exc):
                 return busy_problem(path, exc)
@@ -180,6 +181,17 @@ class GateMiddleware:
             if started:
                 raise
             await _too_large(scope["path"], limit)(scope, receive, send)
+
+
+def _cached_pass(scope: Scope) -> bool:
+    """True when the request has no key in its query and a key the cache holds as active."""
+    if scope.get("query_string") and any(
+        k.lower() in KEY_PARAMS
+        for k, _ in parse_qsl(scope["query_string"].decode("latin-1"), keep_blank_values=True)
+    ):
+        return False
+    token = bearer_token(scope)
+    return token is not None and keys.cached_key(token) is not None
 
 
 def _unauthorized(path: str, detail: str) -> ASGIApp:

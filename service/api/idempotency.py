@@ -1,4 +1,4 @@
-"""Idempotency-Key on POST /api/v1/...: a pure ASGI middleware replaying stored answers.
+"""Idempotency-Key on POST/PUT/PATCH/DELETE /api/v1/...: a pure ASGI middleware replaying answers.
 
 Per (API key, method, path, Idempotency-Key) the first request claims a row in
 ``idempotency_keys`` (the unique constraint decides between concurrent requests) in its
@@ -8,19 +8,23 @@ is a 422; while the first is still running it is a 409. A claim whose process di
 abandoned after ``idempotency_inflight_s`` and the next retry runs again. 5xx answers and
 4xx that may change on retry (401, 403, 408, 425, 429) are not stored: the claim is dropped.
 The request body is spooled (memory, then a temporary file) while it is hashed, so a
-large upload is held once and replayed to the route in chunks.
+large upload is held once and replayed to the route in chunks. Every database step runs in
+a worker thread (anyio.to_thread), never on the event loop, so a slow claim or a busy
+database holds up only its own request.
 """
 
 from __future__ import annotations
 
 import hashlib
 import json
+import logging
 import tempfile
 from collections.abc import Callable, Iterator
 from contextlib import AbstractContextManager, contextmanager
 from datetime import timedelta
 from typing import Any
 
+import anyio.to_thread
 from fastapi import FastAPI
 from sqlalchemy import delete, select
 from sqlalchemy.exc import IntegrityError
@@ -28,7 +32,7 @@ from sqlalchemy.orm import Session
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from service.api import request_id
-from service.api.errors import PROBLEM_MEDIA_TYPE
+from service.api.errors import PROBLEM_MEDIA_TYPE, busy_problem, is_busy_error
 from service.api.preconditions import install_precondition_handlers
 from service.config import get_settings
 from service.db.base import utcnow
@@ -36,7 +40,10 @@ from service.db.session import begin_write, get_session, session_factory
 from service.idempotency.models import IdempotencyKey
 from service.keys import service as keys
 
+log = logging.getLogger(__name__)
+
 HEADER = "idempotency-key"
+METHODS = frozenset({"POST", "PUT", "PATCH", "DELETE"})
 KEPT_HEADERS = ("location", "content-type", "etag")
 NOT_FINAL = frozenset({401, 403, 408, 425, 429})
 SPOOL_IN_MEMORY = 1 << 20  # bytes of body kept in memory before spilling to disk
@@ -114,8 +121,8 @@ class IdempotencyMiddleware:
         return open_session
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
-        """Pass through everything but POSTs under the prefix that carry the header."""
-        if scope["type"] != "http" or scope["method"] != "POST":
+        """Pass through everything but writes under the prefix that carry the header."""
+        if scope["type"] != "http" or scope["method"] not in METHODS:
             await self.app(scope, receive, send)
             return
         headers = {k.decode("latin-1").lower(): v.decode("latin-1") for k, v in scope["headers"]}
@@ -124,7 +131,14 @@ class IdempotencyMiddleware:
             await self.app(scope, receive, send)
             return
         opener = self._opener(scope)
-        api_key_id = _api_key_id(opener, headers.get("authorization", ""))
+        run = anyio.to_thread.run_sync
+        try:
+            api_key_id = await run(_api_key_id, opener, headers.get("authorization", ""))
+        except Exception as exc:
+            if not is_busy_error(exc):
+                raise
+            await busy_problem(scope["path"], exc)(scope, receive, send)
+            return
         if api_key_id is None:  # the route answers 401 itself; nothing to remember
             await self.app(scope, receive, send)
             return
@@ -134,11 +148,17 @@ class IdempotencyMiddleware:
             try:
                 if not key.strip() or len(key) > MAX_KEY_LENGTH:
                     raise Problem(422, "Invalid value", "Idempotency-Key must be 1-255 characters.")
-                stored = claim(opener, ident, digest)
+                stored = await run(claim, opener, ident, digest)
             except Problem as exc:
                 start, raw = _problem_message(scope["path"], exc)
                 await send(start)
                 await send({"type": "http.response.body", "body": raw})
+                return
+            except Exception as exc:
+                if not is_busy_error(exc):
+                    raise
+                # A lost or busy database while claiming: nothing ran, nothing is stored.
+                await busy_problem(scope["path"], exc)(scope, receive, send)
                 return
             if stored is not None:
                 await _replay(send, stored)
@@ -173,18 +193,24 @@ class IdempotencyMiddleware:
         try:
             await self.app(scope, replay_receive, capture_send)
         except BaseException:
-            release(opener, ident)
+            await anyio.to_thread.run_sync(release, opener, ident)
             raise
         status = int(start.get("status", 500))
         if status >= 500 or status in NOT_FINAL:
-            release(opener, ident)
+            await anyio.to_thread.run_sync(release, opener, ident)
             return
         kept = {
             k.decode("latin-1").lower(): v.decode("latin-1")
             for k, v in start.get("headers", [])
             if k.decode("latin-1").lower() in KEPT_HEADERS
         }
-        finish(opener, ident, status, kept, b"".join(chunks))
+        try:
+            await anyio.to_thread.run_sync(finish, opener, ident, status, kept, b"".join(chunks))
+        except Exception as exc:
+            if not is_busy_error(exc):
+                raise
+            # The answer has gone out; the claim lapses after idempotency_inflight_s.
+            log.warning("could not store the answer for %s: %s", scope["path"], exc)
 
 
 async def _spool(receive: Receive, spool: Any) -> str:
@@ -216,9 +242,8 @@ def _api_key_id(opener: SessionOpener, authorization: str) -> int | None:
     scheme, _, token = authorization.partition(" ")
     if scheme.lower() != "bearer" or not token.strip():
         return None
-    with opener() as session:
-        key = keys.find_active(session, token.strip())
-        return None if key is None else key.id
+    key = keys.active_key(opener, token.strip())
+    return None if key is None else key.id
 
 
 def _where(ident: tuple[Any, ...]) -> Any:

@@ -18,12 +18,14 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from sqlalchemy import func, select
+from sqlalchemy import case, func, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.lamp_model import LampModel
 from service.catalogue.resolved import CurveInUse, TypeTable, build_table, catalogue_models
+from service.config import get_settings
 from service.events.models import LampRemoval
+from service.forecasting.fit_cache import cache as fit_cache
 from service.readings.ages import position_ages
 from service.reliability.fitting import (
     CurveChoice,
@@ -131,19 +133,28 @@ def fit_field(
 
 
 def curves_in_use(session: Session, models: dict[int, LampModel]) -> dict[int, CurveInUse]:
-    """The curve each lamp type's forecasts use (all sites); catalogue without failures."""
+    """The curve each lamp type's forecasts use (all sites); catalogue without failures.
+
+    Reused from the fit cache (forecasting/fit_cache.py) while the type's removals are
+    unchanged and the entry is younger than `field_fit_cache_s`.
+    """
+    failed = func.sum(case((LampRemoval.failed.is_(True), 1), else_=0))
     rows = list(
         session.execute(
-            select(LampRemoval.lamp_type_id, func.count())
-            .where(LampRemoval.lamp_type_id.in_(list(models)), LampRemoval.failed.is_(True))
+            select(LampRemoval.lamp_type_id, failed, func.count(), func.max(LampRemoval.id))
+            .where(LampRemoval.lamp_type_id.in_(list(models)))
             .group_by(LampRemoval.lamp_type_id)
         ).all()
     )
-    counts = {int(r[0]): int(r[1]) for r in rows}
+    ttl = get_settings().field_fit_cache_s
     out: dict[int, CurveInUse] = {}
-    for type_id, n in counts.items():
-        if n > 0:
-            out[int(type_id)] = fit_field(session, models[int(type_id)], int(type_id)).curve
+    for type_id, n_failed, n_all, newest in rows:
+        if not n_failed:
+            continue
+        tid, model = int(type_id), models[int(type_id)]
+        # Any new removal of this type changes the counts or the newest id: a new key.
+        key = (tid, repr(model), int(n_failed), int(n_all), int(newest))
+        out[tid] = fit_cache.curve(key, ttl, lambda: fit_field(session, model, tid).curve)  # noqa: B023
     return out
 
 

@@ -10,7 +10,9 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict, NotFound
+from service.config import get_settings
 from service.db.base import utcnow
+from service.keys.cache import ActiveKey, SessionOpener, cache
 from service.keys.models import ApiKey
 from service.keys.usage import recorder
 
@@ -54,6 +56,32 @@ def find_active(session: Session, presented: str) -> ApiKey | None:
     return row
 
 
+def cached_key(presented: str) -> ActiveKey | None:
+    """The key if the cache holds it as active (no database: safe on the event loop)."""
+    ttl = get_settings().key_cache_s
+    hit = cache.get(digest(presented), ttl) if ttl > 0 else None
+    if hit is not None:
+        recorder.note(hit.id)
+    return hit
+
+
+def active_key(opener: SessionOpener, presented: str) -> ActiveKey | None:
+    """The active key for a presented secret: from the key cache, else one read."""
+    hit = cached_key(presented)
+    if hit is not None:
+        return hit
+    ttl = get_settings().key_cache_s
+    d = digest(presented)
+    with opener() as session:
+        row = find_active(session, presented)
+        if row is None:
+            return None
+        key = ActiveKey(id=row.id, name=row.name, scope=row.scope)
+    if ttl > 0:
+        cache.put(d, key)
+    return key
+
+
 def list_keys(session: Session) -> Sequence[ApiKey]:
     """All keys, oldest first."""
     return session.scalars(select(ApiKey).order_by(ApiKey.id)).all()
@@ -67,4 +95,5 @@ def revoke_key(session: Session, key_id: int) -> ApiKey:
     if row.revoked_at is None:
         row.revoked_at = utcnow()
     session.flush()
+    cache.forget(row.id)  # this process refuses it at once; others within key_cache_s
     return row
