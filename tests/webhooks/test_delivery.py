@@ -59,7 +59,7 @@ def add_sites(factory: sessionmaker[Session], *names: str) -> None:
 def deliver_until(worker: Deliverer, rec: Receiver, n: int, **kw: Any) -> None:
     """Run passes until the receiver got `n` POSTs (PostgreSQL shows a commit once every
     older transaction of the cluster finished, so the first pass may see nothing)."""
-    deadline = time.monotonic() + 20
+    deadline = time.monotonic() + 60
     while len(rec.got) < n and time.monotonic() < deadline:
         worker.run_pass(**kw)
         if len(rec.got) < n:
@@ -68,8 +68,8 @@ def deliver_until(worker: Deliverer, rec: Receiver, n: int, **kw: Any) -> None:
 
 
 def queue(factory: sessionmaker[Session], n: int) -> int:
-    """Fan out (no delivery) until `n` deliveries are queued or 20 s pass; how many were."""
-    deadline, queued = time.monotonic() + 20, 0
+    """Fan out (no delivery) until `n` deliveries are queued or 60 s pass; how many were."""
+    deadline, queued = time.monotonic() + 60, 0
     while queued < n and time.monotonic() < deadline:
         with factory() as s:
             begin_write(s)
