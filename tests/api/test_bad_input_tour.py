@@ -641,6 +641,35 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
         ),
         set(),
     ),
+    # The change feed and webhooks
+    (
+        "feed cursor that is not one",
+        422,
+        lambda c, h, w: c.get("/api/v1/changes", params={"after": "zzz"}, headers=h),
+        {"after"},
+    ),
+    (
+        "feed filter on an unknown type",
+        422,
+        lambda c, h, w: c.get("/api/v1/changes", params={"types": "lamp"}, headers=h),
+        {"types"},
+    ),
+    (
+        "webhook to a private address",
+        422,
+        lambda c, h, w: c.post("/api/v1/webhooks", json={"url": "http://10.0.0.8/hook"}, headers=h),
+        {"url"},
+    ),
+    (
+        "webhook with an unknown type",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/webhooks",
+            json={"url": "https://93.184.216.34/hook", "types": ["lamp"]},
+            headers=h,
+        ),
+        {"types.0"},
+    ),
 ]
 
 

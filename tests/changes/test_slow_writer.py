@@ -50,10 +50,10 @@ def read_all(
 ) -> tuple[list[Any], str | None]:
     """Every site change visible after a cursor, and the cursor to continue from.
 
-    With `at_least`, polls (up to 20 s) until that many arrived: on PostgreSQL a commit
+    With `at_least`, polls (up to 60 s) until that many arrived: on PostgreSQL a commit
     shows once every older transaction of the cluster (any database) has finished.
     """
-    deadline = time.monotonic() + 20
+    deadline = time.monotonic() + 60
     items, cursor = _read_all(client, headers, after)
     while len(items) < at_least and time.monotonic() < deadline:
         time.sleep(0.2)
@@ -109,7 +109,7 @@ def test_slow_writer_is_not_skipped(
         first, after = read_all(live, live_admin, after)
         if not slow_first:
             # Visible once every older transaction of the cluster has finished: poll.
-            deadline = time.monotonic() + 20
+            deadline = time.monotonic() + 60
             while not first and time.monotonic() < deadline:
                 time.sleep(0.2)
                 first, after = read_all(live, live_admin, after)
