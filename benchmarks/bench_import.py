@@ -158,7 +158,7 @@ def run_http(url: str, data: bytes) -> float:
     get_engine.cache_clear()
     engine = make_engine(url)
     with Session(engine) as s:
-        _, secret = keys.create_key(s, "bench", "write")
+        _, secret = keys.create_key(s, f"bench-{time.monotonic_ns()}", "write")  # one per repeat
         s.commit()
     engine.dispose()
     with TestClient(create_app(start_scheduler=False)) as client:
