@@ -6,7 +6,8 @@ is GET /api/v1/forecasts/sites/{id} through FastAPI's TestClient on a fresh app:
 the position ages, fleet evaluation, per-position renewal and crossing dates. Scratch
 databases only (bench_forecast), never the test database.
 
-Run: python benchmarks/bench_forecast.py [sqlite|postgresql|both]
+Run: python benchmarks/bench_forecast.py [sqlite|postgresql|both] [--sizes 5000,50000] [--quick]
+P6: 100,000 positions (target <= 1 s); P8: the same at the other sizes (growth).
 """
 
 from __future__ import annotations
@@ -17,8 +18,12 @@ import tempfile
 import time
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
+from typing import Any
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from _table import Table, parser
 
 PG_ADMIN = "postgresql+psycopg://postgres@127.0.0.1:5432/postgres"
 PG_URL = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_forecast"
@@ -176,8 +181,10 @@ def load(url: str) -> tuple[int, str]:
     return site_id, secret
 
 
-def run(label: str, url: str) -> None:
-    """Load, then time the site forecast through the API."""
+def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target: str) -> None:
+    """Load, then time the site forecast through the API (median of repeats)."""
+    global N_FIXTURES
+    N_FIXTURES = fixtures
     t = time.perf_counter()
     prepare(url)
     site_id, key = load(url)
@@ -194,35 +201,55 @@ def run(label: str, url: str) -> None:
     client = TestClient(create_app(start_scheduler=False))
     headers = {"Authorization": f"Bearer {key}"}
     at = "2026-01-01T00:00:00+00:00"
-    times = []
-    for _ in range(RUNS):
-        t = time.perf_counter()
+    answers: list[Any] = []
+
+    def call() -> None:
         r = client.get(
             f"/api/v1/forecasts/sites/{site_id}",
             params={"horizon_weeks": 13, "at": at},
             headers=headers,
         )
-        times.append(time.perf_counter() - t)
         assert r.status_code == 200, r.text
-    body = r.json()
+        answers.append(r)
+
+    positions = N_FIXTURES * LAMPS
+    table.timed(
+        "P6" if positions == 100_000 else "P8",
+        f"site forecast via API, {positions:,} positions, {label}",
+        call,
+        repeats=repeats,
+        target=target if positions == 100_000 else "linear growth",
+    )
+    body = answers[-1].json()
     s = body["summary"]
     print(
-        f"[{label}] GET /forecasts/sites/{site_id}: best {min(times):.2f} s, "
-        f"runs {', '.join(f'{x:.2f}' for x in times)} s; positions {s['positions']:,}, "
-        f"expected burnouts (13 weeks) {s['expected_burnouts_spot']:.0f}, "
-        f"areas {len(body['areas'])}"
+        f"[{label}] positions {s['positions']:,}, expected burnouts (13 weeks) "
+        f"{s['expected_burnouts_spot']:.0f}, areas {len(body['areas'])}"
     )
     get_engine().dispose()
+    get_engine.cache_clear()
 
 
-def main() -> None:
-    which = sys.argv[1] if len(sys.argv) > 1 else "both"
-    if which in ("sqlite", "both"):
-        with tempfile.TemporaryDirectory() as tmp:
-            run("sqlite", f"sqlite:///{tmp}/bench_forecast.sqlite3")
-    if which in ("postgresql", "both"):
-        run("postgresql", PG_URL)
+def main() -> int:
+    """Print and write the rows (P6 at 100,000 positions; P8 growth at smaller sizes)."""
+    ap = parser(__doc__, default_repeats=RUNS)
+    ap.add_argument("db", nargs="?", default="both", choices=["sqlite", "postgresql", "both"])
+    ap.add_argument("--sizes", default="5000,50000", help="fixtures per run (2 lamps each)")
+    args = ap.parse_args()
+    sizes = [200] if args.quick else [int(x) for x in args.sizes.split(",")]
+    repeats = 1 if args.quick else args.repeats
+    which = "sqlite" if args.quick and args.db == "both" else args.db
+    table = Table("bench_forecast", args.quick)
+    for n in sizes:
+        if which in ("sqlite", "both"):
+            with tempfile.TemporaryDirectory() as tmp:
+                url = f"sqlite:///{tmp}/bench_forecast.sqlite3"
+                run("sqlite", url, table, n, repeats, "<= 1 s")
+        if which in ("postgresql", "both"):
+            run("postgresql", PG_URL, table, n, repeats, "<= 1 s")
+    table.finish(args.json)
+    return 0
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())

@@ -1,7 +1,9 @@
 """Fixture import speed: 100,000 fixtures (1-4 lamps each) from CSV into SQLite and PostgreSQL.
 
 Run: .venv/bin/python benchmarks/bench_import.py [--rows 100000] [--pg URL] [--scratch NAME]
-[--no-pg] [--http]
+[--no-pg] [--quick] [--repeats N]
+P4: POST /api/v1/fixtures/import (test client) against a raw COPY (PostgreSQL) or
+executemany (SQLite) of the very rows the import stored, into the same tables, interleaved.
 Each database is fresh and migrated first. The timed part is the service call the API uses
 (read_upload + import_fixtures + commit); --http also times the same upload through the
 HTTP endpoint with a test client. Target: at most 20 s per database on 2 cores.
@@ -11,9 +13,9 @@ the server in --pg.
 
 from __future__ import annotations
 
-import argparse
 import io
 import random
+import statistics
 import sys
 import tempfile
 import time
@@ -26,6 +28,10 @@ from sqlalchemy.orm import Session
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import _rawcopy  # noqa: E402
+from _table import Row, Table, parser  # noqa: E402
 
 from service.catalogue.models import LampType  # noqa: E402
 from service.db.session import make_engine  # noqa: E402
@@ -152,7 +158,7 @@ def run_http(url: str, data: bytes) -> float:
     get_engine.cache_clear()
     engine = make_engine(url)
     with Session(engine) as s:
-        _, secret = keys.create_key(s, "bench", "write")
+        _, secret = keys.create_key(s, f"bench-{time.monotonic_ns()}", "write")  # one per repeat
         s.commit()
     engine.dispose()
     with TestClient(create_app(start_scheduler=False)) as client:
@@ -189,43 +195,63 @@ def pg_scratch(server_url: str, name: str, create: bool) -> str:
     return make_url(server_url).set(database=name).render_as_string(hide_password=False)
 
 
+TABLES = ["fixtures", "lamp_positions"]
+
+
+def bench_db(kind: str, url: str, data: bytes, rows: int, repeats: int, table: Table) -> None:
+    """Interleave: import through the API, then the raw insert of the rows it stored."""
+    migrate(url)
+    seed(url)
+    api: list[float] = []
+    raw: list[float] = []
+    lamps = 0
+    for _ in range(repeats):
+        _rawcopy.clear(url, TABLES)
+        api.append(run_http(url, data))
+        snap = _rawcopy.snapshot(url, TABLES)
+        lamps = len(snap["lamp_positions"][1])
+        assert len(snap["fixtures"][1]) == rows, "the import did not store every fixture"
+        _rawcopy.clear(url, TABLES)
+        raw.append(_rawcopy.raw_insert(url, snap))
+    way = "COPY" if kind == "postgresql" else "executemany"
+    fig, anc = statistics.median(api), statistics.median(raw)
+    table.add(
+        Row(
+            "P4",
+            f"fixture import via API, {rows:,} fixtures + {lamps:,} lamps, {kind}",
+            fig,
+            f"raw {way} of the same rows",
+            anc,
+            repeats,
+            ">= 50% of raw (ratio <= 2); <= 5 s",
+            note=f"{(rows + lamps) / fig:,.0f} rows/s",
+        )
+    )
+
+
 def main() -> int:
     """Generate the CSV, import it into fresh SQLite and PostgreSQL databases, print figures."""
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap = parser(__doc__, default_repeats=3)
     ap.add_argument("--rows", type=int, default=100_000)
     ap.add_argument("--pg", default="postgresql+psycopg://postgres@127.0.0.1:5432/postgres")
     ap.add_argument("--scratch", default="bench_import", help="scratch database name")
     ap.add_argument("--no-pg", action="store_true", help="skip PostgreSQL")
-    ap.add_argument("--http", action="store_true", help="also time the HTTP endpoint")
     args = ap.parse_args()
-
-    data, lamps = make_csv(args.rows)
-    print(f"CSV: {args.rows:,} fixtures, {lamps:,} lamps, {len(data) / 1e6:.1f} MB")
-    targets: list[tuple[str, str]] = []
+    rows = 300 if args.quick else args.rows
+    repeats = 1 if args.quick else args.repeats
+    data, lamps = make_csv(rows)
+    print(f"CSV: {rows:,} fixtures, {lamps:,} lamps, {len(data) / 1e6:.1f} MB")
+    table = Table("bench_import", args.quick)
     with tempfile.TemporaryDirectory() as tmp:
-        targets.append(("sqlite", f"sqlite:///{tmp}/bench.sqlite3"))
-        if not args.no_pg:
-            targets.append(("postgresql", ""))
-        worst = 0.0
-        for kind, url in targets:
-            for mode in ("service", "http") if args.http else ("service",):
-                if kind == "sqlite":
-                    url = f"sqlite:///{tmp}/bench-{mode}.sqlite3"
-                else:
-                    url = pg_scratch(args.pg, args.scratch, create=True)
-                try:
-                    migrate(url)
-                    seed(url)
-                    if mode == "service":
-                        dt, n, k = run_service(url, data)
-                    else:
-                        dt, n, k = run_http(url, data), args.rows, lamps
-                    report(f"{kind} ({mode})", dt, n, k)
-                    worst = max(worst, dt)
-                finally:
-                    if kind == "postgresql":
-                        pg_scratch(args.pg, args.scratch, create=False)
-    return 0 if worst <= 20 else 1
+        bench_db("sqlite", f"sqlite:///{tmp}/bench.sqlite3", data, rows, repeats, table)
+    if not args.no_pg:
+        url = pg_scratch(args.pg, args.scratch, create=True)
+        try:
+            bench_db("postgresql", url, data, rows, repeats, table)
+        finally:
+            pg_scratch(args.pg, args.scratch, create=False)
+    table.finish(args.json)
+    return 0
 
 
 if __name__ == "__main__":

@@ -17,7 +17,6 @@ The PostgreSQL database is emptied (schema public dropped) first: give a scratch
 
 from __future__ import annotations
 
-import argparse
 import os
 import random
 import socket
@@ -37,6 +36,11 @@ import numpy as np
 from sqlalchemy import create_engine, text
 
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from _table import Row, Table  # noqa: E402
+from _table import parser as table_parser  # noqa: E402
+
 LAMPKEEPER = str(Path(sys.executable).with_name("lampkeeper"))
 DEFAULT_PG = "postgresql+psycopg://postgres@127.0.0.1:5432/test_edge"
 # Share of each kind of request in the mix (reads dominate, as in a maintenance office).
@@ -312,7 +316,7 @@ def check(url: str, tally: Tally) -> list[str]:
     return problems
 
 
-def bench(label: str, url: str, clients: int, seconds: float) -> bool:
+def bench(label: str, url: str, clients: int, seconds: float, table: Table | None = None) -> bool:
     """Prepare, serve, load and check one database; True when every check passed."""
     with tempfile.TemporaryDirectory() as tmp:
         env, key = prepare(url, Path(tmp))
@@ -334,6 +338,20 @@ def bench(label: str, url: str, clients: int, seconds: float) -> bool:
             proc.terminate()
             proc.wait(timeout=30)
         report(label, tally, seconds)
+        if table is not None:
+            total = sum(len(v) for v in tally.latency.values())
+            for kind in MIX:
+                lat = np.array(tally.latency.get(kind, []))
+                if lat.size:
+                    table.add(
+                        Row(
+                            "-",
+                            f"{label} {kind}, p50 of {lat.size}, {clients} clients",
+                            float(np.percentile(lat, 50)),
+                            note=f"p99 {np.percentile(lat, 99) * 1000:.0f} ms; "
+                            f"all kinds {total / seconds:.0f} req/s",
+                        )
+                    )
         problems = check(url, tally)
         created = {k: len(v) for k, v in tally.created.items()}
         print(f"201 writes: {created}; completes: {len(tally.completed)}")
@@ -353,29 +371,30 @@ def bench(label: str, url: str, clients: int, seconds: float) -> bool:
 
 
 def main() -> int:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser = table_parser(__doc__)
     parser.add_argument("--clients", type=int, default=50)
     parser.add_argument("--seconds", "--duration", type=float, default=60.0, dest="seconds")
-    parser.add_argument("--quick", action="store_true", help="10 clients for 10 s (a smoke run)")
     parser.add_argument("--workers", type=int, default=1, help="server worker processes")
     parser.add_argument("--db", default="sqlite,postgresql", help="sqlite, postgresql or both")
     parser.add_argument("--pg-url", default=DEFAULT_PG)
     args = parser.parse_args()
     if args.quick:
-        args.clients, args.seconds = 10, 10.0
+        args.clients, args.seconds, args.db = 4, 3.0, "sqlite"
     global WORKERS
     WORKERS = args.workers
     print(f"{args.clients} clients, {args.seconds:.0f} s, {WORKERS} worker(s)")
+    table = Table("bench_load", args.quick)
     ok = True
     for db in args.db.split(","):
         if db == "sqlite":
             with tempfile.TemporaryDirectory() as tmp:
                 url = f"sqlite:///{Path(tmp) / 'bench.sqlite3'}"
-                ok &= bench("SQLite", url, args.clients, args.seconds)
+                ok &= bench("SQLite", url, args.clients, args.seconds, table)
         elif db == "postgresql":
-            ok &= bench("PostgreSQL", args.pg_url, args.clients, args.seconds)
+            ok &= bench("PostgreSQL", args.pg_url, args.clients, args.seconds, table)
         else:
             parser.error(f"unknown database {db}")
+    table.finish(args.json)
     return 0 if ok else 1
 
 

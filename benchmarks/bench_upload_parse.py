@@ -10,7 +10,6 @@ reader when it is installed (it is not a dependency), for the record of why pyar
 
 from __future__ import annotations
 
-import argparse
 import io
 import statistics
 import sys
@@ -24,6 +23,7 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import bench_burn_upload  # noqa: E402
 import bench_import  # noqa: E402
+from _table import Table, parser  # noqa: E402
 
 from service.readings.burn_hours import BURN_UPLOAD  # noqa: E402
 from service.register.fixture_bulk import FIXTURE_UPLOAD  # noqa: E402
@@ -63,12 +63,15 @@ def polars_columns(data: bytes) -> object:
 
 
 def main() -> int:
-    """Print one line per reader and file."""
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    """Print and write one row per reader and file."""
+    ap = parser(__doc__, default_repeats=3)
     ap.add_argument("--rows", type=int, default=1_000_000)
     args = ap.parse_args()
-    burn = bench_burn_upload.csv_body(list(range(1, 10_001)), args.rows)
-    fixtures, _ = bench_import.make_csv(100_000)
+    rows = 2_000 if args.quick else args.rows
+    repeats = 1 if args.quick else args.repeats
+    table = Table("bench_upload_parse", args.quick)
+    burn = bench_burn_upload.csv_body(list(range(1, 10_001)), max(rows, 10_000))
+    fixtures, _ = bench_import.make_csv(500 if args.quick else 100_000)
     try:
         import polars  # noqa: F401
 
@@ -76,17 +79,29 @@ def main() -> int:
     except ImportError:
         have_polars = False
     for label, data, spec in (
-        (f"burn hours, {args.rows:,} rows", burn, BURN_UPLOAD),
-        ("fixtures, 100,000 rows", fixtures, FIXTURE_UPLOAD),
+        (f"burn hours, {max(rows, 10_000):,} rows", burn, BURN_UPLOAD),
+        (f"fixtures, {500 if args.quick else 100_000:,} rows", fixtures, FIXTURE_UPLOAD),
     ):
-        print(f"{label} ({len(data) / 1e6:.0f} MB):")
-        pipeline = median_s(lambda d=data, s=spec: read_upload(RawBody(d, "text/csv"), s))
-        slow = median_s(lambda d=data, s=spec: csv_module_only(d, s))
-        print(f"  pipeline (pyarrow reader)  {pipeline:6.2f} s")
-        print(f"  csv module only            {slow:6.2f} s  ({slow / pipeline:.1f}x the pipeline)")
+        table.timed(
+            "-",
+            f"upload parse (pyarrow reader), {label}",
+            lambda d=data, s=spec: read_upload(RawBody(d, "text/csv"), s),
+            anchor="csv module only (quoted files' path)",
+            anchor_fn=lambda d=data, s=spec: csv_module_only(d, s),
+            repeats=repeats,
+            warmup=0,
+        )
         if have_polars:
-            pl_s = median_s(lambda d=data: polars_columns(d))
-            print(f"  polars reader              {pl_s:6.2f} s")
+            table.timed(
+                "-",
+                f"polars reader to the same text columns, {label}",
+                lambda d=data: polars_columns(d),
+                anchor="pipeline (pyarrow reader)",
+                anchor_fn=lambda d=data, s=spec: read_upload(RawBody(d, "text/csv"), s),
+                repeats=repeats,
+                warmup=0,
+            )
+    table.finish(args.json)
     return 0
 
 

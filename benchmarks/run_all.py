@@ -1,6 +1,6 @@
 """Run every bench script in its own process and print one table (`make bench`).
 
-Run: python benchmarks/run_all.py [--quick] [--only NAME,...] [--skip NAME,...] [-- ARGS]
+Run: python benchmarks/run_all.py [--quick] [--only NAME,...] [--skip NAME,...] [--repeats N]
 Each script writes var/bench/<script>.json; the merged table goes to var/bench/latest.json
 (the file the README names), so a later change can be compared with it. A script that
 fails is listed with its exit status and the others still run.
@@ -33,6 +33,7 @@ def main() -> int:
     ap.add_argument("--only", default="", help="comma-separated script names (bench_x)")
     ap.add_argument("--skip", default="", help="comma-separated script names to leave out")
     ap.add_argument("--out", type=Path, default=LATEST)
+    ap.add_argument("--repeats", type=int, default=None, help="passed to every script")
     args = ap.parse_args()
     only = {s for s in args.only.split(",") if s}
     skip = {s for s in args.skip.split(",") if s}
@@ -45,6 +46,7 @@ def main() -> int:
         out = BENCH_DIR / f"{name}.json"
         out.unlink(missing_ok=True)
         cmd = [sys.executable, str(path), "--json", str(out)] + (["--quick"] if args.quick else [])
+        cmd += ["--repeats", str(args.repeats)] if args.repeats else []
         print(f"=== {name}", flush=True)
         rc = subprocess.call(cmd, cwd=HERE.parent)
         if rc != 0 or not out.exists():

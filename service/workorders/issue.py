@@ -21,7 +21,7 @@ from datetime import date, datetime, timedelta
 from functools import partial
 from typing import Any
 
-from sqlalchemy import Table, insert, select, update
+from sqlalchemy import Table, case, insert, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
@@ -142,23 +142,28 @@ def _busy_areas(session: Session, site_id: int) -> dict[int, int]:
     return {a: o for a, o in session.execute(stmt).all()}
 
 
-def cover_spot_orders(session: Session, group_order_id: int, area_id: int, at: datetime) -> None:
-    """Let a new group order cover the area's open spot orders (one crew visit, not two)."""
-    session.execute(
-        update(WorkOrder)
-        .where(
-            WorkOrder.area_id == area_id,
-            WorkOrder.kind == SPOT,
-            WorkOrder.state.in_(OPEN_STATES),
-            WorkOrder.covered_by_order_id.is_(None),
+def cover_spot_orders(session: Session, group_orders: dict[int, int], at: datetime) -> None:
+    """Let new group orders (area id -> order id) cover their areas' open spot orders."""
+    areas = sorted(group_orders)
+    for i in range(0, len(areas), 1000):  # keep IN lists and CASE bounded
+        chunk = areas[i : i + 1000]
+        session.execute(
+            update(WorkOrder)
+            .where(
+                WorkOrder.area_id.in_(chunk),
+                WorkOrder.kind == SPOT,
+                WorkOrder.state.in_(OPEN_STATES),
+                WorkOrder.covered_by_order_id.is_(None),
+            )
+            .values(
+                covered_by_order_id=case(
+                    {a: group_orders[a] for a in chunk}, value=WorkOrder.area_id
+                ),
+                updated_at=at,
+                version=WorkOrder.version + 1,  # Core UPDATE: bump the ORM's version by hand
+            )
+            .execution_options(synchronize_session="fetch")  # loaded spot orders see it
         )
-        .values(
-            covered_by_order_id=group_order_id,
-            updated_at=at,
-            version=WorkOrder.version + 1,  # Core UPDATE: bump the ORM's version by hand
-        )
-        .execution_options(synchronize_session="fetch")  # loaded spot orders see it
-    )
 
 
 def _existing(session: Session, site_id: int, iso_week: str | None) -> set[tuple[int, str]]:
@@ -373,12 +378,15 @@ def _write(
         # weekly run writes tens of thousands of lines.
         names = list(flat[0])
         write_rows(session, _LINES, {k: [x[k] for x in flat] for k in names})
+    groups: dict[int, int] = {}
     for oid, (o, _, taken) in zip(ids, built, strict=True):
         if taken:
             reports.take_for_order(session, taken, oid, at=at)
         if o["kind"] == GROUP:
-            cover_spot_orders(session, oid, o["area_id"], at)
+            groups.setdefault(o["area_id"], oid)  # one group order per area and run
         result.created.append((oid, o["area_id"], o["kind"]))
+    # One UPDATE for every area, not one per group order (one crew visit, not two).
+    cover_spot_orders(session, groups, at)
 
 
 def _position_numbers(session: Session, ids: list[int]) -> dict[int, int]:
