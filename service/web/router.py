@@ -13,7 +13,7 @@ from service.api.auth import SessionDep
 from service.api.errors import DomainError
 from service.db.base import utcnow
 from service.planning import service as planning
-from service.planning.present import area_plan_read
+from service.planning.plan_bodies import area_plan_read
 from service.planning.service import WEEKS_PER_YEAR
 from service.register.models import Site
 from service.users import service as users
@@ -249,10 +249,10 @@ def report_send(
 ) -> Response:
     """Record the burnout through the events service, then confirm."""
     check_post(visitor, csrf_token, "report_burnout")
-    from service.events import service as events
+    from service.events import burnouts
 
     try:
-        report = events.report_burnout(
+        report = burnouts.report_burnout(
             session,
             position_id=position_id,
             reported_at=utcnow(),
