@@ -8,8 +8,8 @@ import numpy as np
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
-from service.forecasting.ahead import expected_replacements
 from service.forecasting.fit import load_fitted_types
+from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import position_ages
 from service.reliability.fleet import evaluate_fleet
 from service.web import charts
