@@ -2,7 +2,7 @@
 
 The figure: stock.forecast's arithmetic on a synthetic fleet (3 lamp types, ages spread
 over a life, a group relamp planned for a third of the positions): cumulative expected spot
-replacements at 27 week boundaries (per-position delayed renewal, forecasting.ahead), the
+replacements at 27 week boundaries (per-position delayed renewal, forecasting.spot_replacements), the
 new-lamp curves after the group relamp, and the weekly Poisson-binomial mean, variance and
 95 % quantile per lamp type (normal path). The anchor, in the same run: a plain numpy
 computation over the same grid, the conditional Weibull failure probabilities
@@ -23,7 +23,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from _table import Table, parser
 
-from service.forecasting.ahead import expected_replacements
+from service.forecasting.spot_replacements import expected_replacements
 from service.reliability.renewal import weibull_renewal
 from service.stock import demand
 

@@ -17,7 +17,11 @@ class Settings(BaseSettings):
     database_url: str = "sqlite:///var/lampkeeper.sqlite3"
     host: str = "127.0.0.1"
     port: int = Field(default=8000, ge=1, le=65535)
-    log_level: str = "info"
+    log_level: str = Field(default="info", pattern="^(?i:debug|info|warning|error|critical)$")
+    # Log lines as JSON objects (one per line, for a log shipper) or plain text.
+    log_format: str = Field(default="json", pattern="^(json|text)$")
+    # /metrics without a key (for a scraper on a private network); else a read key.
+    metrics_public: bool = False
     # The weekly relamping run; off in tests and for one-off CLI commands.
     scheduler_enabled: bool = True
     # Where the Alembic migrations live; by default the source tree's migrations/ (set it

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import logging
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
@@ -15,6 +14,9 @@ from service.api.guard import check_request
 from service.api.health import router as health_router
 from service.api.home import router as home_router
 from service.api.idempotency import install_retries
+from service.api.metrics import install_metrics
+from service.api.observe import configure_logging, install_observe
+from service.api.openapi import install_openapi, operation_id
 from service.catalogue.router import router as catalogue_router
 from service.changes.router import router as changes_router
 from service.config import get_settings
@@ -68,7 +70,7 @@ async def lifespan(app: FastAPI) -> AsyncIterator[None]:
 def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     """Build the application."""
     settings = get_settings()
-    logging.basicConfig(level=settings.log_level.upper())
+    configure_logging(settings)
     app = FastAPI(
         title="LampKeeper",
         version=__version__,
@@ -81,16 +83,22 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
             "and licensed practice."
         ),
         lifespan=lifespan,
+        docs_url=None,  # served offline by install_openapi
+        redoc_url=None,
+        generate_unique_id_function=operation_id,
     )
     app.state.start_scheduler = (
         settings.scheduler_enabled if start_scheduler is None else start_scheduler
     )
     install_error_handlers(app)
     install_retries(app)
-    install_gate(app)  # added last, so it runs first: key check and body limit before all
+    install_gate(app)  # key check and body limit before all but the request id
+    install_observe(app)  # added last, so it runs first: X-Request-ID, metrics, access log
     app.include_router(health_router)
     app.include_router(home_router)
     for router in DOMAIN_ROUTERS:
         app.include_router(router, prefix=API_PREFIX, dependencies=[Depends(check_request)])
     install_web(app)  # the pages for people (service/web)
+    install_openapi(app)  # the document, /docs and /redoc (offline)
+    install_metrics(app)  # GET /metrics (Prometheus)
     return app

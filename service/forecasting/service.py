@@ -8,7 +8,7 @@ lamp's voltage response follows its fixture's ballast kind, see catalogue.resolv
 - P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
   hours w with the area's burn rate (schedule, else measured);
 - expected burnouts with spot replacement over the horizon: per-position delayed renewal
-  from the lamp's current age (forecasting.ahead); a dark position counts as a new lamp
+  from the lamp's current age (forecasting.spot_replacements); a dark position counts as a new lamp
   going in now;
 - lumen fraction now (dark = 0) and at the horizon end (dark positions relamped), each
   the lamp lumen depreciation at the age times the voltage light factor;
@@ -33,8 +33,8 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
-from service.forecasting.ahead import expected_replacements
 from service.forecasting.fit import load_fitted_types
+from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
 from service.reliability.fleet import FleetResult, evaluate_fleet

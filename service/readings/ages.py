@@ -14,7 +14,7 @@ Method (all vectorised; a handful of queries whatever the number of positions):
   (each reading holds until the next one; the last one before the lamp went in counts from
   the install), "readings_weighted"; else the latest reading, "latest_reading"; else the
   fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
-  A fixture's own readings win over its area's. The readings part is in voltages.py.
+  A fixture's own readings win over its area's. The readings part is in operating_voltage.py.
 - Ballast: the fixture's ballast kind (Fixture.ballast_kind), read as a code in the same
   query; catalogue.resolved decides which ballast the lamp actually runs on.
 """
@@ -32,9 +32,9 @@ from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
 from service.readings.models import BurnHourRecord
-from service.readings.sql import epoch, float_matrix, target_keys
+from service.readings.operating_voltage import reading_voltages
+from service.readings.repository import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock, Timeline
-from service.readings.voltages import reading_voltages
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.reliability.technologies import BALLASTS
 
@@ -117,7 +117,7 @@ def empty_ages(at: datetime) -> PositionAges:
     )
 
 
-def position_ages(
+def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     *,
     site_id: int | None = None,

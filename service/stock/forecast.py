@@ -19,9 +19,9 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.config import get_settings
 from service.db.base import utcnow
-from service.forecasting.ahead import expected_replacements
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import evaluate_positions
+from service.forecasting.spot_replacements import expected_replacements
 from service.planning.service import AreaPlan, LastRelamps, local_today, site_plans
 from service.readings.ages import position_ages
 from service.register.models import Site
@@ -139,7 +139,7 @@ def position_cumulative(
         n, h1
     )
     # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
-    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.ahead).
+    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
     after = np.zeros((n, h1))
     u = win.reshape(n, h1) / scale[:, None]
     for kk in np.unique(k[gw < weeks]).tolist():

@@ -27,7 +27,7 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
-from service.planning.engine import PlanCache
+from service.planning.group_plan import PlanCache
 from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site

@@ -17,11 +17,11 @@ from sqlalchemy.orm import Session, object_session
 from sqlalchemy.orm.exc import StaleDataError
 
 from service.api.errors import Conflict, Invalid, NotFound
+from service.api.lookups import refuse_taken_reference
 from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
-from service.events import reports
-from service.events import service as events
+from service.events import removals, reports
 from service.register.models import Area, LampPosition, Site
 from service.workorders import stock_hooks
 from service.workorders.issue import GROUP, SPOT, issue_orders
@@ -184,6 +184,9 @@ def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now:
 def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
     """Change the external reference, notes or due date (any state)."""
     order = lock_order(session, order_id)
+    refuse_taken_reference(
+        session, WorkOrder, body.external_reference, "Work order", exclude_id=order_id
+    )
     apply_patch(order, body)
     order.updated_at = utcnow()
     flush_order(session, order)
@@ -193,6 +196,7 @@ def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
 def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
     """A draft order for one area: all its fixtures (group) or its open burnouts (spot)."""
     area = get_or_404(session, Area, body.area_id, "area")
+    refuse_taken_reference(session, WorkOrder, body.external_reference, "Work order")
     site = session.get(Site, area.site_id)
     assert site is not None
     # The weekly run takes the same lock: hand-made and scheduled orders never interleave.
@@ -367,7 +371,7 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
         (burning_positions, False, "group_relamp"),  # a removal reason, not a kind
     ):
         if group:
-            events.record_removals(
+            removals.record_removals(
                 session, group, removed_at=at, failed=failed, reason=reason, work_order_id=order.id
             )
     if to_close:
