@@ -119,6 +119,41 @@ Call = Callable[[TestClient, dict[str, str], dict[str, Any]], Response]
 
 # (name, status, call, field names the errors must include)
 CASES: list[tuple[str, int, Call, set[str]]] = [
+    # Stock and budget
+    (
+        "stock movement of a negative quantity",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/storerooms/1/movements",
+            json={"lamp_type_id": w["lamp"], "kind": "received", "quantity": -3},
+            headers=h,
+        ),
+        {"quantity"},
+    ),
+    (
+        "stock movement of an order-only kind",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/storerooms/1/movements",
+            json={"lamp_type_id": w["lamp"], "kind": "reserved", "quantity": 3},
+            headers=h,
+        ),
+        {"kind"},
+    ),
+    (
+        "stock line with a zero pack size",
+        422,
+        lambda c, h, w: c.put(
+            f"/api/v1/storerooms/1/stock/{w['lamp']}", json={"pack_size": 0}, headers=h
+        ),
+        {"pack_size"},
+    ),
+    (
+        "budget in a reporting currency without a rate",
+        422,
+        lambda c, h, w: c.post("/api/v1/budget", json={"reporting_currency": "JPY"}, headers=h),
+        {"rates"},
+    ),
     # Wrong types
     (
         "site voltage as text",
