@@ -11,6 +11,10 @@ evaluated per type, by grouping positions with numpy indexing):
   [published: Nelson, *Accelerated Testing*]);
 - survival S(a) = exp(-(a/eta_i)^beta); conditional failure within the horizon w:
   1 - S(a + w)/S(a) [Weibull, see weibull.py];
+- with a history (exposure.ExposureHistory: burn-hour segments at known voltages) the age
+  is accumulated instead: rated age a_r = sum dt_j / f(V_j) + uncovered hours / f_now
+  (cumulative exposure [published: Nelson, *Accelerated Testing*]), S = exp(-(a_r/eta_k)^beta)
+  and the horizon adds w / f_now; the switching factor of every segment is the position's;
 - lumen fraction = LLD(a) x voltage light factor; for curves in fractions of rated life the
   life used is the effective B50 life eta_i (ln 2)^(1/beta) (rated life taken as the median);
 - expected failures within the horizon, no replacement: sum of the conditional failure
@@ -29,6 +33,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from service.reliability.conditions import switching_life_factor, voltage_factors
+from service.reliability.exposure import ExposureHistory, accumulated_exposure
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
@@ -235,6 +240,8 @@ class FleetResult:
     expected_failures_horizon: float  # no-replacement expectation
     light_factor: FloatArray  # voltage light factor alone
     life_h: FloatArray  # effective median (B50) life, hours
+    rated_age_h: FloatArray  # rated-condition-equivalent age (cumulative exposure), hours
+    effective_age_h: FloatArray  # the age at today's conditions doing the same wear, hours
 
 
 def evaluate_fleet(
@@ -244,8 +251,14 @@ def evaluate_fleet(
     voltage: ArrayLike,
     hours_per_start: ArrayLike,
     horizon_h: ArrayLike,
+    *,
+    history: ExposureHistory | None = None,
 ) -> FleetResult:
-    """Evaluate N lamp positions at once (voltage NaN = rated; hours_per_start NaN = rated)."""
+    """Evaluate N lamp positions at once (voltage NaN = rated; hours_per_start NaN = rated).
+
+    voltage is the supply from now on; history (segments by row) gives the past supply,
+    accumulated as exposure; rows without segments burned at `voltage` throughout.
+    """
     k = np.asarray(type_index)
     if k.size == 0:
         k = k.astype(np.intp)
@@ -289,9 +302,17 @@ def evaluate_fleet(
     life_factor = life_v * sw
     beta = types.shape[k]
     eta = types.scale_h[k] * life_factor
+    if history is not None and history.size:
+        if history.position.max() >= n:
+            raise ValueError("history rows out of range of the fleet")
+        rated_age = _rated_age(types, k, age, life_factor, sw, history)
+        eff_age = rated_age * life_factor
+    else:
+        eff_age = age
+        rated_age = age / life_factor
     # log S at age and at age + horizon, computed once each (see weibull.log_sf).
-    log_s_age = -np.power(age / eta, beta)
-    log_s_end = -np.power((age + horizon) / eta, beta)
+    log_s_age = -np.power(eff_age / eta, beta)
+    log_s_end = -np.power((eff_age + horizon) / eta, beta)
     survival = np.exp(log_s_age)
     p_fail = -np.expm1(log_s_end - log_s_age)
     life_h = eta * types.b50_factor[k]
@@ -305,9 +326,13 @@ def evaluate_fleet(
         idx = order[bounds[j] : bounds[j + 1]]
         if idx.size == 0:
             continue
-        lh = life_h[idx] if curve.basis == "rated_life_fraction" else None
-        lld_age[idx] = curve.at(age[idx], lh)
-        lld_end[idx] = curve.at(end_age[idx], lh)
+        if curve.basis == "rated_life_fraction":  # filament: fraction of the life used
+            lh = life_h[idx]
+            lld_age[idx] = curve.at(eff_age[idx], lh)
+            lld_end[idx] = curve.at(eff_age[idx] + horizon[idx], lh)
+        else:
+            lld_age[idx] = curve.at(age[idx], None)
+            lld_end[idx] = curve.at(end_age[idx], None)
 
     return FleetResult(
         life_factor=life_factor,
@@ -322,4 +347,38 @@ def evaluate_fleet(
         expected_failures_horizon=float(p_fail.sum()),
         light_factor=light_v,
         life_h=life_h,
+        rated_age_h=rated_age,
+        effective_age_h=eff_age,
     )
+
+
+def _rated_age(
+    types: LampTypeTable,
+    k: IntArray,
+    age: FloatArray,
+    life_factor: FloatArray,
+    switching: FloatArray,
+    history: ExposureHistory,
+) -> FloatArray:
+    """Cumulative exposure of each row: its segments' hours / f(V), the rest at today's f."""
+    n = age.size
+    row = history.position
+    ks = k[row]
+    rated_v = types.rated_voltage[ks]
+    ratio = np.where(np.isnan(history.voltage), 1.0, history.voltage / rated_v)
+    life_seg, _, _, _ = voltage_factors(
+        ratio,
+        types.life_exponent[ks],
+        types.light_exponent[ks],
+        types.power_exponent[ks],
+        types.ballast_gain[ks],
+        types.is_filament[ks],
+        band=types.voltage_band[ks],
+        life_ratio_floor=types.life_ratio_floor[ks],
+        driver_min_ratio=types.driver_min_v[ks] / rated_v,
+        driver_max_ratio=types.driver_max_v[ks] / rated_v,
+    )
+    exposure = accumulated_exposure(row, history.hours, life_seg * switching[row], n)
+    covered = history.covered_hours(n)
+    rest = np.maximum(age - covered, 0.0)
+    return exposure + rest / life_factor
