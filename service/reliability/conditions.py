@@ -18,6 +18,11 @@ Formulas and sources:
   i.e. flat [memory]/[practice]). ASSUMPTION of this module (no single source): life and
   light follow lamp power by power laws, life x P^-n_life and light x P^light_exponent, with
   the technology's exponents. Power factor is P itself.
+- Discharge lamps below rated voltage get no life credit: the life factor is capped at 1.0
+  for r < 1 (under-powered arc tubes and cathodes start poorly, wear their electrodes and
+  shift colour [practice]); below the ballast's band (reactor 5 %, regulating 10 %) the
+  position carries a supply-fault warning (supply_fault), to fix at the supply or ballast
+  tap. Over-voltage shortens life as above.
 - LED drivers hold output flat inside their input range [practice]; outside it the fixture
   is flagged and nothing is extrapolated (all factors 1.0).
 - Switching [practice]: fluorescent rated life is quoted at about 3 burn hours per start;
@@ -116,6 +121,8 @@ def voltage_factors(
     # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
     life_base = np.where(filament, np.fmax(r, floor), p_lamp)
     life = np.power(life_base, -n_life)
+    # Under-powered discharge lamps: no life credit (a supply fault, not a bonus).
+    life = np.where(~filament & (r < 1.0), np.minimum(life, 1.0), life)
     light = np.power(base, k_light)
     power = np.where(filament, np.power(base, m_power), p_lamp)
 
@@ -129,6 +136,20 @@ def voltage_factors(
     below_floor = filament & (r < floor)
     out = np.where(has_range, outside_range, out_band) | below_floor
     return life, light, power, np.asarray(out, dtype=bool)
+
+
+def supply_fault(
+    voltage_ratio: ArrayLike,
+    ballast_gain: ArrayLike,
+    is_filament: ArrayLike,
+    *,
+    band: ArrayLike = 0.10,
+) -> BoolArray:
+    """Discharge lamps on a ballast that passes line changes through, below its band."""
+    r = _arr(voltage_ratio)
+    gain = _arr(ballast_gain)
+    discharge = ~np.asarray(is_filament, dtype=bool) & ~np.isnan(gain) & (gain > 0)
+    return np.asarray(discharge & (r < 1.0 - _arr(band) - _BAND_TOL), dtype=bool)
 
 
 def voltage_effect(
@@ -208,6 +229,12 @@ def voltage_effect(
         warnings.append(
             f"supply is {pct:+.1f}% from rated voltage, outside the +/-{bnd * 100:g}% band "
             f"for {kind}; figures are extrapolated"
+        )
+    if bool(supply_fault(one(ratio), one(g), np.array([d.is_filament]), band=one(bnd))[0]):
+        warnings.append(
+            f"supply fault: {voltage:g} V is {-pct:.1f}% below rated on a {ballast} ballast; "
+            "an under-powered discharge lamp starts poorly, wears its electrodes and shifts "
+            "colour: no life credit taken; check the supply or the ballast tap"
         )
     if d.is_filament and not math.isnan(floor) and ratio < floor:
         warnings.append(

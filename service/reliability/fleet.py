@@ -15,6 +15,8 @@ evaluated per type, by grouping positions with numpy indexing):
   is accumulated instead: rated age a_r = sum dt_j / f(V_j) + uncovered hours / f_now
   (cumulative exposure [published: Nelson, *Accelerated Testing*]), S = exp(-(a_r/eta_k)^beta)
   and the horizon adds w / f_now; the switching factor of every segment is the position's;
+- discharge lamps below rated voltage: life factor capped at 1 (conditions.py), and a
+  supply-fault flag below the ballast's band (warn_supply_fault);
 - lumen fraction = LLD(a) x voltage light factor; for curves in fractions of rated life the
   life used is the effective B50 life eta_i (ln 2)^(1/beta) (rated life taken as the median);
 - expected failures within the horizon, no replacement: sum of the conditional failure
@@ -32,7 +34,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from service.reliability.conditions import switching_life_factor, voltage_factors
+from service.reliability.conditions import supply_fault, switching_life_factor, voltage_factors
 from service.reliability.exposure import ExposureHistory, accumulated_exposure
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.technologies import (
@@ -241,6 +243,7 @@ class FleetResult:
     light_factor: FloatArray  # voltage light factor alone
     life_h: FloatArray  # effective median (B50) life, hours
     rated_age_h: FloatArray  # rated-condition-equivalent age (cumulative exposure), hours
+    warn_supply_fault: BoolArray  # discharge lamp below its ballast's band (no life credit)
     effective_age_h: FloatArray  # the age at today's conditions doing the same wear, hours
 
 
@@ -349,6 +352,9 @@ def evaluate_fleet(
         life_h=life_h,
         rated_age_h=rated_age,
         effective_age_h=eff_age,
+        warn_supply_fault=supply_fault(
+            ratio, types.ballast_gain[k], types.is_filament[k], band=types.voltage_band[k]
+        ),
     )
 
 
