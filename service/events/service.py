@@ -3,8 +3,9 @@
 One observation per lamp: a burnout report writes the failure record (LampRemoval with
 failed=True, reason "burnout") at the lamp's age when reported; the later replacement of
 that dark lamp (record_removal) reuses that record instead of writing a second one.
-Normalised hours = burn hours x acceleration factor, the acceleration factor being
-1 / life factor (voltage x switching, service.reliability.fleet): rated-condition hours.
+Normalised hours = rated-condition hours: the lamp's wear accumulated over its supply
+history (service.reliability.exposure, sum of dt / life factor), not the hours at the mean
+voltage.
 Services flush; the caller's transaction commits.
 """
 
@@ -33,7 +34,7 @@ from service.events.reports import close_open_for_positions
 from service.readings.ages import position_ages
 from service.register.history import refuse_retired
 from service.register.models import Fixture, LampPosition
-from service.reliability.fleet import evaluate_fleet
+from service.reliability.fleet import FleetResult, FloatArray, evaluate_fleet
 
 # Positions evaluated per query batch in record_removals.
 _BATCH = 5000
@@ -63,6 +64,7 @@ def _observations(
         ages.voltage_v,
         ages.hours_per_start,
         0.0,
+        history=ages.history,
     )
     rows = []
     for i in range(ages.size):
@@ -79,8 +81,8 @@ def _observations(
                 burn_hours=hours,
                 starts=float(ages.starts[i]),
                 operating_voltage_v=float(ages.voltage_v[i]),
-                # x acceleration factor 1 / life factor
-                normalised_hours=hours / float(res.life_factor[i]),
+                # accumulated exposure (a reported figure scaled by the same ratio)
+                normalised_hours=hours * _rated_per_hour(res, ages.age_h, i),
                 failed=bool(failed),
                 reason=reason,
                 work_order_id=work_order_id,
@@ -88,6 +90,14 @@ def _observations(
             )
         )
     return rows
+
+
+def _rated_per_hour(res: FleetResult, age_h: FloatArray, i: int) -> float:
+    """Rated-condition hours per burn hour of row i: exposure / age (1 / life factor at 0)."""
+    age = float(age_h[i])
+    if age > 0:
+        return float(res.rated_age_h[i]) / age
+    return 1.0 / float(res.life_factor[i])
 
 
 def _observe(

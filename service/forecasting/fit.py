@@ -88,8 +88,9 @@ def field_data(
             ages.voltage_v[live],
             ages.hours_per_start[live],
             0.0,
+            history=ages.history.take(live, ages.size),
         )
-        t_live = ages.age_h[live] / res.life_factor
+        t_live = res.rated_age_h  # wear accumulated over the supply history
     times = np.concatenate((t_rem, t_live))
     failed = np.concatenate((f_rem, np.zeros(t_live.size, dtype=bool)))
     return FieldData(times, failed, int(t_rem.size), int(t_live.size))

@@ -4,7 +4,9 @@ Per position (numeric core: service.reliability.fleet.evaluate_fleet, with each 
 type's curve chosen by the field fit, see catalogue.resolved / forecasting.fit; a discharge
 lamp's voltage response follows its fixture's ballast kind, see catalogue.resolved):
 
-- survival now: S(age) of the lamp in the socket (0 for a dark position);
+- survival now: S(age) of the lamp in the socket (0 for a dark position), the age
+  accumulated over the past supply as exposure (readings.ages history; the supply ahead is
+  the readings' burn-hour-weighted mean);
 - P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
   hours w with the area's burn rate (schedule, else measured);
 - expected burnouts with spot replacement over the horizon: per-position delayed renewal
@@ -115,8 +117,17 @@ def evaluate_positions(
     dark = ages.burned_out
     age = np.where(dark, 0.0, ages.age_h)
     horizon_h = horizon_weeks * ages.burn_h_per_week
-    res = evaluate_fleet(types.table, k, age, ages.voltage_v, ages.hours_per_start, horizon_h)
-    ahead = expected_replacements(types.table.shape, k, res.scale_h, age, horizon_h)
+    # Wear accumulated over the past supply (cumulative exposure); dark = a new lamp now.
+    res = evaluate_fleet(
+        types.table,
+        k,
+        age,
+        ages.voltage_v,
+        ages.hours_per_start,
+        horizon_h,
+        history=ages.history.drop_rows(dark),
+    )
+    ahead = expected_replacements(types.table.shape, k, res.scale_h, res.effective_age_h, horizon_h)
     return PositionForecast(
         ages=ages,
         fleet=res,

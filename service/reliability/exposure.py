@@ -77,6 +77,14 @@ class ExposureHistory:
         keep = (self.position < n_rows) & (new[np.minimum(self.position, n_rows - 1)] >= 0)
         return ExposureHistory(new[self.position[keep]], self.hours[keep], self.voltage[keep])
 
+    def drop_rows(self, rows_mask: ArrayLike) -> ExposureHistory:
+        """The same history without the segments of the masked rows (row numbers kept)."""
+        mask = np.asarray(rows_mask, dtype=bool)
+        if self.size == 0:
+            return self
+        keep = ~mask[self.position]
+        return ExposureHistory(self.position[keep], self.hours[keep], self.voltage[keep])
+
     def covered_hours(self, n_rows: int) -> FloatArray:
         """Burn hours covered by segments, per row."""
         got = np.bincount(self.position, weights=self.hours, minlength=n_rows)[:n_rows]
