@@ -11,7 +11,7 @@ Services flush; the caller's transaction commits.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from datetime import datetime
 
 from sqlalchemy import select
@@ -214,11 +214,15 @@ def record_removals(
     failed: bool | Sequence[bool],
     reason: str,
     work_order_id: int | None = None,
+    found_dark_since: Mapping[int, datetime] | None = None,
 ) -> list[LampRemoval]:
     """record_removal for many positions at once (a group relamp): a few queries in all.
 
     Dark positions keep their one failure record, as in record_removal; the others get one
     observation each at their age at removed_at. Every position restarts at zero.
+    found_dark_since maps positions found dark without a report to the last time they were
+    known burning: their failure is interval-censored, failed after the normalised age then
+    (failed_after_normalised_hours) and by the age at removed_at.
     """
     check_reason(reason)
     check_not_future(removed_at, "removed_at")
@@ -240,12 +244,37 @@ def record_removals(
     for lo in range(0, len(burning), _BATCH):
         by_id = {p.id: (p, f) for p, f in burning[lo : lo + _BATCH]}
         rows = _observations(session, by_id, at=at, reason=reason, work_order_id=work_order_id)
+        _interval_bounds(session, rows, found_dark_since or {})
         for removal in rows:
             _reset(by_id[removal.position_id][0], at)
         session.add_all(rows)
         out.extend(rows)
     session.flush()
     return out
+
+
+def _interval_bounds(
+    session: Session, rows: list[LampRemoval], since: Mapping[int, datetime]
+) -> None:
+    """Set the lower bound of each found-dark failure: its normalised age when last seen lit."""
+    by_time: dict[datetime, list[LampRemoval]] = {}
+    for r in rows:
+        if r.failed and r.position_id in since:
+            by_time.setdefault(as_aware(since[r.position_id]), []).append(r)
+    for t, group in by_time.items():  # one query batch per distinct last visit
+        positions = session.scalars(
+            select(LampPosition).where(LampPosition.id.in_([r.position_id for r in group]))
+        ).all()
+        lows = _observations(
+            session,
+            {p.id: (p, True) for p in positions},
+            at=min(t, as_aware(group[0].removed_at)),
+            reason="burnout",
+            work_order_id=None,
+        )
+        low_of = {lo.position_id: lo.normalised_hours for lo in lows}
+        for r in group:
+            r.failed_after_normalised_hours = min(low_of[r.position_id], r.normalised_hours)
 
 
 def report_burnout(

@@ -4,17 +4,20 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from pydantic import BaseModel
+from pydantic import BaseModel, Field
 
 
 class CurveInUseRead(BaseModel):
-    """The life curve a lamp type's forecasts use: catalogue, field MLE or WeiBayes."""
+    """The life curve a lamp type's forecasts use: catalogue, blend or field, and the rule."""
 
     lamp_type_id: int
-    method: str
+    method: str = Field(description="catalogue, blend (credibility weight) or field")
     shape: float
     scale_h: float
     reason: str
+    weight: float = Field(description="Credibility Z = r/(r+k) of the field data (0-1).")
+    scale_bounds_h: tuple[float, float] | None = None
+    confidence: float
 
 
 class SummaryRead(BaseModel):
