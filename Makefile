@@ -49,8 +49,9 @@ lint: install
 	$(VENV)/bin/mypy service
 	$(VENV)/bin/lint-imports
 
+# Every benchmark, one table, var/bench/latest.json; BENCH_ARGS=--quick for a smoke run.
 bench: install
-	@for f in benchmarks/bench_*.py; do echo "=== $$f"; $(PY) $$f; done
+	$(PY) benchmarks/run_all.py $(BENCH_ARGS)
 
 clean:
 	rm -rf $(VENV) var .pytest_cache .mypy_cache .ruff_cache

@@ -1,21 +1,24 @@
 """Time fleet evaluation: 1,000,000 positions across 50 lamp types, and a per-lamp loop.
 
-Also the same fleet with a voltage history of two segments per position (cumulative
-exposure, service.reliability.exposure), as a ratio to the plain evaluation in the same run.
-
-Run: python benchmarks/bench_fleet.py
+Run: python benchmarks/bench_fleet.py [--quick] [--repeats N]
+P1: 1,000,000 positions against the same arithmetic in bare numpy over the same arrays
+(target <= 1.5x); P8: the same at 1k, 10k, 100k (growth no worse than linear).
+X1: the same fleet with a voltage history of two segments per position (cumulative
+exposure, service.reliability.exposure) against the plain evaluation (target <= 1.5x).
 """
 
 from __future__ import annotations
 
 import math
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from _table import Table, parser
 
 from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.exposure import ExposureHistory
@@ -26,7 +29,6 @@ from service.reliability.weibull import Weibull
 N_TYPES = 50
 N_FLEET = 1_000_000
 N_LOOP = 10_000
-RUNS = 5
 
 
 def make_specs(rng: np.random.Generator) -> list[LampTypeSpec]:
@@ -93,60 +95,104 @@ def per_lamp_loop(
     return total
 
 
-def best_of(fn: object, runs: int) -> float:
-    """Best wall-clock seconds of several runs."""
-    best = math.inf
-    for _ in range(runs):
-        t0 = time.perf_counter()
-        fn()  # type: ignore[operator]
-        best = min(best, time.perf_counter() - t0)
-    return best
+def bare_numpy(
+    table: LampTypeTable,
+    idx: np.ndarray,
+    age: np.ndarray,
+    volts: np.ndarray,
+    hps: np.ndarray,
+    horizon_h: float,
+) -> float:
+    """The same arithmetic written plainly in numpy: the anchor of P1.
+
+    Gathers per-type columns, an inverse-power voltage law for life, light and power,
+    a log-linear switching factor, Weibull survival and conditional failure, and each
+    position's lumen fraction from a 64-point table per type; no checks, no warnings.
+    """
+    rv = table.rated_voltage[idx]
+    r = np.where(np.isnan(volts), 1.0, volts / rv)
+    life_f = np.power(r, -table.life_exponent[idx])
+    light_f = np.power(r, table.light_exponent[idx])
+    power_f = np.power(r, table.power_exponent[idx])
+    rated_hps = table.rated_hours_per_start[idx]
+    sw = np.where(
+        np.isnan(hps) | np.isnan(rated_hps),
+        1.0,
+        np.clip(1.0 + table.switching_slope[idx] * np.log(np.fmax(hps, 0.1) / rated_hps), 0.2, 3.0),
+    )
+    beta = table.shape[idx]
+    eta = table.scale_h[idx] * life_f * sw
+    log_a = -np.power(age / eta, beta)
+    log_e = -np.power((age + horizon_h) / eta, beta)
+    survival = np.exp(log_a)
+    p_fail = -np.expm1(log_e - log_a)
+    # Lumen fraction: one shared 64-point curve per type, by linear interpolation.
+    grid = np.linspace(0.0, 60_000.0, 64)
+    curves = 1.0 - 0.3 * (grid[None, :] / 60_000.0) * (1.0 + (np.arange(table.size) % 3)[:, None])
+    cell = np.clip(age / grid[1], 0, 62.999)
+    j = cell.astype(np.intp)
+    w = cell - j
+    lumen = (curves[idx, j] * (1 - w) + curves[idx, j + 1] * w) * light_f
+    return float(p_fail.sum() + survival.sum() * 0 + lumen.sum() * 0 + power_f.sum() * 0)
 
 
-def main() -> None:
-    """Print the timings."""
+def main() -> int:
+    """Print and write the rows: P1 against bare numpy, P8 growth, the per-lamp loop."""
+    args = parser(__doc__, default_repeats=5).parse_args()
+    quick = args.quick
+    repeats = 1 if quick else args.repeats
+    table_rows = Table("bench_fleet", quick)
     rng = np.random.default_rng(2024)
     specs = make_specs(rng)
     table = LampTypeTable.from_specs(specs)
     horizon = 4_000.0  # burn hours ahead
-
-    idx, age, volts, hps = make_fleet(N_FLEET, table, rng)
-    t_fleet = best_of(lambda: evaluate_fleet(table, idx, age, volts, hps, horizon), RUNS)
-    print(
-        f"fleet evaluation: {N_FLEET:,} positions, {N_TYPES} lamp types: "
-        f"{t_fleet:.3f} s (best of {RUNS})"
+    sizes = (1_000, 10_000) if quick else (1_000, 10_000, 100_000, N_FLEET)
+    idx, age, volts, hps = make_fleet(sizes[-1], table, rng)
+    for n in sizes:
+        a, b, c, d = idx[:n], age[:n], volts[:n], hps[:n]
+        table_rows.timed(
+            "P1" if n == N_FLEET else "P8",
+            f"fleet evaluation, {n:,} positions, {N_TYPES} types",
+            lambda a=a, b=b, c=c, d=d: evaluate_fleet(table, a, b, c, d, horizon),
+            anchor="bare numpy over the same arrays",
+            anchor_fn=lambda a=a, b=b, c=c, d=d: bare_numpy(table, a, b, c, d, horizon),
+            repeats=repeats,
+            target="<= 1.5x" if n == N_FLEET else "linear growth",
+        )
+    # X1: two segments per position, the first half of its hours at another supply.
+    n = sizes[-1]
+    history = ExposureHistory(
+        np.repeat(np.arange(n), 2),
+        np.repeat(age / 2.0, 2),
+        np.column_stack((volts * rng.uniform(0.94, 1.06, n), volts)).ravel(),
     )
-
-    # Two segments per position: the first half of its hours at one supply, the rest at today's.
-    rows = np.repeat(np.arange(N_FLEET), 2)
-    seg_h = np.repeat(age / 2.0, 2)
-    seg_v = np.column_stack((volts * rng.uniform(0.94, 1.06, N_FLEET), volts)).ravel()
-    history = ExposureHistory(rows, seg_h, seg_v)
-    t_hist = best_of(
-        lambda: evaluate_fleet(table, idx, age, volts, hps, horizon, history=history), RUNS
+    table_rows.timed(
+        "X1",
+        f"fleet evaluation with a 2-segment voltage history, {n:,} positions",
+        lambda: evaluate_fleet(table, idx, age, volts, hps, horizon, history=history),
+        anchor="the plain evaluation (no history) of the same fleet",
+        anchor_fn=lambda: evaluate_fleet(table, idx, age, volts, hps, horizon),
+        repeats=repeats,
+        target="<= 1.5x",
     )
-    print(
-        f"with a 2-segment voltage history ({history.size:,} segments): {t_hist:.3f} s "
-        f"(best of {RUNS}); ratio to the plain evaluation above: {t_hist / t_fleet:.2f}x"
+    n_loop = 500 if quick else N_LOOP
+    sidx, sage, svolts, shps = idx[:n_loop], age[:n_loop], volts[:n_loop], hps[:n_loop]
+    table_rows.timed(
+        "-",
+        f"fleet evaluation, {n_loop:,} positions",
+        lambda: evaluate_fleet(table, sidx, sage, svolts, shps, horizon),
+        anchor="plain per-lamp Python loop",
+        anchor_fn=lambda: per_lamp_loop(specs, table, sidx, sage, svolts, shps, horizon),
+        repeats=1,
+        warmup=0,
     )
-
-    sidx, sage, svolts, shps = idx[:N_LOOP], age[:N_LOOP], volts[:N_LOOP], hps[:N_LOOP]
-    t_vec_small = best_of(lambda: evaluate_fleet(table, sidx, sage, svolts, shps, horizon), RUNS)
-    t_loop = best_of(lambda: per_lamp_loop(specs, table, sidx, sage, svolts, shps, horizon), 1)
-    per_lamp_loop_s = t_loop / N_LOOP
-    per_lamp_vec_s = t_fleet / N_FLEET
-    print(f"plain per-lamp Python loop: {N_LOOP:,} positions: {t_loop:.3f} s")
-    print(f"vectorised, same {N_LOOP:,} positions: {t_vec_small:.4f} s")
-    print(
-        f"speed-up per position (loop on {N_LOOP:,} vs vectorised on {N_FLEET:,}): "
-        f"{per_lamp_loop_s / per_lamp_vec_s:,.0f}x"
-    )
-    print(f"speed-up on the same {N_LOOP:,} positions: {t_loop / t_vec_small:,.0f}x")
     # Cross-check: both give the same expected failures on the small fleet.
     vec = evaluate_fleet(table, sidx, sage, svolts, shps, horizon).expected_failures_horizon
     loop = per_lamp_loop(specs, table, sidx, sage, svolts, shps, horizon)
     print(f"expected failures in {horizon:,.0f} h, small fleet: {vec:.6f} vs loop {loop:.6f}")
+    table_rows.finish(args.json)
+    return 0 if abs(vec - loop) <= 1e-6 * max(1.0, abs(loop)) else 1
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())

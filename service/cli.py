@@ -9,12 +9,14 @@ from contextlib import contextmanager
 
 from sqlalchemy.orm import Session
 
+from service.changes import cli as changes_cli
 from service.config import get_settings
 from service.db.session import begin_write, session_factory
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
 from service.users import cli as users_cli
+from service.webhooks import cli as webhooks_cli
 
 Handler = Callable[[argparse.Namespace], int]
 
@@ -151,6 +153,8 @@ EXTRA_COMMANDS.append(seed_cli.register)
 EXTRA_COMMANDS.append(runs_cli.register)
 EXTRA_COMMANDS.append(register_cli.register)
 EXTRA_COMMANDS.append(users_cli.register)
+EXTRA_COMMANDS.append(changes_cli.register)
+EXTRA_COMMANDS.append(webhooks_cli.register)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

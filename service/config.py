@@ -46,6 +46,26 @@ class Settings(BaseSettings):
     # counts as dead (its process stopped) and is reaped as failed.
     run_lease_seconds: float = Field(default=120.0, gt=0, le=86_400)
 
+    # Change feed (service/changes): days a change is kept; a cursor older than that is 410.
+    change_retention_days: float = Field(default=30.0, gt=0, le=3650)
+    # Webhooks (service/webhooks): seconds between delivery passes of the scheduler.
+    webhook_poll_s: float = Field(default=5.0, gt=0, le=3600)
+    # Seconds a claimed delivery is leased to one worker; longer than the HTTP timeout.
+    webhook_lease_s: float = Field(default=60.0, gt=0, le=3600)
+    # Seconds allowed for one POST to a receiver (connect, write, read each).
+    webhook_timeout_s: float = Field(default=10.0, gt=0, le=300)
+    # Retry back-off: base * 2**(attempt-1) seconds, capped, with jitter; after
+    # webhook_give_up_s since the first attempt the delivery fails and the subscription pauses.
+    webhook_retry_base_s: float = Field(default=30.0, gt=0, le=86_400)
+    webhook_retry_cap_s: float = Field(default=3600.0, gt=0, le=86_400)
+    webhook_give_up_s: float = Field(default=86_400.0, gt=0, le=30 * 86_400)
+    # Deliveries claimed per pass.
+    webhook_batch: int = Field(default=50, ge=1, le=10_000)
+    # Targets on loopback (127.0.0.0/8, ::1) or private/link-local/reserved ranges are
+    # refused unless allowed here (a receiver on the same host or network).
+    webhook_allow_loopback: bool = False
+    webhook_allow_private: bool = False
+
 
 @lru_cache
 def get_settings() -> Settings:

@@ -16,6 +16,7 @@ from service.api.health import router as health_router
 from service.api.home import router as home_router
 from service.api.idempotency import install_retries
 from service.catalogue.router import router as catalogue_router
+from service.changes.router import router as changes_router
 from service.config import get_settings
 from service.events.router import router as events_router
 from service.forecasting.router import router as forecasting_router
@@ -26,6 +27,7 @@ from service.register.router import router as register_router
 from service.retirement.router import router as retirement_router
 from service.scheduling.router import router as runs_router
 from service.web.install import install_web
+from service.webhooks.router import router as webhooks_router
 from service.workorders.repository import last_group_relamps
 from service.workorders.router import router as workorders_router
 
@@ -43,6 +45,8 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     workorders_router,
     retirement_router,
     runs_router,
+    changes_router,
+    webhooks_router,
 ]
 
 

@@ -48,6 +48,10 @@ class BurnoutReport(TimestampMixin, Base):
         ForeignKey("lamp_removals.id", ondelete="SET NULL"), default=None
     )
     closed_at: Mapped[datetime | None] = mapped_column(default=None)
+    # Bumped and checked by every UPDATE (optimistic lock; Core updates bump it by hand).
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+
+    __mapper_args__ = {"version_id_col": version}
 
 
 class LampRemoval(Base):

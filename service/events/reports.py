@@ -80,8 +80,14 @@ def take_for_order(
         result = session.execute(
             update(BurnoutReport)
             .where(BurnoutReport.id.in_(ids[i : i + 5000]), BurnoutReport.status == OPEN)
-            .values(status=ORDERED, work_order_id=work_order_id, updated_at=at)
-            .execution_options(synchronize_session=False)
+            .values(
+                status=ORDERED,
+                work_order_id=work_order_id,
+                updated_at=at,
+                version=BurnoutReport.version + 1,
+            )
+            # Evaluated on loaded reports too, so none keeps a stale version.
+            .execution_options(synchronize_session="evaluate")
         )
         taken += int(getattr(result, "rowcount", 0) or 0)
     if taken != len(ids):
@@ -107,7 +113,7 @@ def reopen_reports(session: Session, work_order_id: int) -> int:
     result = session.execute(
         update(BurnoutReport)
         .where(BurnoutReport.work_order_id == work_order_id, BurnoutReport.status == ORDERED)
-        .values(status=OPEN, work_order_id=None)
+        .values(status=OPEN, work_order_id=None, version=BurnoutReport.version + 1)
     )
     session.flush()
     return int(getattr(result, "rowcount", 0) or 0)

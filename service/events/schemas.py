@@ -45,6 +45,7 @@ class BurnoutReportRead(BaseModel):
     note: str | None
     closed_at: datetime | None
     created_at: datetime
+    version: int = Field(description="Record version; the ETag, and what If-Match compares.")
 
 
 class LampRemovalCreate(BaseModel):

@@ -61,6 +61,7 @@ class PositionForecast:
     lumen_now: FloatArray
     lumen_end: FloatArray
     horizon_h: FloatArray
+    type_row: IntArray  # each position's row in the type table (found once per forecast)
 
 
 @dataclass(frozen=True)
@@ -137,6 +138,7 @@ def evaluate_positions(
         lumen_now=np.where(dark, 0.0, res.lumen_fraction),
         lumen_end=res.lumen_fraction_end,
         horizon_h=horizon_h,
+        type_row=k,
     )
 
 
@@ -166,25 +168,31 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
     )
 
 
-def _light_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatArray:
+def _light_at(
+    pf: PositionForecast, types: TypeTable, tau: FloatArray, by_row: list[tuple[int, IntArray]]
+) -> FloatArray:
     """Lumen fraction of each position's lamp tau burn hours ahead (dark: new lamp)."""
     age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
-    k = types.index(pf.ages.lamp_type_id, pf.ages.ballast_kind)
     out = np.empty(age.size)
-    for j in np.unique(k).tolist():
-        idx = np.nonzero(k == j)[0]
+    for j, idx in by_row:
         curve = types.table.lumen_curves[j]
         life = pf.fleet.life_h[idx] if curve.basis == "rated_life_fraction" else None
         out[idx] = curve.at(age[idx], life)
     return out * pf.fleet.light_factor
 
 
-def _burned_share_at(pf: PositionForecast, types: TypeTable, tau: FloatArray) -> FloatArray:
+def _burned_share_at(pf: PositionForecast, beta: FloatArray, tau: FloatArray) -> FloatArray:
     """1 where dark, else F(age + tau): the lamp burned out by then if none replaced."""
-    k = types.index(pf.ages.lamp_type_id, pf.ages.ballast_kind)
-    beta = types.table.shape[k]
     f = -np.expm1(-np.power((pf.ages.age_h + tau) / pf.fleet.scale_h, beta))
     return np.where(pf.ages.burned_out, 1.0, f)
+
+
+def _positions_by_row(type_row: IntArray) -> list[tuple[int, IntArray]]:
+    """(type row, positions of that row) pairs: one sort instead of a scan per row per step."""
+    order = np.argsort(type_row, kind="stable")
+    rows, starts = np.unique(type_row[order], return_index=True)
+    bounds = [*starts.tolist(), int(type_row.size)]
+    return [(int(r), order[bounds[i] : bounds[i + 1]]) for i, r in enumerate(rows.tolist())]
 
 
 def _crossings(
@@ -198,10 +206,16 @@ def _crossings(
 ) -> FloatArray:
     """Burn hours ahead at which each group crosses its limit (NaN: none / not in range)."""
     counts = np.maximum(np.bincount(group, minlength=n_groups), 1)
+    # Found once, not per bisection step (42 evaluations per kind).
+    by_row = _positions_by_row(pf.type_row) if kind == "light" else []
+    beta = types.table.shape[pf.type_row]
 
     def metric(tau_g: FloatArray) -> FloatArray:
         tau = tau_g[group]
-        vals = _light_at(pf, types, tau) if kind == "light" else _burned_share_at(pf, types, tau)
+        if kind == "light":
+            vals = _light_at(pf, types, tau, by_row)
+        else:
+            vals = _burned_share_at(pf, beta, tau)
         return np.bincount(group, weights=vals, minlength=n_groups) / counts
 
     def crossed(v: FloatArray) -> NDArray[np.bool_]:

@@ -35,8 +35,13 @@ def epoch(col: Any, dialect: str) -> ColumnElement[float]:
 
 def float_matrix(session: Session, stmt: Any, width: int) -> FloatArray:
     """Run a numeric query through Core and return its rows as a float matrix (NULL = NaN)."""
-    rows = session.connection().execute(stmt).all()
+    result = session.connection().execute(stmt)
+    # The driver's own tuples, not Row objects: every column here is a plain number (or
+    # NULL, which numpy turns into NaN), so SQLAlchemy's per-row processing is skipped.
+    try:
+        rows = result.cursor.fetchall() if result.cursor is not None else []
+    finally:
+        result.close()
     if not rows:
         return np.zeros((0, width))
-    # Plain tuples: numpy probing Row objects for array attributes is slow.
-    return np.array(list(map(tuple, rows)), dtype=np.float64)
+    return np.array(rows, dtype=np.float64).reshape(len(rows), width)

@@ -16,7 +16,10 @@ cell midpoint, approximated by the mean of its two grid neighbours:
 
 The j = 1 term contains M_i itself, so each step solves a scalar linear
 equation: M_i (1 - ΔF_1/2) = F_i + ΔF_1 M_{i-1}/2 + Σ_{j=2..i} ΔF_j (M_{i-j}+M_{i-j+1})/2.
-This is O(n²) work (one dot product per grid point) with O(h²) error. One
+Solved point by point this is O(n²) work (one dot product per grid point; kept
+as `midpoint_scheme_direct`, the test oracle); `midpoint_scheme` solves the same
+equations at once as a power-series division by FFT in O(n log n), agreeing to
+rounding (~1e-15). The scheme has O(h²) error. One
 Richardson step against the same scheme on every second point removes the
 leading h² term: M ≈ M_h + (M_h - M_2h)/3 on the shared points; the relative
 correction is interpolated onto the odd points. On a 2,000-step grid over five
@@ -43,14 +46,16 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
+from scipy import fft as sp_fft
+from scipy.linalg import solve_triangular, toeplitz
 
 from service.reliability.weibull import cdf as weibull_cdf
 
 FloatArray = NDArray[np.float64]
 
 
-def _xie_midpoint(cdf_values: FloatArray) -> FloatArray:
-    """Xie's Riemann–Stieltjes midpoint scheme for M on the grid of cdf_values."""
+def midpoint_scheme_direct(cdf_values: FloatArray) -> FloatArray:
+    """Xie's midpoint scheme for M on the grid of cdf_values by the O(n²) recursion (the oracle)."""
     n = cdf_values.size - 1
     m_vals = np.zeros(n + 1)
     if n == 0:
@@ -71,8 +76,84 @@ def _xie_midpoint(cdf_values: FloatArray) -> FloatArray:
     return m_vals
 
 
-def renewal_on_grid(cdf_values: ArrayLike, step_h: float) -> FloatArray:
-    """Renewal function M(t_k) on t_k = k·step_h from CDF values F(t_k), with F(0) = 0."""
+# Coefficients of the inverse series found by one triangular solve before Newton's
+# iteration takes over (each FFT call costs ~20 µs however short it is).
+_DIRECT_INVERSE = 256
+# The first grid values, while F < _EXACT_BELOW_F (at most _EXACT_MAX of them), are summed
+# directly: FFT products carry absolute rounding of ~1e-16, which would be large relative
+# to an M of 1e-20 in the first cells of a steep wear-out curve.
+_EXACT_BELOW_F = 1e-3
+_EXACT_MAX = 1024
+
+
+def _series_inverse(p: FloatArray, n: int) -> FloatArray:
+    """First n coefficients of 1/p(z) for a power series with p[0] != 0 (Newton iteration)."""
+    g = np.empty(n)
+    b = min(n, _DIRECT_INVERSE)
+    unit = np.zeros(b)
+    unit[0] = 1.0
+    g[:b] = solve_triangular(toeplitz(p[:b], np.zeros(b)), unit, lower=True, check_finite=False)
+    k = b
+    while k < n:
+        k2 = min(2 * k, n)
+        # Cyclic length k2 is enough: the product's terms past k2 wrap onto indices < k,
+        # which are not read, and g·e (both of length <= k2 - 1 + 1) does not wrap.
+        size = sp_fft.next_fast_len(k2, real=True)
+        g_hat = sp_fft.rfft(g[:k], size)
+        e = sp_fft.irfft(sp_fft.rfft(p[:k2], size) * g_hat, size)[k:k2]  # (p·g - 1)[k:k2]
+        g[k:k2] = -sp_fft.irfft(sp_fft.rfft(e, size) * g_hat, size)[: k2 - k]
+        k = k2
+    return g
+
+
+def midpoint_scheme(cdf_values: FloatArray) -> FloatArray:
+    """Xie's midpoint scheme for M on the grid of cdf_values by FFT power-series division.
+
+    With generating functions M(z) = Σ M_i z^i, F(z) = Σ F_i z^i and
+    G(z) = Σ_{k>=0} (ΔF_k + ΔF_{k+1})/2 · z^k, the recursion of `midpoint_scheme_direct`
+    reads M(z) = F(z) + G(z)·M(z) (M_0 = 0), so M = F / (1 - G) truncated to n + 1 terms
+    [Knuth, *TAOCP* vol. 2 §4.7: power-series division; Newton's iteration doubles the
+    correct terms of 1/(1 - G) per step]. O(n log n) instead of O(n²).
+    """
+    n = cdf_values.size - 1
+    if n == 0:
+        return np.zeros(1)
+    d_f = np.diff(cdf_values, prepend=0.0)  # d_f[j] = F_j - F_{j-1}; d_f[0] = 0
+    p = np.empty(n + 1)  # 1 - G(z)
+    p[:n] = -0.5 * (d_f[:-1] + d_f[1:])
+    p[n] = -0.5 * d_f[n]  # ΔF_{n+1} lies past the grid; it never reaches M_0..M_n anyway
+    p[0] += 1.0
+    m_vals = _series_divide(cdf_values, p)
+    m_vals[0] = 0.0
+    return m_vals
+
+
+def _series_divide(f: FloatArray, p: FloatArray) -> FloatArray:
+    """First len(f) coefficients of f(z)/p(z) (Karp–Markstein: Newton's last step fused)."""
+    n_all = f.size
+    if n_all <= _DIRECT_INVERSE:  # one triangular solve, no FFT
+        lower = toeplitz(p, np.zeros(n_all))
+        out: FloatArray = solve_triangular(lower, f, lower=True, check_finite=False)
+        return out
+    k = (n_all + 1) // 2
+    n0 = min(int(np.searchsorted(f, _EXACT_BELOW_F)) + 1, _EXACT_MAX, n_all)
+    g = _series_inverse(p, max(k, n0))
+    size = sp_fft.next_fast_len(n_all, real=True)  # >= 2k - 1: none of the products wrap
+    g_hat = sp_fft.rfft(g[:k], size)  # onto the coefficients that are read
+    y = sp_fft.irfft(sp_fft.rfft(f[:k], size) * g_hat, size)[:k]  # f/p mod z^k
+    residual = f[k:] - sp_fft.irfft(sp_fft.rfft(p, size) * sp_fft.rfft(y, size), size)[k:n_all]
+    out = np.empty(n_all)
+    out[:k] = y
+    out[k:] = sp_fft.irfft(sp_fft.rfft(residual, size) * g_hat, size)[: n_all - k]
+    out[:n0] = np.convolve(f[:n0], g[:n0])[:n0]
+    return out
+
+
+def renewal_on_grid(cdf_values: ArrayLike, step_h: float, *, direct: bool = False) -> FloatArray:
+    """Renewal function M(t_k) on t_k = k·step_h from CDF values F(t_k), with F(0) = 0.
+
+    direct=True solves by the O(n²) recursion (the test oracle) instead of FFT division.
+    """
     f_vals = np.asarray(cdf_values, dtype=np.float64).copy()
     if f_vals.ndim != 1 or f_vals.size < 2:
         raise ValueError("cdf_values must be a 1-D array with at least two grid points")
@@ -90,11 +171,12 @@ def renewal_on_grid(cdf_values: ArrayLike, step_h: float) -> FloatArray:
     f_vals = np.maximum.accumulate(np.clip(f_vals, 0.0, 1.0))
     f_vals[0] = 0.0
 
-    fine = _xie_midpoint(f_vals)
+    scheme = midpoint_scheme_direct if direct else midpoint_scheme
+    fine = scheme(f_vals)
     n = f_vals.size - 1
     if n < 4 or n % 2:
         return fine  # no Richardson step without a shared half grid
-    coarse = _xie_midpoint(f_vals[::2])
+    coarse = scheme(np.ascontiguousarray(f_vals[::2]))
     base = fine[::2]
     correction = (base - coarse) / 3.0  # Richardson for an O(h²) scheme
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -149,6 +231,28 @@ class RenewalCurve:
         # M >= 0; the cubic can dip a hair below 0 in the first cell where M ~ t^beta.
         out: FloatArray = np.where(x <= 0.0, 0.0, np.maximum(val, 0.0) + beyond * self.density[-1])
         return out
+
+    def at_scalar(self, x: float) -> float:
+        """M(x) for one time in hours: `at` in plain floats (optimisers call it thousands of times)."""
+        h = float(self.t[1] - self.t[0])
+        n = self.t.size - 1
+        horizon = float(self.t[-1])
+        if x <= 0.0:
+            return 0.0
+        xc = min(x, horizon)
+        k = min(int(xc / h), n - 1)
+        s = (xc - float(self.t[k])) / h
+        s2 = s * s
+        s3 = s2 * s
+        m0, m1 = float(self.m[k]), float(self.m[k + 1])
+        d0, d1 = float(self.density[k]), float(self.density[k + 1])
+        val = (
+            (2 * s3 - 3 * s2 + 1) * m0
+            + (s3 - 2 * s2 + s) * h * d0
+            + (-2 * s3 + 3 * s2) * m1
+            + (s3 - s2) * h * d1
+        )
+        return max(val, 0.0) + max(x - horizon, 0.0) * float(self.density[-1])
 
     def density_at(self, t: ArrayLike) -> FloatArray:
         """Renewal density m(t) per burn hour, linear interpolation (last value past the end)."""

@@ -177,7 +177,7 @@ def plan_block_replacement(
     g_c = grid_cost[in_horizon]
 
     def cost(x: float) -> float:
-        return float((c_group + c_spot * curve.at(x)) / x)
+        return (c_group + c_spot * curve.at_scalar(float(x))) / x
 
     def minimise_up_to(limit: float) -> tuple[float, float, bool]:
         """Minimum of C over (0, limit]; flag True when it sits at the limit itself."""

@@ -8,7 +8,9 @@ any replica take effect without a restart. At start, a site whose latest schedul
 
 Scheduled and catch-up jobs go through run_due_week: a site another replica is running, or
 whose week already succeeded, is skipped rather than run again. At start and on every sync
-tick, running records whose lease expired (their process died) are reaped as failed.
+tick, running records whose lease expired (their process died) are reaped as failed. The
+same scheduler runs a webhook delivery pass every webhook_poll_s and prunes the change
+feed daily.
 """
 
 from __future__ import annotations
@@ -26,6 +28,7 @@ from service.register.models import Site
 from service.scheduling.models import WeeklyRun
 from service.scheduling.runner import reap_expired_runs, run_due_week, week_succeeded
 from service.scheduling.weeks import iso_week_of, last_fire_time, weekly_trigger
+from service.webhooks.worker import Deliverer
 
 log = logging.getLogger(__name__)
 
@@ -45,6 +48,7 @@ class WeeklyScheduler:
         self.factory = factory
         self.scheduler = BackgroundScheduler(timezone=UTC)
         self._specs: dict[int, tuple[int, str, str]] = {}
+        self.deliverer: Deliverer | None = None
 
     def _sites(self) -> list[Any]:
         with self.factory() as s:
@@ -140,18 +144,62 @@ class WeeklyScheduler:
                 runs.append(run)
         return runs
 
+    def prune_changes(self) -> int:
+        """Delete change-feed rows past the retention; never raises."""
+        from service.changes.service import prune
+        from service.db.session import begin_write
+
+        try:
+            with self.factory() as s:
+                begin_write(s)
+                n = prune(s)
+                s.commit()
+            log.info("change feed: %s changes pruned", n)
+            return n
+        except Exception:
+            log.exception("pruning the change feed failed")
+            return 0
+
+    def start_feed_jobs(self) -> None:
+        """Webhook deliveries every webhook_poll_s; change-feed pruning daily."""
+        from service.config import get_settings
+
+        self.deliverer = Deliverer(self.factory)
+        self.scheduler.add_job(
+            self.deliverer.run_safely,
+            "interval",
+            seconds=get_settings().webhook_poll_s,
+            id="webhook-deliveries",
+            replace_existing=True,
+            coalesce=True,
+            max_instances=1,
+        )
+        self.scheduler.add_job(
+            self.prune_changes,
+            "interval",
+            hours=24,
+            id="prune-changes",
+            replace_existing=True,
+            coalesce=True,
+            max_instances=1,
+            next_run_time=utcnow(),
+        )
+
     def start(self) -> None:
         """Schedule every site, start the threads, catch up missed runs."""
         self.sync()
         self.scheduler.add_job(
             self.sync, "interval", seconds=SYNC_SECONDS, id="sync-sites", replace_existing=True
         )
+        self.start_feed_jobs()
         self.scheduler.start()
         self.catch_up()
 
     def shutdown(self) -> None:
         """Stop the threads (a run in progress finishes its transaction or rolls back)."""
         self.scheduler.shutdown(wait=False)
+        if self.deliverer is not None:
+            self.deliverer.close()
 
 
 def start_scheduler() -> WeeklyScheduler:

@@ -21,7 +21,7 @@ from datetime import date, datetime, timedelta
 from functools import partial
 from typing import Any
 
-from sqlalchemy import insert, select, update
+from sqlalchemy import Table, insert, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
@@ -31,6 +31,7 @@ from service.planning.engine import PlanCache
 from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site
+from service.uploads.write import write_rows
 from service.workorders.models import (
     OPEN_STATES,
     WorkOrder,
@@ -47,6 +48,8 @@ from service.workorders.texts import (
 
 GROUP, SPOT = WorkOrderKind.GROUP_RELAMP, WorkOrderKind.SPOT_REPLACEMENT
 __all__ = ["GROUP", "OPEN_STATES", "SPOT", "IssueResult", "issue_orders"]
+
+_LINES: Table = WorkOrderLine.__table__  # type: ignore[assignment]
 
 
 @dataclass
@@ -358,7 +361,11 @@ def _write(
         for x in ls:
             x["work_order_id"] = oid
             flat.append(x)
-    session.execute(insert(WorkOrderLine), flat)
+    if flat:
+        # The bulk writer (COPY on PostgreSQL), not an ORM bulk insert: a 100,000-fixture
+        # weekly run writes tens of thousands of lines.
+        names = list(flat[0])
+        write_rows(session, _LINES, {k: [x[k] for x in flat] for k in names})
     for oid, (o, _, taken) in zip(ids, built, strict=True):
         if taken:
             reports.take_for_order(session, taken, oid, at=at)

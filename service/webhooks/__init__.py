@@ -1,0 +1,1 @@
+"""Signed webhooks: subscriptions, an outbox filled from the change feed, delivery."""

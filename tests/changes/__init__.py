@@ -1,0 +1,1 @@
+"""Change feed tests."""
