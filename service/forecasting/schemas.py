@@ -35,6 +35,9 @@ class SummaryRead(BaseModel):
     lumen_fraction_end: float
     voltage_warnings: int
     switching_warnings: int
+    supply_faults: int = Field(
+        0, description="Discharge lamps below their ballast's voltage band (a supply fault)."
+    )
 
 
 class AreaForecastRead(BaseModel):

@@ -80,6 +80,7 @@ class Summary:
     lumen_fraction_end: float
     voltage_warnings: int
     switching_warnings: int
+    supply_faults: int = 0  # discharge lamps below their ballast's band: no life credit
 
 
 @dataclass(frozen=True)
@@ -165,6 +166,7 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         lumen_fraction_end=mean(pf.lumen_end[sel]),
         voltage_warnings=int(pf.fleet.warn_voltage[sel].sum()),
         switching_warnings=int(pf.fleet.warn_switching[sel].sum()),
+        supply_faults=int(pf.fleet.warn_supply_fault[sel].sum()),
     )
 
 
@@ -173,17 +175,21 @@ def _light_at(
 ) -> FloatArray:
     """Lumen fraction of each position's lamp tau burn hours ahead (dark: new lamp)."""
     age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
+    worn = pf.fleet.effective_age_h + tau  # filament curves follow the life used (exposure)
     out = np.empty(age.size)
     for j, idx in by_row:
         curve = types.table.lumen_curves[j]
-        life = pf.fleet.life_h[idx] if curve.basis == "rated_life_fraction" else None
-        out[idx] = curve.at(age[idx], life)
+        if curve.basis == "rated_life_fraction":
+            out[idx] = curve.at(worn[idx], pf.fleet.life_h[idx])
+        else:
+            out[idx] = curve.at(age[idx], None)
     return out * pf.fleet.light_factor
 
 
 def _burned_share_at(pf: PositionForecast, beta: FloatArray, tau: FloatArray) -> FloatArray:
     """1 where dark, else F(age + tau): the lamp burned out by then if none replaced."""
-    f = -np.expm1(-np.power((pf.ages.age_h + tau) / pf.fleet.scale_h, beta))
+    # the wear so far is the accumulated exposure (effective age at today's supply)
+    f = -np.expm1(-np.power((pf.fleet.effective_age_h + tau) / pf.fleet.scale_h, beta))
     return np.where(pf.ages.burned_out, 1.0, f)
 
 
