@@ -118,11 +118,7 @@ def voltage_factors(
     # Ballasted lamps: lamp power ratio P from the line-voltage ratio through the ballast gain.
     p_lamp = np.maximum(1.0 + np.where(filament, 0.0, gain) * (r - 1.0), MIN_POWER_RATIO)
     base = np.where(filament, r, p_lamp)
-    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
-    life_base = np.where(filament, np.fmax(r, floor), p_lamp)
-    life = np.power(life_base, -n_life)
-    # Under-powered discharge lamps: no life credit (a supply fault, not a bonus).
-    life = np.where(~filament & (r < 1.0), np.minimum(life, 1.0), life)
+    life = _life(r, p_lamp, n_life, filament, floor)
     light = np.power(base, k_light)
     power = np.where(filament, np.power(base, m_power), p_lamp)
 
@@ -136,6 +132,37 @@ def voltage_factors(
     below_floor = filament & (r < floor)
     out = np.where(has_range, outside_range, out_band) | below_floor
     return life, light, power, np.asarray(out, dtype=bool)
+
+
+def _life(
+    r: FloatArray, p_lamp: FloatArray, n_life: FloatArray, filament: BoolArray, floor: FloatArray
+) -> FloatArray:
+    """Life factor before the driver-range rule: filament r^-n, discharge P^-n capped at 1."""
+    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
+    life_base = np.where(filament, np.fmax(r, floor), p_lamp)
+    life = np.power(life_base, -n_life)
+    # Under-powered discharge lamps: no life credit (a supply fault, not a bonus).
+    return np.asarray(np.where(~filament & (r < 1.0), np.minimum(life, 1.0), life))
+
+
+def voltage_life_factor(
+    voltage_ratio: ArrayLike,
+    life_exponent: ArrayLike,
+    ballast_gain: ArrayLike,
+    is_filament: ArrayLike,
+    *,
+    life_ratio_floor: ArrayLike = math.nan,
+    driver_min_ratio: ArrayLike = math.nan,
+    driver_max_ratio: ArrayLike = math.nan,
+) -> FloatArray:
+    """The life factor of voltage_factors alone (same formulas; for exposure segments)."""
+    r = _arr(voltage_ratio)
+    gain = _arr(ballast_gain)
+    filament = np.asarray(is_filament, dtype=bool) | np.isnan(gain)
+    p_lamp = np.maximum(1.0 + np.where(filament, 0.0, gain) * (r - 1.0), MIN_POWER_RATIO)
+    life = _life(r, p_lamp, _arr(life_exponent), filament, _arr(life_ratio_floor))
+    outside = (r < _arr(driver_min_ratio)) | (r > _arr(driver_max_ratio))
+    return np.asarray(np.where(outside, 1.0, life), dtype=np.float64)
 
 
 def supply_fault(

@@ -34,7 +34,13 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from service.reliability.conditions import supply_fault, switching_life_factor, voltage_factors
+from service.reliability.conditions import (
+    MIN_POWER_RATIO,
+    supply_fault,
+    switching_life_factor,
+    voltage_factors,
+    voltage_life_factor,
+)
 from service.reliability.exposure import ExposureHistory, accumulated_exposure
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.technologies import (
@@ -370,20 +376,33 @@ def _rated_age(
     n = age.size
     row = history.position
     ks = k[row]
-    rated_v = types.rated_voltage[ks]
-    ratio = np.where(np.isnan(history.voltage), 1.0, history.voltage / rated_v)
-    life_seg, _, _, _ = voltage_factors(
-        ratio,
-        types.life_exponent[ks],
-        types.light_exponent[ks],
-        types.power_exponent[ks],
-        types.ballast_gain[ks],
-        types.is_filament[ks],
-        band=types.voltage_band[ks],
-        life_ratio_floor=types.life_ratio_floor[ks],
-        driver_min_ratio=types.driver_min_v[ks] / rated_v,
-        driver_max_ratio=types.driver_max_v[ks] / rated_v,
-    )
+    # Per-type constants first (K values), gathered once per segment: the same formulas as
+    # conditions.voltage_life_factor, with the work each type does not need left out.
+    ratio = history.voltage * (1.0 / types.rated_voltage)[ks]
+    if np.isnan(ratio).any():
+        ratio = np.where(np.isnan(ratio), 1.0, ratio)
+    filament_k = types.is_filament | np.isnan(types.ballast_gain)
+    gain_k = np.where(filament_k, 0.0, types.ballast_gain)
+    fil = filament_k[ks]
+    p_lamp = np.maximum(1.0 + gain_k[ks] * (ratio - 1.0), MIN_POWER_RATIO)
+    life_seg = np.power(np.where(fil, ratio, p_lamp), -types.life_exponent[ks])
+    # under-powered discharge lamps: no life credit (as conditions._life)
+    life_seg = np.where(~fil & (ratio < 1.0), np.minimum(life_seg, 1.0), life_seg)
+    # Types with a halogen floor or a driver range: the full rule, on their segments only.
+    special_k = ~np.isnan(types.life_ratio_floor) | ~np.isnan(types.driver_min_v)
+    special_k |= ~np.isnan(types.driver_max_v)
+    if special_k.any():
+        sel = np.nonzero(special_k[ks])[0]
+        kk = ks[sel]
+        life_seg[sel] = voltage_life_factor(
+            ratio[sel],
+            types.life_exponent[kk],
+            types.ballast_gain[kk],
+            types.is_filament[kk],
+            life_ratio_floor=types.life_ratio_floor[kk],
+            driver_min_ratio=(types.driver_min_v / types.rated_voltage)[kk],
+            driver_max_ratio=(types.driver_max_v / types.rated_voltage)[kk],
+        )
     exposure = accumulated_exposure(row, history.hours, life_seg * switching[row], n)
     covered = history.covered_hours(n)
     rest = np.maximum(age - covered, 0.0)

@@ -14,6 +14,7 @@ from service.reliability.conditions import (
     switching_life_factor,
     voltage_effect,
     voltage_factors,
+    voltage_life_factor,
 )
 from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
@@ -256,3 +257,30 @@ def test_reactor_under_voltage_is_a_supply_fault_without_life_credit() -> None:
         band=0.05,
     )
     np.testing.assert_array_equal(flags, [True, False, False])
+
+
+def test_life_factor_alone_matches_the_full_model() -> None:
+    # Internal consistency: the exposure segments' life factor is voltage_factors' life.
+    rng = np.random.default_rng(1)
+    r = rng.uniform(0.8, 1.2, 200)
+    gain = rng.choice([np.nan, 0.0, 0.5, 2.0], 200)
+    fil = np.isnan(gain)
+    n = rng.uniform(1.0, 16.0, 200)
+    floor = np.where(rng.random(200) < 0.3, 0.9, np.nan)
+    dmin = np.where(rng.random(200) < 0.3, 0.85, np.nan)
+    dmax = np.where(np.isnan(dmin), np.nan, 1.1)
+    full, _, _, _ = voltage_factors(
+        r,
+        n,
+        3.4,
+        1.6,
+        gain,
+        fil,
+        life_ratio_floor=floor,
+        driver_min_ratio=dmin,
+        driver_max_ratio=dmax,
+    )
+    alone = voltage_life_factor(
+        r, n, gain, fil, life_ratio_floor=floor, driver_min_ratio=dmin, driver_max_ratio=dmax
+    )
+    np.testing.assert_array_equal(alone, full)

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
+from service.reliability.conditions import voltage_effect
 from service.reliability.exposure import (
     ExposureHistory,
     accumulated_exposure,
@@ -92,3 +93,36 @@ def test_accumulated_exposure_and_take() -> None:
         accumulated_exposure([0], [1.0], [0.0], 1)
     with pytest.raises(ValueError, match="hours"):
         ExposureHistory(np.array([0]), np.array([-1.0]), np.array([120.0]))
+
+
+def test_segments_follow_the_scalar_voltage_model_for_every_rule() -> None:
+    # Each segment's wear is dt / voltage_effect(...).life_factor, the scalar model (itself
+    # checked against the power laws in test_conditions): halogen below its floor, an LED
+    # outside its driver range, an HID lamp under-powered on a reactor.
+    specs = [
+        LampTypeSpec("halogen", 3_000.0, 230.0),
+        LampTypeSpec("led", 50_000.0, 230.0, driver_range=(200.0, 250.0)),
+        LampTypeSpec("high_pressure_sodium", 24_000.0, 277.0),
+        INC,
+    ]
+    table = LampTypeTable.from_specs(specs)
+    cases = [  # (row, volts)
+        (0, 190.0),
+        (0, 240.0),
+        (1, 180.0),
+        (1, 235.0),
+        (2, 250.0),
+        (2, 285.0),
+        (3, 126.0),
+    ]
+    rows = np.array([c[0] for c in cases])
+    volts = np.array([c[1] for c in cases])
+    hist = ExposureHistory(rows, np.full(rows.size, 100.0), volts)
+    k = np.arange(4)
+    res = evaluate_fleet(table, k, [200.0, 200.0, 200.0, 100.0], np.nan, np.nan, 0.0, history=hist)
+    want = np.zeros(4)
+    for row, v in cases:
+        s = specs[row]
+        eff = voltage_effect(v, s.rated_voltage, s.technology, driver_range=s.driver_range)
+        want[row] += 100.0 / eff.life_factor
+    np.testing.assert_allclose(res.rated_age_h, want, rtol=1e-12)
