@@ -78,6 +78,7 @@ def cmd_serve(args: argparse.Namespace) -> int:
         host=host,
         port=port,
         log_level=settings.log_level.lower(),
+        access_log=False,  # service.api.observe writes one JSON line per request instead
     )
     return 0
 

@@ -17,7 +17,11 @@ class Settings(BaseSettings):
     database_url: str = "sqlite:///var/lampkeeper.sqlite3"
     host: str = "127.0.0.1"
     port: int = Field(default=8000, ge=1, le=65535)
-    log_level: str = "info"
+    log_level: str = Field(default="info", pattern="^(?i:debug|info|warning|error|critical)$")
+    # Log lines as JSON objects (one per line, for a log shipper) or plain text.
+    log_format: str = Field(default="json", pattern="^(json|text)$")
+    # /metrics without a key (for a scraper on a private network); else a read key.
+    metrics_public: bool = False
     # The weekly relamping run; off in tests and for one-off CLI commands.
     scheduler_enabled: bool = True
     # Where the Alembic migrations live; by default the source tree's migrations/ (set it
@@ -45,6 +49,11 @@ class Settings(BaseSettings):
     # Weekly-run lease (seconds): refreshed every third of it; a run not refreshed that long
     # counts as dead (its process stopped) and is reaped as failed.
     run_lease_seconds: float = Field(default=120.0, gt=0, le=86_400)
+    # Stock: weeks of lamp demand forecast, the cycle service level of reorder points and
+    # quantiles, and lamps broken in handling as a fraction of those fitted (common practice).
+    stock_horizon_weeks: int = Field(default=26, ge=1, le=104)
+    stock_service_level: float = Field(default=0.95, gt=0.5, lt=1.0)
+    stock_breakage_fraction: float = Field(default=0.02, ge=0.0, le=0.5)
 
     # Change feed (service/changes): days a change is kept; a cursor older than that is 410.
     change_retention_days: float = Field(default=30.0, gt=0, le=3650)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import logging
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
@@ -15,6 +14,9 @@ from service.api.guard import check_request
 from service.api.health import router as health_router
 from service.api.home import router as home_router
 from service.api.idempotency import install_retries
+from service.api.metrics import install_metrics
+from service.api.observe import configure_logging, install_observe
+from service.api.openapi import install_openapi, operation_id
 from service.catalogue.router import router as catalogue_router
 from service.changes.router import router as changes_router
 from service.config import get_settings
@@ -26,6 +28,7 @@ from service.readings.router import router as readings_router
 from service.register.router import router as register_router
 from service.retirement.router import router as retirement_router
 from service.scheduling.router import router as runs_router
+from service.stock.router import build_router as build_stock_router
 from service.web.install import install_web
 from service.webhooks.router import router as webhooks_router
 from service.workorders.repository import last_group_relamps
@@ -43,6 +46,7 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     forecasting_router,
     build_planning_router(last_group_relamps),
     workorders_router,
+    build_stock_router(last_group_relamps),
     retirement_router,
     runs_router,
     changes_router,
@@ -66,7 +70,7 @@ async def lifespan(app: FastAPI) -> AsyncIterator[None]:
 def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     """Build the application."""
     settings = get_settings()
-    logging.basicConfig(level=settings.log_level.upper())
+    configure_logging(settings)
     app = FastAPI(
         title="LampKeeper",
         version=__version__,
@@ -79,16 +83,22 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
             "and licensed practice."
         ),
         lifespan=lifespan,
+        docs_url=None,  # served offline by install_openapi
+        redoc_url=None,
+        generate_unique_id_function=operation_id,
     )
     app.state.start_scheduler = (
         settings.scheduler_enabled if start_scheduler is None else start_scheduler
     )
     install_error_handlers(app)
     install_retries(app)
-    install_gate(app)  # added last, so it runs first: key check and body limit before all
+    install_gate(app)  # key check and body limit before all but the request id
+    install_observe(app)  # added last, so it runs first: X-Request-ID, metrics, access log
     app.include_router(health_router)
     app.include_router(home_router)
     for router in DOMAIN_ROUTERS:
         app.include_router(router, prefix=API_PREFIX, dependencies=[Depends(check_request)])
     install_web(app)  # the pages for people (service/web)
+    install_openapi(app)  # the document, /docs and /redoc (offline)
+    install_metrics(app)  # GET /metrics (Prometheus)
     return app

@@ -8,6 +8,7 @@ from service.keys import models as keys_models
 from service.readings import models as readings_models
 from service.register import models as register_models
 from service.scheduling import models as scheduling_models
+from service.stock import models as stock_models
 from service.users import models as users_models
 from service.webhooks import models as webhooks_models
 from service.workorders import models as workorders_models
@@ -21,6 +22,7 @@ __all__ = [
     "readings_models",
     "register_models",
     "scheduling_models",
+    "stock_models",
     "users_models",
     "webhooks_models",
     "workorders_models",

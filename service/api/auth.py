@@ -35,6 +35,7 @@ def require(scope: str) -> Callable[..., ApiKey]:
             raise Forbidden(f"This route needs the '{scope}' scope; the key has '{key.scope}'.")
         return key
 
+    check.required_scope = scope  # type: ignore[attr-defined]  # read by service.api.openapi
     return check
 
 

@@ -38,6 +38,24 @@ UPLOAD_OPENAPI: dict[str, Any] = {
 }
 
 
+# For download routes: the media types their 200 answers really carry.
+CSV_RESPONSES: dict[int | str, dict[str, Any]] = {
+    200: {
+        "description": "The rows as CSV (a header line, then one line per row).",
+        "content": {"text/csv": {"schema": {"type": "string"}}},
+    }
+}
+EXPORT_RESPONSES: dict[int | str, dict[str, Any]] = {
+    200: {
+        "description": "The rows as CSV (format=csv, the default) or a JSON list (format=json).",
+        "content": {
+            "text/csv": {"schema": {"type": "string"}},
+            "application/json": {"schema": {"type": "array", "items": {"type": "object"}}},
+        },
+    }
+}
+
+
 def _cell(v: Any) -> Any:
     if v is None:
         return ""

@@ -12,6 +12,8 @@ from sqlalchemy.exc import DBAPIError, DisconnectionError, IntegrityError
 from sqlalchemy.exc import TimeoutError as PoolTimeout
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
+from service.api import request_id
+
 log = logging.getLogger(__name__)
 
 PROBLEM_MEDIA_TYPE = "application/problem+json"
@@ -98,6 +100,9 @@ def problem(
     if instance:
         body["instance"] = instance
     body.update({k: v for k, v in members.items() if v is not None})
+    rid = request_id.current.get()
+    if rid is not None:
+        body.setdefault("request_id", rid)  # so a caller's report names the log line
     return JSONResponse(body, status_code=status, media_type=PROBLEM_MEDIA_TYPE, headers=headers)
 
 

@@ -150,6 +150,7 @@ class GateMiddleware:
             raise
         if key is None:
             return _unauthorized(path, "The API key is unknown or revoked.")
+        scope.setdefault("state", {})["api_key_id"] = key.id  # for the request's log line
         return None
 
     async def _pass_on(self, scope: Scope, receive: Receive, send: Send, limit: int) -> None:

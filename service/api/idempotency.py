@@ -27,6 +27,7 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
+from service.api import request_id
 from service.api.errors import PROBLEM_MEDIA_TYPE
 from service.api.preconditions import install_precondition_handlers
 from service.config import get_settings
@@ -64,6 +65,8 @@ def _problem_message(path: str, exc: Problem) -> tuple[dict[str, Any], bytes]:
         "instance": path,
         "errors": [{"field": "Idempotency-Key", "in": "header", "message": exc.detail}],
     }
+    if request_id.current.get() is not None:
+        body["request_id"] = request_id.current.get()
     raw = json.dumps(body).encode()
     headers = [
         (b"content-type", PROBLEM_MEDIA_TYPE.encode()),

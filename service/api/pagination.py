@@ -1,14 +1,29 @@
-"""List pages with a total, and safe sorting by a whitelisted set of fields."""
+"""List pages with a total, safe sorting by a whitelisted set of fields, and keyset cursors.
+
+Two ways through a list: ``offset`` (simple, but a row inserted or deleted before the
+window shifts it, so rows repeat or vanish between pages) and ``after``, a keyset cursor:
+each page's ``next_after`` names the last row's sort key and id, and the next page starts
+strictly after it. The record id is always the last sort key (the tie-breaker), so the
+order is total and a row inserted between two pages is never served twice and never
+makes another row vanish. A cursor is bound to its sort: reused with another sort, or on a
+nullable sort field (NULLs order differently on SQLite and PostgreSQL), it is a 422.
+"""
 
 from __future__ import annotations
 
+import base64
+import binascii
+import json
 from collections.abc import Mapping, Sequence
+from datetime import date, datetime
+from enum import Enum
 from typing import Annotated, Any, Generic, TypeVar
 
 from fastapi import Depends, Query
-from pydantic import BaseModel
-from sqlalchemy import Select, func, select
+from pydantic import BaseModel, Field
+from sqlalchemy import ColumnElement, Select, and_, false, func, or_, select
 from sqlalchemy.orm import Session
+from sqlalchemy.orm.attributes import InstrumentedAttribute
 
 from service.api.errors import Invalid
 from service.api.ids import MAX_ID
@@ -24,6 +39,11 @@ class Page(BaseModel, Generic[T]):
     total: int
     limit: int
     offset: int
+    next_after: str | None = Field(
+        default=None,
+        description="Cursor of the last item: send it as `after` for the next page "
+        "(null when this page is not full, so no more rows follow).",
+    )
 
 
 class PageParams(BaseModel):
@@ -32,6 +52,8 @@ class PageParams(BaseModel):
     limit: int
     offset: int
     sort: str | None
+    after: str | None = None
+    next_after: str | None = None  # set by paginate for the page it read
 
 
 def page_of(schema: type[T], rows: Sequence[Any], total: int, params: PageParams) -> Page[T]:
@@ -41,6 +63,7 @@ def page_of(schema: type[T], rows: Sequence[Any], total: int, params: PageParams
         total=total,
         limit=params.limit,
         offset=params.offset,
+        next_after=params.next_after,
     )
 
 
@@ -52,23 +75,47 @@ def page_params(
         str | None,
         Query(description="Comma-separated fields; a leading '-' sorts descending."),
     ] = None,
+    after: Annotated[
+        str | None,
+        Query(
+            max_length=2000,
+            description="Keyset cursor: the `next_after` of the previous page. Pages never "
+            "repeat or drop a row when rows are inserted between them (unlike offset).",
+        ),
+    ] = None,
 ) -> PageParams:
-    """FastAPI dependency that reads the page window and the sort order."""
-    return PageParams(limit=limit, offset=offset, sort=sort)
+    """FastAPI dependency that reads the page window, the sort order and the cursor."""
+    return PageParams(limit=limit, offset=offset, sort=sort, after=after)
+
+
+def offset_page_params(
+    limit: Annotated[int, Query(ge=1, le=1000, description="Items per page.")] = 50,
+    offset: Annotated[int, Query(ge=0, le=MAX_ID, description="Items to skip.")] = 0,
+) -> PageParams:
+    """FastAPI dependency for lists computed in memory: limit and offset only."""
+    return PageParams(limit=limit, offset=offset, sort=None)
 
 
 PageDep = Annotated[PageParams, Depends(page_params)]
+OffsetPageDep = Annotated[PageParams, Depends(offset_page_params)]
 
 
-def apply_sort(
+def _bad_cursor(message: str) -> Invalid:
+    return Invalid(
+        f"The 'after' cursor cannot be used: {message}.",
+        errors=[{"field": "after", "in": "query", "message": message}],
+    )
+
+
+def _order(
     stmt: Select[Any], sort: str | None, columns: Mapping[str, Any], default: Any
-) -> Select[Any]:
-    """Order a query by client-chosen fields from a whitelist (422 naming the bad field)."""
-    if not sort:
-        return stmt.order_by(default)
-    order = []
-    for raw in sort.split(","):
+) -> list[tuple[str, Any, bool]]:
+    """The (name, column, descending) sort keys: the client's, then the default, then id."""
+    keys: list[tuple[str, Any, bool]] = []
+    for raw in (sort or "").split(","):
         name = raw.strip()
+        if not name:
+            continue
         desc = name.startswith("-")
         name = name.lstrip("-+")
         if name not in columns:
@@ -77,10 +124,93 @@ def apply_sort(
                 f"Cannot sort by '{name}'; allowed: {allowed}.",
                 errors=[{"field": "sort", "in": "query", "message": f"unknown field {name}"}],
             )
-        col = columns[name]
-        order.append(col.desc() if desc else col.asc())
-    order.append(default)  # a stable tiebreak keeps pages from overlapping
-    return stmt.order_by(*order)
+        keys.append((name, columns[name], desc))
+    if not keys:
+        element = getattr(default, "element", default)
+        desc = getattr(getattr(default, "modifier", None), "__name__", "") == "desc_op"
+        keys.append((getattr(element, "key", "default"), element, desc))
+    entity = stmt.column_descriptions[0].get("entity")
+    ident = getattr(entity, "id", None)
+    if ident is not None and not any(col is ident for _, col, _ in keys):
+        keys.append(("id", ident, False))  # the tie-breaker: the order is total
+    return keys
+
+
+def apply_sort(
+    stmt: Select[Any], sort: str | None, columns: Mapping[str, Any], default: Any
+) -> Select[Any]:
+    """Order a query by client-chosen fields from a whitelist (422 naming the bad field)."""
+    keys = _order(stmt, sort, columns, default)
+    return stmt.order_by(*[col.desc() if desc else col.asc() for _, col, desc in keys])
+
+
+def _plain(value: Any) -> Any:
+    """A sort-key value as JSON: times and dates as ISO 8601, enums by value."""
+    if isinstance(value, Enum):
+        return value.value
+    if isinstance(value, (datetime, date)):
+        return value.isoformat()
+    return value
+
+
+def _typed(column: Any, value: Any) -> Any:
+    """A cursor value back in the column's Python type."""
+    if value is None:
+        raise _bad_cursor("it names an empty sort value")
+    try:
+        kind = column.type.python_type
+    except (AttributeError, NotImplementedError):
+        return value
+    try:
+        if issubclass(kind, datetime):
+            return datetime.fromisoformat(value)
+        if issubclass(kind, date):
+            return date.fromisoformat(value)
+        if kind in (int, float, str) and not isinstance(value, kind):
+            raise _bad_cursor("a value of the wrong type")
+    except (TypeError, ValueError) as exc:
+        raise _bad_cursor("a malformed value") from exc
+    return value
+
+
+def encode_cursor(sort: str | None, values: Sequence[Any]) -> str:
+    """An opaque cursor: base64url of the sort and the last row's key values."""
+    raw = json.dumps({"s": sort or "", "k": [_plain(v) for v in values]}, separators=(",", ":"))
+    return base64.urlsafe_b64encode(raw.encode()).decode().rstrip("=")
+
+
+def decode_cursor(cursor: str) -> tuple[str, list[Any]]:
+    """The sort and key values of a cursor (422 for one we did not make)."""
+    try:
+        raw = base64.urlsafe_b64decode(cursor + "=" * (-len(cursor) % 4))
+        body = json.loads(raw)
+        sort, values = body["s"], body["k"]
+    except (binascii.Error, ValueError, KeyError, TypeError) as exc:
+        raise _bad_cursor("it is not a cursor this service made") from exc
+    if not isinstance(sort, str) or not isinstance(values, list):
+        raise _bad_cursor("it is not a cursor this service made")
+    return sort, values
+
+
+def _after(keys: list[tuple[str, Any, bool]], values: list[Any]) -> ColumnElement[bool]:
+    """Rows strictly after the key values in this order (a lexicographic comparison)."""
+    if len(values) != len(keys):
+        raise _bad_cursor("it was made for another order")
+    terms = []
+    typed = [_typed(col, v) for (_, col, _), v in zip(keys, values, strict=True)]
+    for i, (_, col, desc) in enumerate(keys):
+        equal = [keys[j][1] == typed[j] for j in range(i)]
+        beyond = col < typed[i] if desc else col > typed[i]
+        terms.append(and_(*equal, beyond))
+    return or_(false(), *terms)
+
+
+def _check_keyset(keys: list[tuple[str, Any, bool]]) -> None:
+    for name, col, _ in keys:
+        column = getattr(col, "property", None)
+        nullable = any(c.nullable for c in getattr(column, "columns", []))
+        if not isinstance(col, InstrumentedAttribute) or nullable:
+            raise _bad_cursor(f"the sort field '{name}' can be empty; page it with offset")
 
 
 def paginate(
@@ -90,9 +220,29 @@ def paginate(
     columns: Mapping[str, Any],
     default: Any,
 ) -> tuple[Sequence[Any], int]:
-    """Run a filtered query for one page; returns (rows, total)."""
+    """Run a filtered query for one page; returns (rows, total) and sets params.next_after.
+
+    The total counts every row matching the filters, not only those after the cursor.
+    """
     total = session.scalar(select(func.count()).select_from(stmt.order_by(None).subquery())) or 0
-    rows = session.scalars(
-        apply_sort(stmt, params.sort, columns, default).limit(params.limit).offset(params.offset)
-    ).all()
+    keys = _order(stmt, params.sort, columns, default)
+    window = stmt
+    if params.after is not None:
+        sort, values = decode_cursor(params.after)
+        if sort != (params.sort or ""):
+            raise _bad_cursor("it was made for another sort")
+        _check_keyset(keys)
+        window = window.where(_after(keys, values))
+    ordered = window.order_by(*[col.desc() if desc else col.asc() for _, col, desc in keys])
+    rows = session.scalars(ordered.limit(params.limit).offset(params.offset)).all()
+    params.next_after = None
+    if len(rows) == params.limit:
+        try:
+            _check_keyset(keys)
+        except Invalid:
+            return rows, int(total)  # a nullable sort: offset paging only
+        last = rows[-1]
+        params.next_after = encode_cursor(
+            params.sort, [getattr(last, col.key) for _, col, _ in keys]
+        )
     return rows, int(total)

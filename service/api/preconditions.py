@@ -79,6 +79,7 @@ def versioned(model: type[Any], path_param: str) -> Any:
         if row is not None:  # a missing row is the route's 404
             check_preconditions(request, response, row.version)
 
+    check.versioned_model = model  # type: ignore[attr-defined]  # read by service.api.openapi
     return Depends(check)
 
 

@@ -1,6 +1,6 @@
 """Resolved lamp models of a set of positions as the numeric core's table, with curves in use.
 
-The catalogue model comes from service.catalogue.model.resolve_lamp_model. The catalogue
+The catalogue model comes from service.catalogue.lamp_model.resolve_lamp_model. The catalogue
 owns this table and its loading so every domain above it (events, forecasting, planning,
 work orders) takes lamp models from here. Curves: the catalogue Weibull unless the caller
 hands the field fit's choice (service.forecasting.fit.load_fitted_types does).
@@ -22,7 +22,7 @@ from numpy.typing import ArrayLike, NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.catalogue.model import LampModel, lamp_type_table, resolve_lamp_model
+from service.catalogue.lamp_model import LampModel, lamp_type_table, resolve_lamp_model
 from service.catalogue.models import LampType
 from service.reliability.fleet import LampTypeTable
 from service.reliability.technologies import BALLAST_POWER_GAIN, BALLAST_VOLTAGE_BAND, BALLASTS

@@ -8,7 +8,7 @@ from fastapi import APIRouter, Query, Request, Response, status
 from pydantic import BaseModel
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response
+from service.api.bulk import EXPORT_RESPONSES, UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import IdPath
 from service.api.pagination import Page, PageDep, paginate
 from service.api.preconditions import locate, versioned
@@ -57,6 +57,7 @@ def list_lamp_types(
         total=total,
         limit=page.limit,
         offset=page.offset,
+        next_after=page.next_after,
     )
 
 
@@ -85,7 +86,7 @@ def import_lamp_types(
     return ImportSummary(rows=result.rows, created=result.created, updated=result.updated)
 
 
-@router.get("/export", response_class=Response)
+@router.get("/export", response_class=Response, responses=EXPORT_RESPONSES)
 def export_lamp_types(
     session: SessionDep,
     _: ReadKey,

@@ -11,7 +11,7 @@ from typing import Annotated, Any, Literal
 from fastapi import Query
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
-from service.catalogue.model import LampModel
+from service.catalogue.lamp_model import LampModel
 from service.catalogue.mortality import (
     MortalityFitRead,
     check_mortality_points,

@@ -10,7 +10,7 @@ from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict, Invalid, validation_errors
 from service.catalogue import repository as repo
-from service.catalogue.model import LampModel, resolve_lamp_model
+from service.catalogue.lamp_model import LampModel, resolve_lamp_model
 from service.catalogue.models import LampType
 from service.catalogue.schemas import (
     LAMP_TYPE_FIELDS,

@@ -11,8 +11,8 @@ from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
 from service.db.crud import get_or_404
+from service.events import burnouts, removals
 from service.events import repository as repo
-from service.events import service
 from service.events.models import BurnoutReport, LampRemoval
 from service.events.schemas import (
     BurnoutReportCreate,
@@ -36,7 +36,7 @@ def create_burnout_report(
     response: Response,
 ) -> BurnoutReportRead:
     """Report a dark lamp: records one failure observation; open until replaced."""
-    report = service.report_burnout(session, **body.model_dump())
+    report = burnouts.report_burnout(session, **body.model_dump())
     locate(request, response, "get_burnout_report", report_id=report.id)
     return BurnoutReportRead.model_validate(report)
 
@@ -75,7 +75,7 @@ def create_lamp_removal(
 ) -> LampRemovalRead:
     """Record a lamp taken out (failed or still burning); the position restarts at zero."""
     position = get_or_404(session, LampPosition, body.position_id, "lamp position")
-    removal = service.record_removal(
+    removal = removals.record_removal(
         session,
         position,
         removed_at=body.removed_at,

@@ -26,7 +26,7 @@ from numpy.typing import ArrayLike, NDArray
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from service.catalogue.model import LampModel
+from service.catalogue.lamp_model import LampModel
 from service.catalogue.resolved import CurveInUse, TypeTable, build_table, catalogue_models
 from service.events.models import LampRemoval
 from service.readings.ages import position_ages

@@ -35,8 +35,8 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
-from service.forecasting.ahead import expected_replacements
 from service.forecasting.fit import load_fitted_types
+from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
 from service.reliability.fleet import FleetResult, evaluate_fleet

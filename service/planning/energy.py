@@ -30,8 +30,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from service.catalogue.model import LampModel
-from service.planning.engine import (
+from service.catalogue.lamp_model import LampModel
+from service.planning.group_plan import (
     Conditions,
     CostInputs,
     GroupPlan,

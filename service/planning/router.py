@@ -6,9 +6,9 @@ from fastapi import APIRouter
 
 from service.api.auth import ReadKey, SessionDep
 from service.planning import service
-from service.planning.present import area_plan_read
+from service.planning.plan_bodies import area_plan_read
 from service.planning.schemas import AreaPlanRead, PlanOverrides, SitePlanRead
-from service.register.service import get_site
+from service.register.sites import get_site
 
 
 def build_router(last_relamps: service.LastRelamps) -> APIRouter:

@@ -28,13 +28,13 @@ import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.catalogue.model import LampModel
+from service.catalogue.lamp_model import LampModel
 from service.catalogue.resolved import CurveInUse
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
-from service.planning.engine import (
+from service.planning.group_plan import (
     DEFAULT_RUPTURE_FRACTION,
     Conditions,
     CostInputs,
@@ -148,7 +148,7 @@ def _models(
     return models, curves, types.ballast_of(pos.lamp_type_id, pos.ballast_kind)
 
 
-def plan_areas(
+def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     site: Site,
     areas: Sequence[Area],

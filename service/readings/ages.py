@@ -14,10 +14,10 @@ Method (all vectorised; a handful of queries whatever the number of positions):
   (each reading holds until the next one; the last one before the lamp went in counts from
   the install), "readings_weighted"; else the latest reading, "latest_reading"; else the
   fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
-  A fixture's own readings win over its area's. The readings part is in voltages.py.
-- Exposure history: the readings' burn-hour segments of each lamp (voltages.py); its hours
-  not under any reading (before the first reading, and hours it had when it went in) are
-  one more segment at the fixture's measured volts, else the site's nominal. The numeric
+  A fixture's own readings win over its area's. The readings part is in operating_voltage.py.
+- Exposure history: the readings' burn-hour segments of each lamp (operating_voltage.py); its
+  hours not under any reading (before the first reading, and hours it had when it went in)
+  are one more segment at the fixture's measured volts, else the site's nominal. The numeric
   core accumulates wear over them (PositionAges.history; service.reliability.exposure).
 - Ballast: the fixture's ballast kind (Fixture.ballast_kind), read as a code in the same
   query; catalogue.resolved decides which ballast the lamp actually runs on.
@@ -36,9 +36,9 @@ from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
 from service.readings.models import BurnHourRecord
-from service.readings.sql import epoch, float_matrix, target_keys
+from service.readings.operating_voltage import reading_voltages
+from service.readings.repository import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock, Timeline
-from service.readings.voltages import reading_voltages
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.reliability.exposure import ExposureHistory
 from service.reliability.technologies import BALLASTS
@@ -127,7 +127,7 @@ def empty_ages(at: datetime) -> PositionAges:
     )
 
 
-def position_ages(
+def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     *,
     site_id: int | None = None,

@@ -27,7 +27,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from service.readings.models import BurnHourRecord
-from service.readings.service import FUTURE_SKEW_S, resolve_targets, scatter_mask
+from service.readings.targets import FUTURE_SKEW_S, resolve_targets, scatter_mask
 from service.uploads import cells
 from service.uploads.errors import RowErrors
 from service.uploads.parse import Columns, UploadSpec

@@ -14,9 +14,9 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
 from service.api.errors import Invalid
 from service.api.ids import IdQuery
-from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.pagination import OffsetPageDep, Page, PageDep, page_of, paginate
 from service.api.times import Timestamp
-from service.readings import burn_hours, service
+from service.readings import burn_hours, voltage_upload
 from service.readings.ages import position_ages
 from service.readings.models import BurnHourRecord, VoltageReading
 from service.readings.schemas import (
@@ -106,8 +106,8 @@ def create_voltage_reading(
     response: Response,
 ) -> VoltageReadingRead:
     """Record a supply voltage measured at a fixture or on an area's circuit."""
-    cols = columns_from_dicts([body.model_dump()], service.VOLTAGE_COLUMNS)
-    service.ingest_voltages(session, cols)
+    cols = columns_from_dicts([body.model_dump()], voltage_upload.VOLTAGE_COLUMNS)
+    voltage_upload.ingest_voltages(session, cols)
     response.headers["Location"] = str(request.url_for("list_voltage_readings"))
     return VoltageReadingRead.model_validate(_latest(session, VoltageReading, body))
 
@@ -122,9 +122,9 @@ def upload_voltage_readings(
     body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
 ) -> BulkResult:
     """Upload voltage readings as CSV or a JSON list (fixture_id or area_id, measured_at, volts)."""
-    cols = read_upload(body, service.VOLTAGE_UPLOAD)
+    cols = read_upload(body, voltage_upload.VOLTAGE_UPLOAD)
     response.headers["Location"] = str(request.url_for("list_voltage_readings"))
-    return BulkResult(stored=service.ingest_voltages(session, cols))
+    return BulkResult(stored=voltage_upload.ingest_voltages(session, cols))
 
 
 @router.get("/voltage-readings", response_model=Page[VoltageReadingRead])
@@ -146,7 +146,7 @@ def list_voltage_readings(
 def list_position_ages(
     session: SessionDep,
     _: ReadKey,
-    page: PageDep,
+    page: OffsetPageDep,
     site_id: IdQuery = None,
     area_id: IdQuery = None,
     fixture_id: IdQuery = None,

@@ -10,8 +10,9 @@ from pydantic import BaseModel
 import service.register.fixture_bulk as fixture_bulk
 import service.register.fixture_export as fixture_export
 from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep, export_response
+from service.api.bulk import EXPORT_RESPONSES, UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import MAX_ID, IdPath
+from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
 from service.catalogue.schemas import IncludeRetiredQ
@@ -56,9 +57,12 @@ def list_fixtures(
     lamp_type_id: LampTypeQ = None,
     tag: TagQ = None,
     include_retired: IncludeRetiredQ = False,
+    external_reference: ExternalReferenceQ = None,
 ) -> Page[FixtureRead]:
     """List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on)."""
-    stmt = repo.fixture_query(site_id, area_id, lamp_type_id, tag, include_retired)
+    stmt = repo.fixture_query(
+        site_id, area_id, lamp_type_id, tag, include_retired, external_reference
+    )
     rows, total = paginate(session, stmt, page, repo.FIXTURE_SORT, Fixture.id)
     return page_of(FixtureRead, rows, total, page)
 
@@ -93,7 +97,7 @@ def import_fixtures(
     )
 
 
-@router.get("/fixtures/export", response_class=Response)
+@router.get("/fixtures/export", response_class=Response, responses=EXPORT_RESPONSES)
 def export_fixtures(
     session: SessionDep,
     _: ReadKey,

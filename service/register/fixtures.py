@@ -8,6 +8,7 @@ from typing import Any
 from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict, Invalid, NotFound
+from service.api.lookups import refuse_taken_reference
 from service.catalogue.models import LampType
 from service.db.base import utcnow
 from service.db.crud import get_or_404
@@ -112,6 +113,7 @@ def create_fixture(session: Session, body: FixtureCreate) -> Fixture:
         raise _invalid("ballast_kind", problem)
     if repo.tag_taken(session, area.site_id, body.tag):
         raise Conflict(f"The site already has a fixture tagged '{body.tag}'.", field="tag")
+    refuse_taken_reference(session, Fixture, body.external_reference, "Fixture")
     at = as_utc(body.lamps_installed_at or default_install_time(body.installed_on))
     if in_future(at):
         field = "lamps_installed_at" if body.lamps_installed_at else "installed_on"
@@ -159,6 +161,9 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
     tag = sent.get("tag")
     if tag is not None and repo.tag_taken(session, fixture.site_id, tag, exclude_id=fixture_id):
         raise Conflict(f"The site already has a fixture tagged '{tag}'.", field="tag")
+    refuse_taken_reference(
+        session, Fixture, sent.get("external_reference"), "Fixture", exclude_id=fixture_id
+    )
     new_count = sent.get("lamps_per_fixture", fixture.lamps_per_fixture)
     positions = list(fixture.positions)
     if new_count > len(positions):

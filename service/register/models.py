@@ -16,6 +16,8 @@ class Site(TimestampMixin, Base):
     """A building or campus with its own time zone, supply and tariffs."""
 
     __tablename__ = "sites"
+    # Unique when set (NULLs never clash); an index, so SQLite adds it without a rebuild.
+    __table_args__ = (Index("uq_sites_external_reference", "external_reference", unique=True),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
     # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
@@ -33,6 +35,8 @@ class Site(TimestampMixin, Base):
     weekly_run_time: Mapped[str] = mapped_column(String(5), default="06:00")  # HH:MM local
     lookahead_weeks: Mapped[int] = mapped_column(Integer, default=4)
     notes: Mapped[str | None] = mapped_column(String(2000), default=None)
+    # The id a client's own system keeps for the site; unique when set (service.api.lookups).
+    external_reference: Mapped[str | None] = mapped_column(String(200), default=None)
     # Set when retired: kept with its history, hidden from lists, no new work planned.
     retired_at: Mapped[datetime | None] = mapped_column(default=None)
 
@@ -99,7 +103,10 @@ class Fixture(TimestampMixin, Base):
     """A luminaire holding one or more lamps of one type."""
 
     __tablename__ = "fixtures"
-    __table_args__ = (UniqueConstraint("site_id", "tag"),)
+    __table_args__ = (
+        UniqueConstraint("site_id", "tag"),
+        Index("uq_fixtures_external_reference", "external_reference", unique=True),
+    )
 
     id: Mapped[int] = mapped_column(primary_key=True)
     # Bumped by every ORM UPDATE (and checked in its WHERE): the ETag and If-Match value.
@@ -117,6 +124,8 @@ class Fixture(TimestampMixin, Base):
     ballast_kind: Mapped[str] = mapped_column(String(20), default="none")
     measured_voltage_v: Mapped[float | None] = mapped_column(Float, default=None)
     installed_on: Mapped[date | None] = mapped_column(default=None)
+    # The id a client's own system keeps for the fixture; unique among fixtures when set.
+    external_reference: Mapped[str | None] = mapped_column(String(200), default=None)
     # Set when retired: kept with its history, hidden from lists, no new work planned.
     retired_at: Mapped[datetime | None] = mapped_column(default=None)
 

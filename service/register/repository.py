@@ -18,10 +18,15 @@ SITE_SORT = {
 
 
 def site_query(
-    name_contains: str | None = None, time_zone: str | None = None, include_retired: bool = True
+    name_contains: str | None = None,
+    time_zone: str | None = None,
+    include_retired: bool = True,
+    external_reference: str | None = None,
 ) -> Select[Any]:
-    """Sites filtered by a name fragment (case-insensitive), time zone and retirement."""
+    """Sites filtered by a name fragment (case-insensitive), time zone, retirement, reference."""
     stmt = select(Site)
+    if external_reference is not None:
+        stmt = stmt.where(Site.external_reference == external_reference)
     if not include_retired:
         stmt = stmt.where(Site.retired_at.is_(None))
     if name_contains:
@@ -94,9 +99,12 @@ def fixture_query(
     lamp_type_id: int | None = None,
     tag_contains: str | None = None,
     include_retired: bool = True,
+    external_reference: str | None = None,
 ) -> Select[Any]:
-    """Fixtures (with positions) filtered by site, area, lamp type, tag fragment, retirement."""
+    """Fixtures (with positions) filtered by site, area, lamp type, tag, retirement, reference."""
     stmt = select(Fixture).options(selectinload(Fixture.positions))
+    if external_reference is not None:
+        stmt = stmt.where(Fixture.external_reference == external_reference)
     if not include_retired:
         stmt = stmt.where(Fixture.retired_at.is_(None))
     if site_id is not None:

@@ -8,10 +8,11 @@ from fastapi import APIRouter, Query, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
+from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate, versioned
 from service.catalogue.schemas import IncludeRetiredQ
-from service.register import area_router, fixture_router, lamp_type_router, service
+from service.register import area_router, fixture_router, lamp_type_router, sites
 from service.register import repository as repo
 from service.register.models import Site
 from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
@@ -27,9 +28,10 @@ def list_sites(
     name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
     time_zone: Annotated[str | None, Query(description="Exact IANA time zone.")] = None,
     include_retired: IncludeRetiredQ = False,
+    external_reference: ExternalReferenceQ = None,
 ) -> Page[SiteRead]:
     """List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v)."""
-    stmt = repo.site_query(name, time_zone, include_retired)
+    stmt = repo.site_query(name, time_zone, include_retired, external_reference)
     rows, total = paginate(session, stmt, page, repo.SITE_SORT, Site.id)
     return page_of(SiteRead, rows, total, page)
 
@@ -39,7 +41,7 @@ def create_site(
     body: SiteCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
 ) -> SiteRead:
     """Create a site."""
-    site = service.create_site(session, body)
+    site = sites.create_site(session, body)
     locate(request, response, "get_site", site_id=site.id)
     return SiteRead.model_validate(site)
 
@@ -47,7 +49,7 @@ def create_site(
 @router.get("/sites/{site_id}", response_model=SiteRead, dependencies=[versioned(Site, "site_id")])
 def get_site(site_id: IdPath, session: SessionDep, _: ReadKey) -> SiteRead:
     """Read one site."""
-    return SiteRead.model_validate(service.get_site(session, site_id))
+    return SiteRead.model_validate(sites.get_site(session, site_id))
 
 
 @router.patch(
@@ -55,7 +57,7 @@ def get_site(site_id: IdPath, session: SessionDep, _: ReadKey) -> SiteRead:
 )
 def update_site(site_id: IdPath, body: SiteUpdate, session: SessionDep, _: WriteKey) -> SiteRead:
     """Change some fields of a site."""
-    return SiteRead.model_validate(service.update_site(session, site_id, body))
+    return SiteRead.model_validate(sites.update_site(session, site_id, body))
 
 
 @router.delete(
@@ -65,7 +67,7 @@ def update_site(site_id: IdPath, body: SiteUpdate, session: SessionDep, _: Write
 )
 def delete_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
     """Delete a site and everything in it."""
-    service.delete_site(session, site_id)
+    sites.delete_site(session, site_id)
     return Response(status_code=status.HTTP_204_NO_CONTENT)
 
 

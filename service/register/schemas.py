@@ -65,14 +65,40 @@ class SiteFields(BaseModel):
     weekly_run_time: ClockTime = "06:00"
     lookahead_weeks: int = Field(default=4, ge=1, le=52)
     notes: str | None = Field(default=None, max_length=2000)
+    external_reference: str | None = Field(
+        default=None,
+        min_length=1,
+        max_length=200,
+        description="The id your own system keeps for it; unique among sites when set.",
+    )
 
 
 class SiteCreate(SiteFields):
     """A new site."""
 
+    model_config = ConfigDict(
+        json_schema_extra={
+            "examples": [
+                {
+                    "name": "Northgate Depot",
+                    "time_zone": "Europe/Lisbon",
+                    "nominal_voltage_v": 230.0,
+                    "currency": "EUR",
+                    "energy_price_per_kwh": 0.21,
+                    "labour_rate_per_h": 38.0,
+                    "weekly_run_weekday": 0,
+                    "weekly_run_time": "06:00",
+                    "external_reference": "CMMS-SITE-0042",
+                }
+            ]
+        }
+    )
+
 
 # Site fields a PATCH may change but not empty (every one but notes).
-SITE_REQUIRED = tuple(name for name in SiteFields.model_fields if name != "notes")
+SITE_REQUIRED = tuple(
+    name for name in SiteFields.model_fields if name not in ("notes", "external_reference")
+)
 
 
 class SiteUpdate(BaseModel):
@@ -91,6 +117,7 @@ class SiteUpdate(BaseModel):
     weekly_run_time: ClockTime | None = None
     lookahead_weeks: int | None = Field(default=None, ge=1, le=52)
     notes: str | None = Field(default=None, max_length=2000)
+    external_reference: str | None = Field(default=None, min_length=1, max_length=200)
 
     @field_validator(*SITE_REQUIRED, mode="before")
     @classmethod
@@ -225,10 +252,32 @@ class FixtureFields(BaseModel):
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
     installed_on: Day | None = None
+    external_reference: str | None = Field(
+        default=None,
+        min_length=1,
+        max_length=200,
+        description="The id your own system keeps for it; unique among fixtures when set.",
+    )
 
 
 class FixtureCreate(FixtureFields):
     """A new fixture; its lamp positions are created with it."""
+
+    model_config = ConfigDict(
+        json_schema_extra={
+            "examples": [
+                {
+                    "tag": "NG-B2-017",
+                    "area_id": 3,
+                    "lamp_type_id": 2,
+                    "lamps_per_fixture": 2,
+                    "location": "Bay 2, row C",
+                    "installed_on": "2025-03-10",
+                    "external_reference": "CMMS-ASSET-88120",
+                }
+            ]
+        }
+    )
 
     area_id: Id
     # When the lamps now in it went in (default: installed_on at 00:00 UTC, else now) and
@@ -251,6 +300,7 @@ class FixtureUpdate(BaseModel):
     ballast_kind: BallastKind | None = None
     measured_voltage_v: Volts | None = None
     installed_on: Day | None = None
+    external_reference: str | None = Field(default=None, min_length=1, max_length=200)
 
 
 class FixtureRead(BaseModel):
@@ -269,6 +319,7 @@ class FixtureRead(BaseModel):
     ballast_kind: str
     measured_voltage_v: float | None
     installed_on: date | None
+    external_reference: str | None = None
     positions: list[PositionRead]
     created_at: datetime
     updated_at: datetime

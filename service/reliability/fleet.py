@@ -326,22 +326,7 @@ def evaluate_fleet(
     p_fail = -np.expm1(log_s_end - log_s_age)
     life_h = eta * types.b50_factor[k]
 
-    lld_age = np.empty(n, dtype=np.float64)
-    lld_end = np.empty(n, dtype=np.float64)
-    order = np.argsort(k, kind="stable")
-    bounds = np.concatenate(([0], np.cumsum(np.bincount(k, minlength=types.size))))
-    end_age = age + horizon
-    for j, curve in enumerate(types.lumen_curves):  # loop over K types, not lamps
-        idx = order[bounds[j] : bounds[j + 1]]
-        if idx.size == 0:
-            continue
-        if curve.basis == "rated_life_fraction":  # filament: fraction of the life used
-            lh = life_h[idx]
-            lld_age[idx] = curve.at(eff_age[idx], lh)
-            lld_end[idx] = curve.at(eff_age[idx] + horizon[idx], lh)
-        else:
-            lld_age[idx] = curve.at(age[idx], None)
-            lld_end[idx] = curve.at(end_age[idx], None)
+    lld_age, lld_end = _lumen(types, k, age, eff_age, horizon, life_h)
 
     return FleetResult(
         life_factor=life_factor,
@@ -362,6 +347,35 @@ def evaluate_fleet(
             ratio, types.ballast_gain[k], types.is_filament[k], band=types.voltage_band[k]
         ),
     )
+
+
+def _lumen(
+    types: LampTypeTable,
+    k: IntArray,
+    age: FloatArray,
+    eff_age: FloatArray,
+    horizon: FloatArray,
+    life_h: FloatArray,
+) -> tuple[FloatArray, FloatArray]:
+    """Lamp lumen depreciation now and at the horizon end, evaluated per type (K loops)."""
+    n = age.size
+    lld_age = np.empty(n, dtype=np.float64)
+    lld_end = np.empty(n, dtype=np.float64)
+    order = np.argsort(k, kind="stable")
+    bounds = np.concatenate(([0], np.cumsum(np.bincount(k, minlength=types.size))))
+    end_age = age + horizon
+    for j, curve in enumerate(types.lumen_curves):  # loop over K types, not lamps
+        idx = order[bounds[j] : bounds[j + 1]]
+        if idx.size == 0:
+            continue
+        if curve.basis == "rated_life_fraction":  # filament: fraction of the life used
+            lh = life_h[idx]
+            lld_age[idx] = curve.at(eff_age[idx], lh)
+            lld_end[idx] = curve.at(eff_age[idx] + horizon[idx], lh)
+        else:
+            lld_age[idx] = curve.at(age[idx], None)
+            lld_end[idx] = curve.at(end_age[idx], None)
+    return lld_age, lld_end
 
 
 def _rated_age(

@@ -108,7 +108,7 @@ def _burnout_interval(life: Weibull | RenewalCurve, share: float) -> float:
     return float(np.interp(share, life.cdf, life.t))  # F is non-decreasing
 
 
-def plan_block_replacement(
+def plan_block_replacement(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     life: Weibull | RenewalCurve,
     c_group: float,
     c_spot: float,

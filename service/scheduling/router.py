@@ -13,7 +13,7 @@ from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
-from service.register.service import get_site
+from service.register.sites import get_site
 from service.scheduling.models import RunOutcome, WeeklyRun
 from service.scheduling.runner import run_site_week
 from service.scheduling.schemas import RunRead, RunStart

@@ -27,6 +27,7 @@ import logging
 import os
 import socket
 import threading
+import time
 from datetime import datetime, timedelta
 from typing import Any, cast
 
@@ -34,6 +35,7 @@ from sqlalchemy import CursorResult, and_, or_, select, update
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import NotFound
+from service.api.metrics import observe_run
 from service.config import get_settings
 from service.db.base import utcnow
 from service.db.locks import lock_site
@@ -209,13 +211,18 @@ def run_site_week(
     run_id, week = _start_record(factory, site_id, week, trigger, when, lease)
     heartbeat = Heartbeat(factory, run_id, lease)
     heartbeat.start()
+    started = time.perf_counter()
     try:
         with _site_lock(site_id):
-            return _work(factory, site_id, week, run_id, when)
+            row = _work(factory, site_id, week, run_id, when)
+        observe_run("succeeded", time.perf_counter() - started, row.orders_created or 0)
+        return row
     except Exception as exc:
         log.exception("weekly run %s for site %s week %s failed", run_id, site_id, week)
         heartbeat.stop()  # before the failure record, so no beat renews a finished run
-        return _record_failure(factory, run_id, exc)
+        failed = _record_failure(factory, run_id, exc)
+        observe_run("failed", time.perf_counter() - started)
+        return failed
     finally:
         heartbeat.stop()
 

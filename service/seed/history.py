@@ -16,10 +16,10 @@ from sqlalchemy import Table, insert, inspect
 from sqlalchemy.orm import Session
 
 import service.models_registry  # noqa: F401  (registers every domain's tables on Base.metadata)
-from service.catalogue.model import lamp_type_table, resolve_lamp_model
+from service.catalogue.lamp_model import lamp_type_table, resolve_lamp_model
 from service.catalogue.models import LampType
 from service.db.base import Base, utcnow
-from service.events import service as events
+from service.events import burnouts
 from service.events.models import LampRemoval
 from service.register.models import LampPosition
 from service.reliability.fleet import evaluate_fleet
@@ -141,7 +141,7 @@ def report_burnouts(session: Session, sc: Scenario, where: Any) -> int:
     """Open burnout reports through the events service (each records its failure)."""
     for b in sorted(sc.burnouts, key=lambda b: b["reported_at"]):
         _, _, pid = where(b)
-        events.report_burnout(
+        burnouts.report_burnout(
             session,
             position_id=pid,
             reported_at=b["reported_at"],

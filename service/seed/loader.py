@@ -23,7 +23,8 @@ from service.keys import service as keys
 from service.keys.models import ApiKey
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.seed import history
-from service.seed.files import Scenario, read_scenario
+from service.seed.files import Scenario, read_scenario, seed_dir
+from service.seed.stock import load_stock
 
 # The demo key's secret lives only here (the database keeps its hash); var/ is gitignored.
 DEFAULT_KEY_FILE = Path("var") / "demo-key.txt"
@@ -142,6 +143,7 @@ def load_demo(
     counts.update(history.insert_readings(session, sc, site_id, area_id, fixture_id))
     counts["burnout_reports"] = history.report_burnouts(session, sc, where)
     counts["lamp_removals"] = removals + counts["burnout_reports"]  # a report records a failure
+    counts["stock_lines"] = load_stock(session, seed_directory or seed_dir(), site_id, lamp_id)
     session.flush()
 
     path = key_file_path(key_file)

@@ -175,5 +175,7 @@ def can(role: str, action: str) -> bool:
         "complete_order": {Role.technician, Role.planner, Role.administrator},
         "issue_order": {Role.planner, Role.administrator},
         "cancel_order": {Role.planner, Role.administrator},
+        "edit_register": {Role.planner, Role.administrator},
+        "start_run": {Role.planner, Role.administrator},
     }
     return Role(role) in allowed.get(action, set())

@@ -21,8 +21,8 @@ from sqlalchemy.orm import Session
 from service.api.errors import NotFound
 from service.catalogue.models import LampType
 from service.catalogue.resolved import CurveInUse, catalogue_models
-from service.forecasting.ahead import expected_replacements
 from service.forecasting.fit import FieldFit, fit_field, load_fitted_types
+from service.forecasting.spot_replacements import expected_replacements
 from service.forecasting.whatif import CurveResult, lamp_curve
 from service.planning.service import AreaPlan, TypeGroup
 from service.readings.ages import position_ages
@@ -211,7 +211,7 @@ def weekly_burnouts(
 ) -> Chart | None:
     """Expected burnouts per week for the next weeks by lamp type, group relamps marked.
 
-    Cumulative expected spot replacements N_a(w) (service.forecasting.ahead) at the end of
+    Cumulative expected spot replacements N_a(w) (service.forecasting.spot_replacements) at the end of
     each week, differenced into weekly counts; `due` are the planned group relamp dates.
     """
     ages = position_ages(session, at=at)

@@ -7,13 +7,17 @@ from urllib.parse import quote
 from fastapi import FastAPI, Request
 from fastapi.responses import RedirectResponse, Response
 
+from service.web import fixture_pages, run_pages
 from service.web.auth import NeedsSignIn, PageForbidden
-from service.web.router import page, router, static
+from service.web.pages import page, static
+from service.web.router import router
 
 
 def install_web(app: FastAPI) -> None:
     """Add the page routes and their error handlers to the app."""
     app.include_router(router)
+    app.include_router(fixture_pages.router)
+    app.include_router(run_pages.router)
     app.mount("/static", static, name="static")
 
     async def to_sign_in(request: Request, exc: Exception) -> Response:

@@ -2,13 +2,10 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-from typing import Annotated, Any
+from typing import Annotated
 
 from fastapi import APIRouter, Form, Request
-from fastapi.responses import HTMLResponse, RedirectResponse, Response
-from fastapi.staticfiles import StaticFiles
-from fastapi.templating import Jinja2Templates
+from fastapi.responses import HTMLResponse, Response
 from pydantic import ValidationError
 from sqlalchemy.orm import Session
 
@@ -16,7 +13,7 @@ from service.api.auth import SessionDep
 from service.api.errors import DomainError
 from service.db.base import utcnow
 from service.planning import service as planning
-from service.planning.present import area_plan_read
+from service.planning.plan_bodies import area_plan_read
 from service.planning.service import WEEKS_PER_YEAR
 from service.register.models import Site
 from service.users import service as users
@@ -29,26 +26,19 @@ from service.web.auth import (
     client_ip,
     set_cookie_secure,
 )
+from service.web.pages import page, see_other
 from service.workorders import exports
 from service.workorders import service as orders_service
 from service.workorders.repository import last_group_relamps
-from service.workorders.schemas import CancelBody, CompleteBody, FixtureOutcome
+from service.workorders.schemas import (
+    CancelBody,
+    CompleteBody,
+    FixtureOutcome,
+    PositionOutcome,
+)
 
-HERE = Path(__file__).parent
-templates = Jinja2Templates(directory=str(HERE / "templates"))  # autoescapes .html
-static = StaticFiles(directory=str(HERE / "static"))
 router = APIRouter(include_in_schema=False)
 Text = Annotated[str, Form(max_length=1000)]
-
-
-def page(request: Request, name: str, status_code: int = 200, **context: Any) -> HTMLResponse:
-    """Render a template with the request and the visitor, if any."""
-    return templates.TemplateResponse(request, name, context, status_code=status_code)
-
-
-def see_other(url: str) -> RedirectResponse:
-    """A redirect after a POST (303 so the browser follows with GET)."""
-    return RedirectResponse(url, status_code=303)
 
 
 @router.get("/sign-in", response_class=HTMLResponse)
@@ -220,7 +210,7 @@ def _quote(tag: str) -> str:
     return quote(tag, safe="")
 
 
-@router.get("/f/{site_id}/{tag}", response_class=HTMLResponse)
+@router.get("/f/{site_id}/{tag:path}", response_class=HTMLResponse)
 def report_form(
     request: Request, session: SessionDep, visitor: VisitorDep, site_id: int, tag: str
 ) -> HTMLResponse:
@@ -259,10 +249,10 @@ def report_send(
 ) -> Response:
     """Record the burnout through the events service, then confirm."""
     check_post(visitor, csrf_token, "report_burnout")
-    from service.events import service as events
+    from service.events import burnouts
 
     try:
-        report = events.report_burnout(
+        report = burnouts.report_burnout(
             session,
             position_id=position_id,
             reported_at=utcnow(),
@@ -357,17 +347,26 @@ def order_complete(
     fixture_id: Ids = [],  # noqa: B006 (FastAPI copies form defaults)
     outcome: Texts = [],  # noqa: B006
     reason: Texts = [],  # noqa: B006
+    position_id: Ids = [],  # noqa: B006
+    position_outcome: Texts = [],  # noqa: B006
+    position_reason: Texts = [],  # noqa: B006
 ) -> Response:
-    """Complete a started order with one outcome (and a reason for a skip) per fixture."""
+    """Complete a started order: an outcome per position (or per fixture), skips with reasons."""
     check_post(visitor, csrf_token, "complete_order")
-    if not (len(fixture_id) == len(outcome) == len(reason)):
+    if not (len(fixture_id) == len(outcome) == len(reason)) or not (
+        len(position_id) == len(position_outcome) == len(position_reason)
+    ):
         return _order_page(request, session, visitor, order_id, 422, "The form is incomplete.")
     outcomes, errors = _outcomes_from_form(fixture_id, outcome, reason)
+    positions, position_errors = _positions_from_form(
+        position_id, position_outcome, position_reason
+    )
+    errors += position_errors
     if errors:
         return _order_page(
             request, session, visitor, order_id, 422, "Some outcomes need fixing.", errors
         )
-    body = CompleteBody(outcomes=outcomes)
+    body = CompleteBody(outcomes=outcomes, positions=positions)
     try:
         orders_service.complete(session, order_id, body)
     except DomainError as exc:
@@ -376,6 +375,20 @@ def order_complete(
             request, session, visitor, order_id, exc.status, exc.detail, _error_lines(exc)
         )
     return see_other(f"/app/work-orders/{order_id}")
+
+
+def _positions_from_form(
+    position_ids: list[int], outcomes: list[str], reasons: list[str]
+) -> tuple[list[PositionOutcome], list[str]]:
+    """The per-position rows, and a readable error naming each row the schema refuses."""
+    rows, errors = [], []
+    for i, (p, o, r) in enumerate(zip(position_ids, outcomes, reasons, strict=True)):
+        try:
+            rows.append(PositionOutcome(position_id=p, outcome=o, reason=r.strip() or None))
+        except ValidationError as exc:
+            why = "; ".join(e["msg"].removeprefix("Value error, ") for e in exc.errors())
+            errors.append(f"Position row {i + 1} (position {p}): {why}")
+    return rows, errors
 
 
 def _error_lines(exc: DomainError) -> list[str]:

@@ -27,16 +27,18 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
-from service.planning.engine import PlanCache
+from service.planning.group_plan import PlanCache
 from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.uploads.write import write_rows
+from service.workorders import stock_hooks
 from service.workorders.models import (
     OPEN_STATES,
     WorkOrder,
     WorkOrderKind,
     WorkOrderLine,
+    WorkOrderState,
 )
 from service.workorders.repository import last_group_relamps
 from service.workorders.texts import (
@@ -247,7 +249,17 @@ def issue_orders(
             built.append((order, ls, [r.id for r in rs]))
     if built:
         _write(session, built, result, at, checkpoint)
+        if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
+            _reserve(session, site.id, [oid for oid, _, _ in result.created])
     return result
+
+
+def _reserve(session: Session, site_id: int, order_ids: list[int]) -> None:
+    """Reserve stocked lamps for orders just created issued (nothing when none are stocked)."""
+    if not order_ids or not stock_hooks.site_stocks_anything(session, site_id):
+        return
+    orders = session.scalars(select(WorkOrder).where(WorkOrder.id.in_(order_ids))).all()
+    stock_hooks.on_issued_many(session, orders)
 
 
 def _due_types(

@@ -64,6 +64,8 @@ class WorkOrder(TimestampMixin, Base):
         UniqueConstraint("site_id", "iso_week", "area_id", "kind"),
         Index("ix_work_orders_updated", "updated_at"),
         Index("ix_work_orders_site_state", "site_id", "state"),
+        # The CMMS's id for the order, unique when set (migration 0014).
+        Index("uq_work_orders_external_reference", "external_reference", unique=True),
         # At most one open group order per area, enforced by the database, not a read.
         Index(
             "uq_work_orders_open_group_area",
@@ -89,6 +91,7 @@ class WorkOrder(TimestampMixin, Base):
     estimated_labour_h: Mapped[float] = mapped_column(Float, default=0.0)  # hours
     disposal_instructions: Mapped[str] = mapped_column(Text, default="")
     safety_cautions: Mapped[str] = mapped_column(Text, default="")
+    # The id the client's CMMS keeps for the order; unique when set (migration 0014).
     external_reference: Mapped[str | None] = mapped_column(String(200), default=None)
     notes: Mapped[str | None] = mapped_column(String(2000), default=None)
     state_changed_at: Mapped[datetime | None] = mapped_column(default=None)

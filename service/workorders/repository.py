@@ -28,9 +28,12 @@ def order_query(
     kind: str | None = None,
     iso_week: str | None = None,
     changed_since: datetime | None = None,
+    external_reference: str | None = None,
 ) -> Select[Any]:
     """Orders filtered; changed_since keeps those updated (state changes included) at or after."""
     stmt = select(WorkOrder)
+    if external_reference is not None:
+        stmt = stmt.where(WorkOrder.external_reference == external_reference)
     if site_id is not None:
         stmt = stmt.where(WorkOrder.site_id == site_id)
     if area_id is not None:

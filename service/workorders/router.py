@@ -8,8 +8,10 @@ from fastapi import APIRouter, Query, Request, Response, status
 from fastapi.responses import HTMLResponse
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
+from service.api.bulk import CSV_RESPONSES
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
+from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, paginate
 from service.api.preconditions import locate, versioned
 from service.api.times import Timestamp
@@ -62,6 +64,7 @@ def list_orders(
         Query(description="ISO 8601 with offset: orders created or changed at or after it."),
     ] = None,
     include_lines: bool = False,
+    external_reference: ExternalReferenceQ = None,
 ) -> Page[WorkOrderRead]:
     """List orders (sort: id, due_on, updated_at, created_at, state); poll with changed_since."""
     if changed_since is not None and changed_since.tzinfo is None:
@@ -76,6 +79,7 @@ def list_orders(
         kind=kind,
         iso_week=iso_week,
         changed_since=changed_since,
+        external_reference=external_reference,
     )
     default = WorkOrder.updated_at if changed_since is not None else WorkOrder.id
     rows, total = paginate(session, stmt, page, repo.ORDER_SORT, default)
@@ -84,6 +88,7 @@ def list_orders(
         total=total,
         limit=page.limit,
         offset=page.offset,
+        next_after=page.next_after,
     )
 
 
@@ -169,7 +174,7 @@ def order_lines(order_id: IdPath, session: SessionDep, _: ReadKey) -> list[LineR
     return [LineRead.model_validate(ln) for ln in service.lines_of(session, order_id)]
 
 
-@router.get("/work-orders/{order_id}/lines.csv", response_class=Response)
+@router.get("/work-orders/{order_id}/lines.csv", response_class=Response, responses=CSV_RESPONSES)
 def order_lines_csv(order_id: IdPath, session: SessionDep, _: ReadKey) -> Response:
     """An order's lines as CSV (UTF-8, one row per fixture)."""
     order = service.get_order(session, order_id)

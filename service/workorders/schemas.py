@@ -18,7 +18,21 @@ State = WorkOrderState
 class WorkOrderCreate(BaseModel):
     """A hand-made order (a draft): a group relamp of a whole area, or its open burnouts."""
 
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(
+        extra="forbid",
+        allow_inf_nan=False,
+        json_schema_extra={
+            "examples": [
+                {
+                    "area_id": 3,
+                    "kind": "group_relamp",
+                    "due_on": "2026-12-14",
+                    "notes": "Lift needed; bay closed 06:00-08:00.",
+                    "external_reference": "CMMS-WO-2026-1187",
+                }
+            ]
+        },
+    )
 
     area_id: Id
     kind: Kind

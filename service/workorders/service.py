@@ -17,13 +17,14 @@ from sqlalchemy.orm import Session, object_session
 from sqlalchemy.orm.exc import StaleDataError
 
 from service.api.errors import Conflict, Invalid, NotFound
+from service.api.lookups import refuse_taken_reference
 from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
-from service.events import reports
-from service.events import service as events
+from service.events import removals, reports
 from service.events.checks import as_aware
 from service.register.models import Area, LampPosition, Site
+from service.workorders import stock_hooks
 from service.workorders.issue import GROUP, SPOT, issue_orders
 from service.workorders.models import (
     OPEN_STATES,
@@ -111,8 +112,14 @@ def _simple_move(session: Session, order_id: int, to: str) -> WorkOrder:
 
 
 def issue(session: Session, order_id: int) -> WorkOrder:
-    """draft -> issued (a repeat on an issued order answers it unchanged)."""
-    return _simple_move(session, order_id, WorkOrderState.ISSUED)
+    """draft -> issued, reserving its stocked lamps (a repeat answers it unchanged)."""
+    order = lock_order(session, order_id)
+    if _already(order, WorkOrderState.ISSUED):
+        return order
+    _move(order, WorkOrderState.ISSUED, utcnow())
+    flush_order(session, order)
+    stock_hooks.on_issued(session, order)
+    return order
 
 
 def start(session: Session, order_id: int) -> WorkOrder:
@@ -135,6 +142,7 @@ def cancel(session: Session, order_id: int, body: CancelBody) -> WorkOrder:
     _move(order, WorkOrderState.CANCELLED, now)
     order.cancel_reason = body.reason
     reports.reopen_reports(session, order.id)
+    stock_hooks.on_cancelled(session, order)
     for spot in _covered_open(session, order):  # they stay open, to be done on their own
         spot.covered_by_order_id = None
         spot.updated_at = now
@@ -167,6 +175,7 @@ def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now:
         if reopened:
             note += f" {reopened} burnout report(s) reopened: skipped on the group order."
         spot.notes = note if not spot.notes else f"{spot.notes}\n{note}"[-2000:]
+        stock_hooks.on_settled(session, spot)
         spot.state = WorkOrderState.DONE
         spot.state_changed_at = now
         spot.completed_at = at
@@ -176,6 +185,9 @@ def _settle_covered(spots: list[WorkOrder], order: WorkOrder, at: datetime, now:
 def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
     """Change the external reference, notes or due date (any state)."""
     order = lock_order(session, order_id)
+    refuse_taken_reference(
+        session, WorkOrder, body.external_reference, "Work order", exclude_id=order_id
+    )
     apply_patch(order, body)
     order.updated_at = utcnow()
     flush_order(session, order)
@@ -185,6 +197,7 @@ def update(session: Session, order_id: int, body: WorkOrderUpdate) -> WorkOrder:
 def create(session: Session, body: WorkOrderCreate) -> WorkOrder:
     """A draft order for one area: all its fixtures (group) or its open burnouts (spot)."""
     area = get_or_404(session, Area, body.area_id, "area")
+    refuse_taken_reference(session, WorkOrder, body.external_reference, "Work order")
     site = session.get(Site, area.site_id)
     assert site is not None
     # The weekly run takes the same lock: hand-made and scheduled orders never interleave.
@@ -320,6 +333,7 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
         ln.position_outcomes = [
             {"position_id": pid, "outcome": str(o), "reason": r} for pid, o, r in entries
         ]
+    stock_hooks.on_completed(session, order)  # 409 before any removal when stock is short
     _record(session, order, resolved, at)
     reports.reopen_reports(session, order.id)  # reports of skipped positions reopen
     _settle_covered(covered, order, at, now)
@@ -361,7 +375,7 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
         (burning_positions, False, "group_relamp"),  # a removal reason, not a kind
     ):
         if group:
-            events.record_removals(
+            removals.record_removals(
                 session,
                 group,
                 removed_at=at,

@@ -21,7 +21,7 @@ from sqlalchemy.orm import Session
 import service.models_registry  # noqa: F401  (every domain's tables on the metadata)
 from service.catalogue.models import LampType
 from service.db.base import Base, utcnow
-from service.events import service as events
+from service.events import burnouts
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.workorders import service as workorders
 from service.workorders.schemas import WorkOrderCreate
@@ -100,7 +100,7 @@ def world(db: Session) -> dict[str, Any]:
     db.add_all(positions)
     db.flush()
     now = utcnow() - timedelta(minutes=1)
-    events.report_burnout(db, position_id=positions[1].id, reported_at=now - timedelta(days=1))
+    burnouts.report_burnout(db, position_id=positions[1].id, reported_at=now - timedelta(days=1))
     order = workorders.create(db, WorkOrderCreate(area_id=area.id, kind="group_relamp"))
     db.commit()
     return {

@@ -15,12 +15,12 @@ from fastapi.testclient import TestClient
 from sqlalchemy.exc import OperationalError
 from sqlalchemy.orm import Session
 
-from service.register import service as register_service
+from service.register import sites as register_sites
 from tests.api.test_bad_input_tour import SITE, assert_problem
 
 
 def _failing_after_write(message: str) -> Any:
-    real = register_service.update_site
+    real = register_sites.update_site
 
     def update_then_fail(session: Session, site_id: int, body: Any) -> Any:
         real(session, site_id, body)  # the change is flushed, then the driver gives up
@@ -41,7 +41,7 @@ def test_busy_database_is_a_503_and_saves_nothing(
     client: TestClient, writer: dict[str, str], monkeypatch: pytest.MonkeyPatch, message: str
 ) -> None:
     site = client.post("/api/v1/sites", json=SITE, headers=writer).json()
-    monkeypatch.setattr(register_service, "update_site", _failing_after_write(message))
+    monkeypatch.setattr(register_sites, "update_site", _failing_after_write(message))
     r = client.patch(f"/api/v1/sites/{site['id']}", json={"name": "Renamed"}, headers=writer)
     assert_problem(r, 503)
     assert r.headers["retry-after"] == "1"
@@ -52,6 +52,6 @@ def test_other_operational_errors_stay_internal(
     client: TestClient, writer: dict[str, str], monkeypatch: pytest.MonkeyPatch
 ) -> None:
     site = client.post("/api/v1/sites", json=SITE, headers=writer).json()
-    monkeypatch.setattr(register_service, "update_site", _failing_after_write("disk I/O error"))
+    monkeypatch.setattr(register_sites, "update_site", _failing_after_write("disk I/O error"))
     r = client.patch(f"/api/v1/sites/{site['id']}", json={"name": "Renamed"}, headers=writer)
     assert_problem(r, 500)

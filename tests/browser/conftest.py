@@ -25,7 +25,9 @@ from sqlalchemy.orm import Session
 
 CHROMIUM = os.environ.get("LAMPKEEPER_CHROMIUM", "/usr/bin/chromium")
 CHROMEDRIVER = os.environ.get("LAMPKEEPER_CHROMEDRIVER", "/usr/bin/chromedriver")
-SCREENSHOTS = Path(__file__).parent / "screenshots"
+# Where each test saves its screenshot; the README's pictures are made with
+# LAMPKEEPER_SCREENSHOTS=docs/screenshots (see README, "Web app").
+SCREENSHOTS = Path(os.environ.get("LAMPKEEPER_SCREENSHOTS", Path(__file__).parent / "screenshots"))
 BIN = Path(sys.executable).parent
 STARTUP_S = 60.0  # how long the server may take to answer /healthz (a loaded CI machine)
 
@@ -52,10 +54,10 @@ def _run(args: list[str], env: dict[str, str]) -> None:
 
 def _prepare_demo(db_url: str) -> tuple[int, int]:
     """Add the demo people (as `make run` does) and two areas' draft group orders."""
-    from sqlalchemy import select
+    from sqlalchemy import func, select
 
     from service.db.session import make_engine
-    from service.register.models import Area
+    from service.register.models import Area, Fixture
     from service.seed.users import ensure_demo_users
     from service.workorders import service as orders
     from service.workorders.schemas import WorkOrderCreate
@@ -63,7 +65,16 @@ def _prepare_demo(db_url: str) -> tuple[int, int]:
     engine = make_engine(db_url)
     with Session(engine) as session, session.begin():
         ensure_demo_users(session)
-        first, second = session.scalars(select(Area.id).order_by(Area.id).limit(2)).all()
+        first = session.scalars(select(Area.id).order_by(Area.id)).first()
+        # The completion test wants multi-lamp fixtures (one lamp skipped, another found
+        # dark): the area of two-lamp fixtures with the fewest fixtures.
+        second = session.scalars(
+            select(Fixture.area_id)
+            .where(Fixture.lamps_per_fixture >= 2, Fixture.area_id != first)
+            .group_by(Fixture.area_id)
+            .order_by(func.count(), Fixture.area_id)
+        ).first()
+        assert first is not None and second is not None
         ids = tuple(
             orders.create(session, WorkOrderCreate(area_id=a, kind="group_relamp")).id
             for a in (first, second)
@@ -158,7 +169,7 @@ def browser(server: Server) -> Iterator[object]:
         opts.add_argument(arg)
     driver = webdriver.Chrome(service=Service(executable_path=CHROMEDRIVER), options=opts)
     driver.set_page_load_timeout(60)
-    SCREENSHOTS.mkdir(exist_ok=True)
+    SCREENSHOTS.mkdir(parents=True, exist_ok=True)
     try:
         yield driver
     finally:

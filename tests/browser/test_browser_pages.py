@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from itertools import pairwise
 from typing import Any
 
@@ -220,9 +221,50 @@ def test_overview_and_area_charts_hold_the_demo_points(page: Any, server: Server
     _shot(page, "lamp-type-field-fit")
 
 
-def test_technician_completes_an_order_with_a_skip(page: Any, server: Server) -> None:
+def _order_facts(server: Server, order_id: int) -> tuple[int, int]:
+    """(area id, lamp type id of its first line) of an order."""
+    from service.db.session import make_engine
+    from service.workorders.models import WorkOrder, WorkOrderLine
+
+    engine = make_engine(server.db_url)
+    with Session(engine) as s:
+        area_id = s.scalar(select(WorkOrder.area_id).where(WorkOrder.id == order_id))
+        lamp_type_id = s.scalar(
+            select(WorkOrderLine.lamp_type_id)
+            .where(WorkOrderLine.work_order_id == order_id)
+            .order_by(WorkOrderLine.id)
+        )
+    engine.dispose()
+    assert area_id is not None and lamp_type_id is not None
+    return int(area_id), int(lamp_type_id)
+
+
+def _fit_counts(driver: Any, server: Server, lamp_type_id: int) -> tuple[int, int]:
+    """(failures, censored) on a lamp type's field-fit page."""
+    driver.get(f"{server.base}/app/lamp-types/{lamp_type_id}")
+    m = re.search(
+        r"(\d+) failures and (\d+) censored", driver.find_element(By.ID, "fit-summary").text
+    )
+    assert m
+    return int(m.group(1)), int(m.group(2))
+
+
+def _oldest_by_tag(driver: Any, server: Server, area_id: int) -> dict[str, float]:
+    """Each fixture's oldest lamp in burn hours, from the area page."""
+    driver.get(f"{server.base}/app/areas/{area_id}")
+    out = {}
+    for tr in driver.find_elements(By.CSS_SELECTOR, "#area-fixtures tbody tr"):
+        cells = [td.text for td in tr.find_elements(By.TAG_NAME, "td")]
+        out[cells[0]] = float(cells[4].replace(",", ""))
+    return out
+
+
+def test_technician_completes_an_order_found_dark_and_skipped(page: Any, server: Server) -> None:
     oid = server.second_order_id
+    area_id, lamp_type_id = _order_facts(server, oid)
     sign_in(page, server, "pela")  # a planner issues the order
+    failures, censored = _fit_counts(page, server, lamp_type_id)
+    ages = _oldest_by_tag(page, server, area_id)
     page.get(f"{server.base}/app/work-orders/{oid}")
     page.find_element(By.CSS_SELECTOR, f"form[action$='/{oid}/issued'] button").click()
     _wait(page).until(ec.text_to_be_present_in_element((By.ID, "order-state"), "issued"))
@@ -234,15 +276,31 @@ def test_technician_completes_an_order_with_a_skip(page: Any, server: Server) ->
     _wait(page).until(ec.text_to_be_present_in_element((By.ID, "order-state"), "in_progress"))
     assert "Isolate and lock off the power" in page.find_element(By.TAG_NAME, "main").text
     form = page.find_element(By.CSS_SELECTOR, "form.complete")
-    selects = form.find_elements(By.CSS_SELECTOR, "select[name=outcome]")
-    reasons = form.find_elements(By.CSS_SELECTOR, "input[name=reason]")
-    assert len(selects) >= 2
-    Select(selects[-1]).select_by_value("skipped")
-    reasons[-1].send_keys("blocked by a parked van")
+    rows = form.find_elements(By.CSS_SELECTOR, "tbody tr")
+    tags = [r.find_element(By.TAG_NAME, "th").text.split("\n")[0] for r in rows]
+    assert len(rows) >= 4 and tags[0] == tags[1]  # a multi-lamp fixture, one row per lamp
+    # The first fixture: its first lamp found dark, its second skipped, the rest replaced.
+    Select(rows[0].find_element(By.TAG_NAME, "select")).select_by_value("found_dark")
+    Select(rows[1].find_element(By.TAG_NAME, "select")).select_by_value("skipped")
+    rows[1].find_element(By.CSS_SELECTOR, "input[name=position_reason]").send_keys(
+        "holder cracked, needs an electrician"
+    )
     _shot(page, "order-complete-form")
     form.find_element(By.CSS_SELECTOR, "button[type=submit]").click()
     _wait(page).until(ec.text_to_be_present_in_element((By.ID, "order-state"), "done"))
     lines = page.find_element(By.TAG_NAME, "main").text
-    assert "skipped: blocked by a parked van" in lines
-    assert lines.count("replaced") >= len(selects) - 1
+    assert "partial: holder cracked, needs an electrician" in lines
+    assert "position 1: found dark" in lines and "position 2: skipped" in lines
     _shot(page, "order-done")
+    # The field fit counts the found-dark lamp as a failure, the replaced ones as censored.
+    after_failures, after_censored = _fit_counts(page, server, lamp_type_id)
+    assert after_failures == failures + 1
+    assert after_censored > censored
+    _shot(page, "lamp-type-fit-after-order")
+    # Ages: every fully relamped fixture restarts; the skipped lamp keeps the first one old.
+    after = _oldest_by_tag(page, server, area_id)
+    others = [t for t in dict.fromkeys(tags) if t != tags[0]]
+    assert others and all(ages[t] >= 1 for t in others)
+    assert all(after[t] < 1 for t in others)  # new lamps: under one burn hour old
+    assert 1 <= after[tags[0]] <= ages[tags[0]]  # the skipped lamp keeps its age
+    _shot(page, "area-after-order")

@@ -9,7 +9,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from service.catalogue.model import lamp_type_table, resolve_lamp_model
+from service.catalogue.lamp_model import lamp_type_table, resolve_lamp_model
 from service.catalogue.mortality import check_mortality_points, fit_mortality_points
 from service.reliability.fleet import TABLE_COLUMNS, LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.lumen import LumenCurve, default_lumen_curve

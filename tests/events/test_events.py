@@ -9,9 +9,9 @@ from fastapi.testclient import TestClient
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.events import reports
-from service.events import service as events
+from service.events import burnouts, reports
 from service.events.models import LampRemoval
+from service.events.removals import record_removal, record_removals
 from service.register.models import LampPosition
 from tests.readings import factory as fx
 
@@ -83,7 +83,7 @@ def test_burnout_then_replacement_counts_one_failure(
 def test_report_with_replacement_closes_at_once(db: Session) -> None:
     pos = _positions(db)[1]
     when = T0 + timedelta(days=3)
-    rep = events.report_burnout(
+    rep = burnouts.report_burnout(
         db, position_id=pos.id, reported_at=when, burn_hours=40.0, replaced=True
     )
     assert rep.status == "closed" and pos.burned_out_at is None and pos.lamp_installed_at == when
@@ -93,7 +93,7 @@ def test_report_with_replacement_closes_at_once(db: Session) -> None:
 
 def test_removal_normalises_hours_by_voltage(db: Session) -> None:
     pos = _positions(db, measured_voltage_v=241.5)[0]  # 1.05 x rated 230 V
-    removal = events.record_removal(
+    removal = record_removal(
         db, pos, removed_at=T0 + timedelta(days=30), failed=False, reason="group_relamp"
     )
     # Life x (V/Vr)^-13 (inverse power law, Nelson): each hour counts 1.05^13 rated hours.
@@ -105,8 +105,8 @@ def test_removal_normalises_hours_by_voltage(db: Session) -> None:
 
 def test_close_and_order_reports(db: Session) -> None:
     p = _positions(db)
-    r1 = events.report_burnout(db, position_id=p[0].id, reported_at=T0 + timedelta(days=1))
-    r2 = events.report_burnout(db, position_id=p[1].id, reported_at=T0 + timedelta(days=2))
+    r1 = burnouts.report_burnout(db, position_id=p[0].id, reported_at=T0 + timedelta(days=1))
+    r2 = burnouts.report_burnout(db, position_id=p[1].id, reported_at=T0 + timedelta(days=2))
     assert len(reports.mark_ordered(db, [r1.id], 5)) == 1
     assert [r.id for r in reports.open_burnout_reports(db)] == [r2.id]
     assert reports.reopen_reports(db, 5) == 1
@@ -162,9 +162,9 @@ def test_bad_events_are_refused(
 
 def test_group_removal_matches_one_by_one(db: Session) -> None:
     p = _positions(db, n_fixtures=3)
-    events.report_burnout(db, position_id=p[0].id, reported_at=T0 + timedelta(days=5))
+    burnouts.report_burnout(db, position_id=p[0].id, reported_at=T0 + timedelta(days=5))
     when = T0 + timedelta(days=30)
-    removals = events.record_removals(
+    removals = record_removals(
         db, p, removed_at=when, failed=False, reason="group_relamp", work_order_id=3
     )
     by_pos = {r.position_id: r for r in removals}

@@ -10,7 +10,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.events import service as events
+from service.events.removals import record_removals
 from service.register.models import LampPosition
 from service.reliability.conditions import voltage_effect
 from tests.readings import factory as fx
@@ -89,7 +89,7 @@ def test_filament_lamp_ignores_a_stray_fixture_ballast(
 def test_removal_normalised_hours_use_the_fixture_ballast(db: Session) -> None:
     _, fixtures = _pair(db)
     positions = db.scalars(select(LampPosition).order_by(LampPosition.id)).all()
-    removals = events.record_removals(
+    removals = record_removals(
         db, positions, removed_at=AT, failed=False, reason="group_relamp"
     )
     kind_of = {fid: kind for kind, fid in fixtures.items()}

@@ -11,7 +11,7 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
-from service.events import service as events
+from service.events import burnouts
 from service.readings.ages import position_ages
 from service.register.models import LampPosition
 from service.reliability import weibull
@@ -193,7 +193,7 @@ def test_field_fit_and_forecasts_use_its_choice(
     hours = np.sort(weibull.percentile(rng.uniform(0.05, 0.95, 24), 3.0, 900.0))
     at = T0 + timedelta(days=100)  # 1,200 h by schedule for lamps still burning
     for p, h in zip(positions[:24], hours, strict=True):
-        events.report_burnout(
+        burnouts.report_burnout(
             db, position_id=p.id, reported_at=at, burn_hours=float(h), replaced=True
         )
     db.commit()

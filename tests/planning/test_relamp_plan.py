@@ -11,7 +11,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from service.events import service as events
+from service.events import burnouts
 from service.register.models import LampPosition
 from service.reliability import weibull
 from service.reliability.conditions import switching_life_factor, voltage_effect
@@ -178,7 +178,7 @@ def test_plan_uses_the_field_fit_the_forecasts_use(
     hours = np.sort(weibull.percentile(np.linspace(0.05, 0.95, 24), 3.0, 900.0))
     at = fx.T0 + timedelta(days=100)
     for p, h in zip(positions[:24], hours, strict=True):
-        events.report_burnout(
+        burnouts.report_burnout(
             db, position_id=p.id, reported_at=at, burn_hours=float(h), replaced=True
         )
     db.commit()

@@ -11,7 +11,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.db.base import utcnow
-from service.events import service as events
+from service.events import burnouts
 from service.events.models import BurnoutReport
 from service.planning.service import local_today, site_plans
 from service.scheduling.models import RunWeek, WeeklyRun
@@ -32,7 +32,7 @@ def portfolio(db: Session) -> dict[str, Any]:
     b.fixtures(db, old, lt, 4, hours_at_install=20_000.0)
     fx = b.fixtures(db, young, lt, 3)
     reports = [
-        events.report_burnout(
+        burnouts.report_burnout(
             db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=3)
         )
         for f in fx[:2]
@@ -88,7 +88,7 @@ def test_repeated_run_creates_no_second_set(
     # A new dark lamp the same week: the area already has its spot order this week.
     extra = p["young"].fixtures[2].positions[0] if p["young"].fixtures else None
     assert extra is not None
-    events.report_burnout(db, position_id=extra.id, reported_at=utcnow() - timedelta(hours=1))
+    burnouts.report_burnout(db, position_id=extra.id, reported_at=utcnow() - timedelta(hours=1))
     db.commit()
     third = run_site_week(factory, p["site"].id, trigger="api")
     assert third.orders_created == 0 and _counts(db) == snapshot

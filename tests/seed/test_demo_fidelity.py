@@ -8,7 +8,7 @@ import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.catalogue.model import resolve_lamp_model
+from service.catalogue.lamp_model import resolve_lamp_model
 from service.catalogue.models import LampType
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import forecast

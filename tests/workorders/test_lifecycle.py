@@ -11,7 +11,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
-from service.events import service as events
+from service.events import burnouts
 from service.events.models import BurnoutReport, LampRemoval
 from service.readings.ages import position_ages
 from service.register.models import LampPosition
@@ -105,7 +105,7 @@ def test_group_completion_resets_ages_and_feeds_the_field_fit(
 ) -> None:
     area_id, fx = _area(db, n=3)
     dark = fx[0].positions[0]
-    report = events.report_burnout(
+    report = burnouts.report_burnout(
         db, position_id=dark.id, reported_at=utcnow() - timedelta(days=2)
     )
     db.commit()
@@ -150,7 +150,7 @@ def test_spot_completion_closes_reports_and_reopens_skipped(
 ) -> None:
     area_id, fx = _area(db, n=2)
     reps = [
-        events.report_burnout(
+        burnouts.report_burnout(
             db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=5)
         )
         for f in fx
@@ -189,7 +189,7 @@ def test_cancel_leaves_positions_and_reopens_reports(
     client: TestClient, db: Session, writer: dict[str, str]
 ) -> None:
     area_id, fx = _area(db, n=2)
-    rep = events.report_burnout(
+    rep = burnouts.report_burnout(
         db, position_id=fx[0].positions[0].id, reported_at=utcnow() - timedelta(hours=1)
     )
     db.commit()
@@ -270,7 +270,7 @@ def test_spot_order_after_a_group_relamp_records_nothing_twice(
 ) -> None:
     area_id, fx = _area(db, n=2)
     dark = fx[0].positions[0]
-    events.report_burnout(db, position_id=dark.id, reported_at=utcnow() - timedelta(hours=4))
+    burnouts.report_burnout(db, position_id=dark.id, reported_at=utcnow() - timedelta(hours=4))
     db.commit()
     spot = _in_progress(client, writer, area_id, "spot_replacement")
     group = _in_progress(client, writer, area_id, "group_relamp")

@@ -12,7 +12,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy.exc import DisconnectionError, OperationalError
 from sqlalchemy.exc import TimeoutError as PoolTimeout
 
-from service.register import service as register_service
+from service.register import sites as register_sites
 from tests.api.test_bad_input_tour import SITE, assert_problem
 
 
@@ -64,7 +64,7 @@ def test_pressure_errors_answer_503_with_retry_after(
     client: TestClient, writer: dict[str, str], monkeypatch: pytest.MonkeyPatch, exc: Exception
 ) -> None:
     site = client.post("/api/v1/sites", json=SITE, headers=writer).json()
-    monkeypatch.setattr(register_service, "update_site", _raising(exc))
+    monkeypatch.setattr(register_sites, "update_site", _raising(exc))
     r = client.patch(f"/api/v1/sites/{site['id']}", json={"name": "Renamed"}, headers=writer)
     assert_problem(r, 503)
     assert r.headers["retry-after"] == "1"

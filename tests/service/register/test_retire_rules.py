@@ -11,7 +11,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import Conflict
 from service.db.base import utcnow
-from service.events import service as events
+from service.events import burnouts
 from service.events.models import BurnoutReport
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.retirement import service as retire
@@ -99,7 +99,7 @@ def test_weekly_run_gives_a_retired_fixture_no_work(db: Session) -> None:
     young = b.area(db, s)
     dark = b.fixtures(db, young, lt, 2)
     for f in dark:
-        events.report_burnout(
+        burnouts.report_burnout(
             db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=3)
         )
     retired = [old[0].id, dark[0].id]
@@ -127,7 +127,7 @@ def test_raw_delete_of_a_site_with_history_fails_at_the_database(db: Session) ->
     lt = b.lamp_type(db)
     a = b.area(db, s)
     (f,) = b.fixtures(db, a, lt, 1)
-    events.report_burnout(
+    burnouts.report_burnout(
         db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=3)
     )
     db.commit()
@@ -147,7 +147,7 @@ def test_raw_delete_of_a_site_with_history_fails_at_the_database(db: Session) ->
 
 
 def test_hard_delete_without_history_still_works(db: Session) -> None:
-    from service.register import service as register
+    from service.register import sites as register
 
     s = b.site(db)
     lt = b.lamp_type(db)

@@ -11,7 +11,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.db.base import utcnow
-from service.events import service as events
+from service.events import burnouts
 from service.events.models import BurnoutReport, LampRemoval
 from service.planning.service import local_today, site_plans
 from service.register.models import Area, Fixture, LampPosition, Site
@@ -68,7 +68,7 @@ def test_weekly_run_on_the_demo_leaves_no_separate_spot_order(
     for s in sites:
         for aid in due[s.id]:
             pos = _first_position(db, aid)
-            events.report_burnout(db, position_id=pos.id, reported_at=utcnow() - timedelta(hours=2))
+            burnouts.report_burnout(db, position_id=pos.id, reported_at=utcnow() - timedelta(hours=2))
     db.commit()
     first_site = next(s for s in sites if due[s.id])
     early = orders.create(db, WorkOrderCreate(area_id=due[first_site.id][0], kind=SPOT))
@@ -111,7 +111,7 @@ def _area_with_dark_lamp(db: Session) -> tuple[Area, list[Any], BurnoutReport]:
     lt = b.lamp_type(db)
     a = b.area(db, s)
     fx = b.fixtures(db, a, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
-    rep = events.report_burnout(
+    rep = burnouts.report_burnout(
         db, position_id=fx[0].positions[0].id, reported_at=utcnow() - timedelta(hours=4)
     )
     db.commit()
@@ -187,7 +187,7 @@ def test_spot_order_in_an_area_with_an_open_group_order_is_covered_from_the_star
         .where(Fixture.area_id == a.id, LampPosition.burned_out_at.is_(None))
     ).first()
     assert pos is not None
-    events.report_burnout(db, position_id=pos.id, reported_at=utcnow() - timedelta(hours=1))
+    burnouts.report_burnout(db, position_id=pos.id, reported_at=utcnow() - timedelta(hours=1))
     db.commit()
     spot = orders.create(db, WorkOrderCreate(area_id=a.id, kind=SPOT))
     db.commit()

@@ -22,7 +22,7 @@ from sqlalchemy.orm import Session, sessionmaker
 from service.api.errors import DomainError
 from service.db.base import utcnow
 from service.db.session import begin_write, make_engine, session_factory
-from service.events import service as events
+from service.events import burnouts
 from service.events.models import BurnoutReport, LampRemoval
 from service.scheduling.runner import run_site_week
 from service.workorders import service as orders
@@ -77,7 +77,7 @@ def _area(factory: sessionmaker[Session], *, reports: int = 0) -> tuple[int, int
         fx = b.fixtures(s, area, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
         positions = [p for f in fx for p in f.positions]
         for p in positions[:reports]:
-            events.report_burnout(s, position_id=p.id, reported_at=utcnow() - timedelta(hours=2))
+            burnouts.report_burnout(s, position_id=p.id, reported_at=utcnow() - timedelta(hours=2))
         s.commit()
         return site.id, area.id
 

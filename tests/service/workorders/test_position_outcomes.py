@@ -143,7 +143,7 @@ def test_found_dark_is_interval_censored_since_the_last_visit(db: Session) -> No
 def test_found_dark_lower_bound_is_the_age_at_the_last_visit(db: Session) -> None:
     # The lower bound is the normalised age at the given moment: 10 of 20 weeks on a constant
     # schedule at nominal voltage is half the age at the visit (hand computation).
-    from service.events import service as events
+    from service.events import removals as events
 
     _order, fx = _started_group(db)
     p = fx[1].positions[0]

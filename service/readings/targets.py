@@ -1,14 +1,12 @@
-"""Rules shared by reading uploads, and voltage readings; uploads are all rows or none.
+"""What a reading upload's rows point at: their fixtures or areas, sites and time zones.
 
-Each row names a fixture or an area (an area row applies to every fixture of the area);
-unknown fixtures or areas and readings in the future (beyond FUTURE_SKEW_S seconds of
-clock skew) are refused. Voltage readings lie in [MIN_VOLTS, MAX_VOLTS] volts. Burn-hour
-records are in burn_hours.py.
+Shared by the voltage (voltage_upload.py) and burn-hour (burn_hours.py) uploads. Each row
+names a fixture or an area (an area row applies to every fixture of the area); unknown
+fixtures or areas and readings in the future (beyond FUTURE_SKEW_S seconds of clock skew)
+are refused.
 """
 
 from __future__ import annotations
-
-import time
 
 import numpy as np
 from numpy.typing import NDArray
@@ -16,22 +14,15 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.config import get_settings
-from service.readings.models import VoltageReading
 from service.register.models import Area, Fixture, Site
 from service.uploads import cells
 from service.uploads.errors import RowErrors
-from service.uploads.parse import Columns, UploadSpec
-from service.uploads.write import Epoch, write_rows
+from service.uploads.parse import Columns
 
 IntArray = NDArray[np.int64]
 FloatArray = NDArray[np.float64]
 
-VOLTAGE_COLUMNS = ("fixture_id", "area_id", "measured_at", "volts", "note")
-VOLTAGE_UPLOAD = UploadSpec(columns=VOLTAGE_COLUMNS)
 FUTURE_SKEW_S = 300.0  # seconds of client clock skew tolerated
-MAX_VOLTS = 1000.0
-# A reading below 1 V is no supply a lamp runs on; near zero it overflows the power laws.
-MIN_VOLTS = 1.0
 
 
 def _lookup(
@@ -132,37 +123,3 @@ def scatter_mask(n: int, order: IntArray, mask: NDArray[np.bool_]) -> NDArray[np
     out = np.zeros(n, dtype=bool)
     out[order[mask]] = True
     return out
-
-
-def ingest_voltages(session: Session, c: Columns, *, now: float | None = None) -> int:
-    """Validate and store voltage readings (all or none); returns how many were stored."""
-    now = time.time() if now is None else now
-    errors = RowErrors()
-    fid, aid, site, zones = resolve_targets(session, c, errors)
-    at = cells.timestamps(c, "measured_at", errors, zones)
-    volts = cells.floats(
-        c,
-        "volts",
-        errors,
-        required=True,
-        lo=MIN_VOLTS,
-        hi=MAX_VOLTS,
-        out_of_range=f"must lie in [{MIN_VOLTS:g}, {MAX_VOLTS:g}] volts",
-    )
-    notes = cells.texts(c, "note", errors, max_len=300)
-    errors.add_mask(c.numbers, ~c.given("measured_at"), "measured_at", "is required")
-    errors.add_mask(c.numbers, at > now + FUTURE_SKEW_S, "measured_at", "is in the future")
-    errors.raise_if_any("voltage upload")
-    write_rows(
-        session,
-        VoltageReading.__table__,  # type: ignore[arg-type]
-        {
-            "site_id": site,
-            "area_id": aid,
-            "fixture_id": fid,
-            "measured_at": Epoch(at),
-            "volts": volts,
-            "note": notes,
-        },
-    )
-    return len(c)

@@ -23,7 +23,7 @@ from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session
 
 from service.readings.models import VoltageReading
-from service.readings.sql import epoch, float_matrix, target_keys
+from service.readings.repository import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock
 from service.reliability.exposure import ExposureHistory
 
@@ -31,7 +31,7 @@ FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
 
-def reading_voltages(
+def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     session: Session,
     fixture_scope: Any,
     area_scope: Any,

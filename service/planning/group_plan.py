@@ -29,7 +29,7 @@ from typing import Any
 
 import numpy as np
 
-from service.catalogue.model import LampModel
+from service.catalogue.lamp_model import LampModel
 from service.reliability.conditions import VoltageEffect, switching_life_factor, voltage_effect
 from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.replacement import BlockPlan, plan_block_replacement

@@ -1,8 +1,9 @@
-"""Burnout reports and lamp removals: each lamp's end becomes one survival observation.
+"""Lamp removals: each lamp's end becomes one survival observation (LampRemoval).
 
-One observation per lamp: a burnout report writes the failure record (LampRemoval with
-failed=True, reason "burnout") at the lamp's age when reported; the later replacement of
-that dark lamp (record_removal) reuses that record instead of writing a second one.
+One observation per lamp: a burnout report (service.events.burnouts) writes the failure
+record (failed=True, reason "burnout") at the lamp's age when reported; the later
+replacement of that dark lamp (record_removal) reuses that record instead of writing a
+second one.
 Normalised hours = rated-condition hours: the lamp's wear accumulated over its supply
 history (service.reliability.exposure, sum of dt / life factor), not the hours at the mean
 voltage.
@@ -17,11 +18,8 @@ from datetime import datetime
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.api.errors import Conflict
 from service.catalogue.resolved import load_types
 from service.db.base import utcnow
-from service.db.crud import get_or_404
-from service.events import reports
 from service.events.checks import (
     as_aware,
     check_after_install,
@@ -29,11 +27,10 @@ from service.events.checks import (
     check_not_future,
     check_reason,
 )
-from service.events.models import BurnoutReport, BurnoutReportState, LampRemoval
+from service.events.models import BurnoutReport, LampRemoval
 from service.events.reports import close_open_for_positions
 from service.readings.ages import position_ages
-from service.register.history import refuse_retired
-from service.register.models import Fixture, LampPosition
+from service.register.models import LampPosition
 from service.reliability.fleet import FleetResult, FloatArray, evaluate_fleet
 
 # Positions evaluated per query batch in record_removals.
@@ -81,6 +78,7 @@ def _observations(
                 burn_hours=hours,
                 starts=float(ages.starts[i]),
                 operating_voltage_v=float(ages.voltage_v[i]),
+                # x acceleration factor 1 / life factor
                 # accumulated exposure (a reported figure scaled by the same ratio)
                 normalised_hours=hours * _rated_per_hour(res, ages.age_h, i),
                 failed=bool(failed),
@@ -100,7 +98,7 @@ def _rated_per_hour(res: FleetResult, age_h: FloatArray, i: int) -> float:
     return 1.0 / float(res.life_factor[i])
 
 
-def _observe(
+def observe(
     session: Session,
     position: LampPosition,
     *,
@@ -124,7 +122,8 @@ def _observe(
     return removal
 
 
-def _reset(position: LampPosition, at: datetime) -> None:
+def restart_position(position: LampPosition, at: datetime) -> None:
+    """A new lamp in the position at `at`: zero burn hours and starts, not dark."""
     position.lamp_installed_at = at
     position.hours_at_install = 0.0
     position.starts_at_install = 0.0
@@ -176,7 +175,7 @@ def record_removal(
     if position.burned_out_at is not None:
         removal = _failure_of_dark_lamp(session, position)
         if removal is None:  # marked dark without a report: record the failure now
-            removal = _observe(
+            removal = observe(
                 session,
                 position,
                 at=position.burned_out_at,
@@ -192,7 +191,7 @@ def record_removal(
     else:
         check_after_install(position, removed_at, "removed_at")
         at = as_aware(removed_at)
-        removal = _observe(
+        removal = observe(
             session,
             position,
             at=at,
@@ -201,7 +200,7 @@ def record_removal(
             work_order_id=work_order_id,
             burn_hours=burn_hours,
         )
-    _reset(position, at)
+    restart_position(position, at)
     session.flush()
     return removal
 
@@ -246,7 +245,7 @@ def record_removals(
         rows = _observations(session, by_id, at=at, reason=reason, work_order_id=work_order_id)
         _interval_bounds(session, rows, found_dark_since or {})
         for removal in rows:
-            _reset(by_id[removal.position_id][0], at)
+            restart_position(by_id[removal.position_id][0], at)
         session.add_all(rows)
         out.extend(rows)
     session.flush()
@@ -275,66 +274,3 @@ def _interval_bounds(
         low_of = {lo.position_id: lo.normalised_hours for lo in lows}
         for r in group:
             r.failed_after_normalised_hours = min(low_of[r.position_id], r.normalised_hours)
-
-
-def report_burnout(
-    session: Session,
-    *,
-    position_id: int,
-    reported_at: datetime,
-    burn_hours: float | None = None,
-    note: str | None = None,
-    replaced: bool = False,
-) -> BurnoutReport:
-    """Report a lamp dark: one failure record at its age; optionally replaced at once.
-
-    Without replaced the position stays dark and the report "open" until a spot work order
-    or a replacement (record_removal) closes it; with replaced a new lamp goes in at
-    reported_at and the report is closed.
-    """
-    position = get_or_404(session, LampPosition, position_id, "lamp position")
-    check_not_future(reported_at, "reported_at")
-    check_burn_hours(burn_hours)
-    check_after_install(position, reported_at, "reported_at")
-    if position.burned_out_at is not None:
-        open_id = session.scalar(
-            select(BurnoutReport.id).where(
-                BurnoutReport.position_id == position.id,
-                BurnoutReport.status != BurnoutReportState.CLOSED,
-            )
-        )
-        raise Conflict(
-            f"Lamp position {position.id} is already reported dark since "
-            f"{position.burned_out_at.isoformat()}; record its replacement instead.",
-            report_id=open_id,
-        )
-    fixture = session.get(Fixture, position.fixture_id)
-    assert fixture is not None  # a position always belongs to a fixture (FK)
-    refuse_retired("fixture", "fixture_id", fixture)
-    at = as_aware(reported_at)
-    removal = _observe(
-        session,
-        position,
-        at=at,
-        failed=True,
-        reason="burnout",
-        work_order_id=None,
-        burn_hours=burn_hours,
-    )
-    report = reports.new_report(
-        session,
-        site_id=fixture.site_id,
-        area_id=fixture.area_id,
-        fixture_id=fixture.id,
-        position_id=position.id,
-        reported_at=at,
-        burn_hours=burn_hours,
-        note=note,
-        removal_id=removal.id,
-        replaced=replaced,
-    )
-    position.burned_out_at = at
-    if replaced:
-        _reset(position, at)
-    session.flush()
-    return report

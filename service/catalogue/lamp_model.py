@@ -146,7 +146,7 @@ def _pick(value: float | None, default: float, name: str, sources: dict[str, str
     return float(value)
 
 
-def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
+def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
     """Resolve a lamp type's model numbers: catalogue value, else a fit, else the default."""
     tech = lt.technology
     if tech not in TECHNOLOGY_DEFAULTS:

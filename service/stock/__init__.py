@@ -1,0 +1,1 @@
+"""Spare lamps: storerooms, the stock ledger, demand, reorder and the budget."""

@@ -1,0 +1,199 @@
+"""The 12-month budget per site and for the portfolio: what relamping and running will cost.
+
+Per site, month by month from today (month 1 runs from today to the end of this month):
+
+- group: each planned group relamp (planning: due date, then again every interval at the
+  area's burn rate) costs its lamps, labour (group minutes per lamp), one equipment hire
+  per area visit, disposal (mercury lamps) and cleaning (minutes per lamp, an input);
+- spot: expected spot replacements (stock.forecast: per-position delayed renewal, new
+  lamps after a group relamp; dark lamps now in month 1) at the lamp price, spot labour,
+  equipment hire per spot visit and disposal, as planning.engine.CostInputs prices them;
+- operation: energy, lamp watts at the operating voltage x burn hours x tariff;
+- retrofit: none until retrofit options are priced (lamp choice is not built yet).
+
+Amounts are in the site's currency; with a reporting currency and user-set rates (one
+unit of the site currency in the reporting one) each row also carries the converted sum.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass
+from datetime import date, datetime, timedelta
+
+import numpy as np
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from service.api.errors import Invalid
+from service.db.base import utcnow
+from service.planning.service import LastRelamps, local_today
+from service.register.models import Site
+from service.stock.forecast import position_cumulative
+
+MONTHS = 12
+WEEKS = 54  # weeks of spot curves: enough to reach the end of the twelfth month
+CATEGORIES = ("lamps", "labour", "hire", "disposal", "cleaning", "energy")
+SPLITS = ("group", "spot", "retrofit", "operation")
+
+
+def month_starts(today: date, months: int = MONTHS) -> list[date]:
+    """Start of each budget month (today, then the 1st of each following month) and the end."""
+    out = [today]
+    y, m = today.year, today.month
+    for _ in range(months):
+        m += 1
+        if m == 13:
+            y, m = y + 1, 1
+        out.append(date(y, m, 1))
+    return out
+
+
+def month_of(day: date, starts: list[date]) -> int | None:
+    """The budget month index of a day (None outside the twelve months)."""
+    if day < starts[0] or day >= starts[-1]:
+        return None
+    for i in range(len(starts) - 1):
+        if day < starts[i + 1]:
+            return i
+    return None
+
+
+@dataclass(frozen=True)
+class Row:
+    """One budget amount."""
+
+    site_id: int
+    currency: str
+    month: str  # YYYY-MM
+    split: str
+    category: str
+    amount: float
+
+
+def site_budget(
+    session: Session,
+    site: Site,
+    *,
+    last_relamps: LastRelamps,
+    at: datetime | None = None,
+    cleaning_minutes_per_lamp: float = 0.0,
+) -> list[Row]:
+    """A site's twelve months of relamping and energy costs, by split and category."""
+    at = at or utcnow()
+    today = local_today(site, at)
+    starts = month_starts(today)
+    sums: dict[tuple[int, str, str], float] = defaultdict(float)
+    sc = position_cumulative(session, site, at, WEEKS, last_relamps)
+    costs = {(p.area.id, g.lamp_type_id): (p, g) for p in sc.plans for g in p.groups}
+    visits: set[tuple[int, date]] = set()
+    for plan in sc.plans:
+        for g in plan.groups:
+            c = g.costs
+            days_in_month = [(starts[i + 1] - starts[i]).days for i in range(MONTHS)]
+            for i, days in enumerate(days_in_month):  # energy: watts x hours x tariff
+                hours = plan.weekly_burn_hours * days / 7.0
+                kwh = g.positions * c.lamp_watts * g.group.power_factor * hours / 1000.0
+                sums[(i, "operation", "energy")] += kwh * c.energy_price_per_kwh
+            interval = g.group.plan.interval_h
+            if g.due_on is None or interval is None or plan.weekly_burn_hours <= 0:
+                continue
+            step = timedelta(days=interval / plan.weekly_burn_hours * 7.0)
+            day = g.due_on
+            while (mi := month_of(day, starts)) is not None:
+                n = g.positions
+                sums[(mi, "group", "lamps")] += n * c.lamp_price
+                sums[(mi, "group", "labour")] += n * c.group_labour
+                sums[(mi, "group", "disposal")] += n * c.disposal_fee_per_lamp
+                sums[(mi, "group", "cleaning")] += (
+                    n * cleaning_minutes_per_lamp / 60.0 * c.labour_rate_per_h
+                )
+                if (plan.area.id, day) not in visits:  # one hire per area visit
+                    visits.add((plan.area.id, day))
+                    sums[(mi, "group", "hire")] += c.equipment_hire_per_visit
+                if step.days < 1:
+                    break
+                day = day + step
+    # Spot: weekly expected replacements per (area, lamp type), binned by week start.
+    inc = np.diff(sc.cum, axis=1)
+    week_month = [month_of(at.date() + timedelta(weeks=w), starts) for w in range(WEEKS)]
+    keys = sorted(set(zip(sc.area_id.tolist(), sc.lamp_type_id.tolist(), strict=True)))
+    for area_id, lt in keys:
+        if (area_id, lt) not in costs:
+            continue
+        _, g = costs[(area_id, lt)]
+        c = g.costs
+        sel = (sc.area_id == area_id) & (sc.lamp_type_id == lt)
+        per_week = inc[sel].sum(axis=0)
+        per_week[0] += float(sc.dark[sel].sum())
+        for w, wm in enumerate(week_month):
+            if wm is None:
+                continue
+            lamps = float(per_week[w])
+            sums[(wm, "spot", "lamps")] += lamps * c.lamp_price
+            sums[(wm, "spot", "labour")] += lamps * c.spot_labour
+            sums[(wm, "spot", "hire")] += lamps * c.spot_equipment
+            sums[(wm, "spot", "disposal")] += lamps * c.disposal_fee_per_lamp
+    rows: list[Row] = []
+    for i in range(MONTHS):
+        label = starts[i].strftime("%Y-%m")
+        for split in SPLITS:
+            for cat in CATEGORIES:
+                amount = sums.get((i, split, cat), 0.0)
+                if split == "operation" and cat != "energy":
+                    continue
+                if split != "operation" and cat == "energy":
+                    continue
+                rows.append(Row(site.id, site.currency, label, split, cat, round(amount, 2)))
+    return rows
+
+
+def convert(
+    rows: list[Row], reporting: str | None, rates: dict[str, float]
+) -> list[dict[str, object]]:
+    """Rows as dicts, each with its amount in the reporting currency when one is set."""
+    out: list[dict[str, object]] = []
+    if reporting is not None:
+        missing = sorted({r.currency for r in rows if r.currency != reporting} - set(rates))
+        if missing:
+            raise Invalid(
+                f"No exchange rate into {reporting} for {', '.join(missing)}.",
+                errors=[{"field": "rates", "in": "body", "message": f"missing {missing[0]}"}],
+            )
+    for r in rows:
+        d: dict[str, object] = dict(r.__dict__)
+        if reporting is not None:
+            rate = 1.0 if r.currency == reporting else rates[r.currency]
+            d["reporting_currency"] = reporting
+            d["reporting_amount"] = round(r.amount * rate, 2)
+        out.append(d)
+    return out
+
+
+def portfolio(
+    session: Session,
+    *,
+    last_relamps: LastRelamps,
+    at: datetime | None = None,
+    cleaning_minutes_per_lamp: float = 0.0,
+) -> list[Row]:
+    """Every active site's budget rows, site by site."""
+    sites = session.scalars(select(Site).where(Site.retired_at.is_(None)).order_by(Site.id)).all()
+    rows: list[Row] = []
+    for s in sites:
+        rows += site_budget(
+            session,
+            s,
+            last_relamps=last_relamps,
+            at=at,
+            cleaning_minutes_per_lamp=cleaning_minutes_per_lamp,
+        )
+    return rows
+
+
+def totals(rows: list[dict[str, object]], key: str) -> dict[str, float]:
+    """Sum of an amount column by month (for the portfolio in the reporting currency)."""
+    out: dict[str, float] = defaultdict(float)
+    for r in rows:
+        out[str(r["month"])] += float(r[key])  # type: ignore[arg-type]
+    return {k: round(v, 2) for k, v in sorted(out.items())}

@@ -1,0 +1,279 @@
+"""Demand, reorder points and the stock outlook of a storeroom, from the fleet forecast.
+
+Loads each served site's positions (readings.ages), their life curves (the field fit where
+it replaces the catalogue), the group relamp plans (planning) and the stock lines; the
+arithmetic is the pure modules' (stock.demand, stock.reorder, stock.outlook).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from datetime import date, datetime, timedelta
+
+import numpy as np
+from numpy.typing import NDArray
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from service.catalogue.models import LampType
+from service.config import get_settings
+from service.db.base import utcnow
+from service.forecasting.ahead import expected_replacements
+from service.forecasting.fit import load_fitted_types
+from service.forecasting.service import evaluate_positions
+from service.planning.service import AreaPlan, LastRelamps, local_today, site_plans
+from service.readings.ages import position_ages
+from service.register.models import Site
+from service.reliability.renewal import weibull_renewal
+from service.stock import demand, outlook, reorder
+from service.stock.models import StockBalance
+from service.stock.service import get_storeroom, site_ids_of
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+
+@dataclass(frozen=True)
+class Options:
+    """Horizon in weeks, cycle service level and breakage fraction (settings by default)."""
+
+    weeks: int
+    level: float
+    breakage: float
+
+    @classmethod
+    def of(
+        cls, weeks: int | None = None, level: float | None = None, breakage: float | None = None
+    ) -> Options:
+        """Options with the settings filling what is not given."""
+        s = get_settings()
+        return cls(
+            weeks=weeks or s.stock_horizon_weeks,
+            level=level or s.stock_service_level,
+            breakage=s.stock_breakage_fraction if breakage is None else breakage,
+        )
+
+
+@dataclass(frozen=True)
+class TypeDemand:
+    """One lamp type's positions in a storeroom: cumulative spot curves and weekly demand."""
+
+    lamp_type_id: int
+    positions: int
+    dark_now: int
+    cum: FloatArray  # (n, H+1) cumulative expected spot replacements at week boundaries
+    week: demand.WeekDemand
+
+
+@dataclass(frozen=True)
+class StoreDemand:
+    """A storeroom's demand over the horizon, per lamp type."""
+
+    storeroom_id: int
+    as_of: datetime
+    week_starts: list[date]
+    options: Options
+    types: dict[int, TypeDemand]
+
+
+@dataclass(frozen=True)
+class SiteCurves:
+    """A site's positions over the horizon: spot curves, dark lamps, the plans' group lamps."""
+
+    lamp_type_id: IntArray
+    area_id: IntArray
+    cum: FloatArray  # (n, H+1) cumulative expected spot replacements at week boundaries
+    dark: NDArray[np.bool_]  # dark now: a lamp needed in the first week
+    group_by_type: dict[int, IntArray]  # lamps of planned group relamps per week
+    plans: list[AreaPlan]
+
+
+def position_cumulative(
+    session: Session,
+    site: Site,
+    at: datetime,
+    weeks: int,
+    last_relamps: LastRelamps,
+) -> SiteCurves:
+    """A site's per-position cumulative spot replacements, with its planned group relamps."""
+    ages = position_ages(session, site_id=site.id, at=at, active_only=True)
+    group_by_type: dict[int, IntArray] = {}
+    if ages.size == 0:
+        empty = np.zeros((0, weeks + 1))
+        return SiteCurves(ages.lamp_type_id, ages.area_id, empty, ages.burned_out, {}, [])
+    types = load_fitted_types(
+        session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind
+    )
+    pf = evaluate_positions(ages, types, float(weeks))
+    k = types.index(ages.lamp_type_id, ages.ballast_kind)
+    shape = types.table.shape
+    scale = pf.fleet.scale_h
+    age = np.where(ages.burned_out, 0.0, ages.age_h)
+    rate = ages.burn_h_per_week  # burn hours per week
+    # Planned group relamps: the week each (area, lamp type) is due, and its lamps.
+    today = local_today(site, at)
+    due_week: dict[tuple[int, int], int] = {}
+    plans = site_plans(session, site, at, last_relamps=last_relamps)
+    for plan in plans:
+        for g in plan.groups:
+            if g.due_on is None:
+                continue
+            wk = max((g.due_on - today).days, 0) // 7
+            if wk < weeks:
+                due_week[(plan.area.id, g.lamp_type_id)] = wk
+                arr = group_by_type.setdefault(g.lamp_type_id, np.zeros(weeks, dtype=np.int64))
+                arr[wk] += g.positions
+    gw = np.array(
+        [
+            due_week.get((int(a), int(t)), weeks)
+            for a, t in zip(ages.area_id.tolist(), ages.lamp_type_id.tolist(), strict=True)
+        ],
+        dtype=np.int64,
+    )
+    n, h1 = ages.size, weeks + 1
+    t = np.arange(h1, dtype=float)
+    win = (rate[:, None] * t[None, :]).ravel()  # burn hours to each week boundary
+    rep = np.repeat
+    before = expected_replacements(shape, rep(k, h1), rep(scale, h1), rep(age, h1), win).reshape(
+        n, h1
+    )
+    # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
+    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.ahead).
+    after = np.zeros((n, h1))
+    u = win.reshape(n, h1) / scale[:, None]
+    for kk in np.unique(k[gw < weeks]).tolist():
+        sel = (k == kk) & (gw < weeks)
+        curve = weibull_renewal(float(shape[kk]), 1.0, float(u[sel].max()) * 1.0001 + 1e-9, 1000)
+        after[sel] = curve.at(u[sel])
+    cum = demand.cumulative_with_group(before, after, gw)
+    dark = ages.burned_out.copy()
+    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
+
+
+def storeroom_demand(
+    session: Session,
+    storeroom_id: int,
+    *,
+    last_relamps: LastRelamps,
+    options: Options | None = None,
+    at: datetime | None = None,
+) -> StoreDemand:
+    """Weekly demand per lamp type over the horizon for every site the storeroom serves."""
+    get_storeroom(session, storeroom_id)
+    opt = options or Options.of()
+    at = at or utcnow()
+    sites = site_ids_of(session, [storeroom_id])[storeroom_id]
+    parts: list[tuple[IntArray, FloatArray, NDArray[np.bool_]]] = []
+    groups: dict[int, IntArray] = {}
+    for sid in sites:
+        site = session.get(Site, sid)
+        if site is None or site.retired_at is not None:
+            continue
+        sc = position_cumulative(session, site, at, opt.weeks, last_relamps)
+        parts.append((sc.lamp_type_id, sc.cum, sc.dark))
+        for t, arr in sc.group_by_type.items():
+            groups[t] = groups.get(t, np.zeros(opt.weeks, dtype=np.int64)) + arr
+    lt_all = np.concatenate([p[0] for p in parts]) if parts else np.zeros(0, dtype=np.int64)
+    cum_all = np.concatenate([p[1] for p in parts]) if parts else np.zeros((0, opt.weeks + 1))
+    dark_all = np.concatenate([p[2] for p in parts]) if parts else np.zeros(0, dtype=bool)
+    out: dict[int, TypeDemand] = {}
+    for t in sorted(set(lt_all.tolist()) | set(groups)):
+        sel = lt_all == t
+        cum = cum_all[sel]
+        n_dark = int(dark_all[sel].sum())
+        grp = groups.get(t, np.zeros(opt.weeks, dtype=np.int64))
+        week = demand.week_demand(
+            demand.weekly_increments(cum), grp, opt.level, opt.breakage, dark_now=n_dark
+        )
+        out[int(t)] = TypeDemand(int(t), int(sel.sum()), n_dark, cum, week)
+    start = at.date()
+    return StoreDemand(
+        storeroom_id=storeroom_id,
+        as_of=at,
+        week_starts=[start + timedelta(weeks=i) for i in range(opt.weeks)],
+        options=opt,
+        types=out,
+    )
+
+
+@dataclass(frozen=True)
+class ToOrder:
+    """The reorder figures of one stocked lamp type."""
+
+    balance: StockBalance
+    code: str
+    unit_cost: float
+    lead_weeks: int
+    lead_time_mean: float
+    annual_demand: float
+    next_group_week: int | None
+    decision: reorder.Reorder
+    total_mean: FloatArray
+    total_var: FloatArray
+
+
+def to_order(sd: StoreDemand, balances: list[StockBalance], session: Session) -> list[ToOrder]:
+    """Reorder point and order quantity of every stocked lamp type of the storeroom."""
+    opt = sd.options
+    codes = {
+        int(i): (str(c), float(p))
+        for i, c, p in session.execute(
+            select(LampType.id, LampType.code, LampType.unit_price).where(
+                LampType.id.in_([b.lamp_type_id for b in balances])
+            )
+        ).all()
+    }
+    out: list[ToOrder] = []
+    for bal in balances:
+        code, price = codes.get(bal.lamp_type_id, (str(bal.lamp_type_id), 0.0))
+        unit_cost = price if bal.unit_cost is None else bal.unit_cost
+        td = sd.types.get(bal.lamp_type_id)
+        lead = min(max(math.ceil(bal.lead_time_weeks - 1e-9), 0), opt.weeks)
+        if td is None:
+            zeros = np.zeros(opt.weeks)
+            mean_l = q_l = 0.0
+            annual, next_group, total, var = 0.0, None, zeros, zeros
+        else:
+            # Spot over the lead time: one Bernoulli per position (clipped expected count).
+            p_lead = np.clip(td.cum[:, lead] - td.cum[:, 0], 0.0, 1.0)
+            q_spot = demand.quantile(p_lead, opt.level)[0] if lead else 0
+            group_l = float(td.week.group[:lead].sum())
+            spot_l = float(p_lead.sum())
+            dark = td.dark_now if lead else 0
+            brk = opt.breakage * (spot_l + dark + group_l)
+            mean_l = spot_l + dark + group_l + brk
+            q_l = q_spot + dark + group_l + brk
+            total = td.week.total_mean
+            var = td.week.spot_var
+            annual = float(total.sum()) * reorder.WEEKS_PER_YEAR / opt.weeks
+            nz = np.nonzero(td.week.group)[0]
+            next_group = int(nz[0]) if nz.size else None
+        cover = float(total[: next_group + 1].sum()) if next_group is not None else None
+        decision = reorder.decide(
+            available=bal.available,
+            reorder_point=math.ceil(q_l - 1e-9),
+            pack_size=bal.pack_size,
+            policy=bal.policy,
+            annual_demand=annual,
+            order_cost=bal.order_cost,
+            holding_cost_per_year=bal.holding_rate_per_year * unit_cost,
+            lead_time_mean=mean_l,
+            cover_need=cover,
+        )
+        out.append(
+            ToOrder(bal, code, unit_cost, lead, mean_l, annual, next_group, decision, total, var)
+        )
+    return out
+
+
+def level_outlook(sd: StoreDemand, row: ToOrder) -> outlook.Level:
+    """The week-by-week level of one stocked type, the suggested order arriving after lead."""
+    return outlook.project(
+        row.balance.available,
+        row.total_mean,
+        row.total_var,
+        sd.options.level,
+        row.decision.order_quantity,
+        arrives_week=row.lead_weeks + 1 if row.decision.order_quantity else None,
+    )

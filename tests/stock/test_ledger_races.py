@@ -1,0 +1,154 @@
+"""Two completions drawing the last lamps at once: exactly one wins, the balance stays exact.
+
+Each thread runs in its own session and transaction on a database of this module's own (a
+SQLite file, or a scratch PostgreSQL database where the balance row lock is what decides),
+released together by a barrier, repeated REPEATS times on fresh records.
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+from collections.abc import Callable, Iterator
+from datetime import timedelta
+from pathlib import Path
+from typing import Any
+
+import pytest
+from sqlalchemy import text
+from sqlalchemy.engine import make_url
+from sqlalchemy.orm import Session, sessionmaker
+
+from service.api.errors import DomainError
+from service.db.base import utcnow
+from service.db.session import begin_write, make_engine, session_factory
+from service.stock import ledger
+from service.stock.models import StockBalance, Storeroom, StoreroomSite
+from service.workorders import service as orders
+from service.workorders.models import WorkOrder
+from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
+from tests.conftest import migrate
+from tests.planning import builders as b
+
+REPEATS = 10
+
+
+@pytest.fixture(scope="module")
+def factory(tmp_path_factory: pytest.TempPathFactory) -> Iterator[sessionmaker[Session]]:
+    """Sessions on a migrated database of this module's own: the threads commit for real."""
+    base_url = os.environ.get("TEST_DATABASE_URL") or ""
+    if not base_url.startswith("postgresql"):
+        path: Path = tmp_path_factory.mktemp("stockraces") / "stock.sqlite3"
+        eng = make_engine(f"sqlite:///{path}")
+        migrate(eng)
+        yield session_factory(eng)
+        eng.dispose()
+        return
+    base = make_url(base_url)
+    name = f"scratch_stockraces_{os.getpid()}"
+    admin = make_engine(base.set(database="postgres").render_as_string(hide_password=False))
+    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
+        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
+        conn.execute(text(f'CREATE DATABASE "{name}"'))
+    eng = make_engine(base.set(database=name).render_as_string(hide_password=False))
+    migrate(eng)
+    try:
+        yield session_factory(eng)
+    finally:
+        eng.dispose()
+        with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
+            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
+        admin.dispose()
+
+
+def _race(factory: sessionmaker[Session], *calls: Callable[[Session], Any]) -> list[str]:
+    """Run each call in its own thread and transaction, released together; their outcomes."""
+    barrier = threading.Barrier(len(calls))
+    out: list[str] = [""] * len(calls)
+
+    def work(i: int, call: Callable[[Session], Any]) -> None:
+        barrier.wait()
+        with factory() as s:
+            try:
+                begin_write(s)
+                call(s)
+                s.commit()
+                out[i] = "ok"
+            except DomainError as exc:
+                s.rollback()
+                out[i] = str(exc.status)
+
+    threads = [threading.Thread(target=work, args=(i, c)) for i, c in enumerate(calls)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(timeout=120)
+    assert all(not t.is_alive() for t in threads)
+    return out
+
+
+def _two_started_orders(factory: sessionmaker[Session], stock_after_issue: int) -> dict[str, int]:
+    """One site, two areas of one two-lamp fixture, both orders started with nothing reserved;
+    then `stock_after_issue` lamps arrive on the shelf."""
+    with factory() as s:
+        begin_write(s)
+        site = b.site(s)
+        lt = b.lamp_type(s)
+        room = Storeroom(name=f"Race store {site.id}")
+        s.add(room)
+        s.flush()
+        s.add(StoreroomSite(site_id=site.id, storeroom_id=room.id))
+        bal = StockBalance(storeroom_id=room.id, lamp_type_id=lt.id)
+        s.add(bal)
+        ids = []
+        for _ in range(2):
+            area = b.area(s, site)
+            b.fixtures(s, area, lt, 1, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+            s.flush()
+            order = orders.create(s, WorkOrderCreate(area_id=area.id, kind="group_relamp"))
+            orders.issue(s, order.id)  # nothing on the shelf: nothing reserved
+            orders.start(s, order.id)
+            ids.append(order.id)
+        locked = ledger.lock_balance(s, room.id, lt.id)
+        assert locked is not None
+        ledger.move(s, locked, "received", stock_after_issue)
+        s.commit()
+        return {"a": ids[0], "b": ids[1], "room": room.id, "lt": lt.id}
+
+
+ALL_REPLACED = CompleteBody(others="replaced")
+
+
+@pytest.mark.parametrize("rep", range(REPEATS))
+def test_two_completions_draw_the_last_lamps(factory: sessionmaker[Session], rep: int) -> None:
+    k = _two_started_orders(factory, stock_after_issue=2)  # enough for one order only
+    got = _race(
+        factory,
+        lambda s: orders.complete(s, k["a"], ALL_REPLACED),
+        lambda s: orders.complete(s, k["b"], ALL_REPLACED),
+    )
+    assert sorted(got) == ["409", "ok"]  # exactly one wins
+    with factory() as s:
+        bal = s.get(StockBalance, ledger.get_balance(s, k["room"], k["lt"]).id)
+        assert bal is not None
+        assert (bal.on_hand, bal.reserved) == (0, 0)  # exact: 2 in, 2 out, never below zero
+        assert ledger.ledger_sums(s, k["room"], k["lt"]) == (0, 0)
+        states = sorted(s.get(WorkOrder, i).state for i in (k["a"], k["b"]))  # type: ignore[union-attr]
+        assert states == ["done", "in_progress"]
+
+
+@pytest.mark.parametrize("rep", range(REPEATS // 2))
+def test_completion_and_cancel_of_another_order_keep_sums(
+    factory: sessionmaker[Session], rep: int
+) -> None:
+    k = _two_started_orders(factory, stock_after_issue=4)  # both can be served
+    got = _race(
+        factory,
+        lambda s: orders.complete(s, k["a"], ALL_REPLACED),
+        lambda s: orders.cancel(s, k["b"], CancelBody(reason="rain")),
+    )
+    assert got == ["ok", "ok"]
+    with factory() as s:
+        bal = ledger.get_balance(s, k["room"], k["lt"])
+        assert (bal.on_hand, bal.reserved) == (2, 0)
+        assert ledger.ledger_sums(s, k["room"], k["lt"]) == (2, 0)
