@@ -10,7 +10,7 @@ lamp's voltage response follows its fixture's ballast kind, see catalogue.resolv
 - P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
   hours w with the area's burn rate (schedule, else measured);
 - expected burnouts with spot replacement over the horizon: per-position delayed renewal
-  from the lamp's current age (forecasting.ahead); a dark position counts as a new lamp
+  from the lamp's current age (forecasting.spot_replacements); a dark position counts as a new lamp
   going in now;
 - lumen fraction now (dark = 0) and at the horizon end (dark positions relamped), each
   the lamp lumen depreciation at the age times the voltage light factor;

@@ -19,7 +19,7 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.config import get_settings
 from service.db.base import utcnow
-from service.forecasting.ahead import expected_replacements
+from service.forecasting.spot_replacements import expected_replacements
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import evaluate_positions
 from service.planning.service import AreaPlan, LastRelamps, local_today, site_plans

@@ -12,7 +12,7 @@ from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.api.preconditions import locate
 from service.planning.service import LastRelamps
-from service.register.service import get_site
+from service.register.sites import get_site
 from service.stock import budget, forecast, ledger, service
 from service.stock import present as show
 from service.stock import repository as repo

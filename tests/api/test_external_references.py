@@ -106,7 +106,7 @@ def test_a_clash_is_a_409_naming_the_field(
 @pytest.mark.parametrize(
     ("maker", "module"),
     [
-        (_site_body, "service.register.service"),
+        (_site_body, "service.register.sites"),
         (_fixture_body, "service.register.fixtures"),
         (_order_body, "service.workorders.service"),
     ],

@@ -12,7 +12,7 @@ from sqlalchemy.orm.exc import StaleDataError
 
 from service.db.base import utcnow
 from service.events import reports
-from service.events import service as events
+from service.events import burnouts as events
 from service.events.models import BurnoutReport
 from tests.planning import builders as b
 
