@@ -19,9 +19,9 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampType
 from service.config import get_settings
 from service.db.base import utcnow
-from service.forecasting.spot_replacements import expected_replacements
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import evaluate_positions
+from service.forecasting.spot_replacements import expected_replacements
 from service.planning.service import AreaPlan, LastRelamps, local_today, site_plans
 from service.readings.ages import position_ages
 from service.register.models import Site

@@ -11,8 +11,8 @@ from sqlalchemy.orm import Session
 from sqlalchemy.orm.exc import StaleDataError
 
 from service.db.base import utcnow
-from service.events import reports
 from service.events import burnouts as events
+from service.events import reports
 from service.events.models import BurnoutReport
 from tests.planning import builders as b
 
