@@ -91,6 +91,29 @@ def _led_columns(lt: LampTypeLike) -> tuple[float | None, list[list[float]] | No
     )
 
 
+def _led_failure_life(lt: LampTypeLike, rated_life: float, src: dict[str, str]) -> float | None:
+    """LED: B10 hours of catastrophic failures (catalogue, else the labelled default)."""
+    if lt.technology != "led":
+        return None
+    b10, _, _ = _led_columns(lt)
+    if b10 is not None:
+        src["failure_life_h"] = CATALOGUE
+        return float(b10)
+    src["failure_life_h"] = (
+        f"{DEFAULT} (assumption: B10 of failures = {LED_DEFAULT_B10_OF_L70:g} x L70)"
+    )
+    return LED_DEFAULT_B10_OF_L70 * rated_life
+
+
+def _tm21(lt: LampTypeLike) -> TM21Result | None:
+    """The TM-21 projection of an LED type's LM-80 points, when it has them."""
+    _, lm80, units = _led_columns(lt)
+    if not lm80:
+        return None
+    pts = sorted((float(p[0]), float(p[1])) for p in lm80)
+    return tm21_projection([p[0] for p in pts], [p[1] for p in pts], sample_size=int(units or 20))
+
+
 @dataclass(frozen=True)
 class LampModel:
     """A lamp type's resolved model numbers (hours, volts, watts, lumens) and their sources."""
@@ -180,17 +203,8 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
     # Scale: from the rated life with that shape (the curve's own scale is only reported).
     scale_h = float(scale_from_rated_life(rated_life, shape, pct))
     src["scale_h"] = src["shape"]  # rated life is catalogue; the shape decides the scale
-    b10, lm80, lm80_units = _led_columns(lt)
-    failure_life: float | None = None
-    if tech == "led":  # rated life is L70 (light): failures have their own figure
-        if b10 is not None:
-            failure_life = float(b10)
-            src["failure_life_h"] = CATALOGUE
-        else:
-            failure_life = LED_DEFAULT_B10_OF_L70 * rated_life
-            src["failure_life_h"] = (
-                f"{DEFAULT} (assumption: B10 of failures = {LED_DEFAULT_B10_OF_L70:g} x L70)"
-            )
+    failure_life = _led_failure_life(lt, rated_life, src)
+    if failure_life is not None:  # LED: rated life is L70 (light); failures have their own
         scale_h = float(scale_from_rated_life(failure_life, shape, LED_FAILURE_PERCENTILE))
         src["scale_h"] = src["failure_life_h"]
 
@@ -229,13 +243,9 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
     dmax = None if lt.driver_max_volts is None else float(lt.driver_max_volts)
     src["driver_range"] = CATALOGUE if dmin is not None and dmax is not None else DEFAULT
 
-    tm21: TM21Result | None = None
+    tm21 = _tm21(lt) if tech == "led" else None
     label: str | None = None
-    if tech == "led" and lm80:
-        pts80 = sorted((float(p[0]), float(p[1])) for p in lm80)
-        tm21 = tm21_projection(
-            [p[0] for p in pts80], [p[1] for p in pts80], sample_size=int(lm80_units or 20)
-        )
+    if tm21 is not None:
         curve = tm21.lumen_curve()
         label = tm21.life_label(70)
         src["lumen_curve"] = "fit (IES TM-21 of the LM-80 data)"

@@ -287,17 +287,7 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
     volts, source, history = reading_voltages(
         session, fixture_scope, area_scope, fix_id, area_of, at, t_start, t_end, clock
     )
-    n = pos_id.size
-    rest = age_h - history.covered_hours(n)
-    has_seg = np.bincount(history.position, minlength=n)[:n] > 0
-    rest_rows = np.nonzero(has_seg & (rest > 1e-9))[0]
-    if rest_rows.size:  # hours under no reading: the fixture's measured volts, else nominal
-        rest_v = np.where(np.isnan(fix_v), nominal_v, fix_v)[rest_rows]
-        history = ExposureHistory(
-            np.concatenate((history.position, rest_rows)),
-            np.concatenate((history.hours, rest[rest_rows])),
-            np.concatenate((history.voltage, rest_v)),
-        )
+    history = _with_rest(history, age_h, np.where(np.isnan(fix_v), nominal_v, fix_v))
     volts = np.where(np.isnan(volts) & ~np.isnan(fix_v), fix_v, volts)
     source = np.where((source == "") & ~np.isnan(fix_v), "fixture_measured", source)
     volts = np.where(np.isnan(volts), nominal_v, volts)
@@ -320,6 +310,21 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
         burn_h_per_week=week_rate,
         at=at,
         history=history,
+    )
+
+
+def _with_rest(history: ExposureHistory, age_h: FloatArray, rest_v: FloatArray) -> ExposureHistory:
+    """Add each lamp's hours under no reading as one segment at rest_v (measured, else nominal)."""
+    n = age_h.size
+    rest = age_h - history.covered_hours(n)
+    has_seg = np.bincount(history.position, minlength=n)[:n] > 0
+    rows = np.nonzero(has_seg & (rest > 1e-9))[0]
+    if not rows.size:
+        return history
+    return ExposureHistory(
+        np.concatenate((history.position, rows)),
+        np.concatenate((history.hours, rest[rows])),
+        np.concatenate((history.voltage, rest_v[rows])),
     )
 
 

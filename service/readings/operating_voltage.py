@@ -116,17 +116,22 @@ def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_l
         with np.errstate(divide="ignore", invalid="ignore"):
             volts[cand] = np.where(weighted, vsum[rep] / wsum[rep], np.nan)
         source[cand] = np.where(weighted, "readings_weighted", "")
-        # Every candidate's segments: its group's pairs (contiguous per group, in group order).
-        g_start = np.cumsum(cnt) - cnt
-        inv = np.ravel(inverse)
-        c_cnt = cnt[inv]
-        seg = np.repeat(g_start[inv], c_cnt) + (
-            np.arange(c_cnt.sum()) - np.repeat(np.cumsum(c_cnt) - c_cnt, c_cnt)
-        )
-        seg_row = np.repeat(cand, c_cnt)
-        live_seg = w[seg] > 0
-        history = ExposureHistory(seg_row[live_seg], w[seg][live_seg], rv[j][seg][live_seg])
+        history = _segments(cand, cnt, np.ravel(inverse), w, rv[j])
     fallback = has & np.isnan(volts)
     volts = np.where(fallback, latest, volts)
     source = np.where(fallback, "latest_reading", source).astype("<U17")
     return volts, source, history
+
+
+def _segments(
+    cand: IntArray, cnt: IntArray, inv: IntArray, w: FloatArray, volts: FloatArray
+) -> ExposureHistory:
+    """Every candidate's segments: its group's pairs (contiguous per group, in group order)."""
+    g_start = np.cumsum(cnt) - cnt
+    c_cnt = cnt[inv]
+    seg = np.repeat(g_start[inv], c_cnt) + (
+        np.arange(c_cnt.sum()) - np.repeat(np.cumsum(c_cnt) - c_cnt, c_cnt)
+    )
+    seg_row = np.repeat(cand, c_cnt)
+    live = w[seg] > 0
+    return ExposureHistory(seg_row[live], w[seg][live], volts[seg][live])

@@ -165,6 +165,15 @@ def voltage_life_factor(
     return np.asarray(np.where(outside, 1.0, life), dtype=np.float64)
 
 
+def _fault_text(voltage: float, pct: float, ballast: str) -> str:
+    """The supply-fault warning of one position."""
+    return (
+        f"supply fault: {voltage:g} V is {-pct:.1f}% below rated on a {ballast} ballast; "
+        "an under-powered discharge lamp starts poorly, wears its electrodes and shifts "
+        "colour: no life credit taken; check the supply or the ballast tap"
+    )
+
+
 def supply_fault(
     voltage_ratio: ArrayLike,
     ballast_gain: ArrayLike,
@@ -258,11 +267,7 @@ def voltage_effect(
             f"for {kind}; figures are extrapolated"
         )
     if bool(supply_fault(one(ratio), one(g), np.array([d.is_filament]), band=one(bnd))[0]):
-        warnings.append(
-            f"supply fault: {voltage:g} V is {-pct:.1f}% below rated on a {ballast} ballast; "
-            "an under-powered discharge lamp starts poorly, wears its electrodes and shifts "
-            "colour: no life credit taken; check the supply or the ballast tap"
-        )
+        warnings.append(_fault_text(voltage, pct, ballast))
     if d.is_filament and not math.isnan(floor) and ratio < floor:
         warnings.append(
             f"below {floor * 100:g}% of rated voltage the halogen cycle stops; "

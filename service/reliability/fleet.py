@@ -311,14 +311,7 @@ def evaluate_fleet(
     life_factor = life_v * sw
     beta = types.shape[k]
     eta = types.scale_h[k] * life_factor
-    if history is not None and history.size:
-        if history.position.max() >= n:
-            raise ValueError("history rows out of range of the fleet")
-        rated_age = _rated_age(types, k, age, life_factor, sw, history)
-        eff_age = rated_age * life_factor
-    else:
-        eff_age = age
-        rated_age = age / life_factor
+    eff_age, rated_age = _worn_ages(types, k, age, life_factor, sw, history)
     # log S at age and at age + horizon, computed once each (see weibull.log_sf).
     log_s_age = -np.power(eff_age / eta, beta)
     log_s_end = -np.power((eff_age + horizon) / eta, beta)
@@ -347,6 +340,23 @@ def evaluate_fleet(
             ratio, types.ballast_gain[k], types.is_filament[k], band=types.voltage_band[k]
         ),
     )
+
+
+def _worn_ages(
+    types: LampTypeTable,
+    k: IntArray,
+    age: FloatArray,
+    life_factor: FloatArray,
+    switching: FloatArray,
+    history: ExposureHistory | None,
+) -> tuple[FloatArray, FloatArray]:
+    """(effective age at today's conditions, rated-condition age) of each position."""
+    if history is None or not history.size:
+        return age, age / life_factor
+    if history.position.max() >= age.size:
+        raise ValueError("history rows out of range of the fleet")
+    rated_age = _rated_age(types, k, age, life_factor, switching, history)
+    return rated_age * life_factor, rated_age
 
 
 def _lumen(

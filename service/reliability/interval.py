@@ -134,9 +134,9 @@ def _covariance(f: Callable[[FloatArray], float], x: FloatArray) -> FloatArray:
         for j in range(2):
             ei = np.eye(2)[i] * h
             ej = np.eye(2)[j] * h
-            hess[i, j] = (
-                f(x + ei + ej) - f(x + ei - ej) - f(x - ei + ej) + f(x - ei - ej)
-            ) / (4 * h * h)
+            hess[i, j] = (f(x + ei + ej) - f(x + ei - ej) - f(x - ei + ej) + f(x - ei - ej)) / (
+                4 * h * h
+            )
     try:
         return np.asarray(np.linalg.inv(hess), dtype=np.float64)
     except np.linalg.LinAlgError:
