@@ -49,7 +49,7 @@ def median_s(call: Callable[[], object], repeats: int = REPEATS) -> float:
     return statistics.median(times)
 
 
-def main() -> None:
+def main() -> None:  # noqa: PLR0915  (a benchmark script, one sequence of steps)
     """Build, load, sign in, time pages beside their anchors, print the figures."""
     t0 = time.perf_counter()
     if "--reuse" in sys.argv:  # the database of an earlier run, as it was left

@@ -1,7 +1,7 @@
 """Lamp demand per week: spot replacements as a Poisson-binomial sum, plus group relamps.
 
 Each position j contributes, in week i, a replacement with probability p_ij: the increase
-of its expected replacements (per-position delayed renewal, forecasting.ahead) over the
+of its expected replacements (per-position delayed renewal, forecasting.spot_replacements) over the
 week, clipped to [0, 1] (a lamp failing twice inside one week is negligible next to lamp
 lives of thousands of hours). Positions fail independently, so a week's spot count is
 Poisson-binomial with mean sum p and variance sum p(1 - p).

@@ -139,7 +139,7 @@ def position_cumulative(
         n, h1
     )
     # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
-    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.ahead).
+    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
     after = np.zeros((n, h1))
     u = win.reshape(n, h1) / scale[:, None]
     for kk in np.unique(k[gw < weeks]).tolist():

@@ -45,7 +45,7 @@ def balance_read(b: StockBalance) -> BalanceRead:
     return BalanceRead.model_validate(b)
 
 
-def build_router(last_relamps: LastRelamps) -> APIRouter:
+def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (route definitions nested in one factory)
     """The stock routes, handed the query for completed group relamps (from work orders)."""
     router = APIRouter(tags=["stock"])
 
