@@ -3,6 +3,8 @@
 Run: python benchmarks/bench_fleet.py [--quick] [--repeats N]
 P1: 1,000,000 positions against the same arithmetic in bare numpy over the same arrays
 (target <= 1.5x); P8: the same at 1k, 10k, 100k (growth no worse than linear).
+X1: the same fleet with a voltage history of two segments per position (cumulative
+exposure, service.reliability.exposure) against the plain evaluation (target <= 1.5x).
 """
 
 from __future__ import annotations
@@ -19,6 +21,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from _table import Table, parser
 
 from service.reliability.conditions import switching_life_factor, voltage_effect
+from service.reliability.exposure import ExposureHistory
 from service.reliability.fleet import LampTypeSpec, LampTypeTable, evaluate_fleet
 from service.reliability.technologies import TECHNOLOGIES, TECHNOLOGY_DEFAULTS
 from service.reliability.weibull import Weibull
@@ -156,6 +159,22 @@ def main() -> int:
             repeats=repeats,
             target="<= 1.5x" if n == N_FLEET else "linear growth",
         )
+    # X1: two segments per position, the first half of its hours at another supply.
+    n = sizes[-1]
+    history = ExposureHistory(
+        np.repeat(np.arange(n), 2),
+        np.repeat(age / 2.0, 2),
+        np.column_stack((volts * rng.uniform(0.94, 1.06, n), volts)).ravel(),
+    )
+    table_rows.timed(
+        "X1",
+        f"fleet evaluation with a 2-segment voltage history, {n:,} positions",
+        lambda: evaluate_fleet(table, idx, age, volts, hps, horizon, history=history),
+        anchor="the plain evaluation (no history) of the same fleet",
+        anchor_fn=lambda: evaluate_fleet(table, idx, age, volts, hps, horizon),
+        repeats=repeats,
+        target="<= 1.5x",
+    )
     n_loop = 500 if quick else N_LOOP
     sidx, sage, svolts, shps = idx[:n_loop], age[:n_loop], volts[:n_loop], hps[:n_loop]
     table_rows.timed(

@@ -24,7 +24,7 @@ ON_DUPLICATE = ("error", "update")
 # Columns a CSV header must have (the others may be left out).
 LAMP_TYPE_REQUIRED = ("code", "technology", "rated_watts", "rated_volts", "rated_life_h")
 LAMP_TYPE_UPLOAD = UploadSpec(columns=LAMP_TYPE_FIELDS, required=LAMP_TYPE_REQUIRED)
-_JSON_FIELDS = ("mortality_points", "lumen_points", "extra")
+_JSON_FIELDS = ("mortality_points", "lumen_points", "lm80_points", "extra")
 # Number and true/false fields, read by the upload pipeline's cell readers (one wording for
 # every upload) before the schema checks ranges and the rules across fields.
 _NUMBER_FIELDS = tuple(

@@ -9,6 +9,17 @@ on the Weibull probability plot (service.reliability.mortality), else the techno
 Scale, always: eta = L_p / (-ln(1 - p))^(1/beta) from the catalogue rated life L_p at its
 percentile p (the maker's headline figure), never the mortality curve's own scale; that one is
 reported beside it (LampModel.mortality_fit) with its disagreement from the rated life.
+
+LED lamp types have two lives. rated_life_h is the lumen life L70 (hours to 70 % of initial
+light), not a failure percentile. Catastrophic failures (mostly the driver) have their own
+Weibull: the catalogue's failure_b10_h (hours by which 10 % have failed) with the shape,
+else the technology default B10 = LED_DEFAULT_B10_OF_L70 x the L70 hours, an ASSUMPTION of
+ours (no source: makers' "L70B10" figures are lumen criteria too), labelled in sources.
+Light: when the type carries LM-80-style test data (lm80_points [[hours, mean lumen
+fraction]], lm80_units, lm80_duration_h) the lumen curve is its IES TM-21 projection
+(service.reliability.tm21: points before 1,000 h ignored, so early rise is accepted; the
+6x / 5.5x reporting cap), held at the cap beyond it, and lumen_life_label reads e.g.
+"L70(10k) > 60,000 h" when the projection passes the cap.
 """
 
 from __future__ import annotations
@@ -30,11 +41,16 @@ from service.reliability.technologies import (
     DEFAULT_SWITCHING_SLOPE,
     TECHNOLOGY_DEFAULTS,
 )
+from service.reliability.tm21 import TM21Result, tm21_projection
 from service.reliability.weibull import scale_from_rated_life
 
 CATALOGUE = "catalogue"
 FIT = "fit"
 DEFAULT = "default"
+# LED catastrophic failures without a catalogue figure: B10 = this x the L70 hours.
+# ASSUMPTION (no source): 10 % of units fail (driver and electronics) by the lumen life.
+LED_DEFAULT_B10_OF_L70 = 1.0
+LED_FAILURE_PERCENTILE = 10.0  # failure_b10_h is a B10 life
 
 
 class LampTypeLike(Protocol):
@@ -64,6 +80,38 @@ class LampTypeLike(Protocol):
     unit_price: float
     contains_mercury: bool
     rupture_risk: bool
+
+
+def _led_columns(lt: LampTypeLike) -> tuple[float | None, list[list[float]] | None, int | None]:
+    """failure_b10_h, lm80_points, lm80_units of a lamp type (absent on older objects)."""
+    return (
+        getattr(lt, "failure_b10_h", None),
+        getattr(lt, "lm80_points", None),
+        getattr(lt, "lm80_units", None),
+    )
+
+
+def _led_failure_life(lt: LampTypeLike, rated_life: float, src: dict[str, str]) -> float | None:
+    """LED: B10 hours of catastrophic failures (catalogue, else the labelled default)."""
+    if lt.technology != "led":
+        return None
+    b10, _, _ = _led_columns(lt)
+    if b10 is not None:
+        src["failure_life_h"] = CATALOGUE
+        return float(b10)
+    src["failure_life_h"] = (
+        f"{DEFAULT} (assumption: B10 of failures = {LED_DEFAULT_B10_OF_L70:g} x L70)"
+    )
+    return LED_DEFAULT_B10_OF_L70 * rated_life
+
+
+def _tm21(lt: LampTypeLike) -> TM21Result | None:
+    """The TM-21 projection of an LED type's LM-80 points, when it has them."""
+    _, lm80, units = _led_columns(lt)
+    if not lm80:
+        return None
+    pts = sorted((float(p[0]), float(p[1])) for p in lm80)
+    return tm21_projection([p[0] for p in pts], [p[1] for p in pts], sample_size=int(units or 20))
 
 
 @dataclass(frozen=True)
@@ -101,6 +149,9 @@ class LampModel:
     sources: dict[str, str] = field(default_factory=dict)
     mortality_fit: MortalityFit | None = None  # the maker's curve fitted, when given
     mortality_fit_used: bool = False  # True when its shape is the model's shape
+    tm21: TM21Result | None = None  # LED: the TM-21 projection of the type's LM-80 data
+    lumen_life_label: str | None = None  # LED: e.g. "L70(10k) > 60,000 h"
+    failure_life_h: float | None = None  # LED: B10 of catastrophic failures, hours
 
     @property
     def driver_range(self) -> tuple[float, float] | None:
@@ -152,6 +203,10 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
     # Scale: from the rated life with that shape (the curve's own scale is only reported).
     scale_h = float(scale_from_rated_life(rated_life, shape, pct))
     src["scale_h"] = src["shape"]  # rated life is catalogue; the shape decides the scale
+    failure_life = _led_failure_life(lt, rated_life, src)
+    if failure_life is not None:  # LED: rated life is L70 (light); failures have their own
+        scale_h = float(scale_from_rated_life(failure_life, shape, LED_FAILURE_PERCENTILE))
+        src["scale_h"] = src["failure_life_h"]
 
     life_exp = _pick(lt.life_exponent, d.life_exponent, "life_exponent", src)
     light_exp = _pick(lt.light_exponent, d.light_exponent, "light_exponent", src)
@@ -188,7 +243,13 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
     dmax = None if lt.driver_max_volts is None else float(lt.driver_max_volts)
     src["driver_range"] = CATALOGUE if dmin is not None and dmax is not None else DEFAULT
 
-    if lt.lumen_points:
+    tm21 = _tm21(lt) if tech == "led" else None
+    label: str | None = None
+    if tm21 is not None:
+        curve = tm21.lumen_curve()
+        label = tm21.life_label(70)
+        src["lumen_curve"] = "fit (IES TM-21 of the LM-80 data)"
+    elif lt.lumen_points:
         pts = sorted((float(p[0]), float(p[1])) for p in lt.lumen_points)
         curve = LumenCurve(
             tuple(p[0] for p in pts),
@@ -201,6 +262,8 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
     else:
         curve = default_lumen_curve(tech, None if is_filament else rated_life)
         src["lumen_curve"] = DEFAULT
+    if tech == "led" and label is None:
+        label = f"L70 = {rated_life:,.0f} h (catalogue)"
 
     return LampModel(
         lamp_type_id=getattr(lt, "id", None),
@@ -236,6 +299,9 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
         sources=src,
         mortality_fit=mfit,
         mortality_fit_used=mfit is not None and src["shape"] == FIT,
+        tm21=tm21,
+        lumen_life_label=label,
+        failure_life_h=failure_life,
     )
 
 

@@ -47,6 +47,12 @@ class LampType(TimestampMixin, Base):
     ballast_behaviour: Mapped[str | None] = mapped_column(String(20), default=None)
     driver_min_volts: Mapped[float | None] = mapped_column(Float, default=None)
     driver_max_volts: Mapped[float | None] = mapped_column(Float, default=None)
+    # LED: B10 life of catastrophic (driver) failures, hours; rated_life_h is then L70.
+    failure_b10_h: Mapped[float | None] = mapped_column(Float, default=None)
+    # LED: LM-80-style test data [[hours, mean lumen fraction], ...], units, test hours.
+    lm80_points: Mapped[list[list[float]] | None] = mapped_column(JSON, default=None)
+    lm80_units: Mapped[int | None] = mapped_column(Integer, default=None)
+    lm80_duration_h: Mapped[float | None] = mapped_column(Float, default=None)
     unit_price: Mapped[float] = mapped_column(Float, default=0.0)
     contains_mercury: Mapped[bool] = mapped_column(Boolean, default=False)
     rupture_risk: Mapped[bool] = mapped_column(Boolean, default=False)  # non-passive failure

@@ -40,10 +40,13 @@ FIXTURE = "fixture"  # source label of a ballast taken from the fixture
 class CurveInUse:
     """The life curve a lamp type's forecasts use, and why."""
 
-    method: str  # "catalogue", "mle" or "weibayes"
+    method: str  # "catalogue", "blend" or "field" (service.reliability.credibility)
     shape: float  # Weibull beta
     scale_h: float  # Weibull eta at rated volts and cycle, burn hours
     reason: str
+    weight: float = 0.0  # credibility Z of the field data (0 = catalogue alone)
+    scale_bounds_h: tuple[float, float] | None = None  # the scale's bounds at `confidence`
+    confidence: float = 0.90
 
 
 def with_ballast(model: LampModel, ballast: str) -> LampModel:

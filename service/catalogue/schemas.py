@@ -19,6 +19,7 @@ from service.catalogue.mortality import (
 )
 from service.reliability.lumen import MAX_FRACTION
 from service.reliability.technologies import BALLASTS, TECHNOLOGIES, TECHNOLOGY_DEFAULTS
+from service.reliability.tm21 import tm21_projection
 
 # List routes of retirable records (lamp types, sites, areas, fixtures) take this filter.
 IncludeRetiredQ = Annotated[
@@ -109,6 +110,31 @@ MortalityPoints = Annotated[
     AfterValidator(_mortality),
     Field(description="[[% of rated life > 0, % surviving in (0, 100)], ...]; 2 or more."),
 ]
+def _lm80(points: list[list[float]]) -> list[list[float]]:
+    """LM-80-style points: hours >= 0 strictly increasing, mean lumen fraction in (0, 1.5].
+
+    Early rise is allowed (TM-21 ignores data before 1,000 h); the projection's own rules
+    (test of 6,000 h or more, 10 units or more) are checked on the whole lamp type.
+    """
+    if len(points) < 2:
+        raise ValueError("give at least two LM-80 points [hours, mean lumen fraction]")
+    pts = sorted((float(a), float(b)) for a, b in points)
+    for h, f in pts:
+        if not (math.isfinite(h) and 0 <= h <= MAX_LUMEN_X):
+            raise ValueError("LM-80 hours must lie in [0, 10,000,000]")
+        if not (math.isfinite(f) and 0 < f <= 1.5):
+            raise ValueError("LM-80 lumen fractions must lie in (0, 1.5] of initial light")
+    if any(b[0] - a[0] < MIN_LUMEN_GAP for a, b in itertools.pairwise(pts)):
+        raise ValueError("LM-80 hours must be distinct")
+    return [[h, f] for h, f in pts]
+
+
+Lm80Points = Annotated[
+    list[Annotated[list[float], Field(min_length=2, max_length=2)]],
+    Field(max_length=MAX_POINTS),
+    AfterValidator(_lm80),
+]
+
 LumenPoints = Annotated[
     list[Annotated[list[float], Field(min_length=2, max_length=2)]],
     Field(max_length=MAX_POINTS),
@@ -166,6 +192,14 @@ class LampTypeCreate(BaseModel):
     ballast_behaviour: Ballast | None = None
     driver_min_volts: Volts | None = None
     driver_max_volts: Volts | None = None
+    failure_b10_h: Hours | None = Field(
+        default=None, description="LED: hours by which 10 % have failed (catastrophic)."
+    )
+    lm80_points: Lm80Points | None = Field(
+        default=None, description="LED: LM-80-style [[hours, mean lumen fraction], ...]."
+    )
+    lm80_units: int | None = Field(default=None, ge=1, le=100_000)
+    lm80_duration_h: Hours | None = None
     unit_price: Price = 0.0
     contains_mercury: bool | None = Field(default=None, description="Default: by technology.")
     rupture_risk: bool | None = Field(default=None, description="Default: by technology.")
@@ -200,6 +234,24 @@ def cross_check(values: dict[str, Any]) -> list[tuple[str, str]]:
         out.append(
             ("second_cycle_life_h", "give second_hours_per_start and second_cycle_life_h together")
         )
+    lm80 = values.get("lm80_points")
+    if lm80:
+        if tech != "led":
+            out.append(("lm80_points", "LM-80 test data applies to LED lamp types only"))
+        else:
+            try:
+                tm21_projection(
+                    [p[0] for p in lm80],
+                    [p[1] for p in lm80],
+                    sample_size=int(values.get("lm80_units") or 20),
+                )
+            except ValueError as exc:
+                out.append(("lm80_points", f"not projectable by IES TM-21: {exc}"))
+        dur = values.get("lm80_duration_h")
+        if dur is not None and dur < max(p[0] for p in lm80):
+            out.append(("lm80_duration_h", "the test duration is shorter than its last point"))
+    if values.get("failure_b10_h") is not None and tech != "led":
+        out.append(("failure_b10_h", "a separate failure life applies to LED lamp types only"))
     lo, hi = values.get("driver_min_volts"), values.get("driver_max_volts")
     if (lo is None) != (hi is None):
         out.append(("driver_max_volts", "give driver_min_volts and driver_max_volts together"))
@@ -240,6 +292,10 @@ class LampTypeUpdate(BaseModel):
     ballast_behaviour: Ballast | None = None
     driver_min_volts: Volts | None = None
     driver_max_volts: Volts | None = None
+    failure_b10_h: Hours | None = None
+    lm80_points: Lm80Points | None = None
+    lm80_units: int | None = Field(default=None, ge=1, le=100_000)
+    lm80_duration_h: Hours | None = None
     unit_price: Price | None = None
     contains_mercury: bool | None = None
     rupture_risk: bool | None = None
@@ -280,6 +336,9 @@ class LampModelRead(BaseModel):
     lumen_curve: LumenCurveRead
     sources: dict[str, str]
     mortality_fit: MortalityFitRead | None = None  # the maker's curve as fitted, when given
+    lumen_life_label: str | None = None  # LED: e.g. "L70(10k) > 60,000 h" (TM-21 cap)
+    lumen_valid_to_h: float | None = None  # LED: the TM-21 reporting cap, hours
+    failure_life_h: float | None = None  # LED: B10 of catastrophic failures, hours
 
     @classmethod
     def of(cls, m: LampModel) -> LampModelRead:
@@ -312,6 +371,9 @@ class LampModelRead(BaseModel):
                 decay_alpha_per_h=c.decay_alpha,
             ),
             sources=dict(m.sources),
+            lumen_life_label=m.lumen_life_label,
+            lumen_valid_to_h=c.valid_to_h,
+            failure_life_h=m.failure_life_h,
             mortality_fit=(
                 MortalityFitRead.of(m.mortality_fit, m.mortality_fit_used)
                 if m.mortality_fit
@@ -350,6 +412,10 @@ class LampTypeRead(BaseModel):
     ballast_behaviour: str | None
     driver_min_volts: float | None
     driver_max_volts: float | None
+    failure_b10_h: float | None = None
+    lm80_points: list[list[float]] | None = None
+    lm80_units: int | None = None
+    lm80_duration_h: float | None = None
     unit_price: float
     contains_mercury: bool
     rupture_risk: bool

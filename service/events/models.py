@@ -72,6 +72,9 @@ class LampRemoval(Base):
     operating_voltage_v: Mapped[float | None] = mapped_column(Float, default=None)
     # burn_hours x the life acceleration factor: rated-voltage-equivalent hours.
     normalised_hours: Mapped[float] = mapped_column(Float)
+    # Found dark without a report: failed after this many normalised hours (the last time
+    # it was known burning) and by normalised_hours; None for exact failures and survivors.
+    failed_after_normalised_hours: Mapped[float | None] = mapped_column(Float, default=None)
     failed: Mapped[bool] = mapped_column(Boolean)
     reason: Mapped[str] = mapped_column(String(20))
     work_order_id: Mapped[int | None] = mapped_column(Integer, default=None)

@@ -4,14 +4,15 @@ One observation per lamp: a burnout report (service.events.burnouts) writes the 
 record (failed=True, reason "burnout") at the lamp's age when reported; the later
 replacement of that dark lamp (record_removal) reuses that record instead of writing a
 second one.
-Normalised hours = burn hours x acceleration factor, the acceleration factor being
-1 / life factor (voltage x switching, service.reliability.fleet): rated-condition hours.
+Normalised hours = rated-condition hours: the lamp's wear accumulated over its supply
+history (service.reliability.exposure, sum of dt / life factor), not the hours at the mean
+voltage.
 Services flush; the caller's transaction commits.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from datetime import datetime
 
 from sqlalchemy import select
@@ -30,7 +31,7 @@ from service.events.models import BurnoutReport, LampRemoval
 from service.events.reports import close_open_for_positions
 from service.readings.ages import position_ages
 from service.register.models import LampPosition
-from service.reliability.fleet import evaluate_fleet
+from service.reliability.fleet import FleetResult, FloatArray, evaluate_fleet
 
 # Positions evaluated per query batch in record_removals.
 _BATCH = 5000
@@ -60,6 +61,7 @@ def _observations(
         ages.voltage_v,
         ages.hours_per_start,
         0.0,
+        history=ages.history,
     )
     rows = []
     for i in range(ages.size):
@@ -77,7 +79,8 @@ def _observations(
                 starts=float(ages.starts[i]),
                 operating_voltage_v=float(ages.voltage_v[i]),
                 # x acceleration factor 1 / life factor
-                normalised_hours=hours / float(res.life_factor[i]),
+                # accumulated exposure (a reported figure scaled by the same ratio)
+                normalised_hours=hours * _rated_per_hour(res, ages.age_h, i),
                 failed=bool(failed),
                 reason=reason,
                 work_order_id=work_order_id,
@@ -85,6 +88,14 @@ def _observations(
             )
         )
     return rows
+
+
+def _rated_per_hour(res: FleetResult, age_h: FloatArray, i: int) -> float:
+    """Rated-condition hours per burn hour of row i: exposure / age (1 / life factor at 0)."""
+    age = float(age_h[i])
+    if age > 0:
+        return float(res.rated_age_h[i]) / age
+    return 1.0 / float(res.life_factor[i])
 
 
 def observe(
@@ -202,11 +213,15 @@ def record_removals(
     failed: bool | Sequence[bool],
     reason: str,
     work_order_id: int | None = None,
+    found_dark_since: Mapping[int, datetime] | None = None,
 ) -> list[LampRemoval]:
     """record_removal for many positions at once (a group relamp): a few queries in all.
 
     Dark positions keep their one failure record, as in record_removal; the others get one
     observation each at their age at removed_at. Every position restarts at zero.
+    found_dark_since maps positions found dark without a report to the last time they were
+    known burning: their failure is interval-censored, failed after the normalised age then
+    (failed_after_normalised_hours) and by the age at removed_at.
     """
     check_reason(reason)
     check_not_future(removed_at, "removed_at")
@@ -228,9 +243,34 @@ def record_removals(
     for lo in range(0, len(burning), _BATCH):
         by_id = {p.id: (p, f) for p, f in burning[lo : lo + _BATCH]}
         rows = _observations(session, by_id, at=at, reason=reason, work_order_id=work_order_id)
+        _interval_bounds(session, rows, found_dark_since or {})
         for removal in rows:
             restart_position(by_id[removal.position_id][0], at)
         session.add_all(rows)
         out.extend(rows)
     session.flush()
     return out
+
+
+def _interval_bounds(
+    session: Session, rows: list[LampRemoval], since: Mapping[int, datetime]
+) -> None:
+    """Set the lower bound of each found-dark failure: its normalised age when last seen lit."""
+    by_time: dict[datetime, list[LampRemoval]] = {}
+    for r in rows:
+        if r.failed and r.position_id in since:
+            by_time.setdefault(as_aware(since[r.position_id]), []).append(r)
+    for t, group in by_time.items():  # one query batch per distinct last visit
+        positions = session.scalars(
+            select(LampPosition).where(LampPosition.id.in_([r.position_id for r in group]))
+        ).all()
+        lows = _observations(
+            session,
+            {p.id: (p, True) for p in positions},
+            at=min(t, as_aware(group[0].removed_at)),
+            reason="burnout",
+            work_order_id=None,
+        )
+        low_of = {lo.position_id: lo.normalised_hours for lo in lows}
+        for r in group:
+            r.failed_after_normalised_hours = min(low_of[r.position_id], r.normalised_hours)

@@ -53,7 +53,14 @@ METHOD = (
 
 def _curve(type_id: int, c: CurveInUse) -> CurveInUseRead:
     return CurveInUseRead(
-        lamp_type_id=type_id, method=c.method, shape=c.shape, scale_h=c.scale_h, reason=c.reason
+        lamp_type_id=type_id,
+        method=c.method,
+        shape=c.shape,
+        scale_h=c.scale_h,
+        reason=c.reason,
+        weight=c.weight,
+        scale_bounds_h=c.scale_bounds_h,
+        confidence=c.confidence,
     )
 
 

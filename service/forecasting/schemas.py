@@ -4,17 +4,20 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from pydantic import BaseModel
+from pydantic import BaseModel, Field
 
 
 class CurveInUseRead(BaseModel):
-    """The life curve a lamp type's forecasts use: catalogue, field MLE or WeiBayes."""
+    """The life curve a lamp type's forecasts use: catalogue, blend or field, and the rule."""
 
     lamp_type_id: int
-    method: str
+    method: str = Field(description="catalogue, blend (credibility weight) or field")
     shape: float
     scale_h: float
     reason: str
+    weight: float = Field(description="Credibility Z = r/(r+k) of the field data (0-1).")
+    scale_bounds_h: tuple[float, float] | None = None
+    confidence: float
 
 
 class SummaryRead(BaseModel):
@@ -32,6 +35,9 @@ class SummaryRead(BaseModel):
     lumen_fraction_end: float
     voltage_warnings: int
     switching_warnings: int
+    supply_faults: int = Field(
+        0, description="Discharge lamps below their ballast's voltage band (a supply fault)."
+    )
 
 
 class AreaForecastRead(BaseModel):

@@ -4,7 +4,9 @@ Per position (numeric core: service.reliability.fleet.evaluate_fleet, with each 
 type's curve chosen by the field fit, see catalogue.resolved / forecasting.fit; a discharge
 lamp's voltage response follows its fixture's ballast kind, see catalogue.resolved):
 
-- survival now: S(age) of the lamp in the socket (0 for a dark position);
+- survival now: S(age) of the lamp in the socket (0 for a dark position), the age
+  accumulated over the past supply as exposure (readings.ages history; the supply ahead is
+  the readings' burn-hour-weighted mean);
 - P(fail within the horizon): 1 - S(age + w)/S(age); the horizon in weeks becomes burn
   hours w with the area's burn rate (schedule, else measured);
 - expected burnouts with spot replacement over the horizon: per-position delayed renewal
@@ -78,6 +80,7 @@ class Summary:
     lumen_fraction_end: float
     voltage_warnings: int
     switching_warnings: int
+    supply_faults: int = 0  # discharge lamps below their ballast's band: no life credit
 
 
 @dataclass(frozen=True)
@@ -116,8 +119,17 @@ def evaluate_positions(
     dark = ages.burned_out
     age = np.where(dark, 0.0, ages.age_h)
     horizon_h = horizon_weeks * ages.burn_h_per_week
-    res = evaluate_fleet(types.table, k, age, ages.voltage_v, ages.hours_per_start, horizon_h)
-    ahead = expected_replacements(types.table.shape, k, res.scale_h, age, horizon_h)
+    # Wear accumulated over the past supply (cumulative exposure); dark = a new lamp now.
+    res = evaluate_fleet(
+        types.table,
+        k,
+        age,
+        ages.voltage_v,
+        ages.hours_per_start,
+        horizon_h,
+        history=ages.history.drop_rows(dark),
+    )
+    ahead = expected_replacements(types.table.shape, k, res.scale_h, res.effective_age_h, horizon_h)
     return PositionForecast(
         ages=ages,
         fleet=res,
@@ -154,6 +166,7 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         lumen_fraction_end=mean(pf.lumen_end[sel]),
         voltage_warnings=int(pf.fleet.warn_voltage[sel].sum()),
         switching_warnings=int(pf.fleet.warn_switching[sel].sum()),
+        supply_faults=int(pf.fleet.warn_supply_fault[sel].sum()),
     )
 
 
@@ -162,17 +175,21 @@ def _light_at(
 ) -> FloatArray:
     """Lumen fraction of each position's lamp tau burn hours ahead (dark: new lamp)."""
     age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
+    worn = pf.fleet.effective_age_h + tau  # filament curves follow the life used (exposure)
     out = np.empty(age.size)
     for j, idx in by_row:
         curve = types.table.lumen_curves[j]
-        life = pf.fleet.life_h[idx] if curve.basis == "rated_life_fraction" else None
-        out[idx] = curve.at(age[idx], life)
+        if curve.basis == "rated_life_fraction":
+            out[idx] = curve.at(worn[idx], pf.fleet.life_h[idx])
+        else:
+            out[idx] = curve.at(age[idx], None)
     return out * pf.fleet.light_factor
 
 
 def _burned_share_at(pf: PositionForecast, beta: FloatArray, tau: FloatArray) -> FloatArray:
     """1 where dark, else F(age + tau): the lamp burned out by then if none replaced."""
-    f = -np.expm1(-np.power((pf.ages.age_h + tau) / pf.fleet.scale_h, beta))
+    # the wear so far is the accumulated exposure (effective age at today's supply)
+    f = -np.expm1(-np.power((pf.fleet.effective_age_h + tau) / pf.fleet.scale_h, beta))
     return np.where(pf.ages.burned_out, 1.0, f)
 
 

@@ -15,13 +15,17 @@ Method (all vectorised; a handful of queries whatever the number of positions):
   the install), "readings_weighted"; else the latest reading, "latest_reading"; else the
   fixture's measured volts, "fixture_measured"; else the site's nominal, "site_nominal".
   A fixture's own readings win over its area's. The readings part is in operating_voltage.py.
+- Exposure history: the readings' burn-hour segments of each lamp (operating_voltage.py); its
+  hours not under any reading (before the first reading, and hours it had when it went in)
+  are one more segment at the fixture's measured volts, else the site's nominal. The numeric
+  core accumulates wear over them (PositionAges.history; service.reliability.exposure).
 - Ballast: the fixture's ballast kind (Fixture.ballast_kind), read as a code in the same
   query; catalogue.resolved decides which ballast the lamp actually runs on.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
@@ -36,6 +40,7 @@ from service.readings.operating_voltage import reading_voltages
 from service.readings.repository import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock, Timeline
 from service.register.models import Area, Fixture, LampPosition, Site
+from service.reliability.exposure import ExposureHistory
 from service.reliability.technologies import BALLASTS
 
 FloatArray = NDArray[np.float64]
@@ -70,6 +75,8 @@ class PositionAges:
     installed_at_s: FloatArray  # when the lamp went in, epoch seconds (UTC)
     burn_h_per_week: FloatArray  # the area's burn rate: schedule, else measured recently
     at: datetime  # the moment the ages refer to (UTC)
+    # Past supply by burn-hour segments (rows of these arrays): wear is accumulated over it.
+    history: ExposureHistory = field(default_factory=ExposureHistory.empty)
 
     @property
     def size(self) -> int:
@@ -80,9 +87,12 @@ class PositionAges:
         """The subset at an index or boolean mask."""
         return PositionAges(
             **{
-                name: getattr(self, name)[idx] for name in self.__dataclass_fields__ if name != "at"
+                name: getattr(self, name)[idx]
+                for name in self.__dataclass_fields__
+                if name not in ("at", "history")
             },
             at=self.at,
+            history=self.history.take(idx, self.size),
         )
 
 
@@ -274,9 +284,10 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
     # Burn rate per week: schedule, else measured over the last RATE_WINDOW_DAYS.
     week_rate = np.where(week_h > 0, week_h, _measured_rate(timeline, bkey, t_at))
 
-    volts, source = reading_voltages(
+    volts, source, history = reading_voltages(
         session, fixture_scope, area_scope, fix_id, area_of, at, t_start, t_end, clock
     )
+    history = _with_rest(history, age_h, np.where(np.isnan(fix_v), nominal_v, fix_v))
     volts = np.where(np.isnan(volts) & ~np.isnan(fix_v), fix_v, volts)
     source = np.where((source == "") & ~np.isnan(fix_v), "fixture_measured", source)
     volts = np.where(np.isnan(volts), nominal_v, volts)
@@ -298,6 +309,22 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
         installed_at_s=t0,
         burn_h_per_week=week_rate,
         at=at,
+        history=history,
+    )
+
+
+def _with_rest(history: ExposureHistory, age_h: FloatArray, rest_v: FloatArray) -> ExposureHistory:
+    """Add each lamp's hours under no reading as one segment at rest_v (measured, else nominal)."""
+    n = age_h.size
+    rest = age_h - history.covered_hours(n)
+    has_seg = np.bincount(history.position, minlength=n)[:n] > 0
+    rows = np.nonzero(has_seg & (rest > 1e-9))[0]
+    if not rows.size:
+        return history
+    return ExposureHistory(
+        np.concatenate((history.position, rows)),
+        np.concatenate((history.hours, rest[rows])),
+        np.concatenate((history.voltage, rest_v[rows])),
     )
 
 

@@ -5,6 +5,10 @@ the next one, the last one before the lamp went in counts from the install, and 
 of a reading is the burn hours (service.readings.timeline.Clock) it held for; this is
 "readings_weighted". Without burn hours under any reading, the latest reading,
 "latest_reading". A fixture's own readings win over its area's. Volts throughout.
+
+The same (reading, burn hours) pairs are returned as an exposure history (one segment per
+reading that held for some of the lamp's burn hours): the numeric core accumulates wear
+over them (service.reliability.exposure) instead of using the mean voltage.
 The fallbacks after these (fixture measured volts, site nominal) are in ages.py.
 """
 
@@ -21,6 +25,7 @@ from sqlalchemy.orm import Session
 from service.readings.models import VoltageReading
 from service.readings.repository import epoch, float_matrix, target_keys
 from service.readings.timeline import Clock
+from service.reliability.exposure import ExposureHistory
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -36,8 +41,11 @@ def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_l
     t_start: FloatArray,
     t_end: FloatArray,
     clock: Clock,
-) -> tuple[FloatArray, NDArray[np.str_]]:
-    """Weighted-mean or latest reading per position (NaN and "" where there is none)."""
+) -> tuple[FloatArray, NDArray[np.str_], ExposureHistory]:
+    """Weighted-mean or latest reading per position (NaN and "" where there is none).
+
+    Also the readings' burn-hour segments per position (rows of fix_id), for exposure.
+    """
     n = fix_id.size
     volts = np.full(n, np.nan)
     source = np.full(n, "", dtype="<U17")
@@ -58,8 +66,9 @@ def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_l
         ),
         4,
     )
+    history = ExposureHistory.empty()
     if m.shape[0] == 0:
-        return volts, source
+        return volts, source, history
     rkey = m[:, 0].astype(np.int64)
     rt = m[:, 1]
     rv = m[:, 2]
@@ -107,7 +116,22 @@ def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_l
         with np.errstate(divide="ignore", invalid="ignore"):
             volts[cand] = np.where(weighted, vsum[rep] / wsum[rep], np.nan)
         source[cand] = np.where(weighted, "readings_weighted", "")
+        history = _segments(cand, cnt, np.ravel(inverse), w, rv[j])
     fallback = has & np.isnan(volts)
     volts = np.where(fallback, latest, volts)
     source = np.where(fallback, "latest_reading", source).astype("<U17")
-    return volts, source
+    return volts, source, history
+
+
+def _segments(
+    cand: IntArray, cnt: IntArray, inv: IntArray, w: FloatArray, volts: FloatArray
+) -> ExposureHistory:
+    """Every candidate's segments: its group's pairs (contiguous per group, in group order)."""
+    g_start = np.cumsum(cnt) - cnt
+    c_cnt = cnt[inv]
+    seg = np.repeat(g_start[inv], c_cnt) + (
+        np.arange(c_cnt.sum()) - np.repeat(np.cumsum(c_cnt) - c_cnt, c_cnt)
+    )
+    seg_row = np.repeat(cand, c_cnt)
+    live = w[seg] > 0
+    return ExposureHistory(seg_row[live], w[seg][live], volts[seg][live])

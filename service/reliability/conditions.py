@@ -18,6 +18,11 @@ Formulas and sources:
   i.e. flat [memory]/[practice]). ASSUMPTION of this module (no single source): life and
   light follow lamp power by power laws, life x P^-n_life and light x P^light_exponent, with
   the technology's exponents. Power factor is P itself.
+- Discharge lamps below rated voltage get no life credit: the life factor is capped at 1.0
+  for r < 1 (under-powered arc tubes and cathodes start poorly, wear their electrodes and
+  shift colour [practice]); below the ballast's band (reactor 5 %, regulating 10 %) the
+  position carries a supply-fault warning (supply_fault), to fix at the supply or ballast
+  tap. Over-voltage shortens life as above.
 - LED drivers hold output flat inside their input range [practice]; outside it the fixture
   is flagged and nothing is extrapolated (all factors 1.0).
 - Switching [practice]: fluorescent rated life is quoted at about 3 burn hours per start;
@@ -113,9 +118,7 @@ def voltage_factors(
     # Ballasted lamps: lamp power ratio P from the line-voltage ratio through the ballast gain.
     p_lamp = np.maximum(1.0 + np.where(filament, 0.0, gain) * (r - 1.0), MIN_POWER_RATIO)
     base = np.where(filament, r, p_lamp)
-    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
-    life_base = np.where(filament, np.fmax(r, floor), p_lamp)
-    life = np.power(life_base, -n_life)
+    life = _life(r, p_lamp, n_life, filament, floor)
     light = np.power(base, k_light)
     power = np.where(filament, np.power(base, m_power), p_lamp)
 
@@ -129,6 +132,60 @@ def voltage_factors(
     below_floor = filament & (r < floor)
     out = np.where(has_range, outside_range, out_band) | below_floor
     return life, light, power, np.asarray(out, dtype=bool)
+
+
+def _life(
+    r: FloatArray, p_lamp: FloatArray, n_life: FloatArray, filament: BoolArray, floor: FloatArray
+) -> FloatArray:
+    """Life factor before the driver-range rule: filament r^-n, discharge P^-n capped at 1."""
+    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
+    life_base = np.where(filament, np.fmax(r, floor), p_lamp)
+    life = np.power(life_base, -n_life)
+    # Under-powered discharge lamps: no life credit (a supply fault, not a bonus).
+    return np.asarray(np.where(~filament & (r < 1.0), np.minimum(life, 1.0), life))
+
+
+def voltage_life_factor(
+    voltage_ratio: ArrayLike,
+    life_exponent: ArrayLike,
+    ballast_gain: ArrayLike,
+    is_filament: ArrayLike,
+    *,
+    life_ratio_floor: ArrayLike = math.nan,
+    driver_min_ratio: ArrayLike = math.nan,
+    driver_max_ratio: ArrayLike = math.nan,
+) -> FloatArray:
+    """The life factor of voltage_factors alone (same formulas; for exposure segments)."""
+    r = _arr(voltage_ratio)
+    gain = _arr(ballast_gain)
+    filament = np.asarray(is_filament, dtype=bool) | np.isnan(gain)
+    p_lamp = np.maximum(1.0 + np.where(filament, 0.0, gain) * (r - 1.0), MIN_POWER_RATIO)
+    life = _life(r, p_lamp, _arr(life_exponent), filament, _arr(life_ratio_floor))
+    outside = (r < _arr(driver_min_ratio)) | (r > _arr(driver_max_ratio))
+    return np.asarray(np.where(outside, 1.0, life), dtype=np.float64)
+
+
+def _fault_text(voltage: float, pct: float, ballast: str) -> str:
+    """The supply-fault warning of one position."""
+    return (
+        f"supply fault: {voltage:g} V is {-pct:.1f}% below rated on a {ballast} ballast; "
+        "an under-powered discharge lamp starts poorly, wears its electrodes and shifts "
+        "colour: no life credit taken; check the supply or the ballast tap"
+    )
+
+
+def supply_fault(
+    voltage_ratio: ArrayLike,
+    ballast_gain: ArrayLike,
+    is_filament: ArrayLike,
+    *,
+    band: ArrayLike = 0.10,
+) -> BoolArray:
+    """Discharge lamps on a ballast that passes line changes through, below its band."""
+    r = _arr(voltage_ratio)
+    gain = _arr(ballast_gain)
+    discharge = ~np.asarray(is_filament, dtype=bool) & ~np.isnan(gain) & (gain > 0)
+    return np.asarray(discharge & (r < 1.0 - _arr(band) - _BAND_TOL), dtype=bool)
 
 
 def voltage_effect(
@@ -209,6 +266,8 @@ def voltage_effect(
             f"supply is {pct:+.1f}% from rated voltage, outside the +/-{bnd * 100:g}% band "
             f"for {kind}; figures are extrapolated"
         )
+    if bool(supply_fault(one(ratio), one(g), np.array([d.is_filament]), band=one(bnd))[0]):
+        warnings.append(_fault_text(voltage, pct, ballast))
     if d.is_filament and not math.isnan(floor) and ratio < floor:
         warnings.append(
             f"below {floor * 100:g}% of rated voltage the halogen cycle stops; "

@@ -11,6 +11,12 @@ evaluated per type, by grouping positions with numpy indexing):
   [published: Nelson, *Accelerated Testing*]);
 - survival S(a) = exp(-(a/eta_i)^beta); conditional failure within the horizon w:
   1 - S(a + w)/S(a) [Weibull, see weibull.py];
+- with a history (exposure.ExposureHistory: burn-hour segments at known voltages) the age
+  is accumulated instead: rated age a_r = sum dt_j / f(V_j) + uncovered hours / f_now
+  (cumulative exposure [published: Nelson, *Accelerated Testing*]), S = exp(-(a_r/eta_k)^beta)
+  and the horizon adds w / f_now; the switching factor of every segment is the position's;
+- discharge lamps below rated voltage: life factor capped at 1 (conditions.py), and a
+  supply-fault flag below the ballast's band (warn_supply_fault);
 - lumen fraction = LLD(a) x voltage light factor; for curves in fractions of rated life the
   life used is the effective B50 life eta_i (ln 2)^(1/beta) (rated life taken as the median);
 - expected failures within the horizon, no replacement: sum of the conditional failure
@@ -28,7 +34,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from service.reliability.conditions import switching_life_factor, voltage_factors
+from service.reliability.conditions import (
+    MIN_POWER_RATIO,
+    supply_fault,
+    switching_life_factor,
+    voltage_factors,
+    voltage_life_factor,
+)
+from service.reliability.exposure import ExposureHistory, accumulated_exposure
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
@@ -235,6 +248,9 @@ class FleetResult:
     expected_failures_horizon: float  # no-replacement expectation
     light_factor: FloatArray  # voltage light factor alone
     life_h: FloatArray  # effective median (B50) life, hours
+    rated_age_h: FloatArray  # rated-condition-equivalent age (cumulative exposure), hours
+    warn_supply_fault: BoolArray  # discharge lamp below its ballast's band (no life credit)
+    effective_age_h: FloatArray  # the age at today's conditions doing the same wear, hours
 
 
 def evaluate_fleet(
@@ -244,8 +260,14 @@ def evaluate_fleet(
     voltage: ArrayLike,
     hours_per_start: ArrayLike,
     horizon_h: ArrayLike,
+    *,
+    history: ExposureHistory | None = None,
 ) -> FleetResult:
-    """Evaluate N lamp positions at once (voltage NaN = rated; hours_per_start NaN = rated)."""
+    """Evaluate N lamp positions at once (voltage NaN = rated; hours_per_start NaN = rated).
+
+    voltage is the supply from now on; history (segments by row) gives the past supply,
+    accumulated as exposure; rows without segments burned at `voltage` throughout.
+    """
     k = np.asarray(type_index)
     if k.size == 0:
         k = k.astype(np.intp)
@@ -289,25 +311,15 @@ def evaluate_fleet(
     life_factor = life_v * sw
     beta = types.shape[k]
     eta = types.scale_h[k] * life_factor
+    eff_age, rated_age = _worn_ages(types, k, age, life_factor, sw, history)
     # log S at age and at age + horizon, computed once each (see weibull.log_sf).
-    log_s_age = -np.power(age / eta, beta)
-    log_s_end = -np.power((age + horizon) / eta, beta)
+    log_s_age = -np.power(eff_age / eta, beta)
+    log_s_end = -np.power((eff_age + horizon) / eta, beta)
     survival = np.exp(log_s_age)
     p_fail = -np.expm1(log_s_end - log_s_age)
     life_h = eta * types.b50_factor[k]
 
-    lld_age = np.empty(n, dtype=np.float64)
-    lld_end = np.empty(n, dtype=np.float64)
-    order = np.argsort(k, kind="stable")
-    bounds = np.concatenate(([0], np.cumsum(np.bincount(k, minlength=types.size))))
-    end_age = age + horizon
-    for j, curve in enumerate(types.lumen_curves):  # loop over K types, not lamps
-        idx = order[bounds[j] : bounds[j + 1]]
-        if idx.size == 0:
-            continue
-        lh = life_h[idx] if curve.basis == "rated_life_fraction" else None
-        lld_age[idx] = curve.at(age[idx], lh)
-        lld_end[idx] = curve.at(end_age[idx], lh)
+    lld_age, lld_end = _lumen(types, k, age, eff_age, horizon, life_h)
 
     return FleetResult(
         life_factor=life_factor,
@@ -322,4 +334,100 @@ def evaluate_fleet(
         expected_failures_horizon=float(p_fail.sum()),
         light_factor=light_v,
         life_h=life_h,
+        rated_age_h=rated_age,
+        effective_age_h=eff_age,
+        warn_supply_fault=supply_fault(
+            ratio, types.ballast_gain[k], types.is_filament[k], band=types.voltage_band[k]
+        ),
     )
+
+
+def _worn_ages(
+    types: LampTypeTable,
+    k: IntArray,
+    age: FloatArray,
+    life_factor: FloatArray,
+    switching: FloatArray,
+    history: ExposureHistory | None,
+) -> tuple[FloatArray, FloatArray]:
+    """(effective age at today's conditions, rated-condition age) of each position."""
+    if history is None or not history.size:
+        return age, age / life_factor
+    if history.position.max() >= age.size:
+        raise ValueError("history rows out of range of the fleet")
+    rated_age = _rated_age(types, k, age, life_factor, switching, history)
+    return rated_age * life_factor, rated_age
+
+
+def _lumen(
+    types: LampTypeTable,
+    k: IntArray,
+    age: FloatArray,
+    eff_age: FloatArray,
+    horizon: FloatArray,
+    life_h: FloatArray,
+) -> tuple[FloatArray, FloatArray]:
+    """Lamp lumen depreciation now and at the horizon end, evaluated per type (K loops)."""
+    n = age.size
+    lld_age = np.empty(n, dtype=np.float64)
+    lld_end = np.empty(n, dtype=np.float64)
+    order = np.argsort(k, kind="stable")
+    bounds = np.concatenate(([0], np.cumsum(np.bincount(k, minlength=types.size))))
+    end_age = age + horizon
+    for j, curve in enumerate(types.lumen_curves):  # loop over K types, not lamps
+        idx = order[bounds[j] : bounds[j + 1]]
+        if idx.size == 0:
+            continue
+        if curve.basis == "rated_life_fraction":  # filament: fraction of the life used
+            lh = life_h[idx]
+            lld_age[idx] = curve.at(eff_age[idx], lh)
+            lld_end[idx] = curve.at(eff_age[idx] + horizon[idx], lh)
+        else:
+            lld_age[idx] = curve.at(age[idx], None)
+            lld_end[idx] = curve.at(end_age[idx], None)
+    return lld_age, lld_end
+
+
+def _rated_age(
+    types: LampTypeTable,
+    k: IntArray,
+    age: FloatArray,
+    life_factor: FloatArray,
+    switching: FloatArray,
+    history: ExposureHistory,
+) -> FloatArray:
+    """Cumulative exposure of each row: its segments' hours / f(V), the rest at today's f."""
+    n = age.size
+    row = history.position
+    ks = k[row]
+    # Per-type constants first (K values), gathered once per segment: the same formulas as
+    # conditions.voltage_life_factor, with the work each type does not need left out.
+    ratio = history.voltage * (1.0 / types.rated_voltage)[ks]
+    if np.isnan(ratio).any():
+        ratio = np.where(np.isnan(ratio), 1.0, ratio)
+    filament_k = types.is_filament | np.isnan(types.ballast_gain)
+    gain_k = np.where(filament_k, 0.0, types.ballast_gain)
+    fil = filament_k[ks]
+    p_lamp = np.maximum(1.0 + gain_k[ks] * (ratio - 1.0), MIN_POWER_RATIO)
+    life_seg = np.power(np.where(fil, ratio, p_lamp), -types.life_exponent[ks])
+    # under-powered discharge lamps: no life credit (as conditions._life)
+    life_seg = np.where(~fil & (ratio < 1.0), np.minimum(life_seg, 1.0), life_seg)
+    # Types with a halogen floor or a driver range: the full rule, on their segments only.
+    special_k = ~np.isnan(types.life_ratio_floor) | ~np.isnan(types.driver_min_v)
+    special_k |= ~np.isnan(types.driver_max_v)
+    if special_k.any():
+        sel = np.nonzero(special_k[ks])[0]
+        kk = ks[sel]
+        life_seg[sel] = voltage_life_factor(
+            ratio[sel],
+            types.life_exponent[kk],
+            types.ballast_gain[kk],
+            types.is_filament[kk],
+            life_ratio_floor=types.life_ratio_floor[kk],
+            driver_min_ratio=(types.driver_min_v / types.rated_voltage)[kk],
+            driver_max_ratio=(types.driver_max_v / types.rated_voltage)[kk],
+        )
+    exposure = accumulated_exposure(row, history.hours, life_seg * switching[row], n)
+    covered = history.covered_hours(n)
+    rest = np.maximum(age - covered, 0.0)
+    return exposure + rest / life_factor

@@ -52,6 +52,9 @@ class LumenCurve:
     # Optional exact exponential form B*exp(-alpha*t), t in hours (TM-21); None = use points.
     decay_b: float | None = None
     decay_alpha: float | None = None  # per hour
+    # Hours beyond which the curve is not reported (TM-21 cap): read there, it is held at its
+    # value at the limit instead of extrapolated (callers flag hours past it). None = no cap.
+    valid_to_h: float | None = None
 
     def __post_init__(self) -> None:
         if self.basis not in BASES:
@@ -111,6 +114,8 @@ class LumenCurve:
     def at(self, hours: ArrayLike, life_h: ArrayLike | None = None) -> FloatArray:
         """Fraction of initial lumens at burn hours (life_h: scaled life, rated-life basis)."""
         t = np.maximum(np.asarray(hours, dtype=np.float64), 0.0)
+        if self.valid_to_h is not None:
+            t = np.minimum(t, self.valid_to_h)
         if self.decay_b is not None and self.decay_alpha is not None:
             return np.asarray(self.decay_b * np.exp(-self.decay_alpha * t), dtype=np.float64)
         if self.basis == "rated_life_fraction":

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -53,8 +53,13 @@ class TM21Result:
     capped: dict[int, bool]
 
     def lumen_curve(self) -> LumenCurve:
-        """The fitted exponential as a lumen curve (for use as an LED depreciation curve)."""
-        return exponential_lumen_curve(self.B, self.alpha)
+        """The fitted exponential as a lumen curve, held at the reporting cap beyond it."""
+        curve = exponential_lumen_curve(self.B, max(self.alpha, 0.0))
+        return replace(curve, valid_to_h=self.cap_h)
+
+    def life_label(self, percent: int = 70) -> str:
+        """The reported lumen life, e.g. "L70(10k) > 60,000 h" when beyond the cap."""
+        return self.reported[percent]
 
 
 def cap_multiple(sample_size: int) -> float:

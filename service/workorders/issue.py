@@ -41,7 +41,12 @@ from service.workorders.models import (
     WorkOrderState,
 )
 from service.workorders.repository import last_group_relamps
-from service.workorders.texts import LampContent, disposal_instructions, safety_cautions
+from service.workorders.texts import (
+    LampContent,
+    disposal_instructions,
+    region_of,
+    safety_cautions,
+)
 
 GROUP, SPOT = WorkOrderKind.GROUP_RELAMP, WorkOrderKind.SPOT_REPLACEMENT
 __all__ = ["GROUP", "OPEN_STATES", "SPOT", "IssueResult", "issue_orders"]
@@ -452,8 +457,13 @@ def _order(
         "access_method": area.access_method,
         "lamp_quantity": qty,
         "estimated_labour_h": round(qty * minutes_per_lamp / 60.0, 2),  # hours
-        "disposal_instructions": disposal_instructions(lamps),
-        "safety_cautions": safety_cautions(lamps, area.access_method),
+        "disposal_instructions": disposal_instructions(lamps, region=region_of(site.time_zone)),
+        "safety_cautions": safety_cautions(
+            lamps,
+            area.access_method,
+            mounting_height_m=area.mounting_height_m,
+            region=region_of(site.time_zone),
+        ),
         "external_reference": None,
         "notes": None,
         "state_changed_at": now,

@@ -9,9 +9,9 @@ States (plain words of our own) and the only moves allowed:
 
 from __future__ import annotations
 
-from datetime import datetime, timedelta
+from datetime import UTC, datetime, timedelta
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, object_session
 from sqlalchemy.orm.exc import StaleDataError
@@ -22,6 +22,7 @@ from service.db.base import utcnow
 from service.db.crud import apply_patch, get_or_404
 from service.db.locks import lock_site
 from service.events import removals, reports
+from service.events.checks import as_aware
 from service.register.models import Area, LampPosition, Site
 from service.workorders import stock_hooks
 from service.workorders.issue import GROUP, SPOT, issue_orders
@@ -351,6 +352,7 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
     }
     open_reports = reports.not_closed_on_positions(session, list(taken))
     to_close: list[int] = []
+    found_dark: dict[int, datetime] = {}  # no report: failed since the area's last visit
     dark_positions: list[LampPosition] = []
     burning_positions: list[LampPosition] = []
     for pid, outcome in taken.items():
@@ -363,6 +365,8 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
         if order.kind == SPOT and not dark:
             continue  # another order (e.g. this week's group relamp) already replaced it
         (dark_positions if dark else burning_positions).append(pos)
+        if outcome == FOUND_DARK and pos.burned_out_at is None and pid not in open_reports:
+            found_dark[pid] = max(as_aware(pos.lamp_installed_at), _last_visit(session, order, at))
         to_close.extend(open_reports.get(pid, []))
     # Burned-out lamps are failures (their report already wrote the record: it is reused);
     # lamps still burning at a group relamp are censored observations.
@@ -372,10 +376,30 @@ def _record(session: Session, order: WorkOrder, resolved: Resolved, at: datetime
     ):
         if group:
             removals.record_removals(
-                session, group, removed_at=at, failed=failed, reason=reason, work_order_id=order.id
+                session,
+                group,
+                removed_at=at,
+                failed=failed,
+                reason=reason,
+                work_order_id=order.id,
+                found_dark_since=found_dark if failed else None,
             )
     if to_close:
         reports.close_reports(session, sorted(set(to_close)), order.id, closed_at=at)
+
+
+def _last_visit(session: Session, order: WorkOrder, at: datetime) -> datetime:
+    """The last completed order in the order's area before `at` (assumption: a team working
+    in an area reports the lamps it sees dark), else the start of time."""
+    last = session.scalar(
+        select(func.max(WorkOrder.completed_at)).where(
+            WorkOrder.area_id == order.area_id,
+            WorkOrder.state == WorkOrderState.DONE,
+            WorkOrder.id != order.id,
+            WorkOrder.completed_at <= at,
+        )
+    )
+    return as_aware(last) if last is not None else datetime.min.replace(tzinfo=UTC)
 
 
 def _recorded(ln: WorkOrderLine) -> list[Entry]:

@@ -192,7 +192,9 @@ def test_table_matches_the_numeric_core_from_specs() -> None:
         LampTypeSpec("linear_fluorescent", 20_000.0, 230.0),
         LampTypeSpec("halogen", 2_000.0, 230.0, shape=3.0),
         LampTypeSpec("metal_halide", 15_000.0, 230.0, rated_percentile=40.0),
-        LampTypeSpec("led", 50_000.0, 230.0, driver_range=(200.0, 250.0)),
+        # LED: rated life is L70; failures default to B10 = the L70 hours (the catalogue's
+        # stated assumption), i.e. a B10 life in the core's terms.
+        LampTypeSpec("led", 50_000.0, 230.0, rated_percentile=10.0, driver_range=(200.0, 250.0)),
     ]
     ref = LampTypeTable.from_specs(specs)
     for name in TABLE_COLUMNS:

@@ -210,7 +210,11 @@ def test_field_fit_and_forecasts_use_its_choice(
     km = kaplan_meier(times, failed)
     assert [p["survival"] for p in body["kaplan_meier"]] == pytest.approx(km.survival.tolist())
     assert [p["at_risk"] for p in body["kaplan_meier"]] == km.at_risk.tolist()
-    assert body["choice"]["method"] == "mle" and body["forecasts_use"]["method"] == "mle"
+    # 24 failures on a catalogue beta of 3.5: Z = 24/(24 + 16.5/3.5^2) = 0.95 (credibility)
+    assert body["choice"]["method"] == "field" and body["forecasts_use"]["method"] == "field"
+    assert body["forecasts_use"]["weight"] == pytest.approx(
+        24 / (24 + 1 / (3.5 * 0.2465) ** 2), rel=1e-3
+    )
     fc = _get(client, f"/api/v1/forecasts/lamp-types/{lt.id}", reader)
-    assert fc["curves"][0]["method"] == "mle"
+    assert fc["curves"][0]["method"] == "field"
     assert fc["curves"][0]["shape"] == pytest.approx(ref.shape, rel=1e-6)

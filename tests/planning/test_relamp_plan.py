@@ -183,10 +183,10 @@ def test_plan_uses_the_field_fit_the_forecasts_use(
         )
     db.commit()
     fit = client.get(f"/api/v1/field-fits/lamp-types/{lt.id}", headers=reader).json()
-    assert fit["forecasts_use"]["method"] == "mle"
+    assert fit["forecasts_use"]["method"] == "field"
     plan = client.get(f"/api/v1/areas/{a.id}/relamp-plan", headers=reader).json()
     inputs = plan["lamp_types"][0]["inputs"]
-    assert inputs["life_curve"] == "mle"
+    assert inputs["life_curve"] == "field"
     assert inputs["weibull_shape"] == pytest.approx(fit["forecasts_use"]["shape"], rel=1e-6)
     # The curve's scale at rated conditions times this area's voltage and switching factors;
     # lamps in service are censored at their age "now", a few ms apart between the requests.

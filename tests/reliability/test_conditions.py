@@ -9,7 +9,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from service.reliability.conditions import switching_life_factor, voltage_effect, voltage_factors
+from service.reliability.conditions import (
+    supply_fault,
+    switching_life_factor,
+    voltage_effect,
+    voltage_factors,
+    voltage_life_factor,
+)
 from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
     BALLAST_VOLTAGE_BAND,
@@ -165,7 +171,9 @@ def test_vectorised_discharge_formula() -> None:
     life, light, power, out = voltage_factors(r, 3.0, 1.2, 9.9, 2.0, False, band=0.05)
     p = 1.0 + 2.0 * (r - 1.0)
     np.testing.assert_allclose(power, p, rtol=1e-15)
-    np.testing.assert_allclose(life, p**-3.0, rtol=1e-15)
+    # below rated voltage no life credit (capped at 1, common practice: a supply fault)
+    np.testing.assert_allclose(life, np.minimum(p**-3.0, 1.0), rtol=1e-15)
+    assert life[0] == 1.0
     np.testing.assert_allclose(light, p**1.2, rtol=1e-15)
     np.testing.assert_array_equal(out, [True, False, False])
     with pytest.raises(ValueError):
@@ -224,3 +232,55 @@ def test_switching_monotone_and_bounded(hps: list[float], ratio: float) -> None:
     f, _ = switching_life_factor(h, 3.0, 12.0, ratio)
     assert np.all(np.diff(f) >= -1e-15)
     assert np.all((f >= 0.5) & (f <= 1.5))
+
+
+def test_reactor_under_voltage_is_a_supply_fault_without_life_credit() -> None:
+    # Common practice (FIELD_NOTES s.10): HID below its ballast's band is a supply fault
+    # (poor starting, electrode wear, colour shift), not extra life. 250 V on a 277 V metal
+    # halide reactor circuit: the old model gave life x 1.92, now 1.0 with a warning.
+    eff = voltage_effect(250.0, 277.0, "metal_halide", "reactor")
+    assert eff.life_factor == 1.0
+    assert any(w.startswith("supply fault") for w in eff.warnings)
+    p = 1.0 + 2.0 * (250.0 / 277.0 - 1.0)
+    assert eff.light_factor < 1.0 and eff.power_factor == pytest.approx(p, rel=1e-12)
+    # 3 % low on a reactor: inside the band, no fault, still no credit.
+    near = voltage_effect(0.97 * 277.0, 277.0, "metal_halide", "reactor")
+    assert near.life_factor == 1.0 and near.warnings == ()
+    # over-voltage shortens life as before
+    assert voltage_effect(1.04 * 277.0, 277.0, "metal_halide", "reactor").life_factor < 1.0
+    # an electronic ballast holds lamp power: no fault at the same supply
+    assert voltage_effect(250.0, 277.0, "metal_halide", "electronic").warnings == ()
+    flags = supply_fault(
+        np.array([0.90, 0.97, 0.85]),
+        np.array([2.0, 2.0, np.nan]),
+        np.array([False, False, True]),
+        band=0.05,
+    )
+    np.testing.assert_array_equal(flags, [True, False, False])
+
+
+def test_life_factor_alone_matches_the_full_model() -> None:
+    # Internal consistency: the exposure segments' life factor is voltage_factors' life.
+    rng = np.random.default_rng(1)
+    r = rng.uniform(0.8, 1.2, 200)
+    gain = rng.choice([np.nan, 0.0, 0.5, 2.0], 200)
+    fil = np.isnan(gain)
+    n = rng.uniform(1.0, 16.0, 200)
+    floor = np.where(rng.random(200) < 0.3, 0.9, np.nan)
+    dmin = np.where(rng.random(200) < 0.3, 0.85, np.nan)
+    dmax = np.where(np.isnan(dmin), np.nan, 1.1)
+    full, _, _, _ = voltage_factors(
+        r,
+        n,
+        3.4,
+        1.6,
+        gain,
+        fil,
+        life_ratio_floor=floor,
+        driver_min_ratio=dmin,
+        driver_max_ratio=dmax,
+    )
+    alone = voltage_life_factor(
+        r, n, gain, fil, life_ratio_floor=floor, driver_min_ratio=dmin, driver_max_ratio=dmax
+    )
+    np.testing.assert_array_equal(alone, full)

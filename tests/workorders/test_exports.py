@@ -35,7 +35,9 @@ def test_order_carries_cautions_and_disposal(
     assert o["estimated_labour_h"] == round(6 * 4.0 / 60.0, 2)  # 4 group minutes per lamp
     assert "lock out" in o["safety_cautions"] and "fall-protection" in o["safety_cautions"]
     assert "local codes and licensed practice" in o["safety_cautions"]
-    assert "40 CFR 273" in o["disposal_instructions"]  # mercury lamps: universal waste rules
+    # a Lisbon site: EU examples (Directive 2012/19/EU), not the US universal waste rule
+    assert "2012/19/EU" in o["disposal_instructions"]
+    assert "40 CFR" not in o["disposal_instructions"] + o["safety_cautions"]
 
 
 def test_changed_since_sees_state_changes_and_external_reference(

@@ -120,3 +120,40 @@ def test_bad_positions_are_refused_by_field(db: Session) -> None:
         db.rollback()
     assert db.get(WorkOrder, order.id).state == "in_progress"  # type: ignore[union-attr]
     assert db.scalar(select(func.count()).select_from(LampRemoval)) == 0
+
+
+def test_found_dark_is_interval_censored_since_the_last_visit(db: Session) -> None:
+    # Meeker & Escobar, interval censoring: a lamp found dark without a report failed between
+    # the last time it was known burning and the visit; with no earlier order in the area the
+    # lower bound is the lamp's install (0 h here); lamps found burning carry no interval.
+    order, fx = _started_group(db)
+    p0, _p1 = fx[0].positions
+    orders.complete(db, order.id, _mixed(fx))
+    db.commit()
+    got = {
+        r.position_id: r
+        for r in db.scalars(select(LampRemoval).where(LampRemoval.work_order_id == order.id))
+    }
+    # (to the stored timestamps' precision: the install is the lower bound)
+    assert got[p0.id].failed_after_normalised_hours == pytest.approx(0.0, abs=1e-6)
+    assert got[p0.id].normalised_hours > 0.0
+    assert all(r.failed_after_normalised_hours is None for pid, r in got.items() if pid != p0.id)
+
+
+def test_found_dark_lower_bound_is_the_age_at_the_last_visit(db: Session) -> None:
+    # The lower bound is the normalised age at the given moment: 10 of 20 weeks on a constant
+    # schedule at nominal voltage is half the age at the visit (hand computation).
+    from service.events import removals as events
+
+    _order, fx = _started_group(db)
+    p = fx[1].positions[0]
+    now = utcnow()
+    (row,) = events.record_removals(
+        db,
+        [p],
+        removed_at=now,
+        failed=True,
+        reason="burnout",
+        found_dark_since={p.id: now - timedelta(weeks=10)},
+    )
+    assert row.failed_after_normalised_hours == pytest.approx(row.normalised_hours / 2, rel=1e-3)
