@@ -21,6 +21,9 @@ pytestmark = pytest.mark.skipif(
 ROOT = Path(__file__).resolve().parents[2]
 BENCH = ROOT / "benchmarks"
 SCRIPTS = sorted(p.stem for p in BENCH.glob("bench_*.py"))
+sys.path.insert(0, str(BENCH))
+from run_all import OWN_OUTPUT  # noqa: E402
+
 # Scripts that need the local PostgreSQL server (scratch databases of their own names).
 NEEDS_PG = {"bench_weekly_run", "bench_burn_upload"}
 PG_ARGS = {
@@ -45,6 +48,8 @@ def test_every_script_is_listed() -> None:
 
 @pytest.mark.parametrize("name", SCRIPTS)
 def test_quick_run_writes_rows(name: str, tmp_path: Path) -> None:
+    if name in OWN_OUTPUT:
+        pytest.skip("prints its own figures, not table rows yet (benchmarks/run_all.py OWN_OUTPUT)")
     pg = _pg_up()
     if name in NEEDS_PG and not pg:
         pytest.skip("needs the local PostgreSQL server")
