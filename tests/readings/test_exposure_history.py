@@ -11,7 +11,7 @@ from sqlalchemy.orm import Session
 
 from service.readings.ages import position_ages
 from service.reliability.weibull import scale_from_rated_life
-from tests.readings import factory as fx
+from tests import factories as fx
 
 T0 = fx.T0
 

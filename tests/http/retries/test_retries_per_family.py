@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session
 from service.db.base import Base, utcnow
 from service.events import burnouts as events
 from service.events.models import LampRemoval
-from tests.readings import factory as fx
+from tests import factories as fx
 
 _keys = itertools.count()
 # The stored answers themselves (one row per key, written by the first request).
