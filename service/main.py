@@ -30,6 +30,7 @@ from service.retirement.router import router as retirement_router
 from service.scheduling.router import router as runs_router
 from service.stock.router import build_router as build_stock_router
 from service.web.install import install_web
+from service.webhooks.metrics import register_feed_metrics
 from service.webhooks.router import router as webhooks_router
 from service.workorders.repository import last_group_relamps
 from service.workorders.router import router as workorders_router
@@ -101,4 +102,5 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     install_web(app)  # the pages for people (service/web)
     install_openapi(app)  # the document, /docs and /redoc (offline)
     install_metrics(app)  # GET /metrics (Prometheus)
+    register_feed_metrics(app)  # feed lag and webhook outbox, read at scrape time
     return app

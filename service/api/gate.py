@@ -191,7 +191,11 @@ def _cached_pass(scope: Scope) -> bool:
     ):
         return False
     token = bearer_token(scope)
-    return token is not None and keys.cached_key(token) is not None
+    key = keys.cached_key(token) if token is not None else None
+    if key is None:
+        return False
+    scope.setdefault("state", {})["api_key_id"] = key.id  # for the request's log line
+    return True
 
 
 def _unauthorized(path: str, detail: str) -> ASGIApp:
