@@ -102,5 +102,5 @@ def create_app(*, start_scheduler: bool | None = None) -> FastAPI:
     install_web(app)  # the pages for people (service/web)
     install_openapi(app)  # the document, /docs and /redoc (offline)
     install_metrics(app)  # GET /metrics (Prometheus)
-    register_feed_metrics(app)  # feed lag and webhook outbox, read at scrape time
+    register_feed_metrics()  # feed lag and webhook outbox, read at scrape time
     return app

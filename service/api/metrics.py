@@ -9,9 +9,10 @@ key unless ``metrics_public`` is set.
 from __future__ import annotations
 
 from collections.abc import Iterator
+from contextvars import ContextVar
 from typing import Any
 
-from fastapi import Depends, FastAPI
+from fastapi import Depends, FastAPI, Request
 from fastapi.responses import Response
 from prometheus_client import CONTENT_TYPE_LATEST, CollectorRegistry, Counter, Histogram
 from prometheus_client.core import GaugeMetricFamily
@@ -21,6 +22,8 @@ from prometheus_client.registry import Collector
 from service.config import get_settings
 
 REGISTRY = CollectorRegistry(auto_describe=True)
+# The app being scraped, for collectors that read the database through its sessions.
+SCRAPING_APP: ContextVar[Any] = ContextVar("scraping_app", default=None)
 
 # Seconds; from 5 ms (a keyed read) to 60 s (a large upload or a whole-site forecast).
 LATENCY_BUCKETS = (0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1.0, 2.5, 5.0, 10.0, 30.0, 60.0)
@@ -110,5 +113,10 @@ def install_metrics(app: FastAPI) -> None:
     guard = [] if get_settings().metrics_public else [Depends(require("read"))]
 
     @app.get("/metrics", include_in_schema=False, dependencies=guard)
-    def metrics() -> Response:
-        return Response(generate_latest(REGISTRY), media_type=CONTENT_TYPE_LATEST)
+    def metrics(request: Request) -> Response:
+        token = SCRAPING_APP.set(request.app)
+        try:
+            body = generate_latest(REGISTRY)
+        finally:
+            SCRAPING_APP.reset(token)
+        return Response(body, media_type=CONTENT_TYPE_LATEST)

@@ -9,7 +9,6 @@ deliveries by state, the oldest pending delivery's age, attempts by outcome).
 from __future__ import annotations
 
 from collections.abc import Iterator
-from typing import Any
 
 from prometheus_client.core import CounterMetricFamily, GaugeMetricFamily
 from prometheus_client.registry import Collector
@@ -17,7 +16,7 @@ from sqlalchemy import func, literal_column, select
 from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
 
-from service.api.metrics import REGISTRY
+from service.api.metrics import REGISTRY, SCRAPING_APP
 from service.changes.models import Change
 from service.changes.repository import PG_HORIZON
 from service.db.base import utcnow
@@ -64,13 +63,10 @@ def outbox(session: Session) -> tuple[dict[str, int], float, dict[str, int]]:
 class FeedCollector(Collector):
     """Feed lag and webhook outbox gauges; nothing (not an error) when the database is down."""
 
-    def __init__(self) -> None:
-        self.app: Any = None  # the served app, whose sessions the figures are read with
-
     def collect(self) -> Iterator[Metric]:
         """Read the figures in one short read-only session of the app."""
         try:
-            with short_session(self.app, write=False) as session:
+            with short_session(SCRAPING_APP.get(), write=False) as session:
                 waiting, lag = feed_lag(session)
                 states, pending_age, attempts = outbox(session)
         except SQLAlchemyError:
@@ -113,9 +109,8 @@ def _gauge(name: str, doc: str, value: float) -> GaugeMetricFamily:
 _registered: list[FeedCollector] = []
 
 
-def register_feed_metrics(app: Any) -> None:
-    """Add the collector to the /metrics registry once per process, reading through `app`."""
+def register_feed_metrics() -> None:
+    """Add the collector to the /metrics registry once per process."""
     if not _registered:
         _registered.append(FeedCollector())
         REGISTRY.register(_registered[0])
-    _registered[0].app = app  # the newest app (a test makes several; a server one)
