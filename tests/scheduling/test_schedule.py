@@ -99,7 +99,8 @@ def test_missed_runs_are_found_and_caught_up_at_start(
     b.fixtures(db, b.area(db, old), lt, 2, hours_at_install=20_000.0)
     b.site(db)  # created just now: its last scheduled moment predates it, nothing to catch up
     db.commit()
-    sched = WeeklyScheduler(factory)
+    # The feed jobs would share the test's one connection from their own thread.
+    sched = WeeklyScheduler(factory, feed_jobs=False)
     week = iso_week_of(last_fire_time(0, "06:00", "Europe/Lisbon", now).date())
     assert sched.missed(now) == [(old.id, week)]
 

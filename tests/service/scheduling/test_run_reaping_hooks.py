@@ -64,7 +64,7 @@ def test_sync_tick_reaps(db: Session, factory: sessionmaker[Session]) -> None:
 
 def test_start_reaps_before_catching_up(db: Session, factory: sessionmaker[Session]) -> None:
     dead = _dead_run(db, b.site(db).id)
-    sched = WeeklyScheduler(factory)
+    sched = WeeklyScheduler(factory, feed_jobs=False)  # one shared connection
     sched.catch_up = lambda now=None: None  # type: ignore[method-assign]  # reaping only here
     sched.start()
     try:
