@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
@@ -16,6 +17,7 @@ from alembic import command
 from fastapi import FastAPI
 from fastapi.testclient import TestClient
 from sqlalchemy import Engine, text
+from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.health import alembic_config
@@ -46,6 +48,27 @@ def migrate(engine: Engine, revision: str = "head") -> None:
     with engine.begin() as conn:
         cfg.attributes["connection"] = conn
         command.upgrade(cfg, revision)
+
+
+@contextmanager
+def scratch_postgres(base_url: str, label: str) -> Iterator[str]:
+    """A migrated PostgreSQL database of a test's own (real commits), dropped afterwards."""
+    base = make_url(base_url)
+    name = f"scratch_{label}_{os.getpid()}"
+    admin = make_engine(base.set(database="postgres").render_as_string(hide_password=False))
+    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
+        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
+        conn.execute(text(f'CREATE DATABASE "{name}"'))
+    url = base.set(database=name).render_as_string(hide_password=False)
+    engine = make_engine(url)
+    migrate(engine)
+    engine.dispose()
+    try:
+        yield url
+    finally:
+        with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
+            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
+        admin.dispose()
 
 
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:

@@ -46,10 +46,9 @@ def test_every_script_is_listed() -> None:
     assert {"bench_renewal", "bench_fleet", "bench_import", "bench_burn_upload"} <= set(SCRIPTS)
 
 
-@pytest.mark.parametrize("name", SCRIPTS)
+# Scripts printing their own figures (run_all.OWN_OUTPUT) have no quick mode to test yet.
+@pytest.mark.parametrize("name", [s for s in SCRIPTS if s not in OWN_OUTPUT])
 def test_quick_run_writes_rows(name: str, tmp_path: Path) -> None:
-    if name in OWN_OUTPUT:
-        pytest.skip("prints its own figures, not table rows yet (benchmarks/run_all.py OWN_OUTPUT)")
     pg = _pg_up()
     if name in NEEDS_PG and not pg:
         pytest.skip("needs the local PostgreSQL server")

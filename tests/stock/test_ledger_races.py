@@ -15,8 +15,6 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import text
-from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import DomainError
@@ -27,7 +25,7 @@ from service.stock.models import StockBalance, Storeroom, StoreroomSite
 from service.workorders import service as orders
 from service.workorders.models import WorkOrder
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
-from tests.conftest import migrate
+from tests.conftest import migrate, scratch_postgres
 from tests.planning import builders as b
 
 REPEATS = 10
@@ -44,21 +42,12 @@ def factory(tmp_path_factory: pytest.TempPathFactory) -> Iterator[sessionmaker[S
         yield session_factory(eng)
         eng.dispose()
         return
-    base = make_url(base_url)
-    name = f"scratch_stockraces_{os.getpid()}"
-    admin = make_engine(base.set(database="postgres").render_as_string(hide_password=False))
-    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
-        conn.execute(text(f'CREATE DATABASE "{name}"'))
-    eng = make_engine(base.set(database=name).render_as_string(hide_password=False))
-    migrate(eng)
-    try:
-        yield session_factory(eng)
-    finally:
-        eng.dispose()
-        with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
-        admin.dispose()
+    with scratch_postgres(base_url, "stockraces") as url:
+        eng = make_engine(url)
+        try:
+            yield session_factory(eng)
+        finally:
+            eng.dispose()
 
 
 def _race(factory: sessionmaker[Session], *calls: Callable[[Session], Any]) -> list[str]:

@@ -4,7 +4,6 @@ and the next request succeeds on a fresh connection."""
 
 from __future__ import annotations
 
-import os
 import time
 from collections.abc import Iterator
 from typing import Any
@@ -20,7 +19,7 @@ from service.db.session import get_engine, make_engine
 from service.keys import service as keys_service
 from service.main import create_app
 from service.register.models import Site
-from tests.conftest import migrate
+from tests.conftest import scratch_postgres
 from tests.planning import builders as b
 
 REPEATS = 5
@@ -40,21 +39,8 @@ def scratch_url(db_url: str) -> Iterator[str]:
     base = make_url(db_url)
     if base.get_backend_name() != "postgresql":
         pytest.skip("pg_terminate_backend needs PostgreSQL")
-    name = f"scratch_dropped_{os.getpid()}"
-    admin = make_engine(base.set(database="postgres").render_as_string(hide_password=False))
-    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
-        conn.execute(text(f'CREATE DATABASE "{name}"'))
-    url = base.set(database=name).render_as_string(hide_password=False)
-    engine = make_engine(url)
-    migrate(engine)
-    engine.dispose()
-    try:
+    with scratch_postgres(db_url, "dropped") as url:
         yield url
-    finally:
-        with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
-        admin.dispose()
 
 
 class Killer:

@@ -2,17 +2,15 @@
 
 from __future__ import annotations
 
-import os
 from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-from sqlalchemy import text
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.db.session import make_engine
-from tests.conftest import migrate
+from tests.conftest import migrate, scratch_postgres
 
 
 @pytest.fixture()
@@ -34,18 +32,5 @@ def own_db_url(db_url: str, tmp_path: Path) -> Iterator[str]:
         engine.dispose()
         yield url
         return
-    name = f"scratch_leases_{os.getpid()}"
-    admin = make_engine(base.set(database="postgres").render_as_string(hide_password=False))
-    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
-        conn.execute(text(f'CREATE DATABASE "{name}"'))
-    url = base.set(database=name).render_as_string(hide_password=False)
-    engine = make_engine(url)
-    migrate(engine)
-    engine.dispose()
-    try:
+    with scratch_postgres(db_url, "leases") as url:
         yield url
-    finally:
-        with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
-        admin.dispose()
