@@ -122,6 +122,20 @@ def db(engine: Engine) -> Iterator[Session]:
         conn.close()
 
 
+@pytest.fixture()
+def own_db_url(db_url: str, tmp_path: Path) -> Iterator[str]:
+    """A fresh migrated database of the test's own (real commits): SQLite file or PostgreSQL."""
+    if make_url(db_url).get_backend_name() != "postgresql":
+        url = f"sqlite:///{tmp_path / 'own.sqlite3'}"
+        eng = make_engine(url)
+        migrate(eng)
+        eng.dispose()
+        yield url
+        return
+    with scratch_postgres(db_url, "own") as url:
+        yield url
+
+
 @pytest.fixture(scope="session")
 def app() -> FastAPI:
     """One application for the run (building it is not free); tests override its session."""
