@@ -45,9 +45,22 @@ def balance_read(b: StockBalance) -> BalanceRead:
     return BalanceRead.model_validate(b)
 
 
-def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
-    """The stock routes, handed the query for completed group relamps (from work orders)."""
-    router = APIRouter(tags=["stock"])
+def budget_answer(rows: list[budget.Row], body: BudgetRequest, name: str) -> Response:
+    """A budget as JSON (with monthly totals when a reporting currency is set) or CSV."""
+    dicts = budget.convert(rows, body.reporting_currency, dict(body.rates))
+    if body.format == "csv":
+        return export_response(list(BudgetRow.model_fields), dicts, "csv", name)
+    totals = budget.totals(dicts, "reporting_amount") if body.reporting_currency else None
+    read = BudgetRead(
+        months=budget.MONTHS,
+        rows=[BudgetRow.model_validate(d) for d in dicts],
+        totals_by_month=totals,
+    )
+    return Response(read.model_dump_json(), media_type="application/json")
+
+
+def _storeroom_routes(router: APIRouter) -> None:
+    """Storerooms and the sites they serve."""
 
     @router.get("/storerooms", response_model=Page[StoreroomRead])
     def list_storerooms(session: SessionDep, _: ReadKey, page: PageDep) -> Page[StoreroomRead]:
@@ -87,6 +100,10 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         service.assign_site(session, storeroom_id, site_id)
         return service.read(session, service.get_storeroom(session, storeroom_id))
 
+
+def _stock_routes(router: APIRouter) -> None:
+    """Stock lines: one per lamp type stocked in a storeroom."""
+
     @router.get("/storerooms/{storeroom_id}/stock", response_model=list[BalanceRead])
     def list_stock(storeroom_id: IdPath, session: SessionDep, _: ReadKey) -> list[BalanceRead]:
         """Every lamp type stocked here: on hand, reserved, available and reorder settings."""
@@ -115,6 +132,10 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
             response.status_code = status.HTTP_201_CREATED
         return balance_read(bal)
 
+
+def _movement_routes(router: APIRouter) -> None:
+    """The storeroom's ledger: list and record movements."""
+
     @router.get("/storerooms/{storeroom_id}/movements", response_model=Page[MovementRead])
     def list_movements(
         storeroom_id: IdPath,
@@ -141,6 +162,10 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
     ) -> MovementRead:
         """Record a delivery, a return, lamps taken out or a count (409 below zero)."""
         return MovementRead.model_validate(service.record(session, storeroom_id, body))
+
+
+def _demand_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
+    """Demand, the to-order list and the outlook (they need the last group relamps)."""
 
     @router.get("/storerooms/{storeroom_id}/demand", response_model=DemandRead)
     def get_demand(
@@ -201,17 +226,9 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         opt = forecast.Options.of(weeks, service_level)
         return show.outlook_read(session, storeroom_id, lamp_type_id, last_relamps, opt)
 
-    def budget_answer(rows: list[budget.Row], body: BudgetRequest, name: str) -> Response:
-        dicts = budget.convert(rows, body.reporting_currency, dict(body.rates))
-        if body.format == "csv":
-            return export_response(list(BudgetRow.model_fields), dicts, "csv", name)
-        totals = budget.totals(dicts, "reporting_amount") if body.reporting_currency else None
-        read = BudgetRead(
-            months=budget.MONTHS,
-            rows=[BudgetRow.model_validate(d) for d in dicts],
-            totals_by_month=totals,
-        )
-        return Response(read.model_dump_json(), media_type="application/json")
+
+def _budget_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
+    """A site's and the portfolio's 12-month budgets."""
 
     @router.post(
         "/sites/{site_id}/budget",
@@ -243,4 +260,13 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         )
         return budget_answer(rows, body, "budget-portfolio")
 
+
+def build_router(last_relamps: LastRelamps) -> APIRouter:
+    """The stock routes, handed the query for completed group relamps (from work orders)."""
+    router = APIRouter(tags=["stock"])
+    _storeroom_routes(router)
+    _stock_routes(router)
+    _movement_routes(router)
+    _demand_routes(router, last_relamps)
+    _budget_routes(router, last_relamps)
     return router
