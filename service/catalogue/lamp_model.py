@@ -26,8 +26,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass, field
-from typing import Protocol
+from dataclasses import dataclass, field, fields
+from typing import Any, Protocol
 
 import numpy as np
 
@@ -301,6 +301,11 @@ def _lumen(
     return curve, tm21, label
 
 
+def _by_name(part: _Life | _Switching) -> dict[str, Any]:
+    """A resolved part's fields by name (each is a LampModel field of the same name)."""
+    return {f.name: getattr(part, f.name) for f in fields(part)}
+
+
 def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
     """Resolve a lamp type's model numbers: catalogue value, else a fit, else the default."""
     tech = lt.technology
@@ -322,10 +327,8 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
         lamp_type_id=getattr(lt, "id", None),
         code=lt.code,
         technology=tech,
-        shape=life.shape,
-        scale_h=life.scale_h,
-        rated_life_h=life.rated_life_h,
-        rated_percentile=life.rated_percentile,
+        **_by_name(life),  # shape, scale, rated life and percentile, failure life, fit
+        **_by_name(sw),  # rated and second hours per start, second life ratio
         rated_volts=float(lt.rated_volts),
         life_exponent=life_exp,
         light_exponent=light_exp,
@@ -333,9 +336,6 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
         ballast_behaviour=ballast,
         ballast_gain=BALLAST_POWER_GAIN[ballast],
         is_filament=d.is_filament,
-        rated_hours_per_start=sw.rated_hours_per_start,
-        second_hours_per_start=sw.second_hours_per_start,
-        second_life_ratio=sw.second_life_ratio,
         driver_min_volts=dmin,
         driver_max_volts=dmax,
         lumen_curve=curve,
@@ -350,11 +350,9 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
             DEFAULT_SWITCHING_SLOPE if d.switching_slope is None else d.switching_slope
         ),
         sources=src,
-        mortality_fit=life.mortality_fit,
         mortality_fit_used=life.mortality_fit is not None and src["shape"] == FIT,
         tm21=tm21,
         lumen_life_label=label,
-        failure_life_h=life.failure_life_h,
     )
 
 

@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import Annotated
 
 from fastapi import APIRouter, Query, Request, Response, status
-from sqlalchemy import select
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
@@ -13,14 +12,13 @@ from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
 from service.db.session import JobFactoryDep, writes_in_jobs
+from service.scheduling import repository as repo
 from service.scheduling.models import RunOutcome, WeeklyRun
 from service.scheduling.runner import run_site_week
 from service.scheduling.schemas import RunRead, RunStart
 from service.scheduling.weeks import parse_week
 
 router = APIRouter(tags=["weekly runs"])
-
-RUN_SORT = {"id": WeeklyRun.id, "started_at": WeeklyRun.started_at, "iso_week": WeeklyRun.iso_week}
 
 
 @router.get("/runs", response_model=Page[RunRead])
@@ -33,14 +31,8 @@ def list_runs(
     outcome: RunOutcome | None = None,
 ) -> Page[RunRead]:
     """Every weekly run (scheduled, caught up, started by hand), newest first by default."""
-    stmt = select(WeeklyRun)
-    if site_id is not None:
-        stmt = stmt.where(WeeklyRun.site_id == site_id)
-    if iso_week is not None:
-        stmt = stmt.where(WeeklyRun.iso_week == iso_week)
-    if outcome is not None:
-        stmt = stmt.where(WeeklyRun.outcome == outcome)
-    rows, total = paginate(session, stmt, page, RUN_SORT, WeeklyRun.id.desc())
+    stmt = repo.run_query(site_id=site_id, iso_week=iso_week, outcome=outcome)
+    rows, total = paginate(session, stmt, page, repo.RUN_SORT, WeeklyRun.id.desc())
     return page_of(RunRead, rows, total, page)
 
 

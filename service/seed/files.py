@@ -144,52 +144,47 @@ def _fixtures(path: Path, shift: timedelta) -> Rows:
     return fixtures
 
 
-def _removal(r: dict[str, str], shift: timedelta) -> dict[str, Any]:
-    return {
-        "site": r["site"],
-        "tag": r["tag"],
-        "position_no": int(r["position_no"]),
-        "installed_at": _when(r["installed_at"], shift),
-        "removed_at": _when(r["removed_at"], shift),
-        "burn_hours": float(r["burn_hours"]),  # hours
-        "starts": _num(r["starts"]),
-        "failed": r["failed"].strip().lower() == "true",
-        "reason": r["reason"],
-    }
+# How a history file's cells become values: "text", "text?" (empty is None), "int",
+# "float", "float?" (empty is None), "when" (ISO 8601, moved by the shift), "flag" (true).
+REMOVAL_COLUMNS = {
+    "site": "text", "tag": "text", "position_no": "int", "installed_at": "when",
+    "removed_at": "when", "burn_hours": "float", "starts": "float?", "failed": "flag",
+    "reason": "text",
+}  # fmt: skip
+BURNOUT_COLUMNS = {
+    "site": "text", "tag": "text", "position_no": "int", "reported_at": "when",
+    "burn_hours": "float?", "note": "text?",
+}  # fmt: skip
+BURN_HOUR_COLUMNS = {
+    "site": "text", "area": "text", "tag": "text?", "period_start": "when",
+    "period_end": "when", "hours": "float", "starts": "float?",
+}  # fmt: skip
+VOLTAGE_COLUMNS = {
+    "site": "text", "area": "text", "tag": "text?", "measured_at": "when", "volts": "float",
+    "note": "text?",
+}  # fmt: skip
 
 
-def _burnout(r: dict[str, str], shift: timedelta) -> dict[str, Any]:
-    return {
-        "site": r["site"],
-        "tag": r["tag"],
-        "position_no": int(r["position_no"]),
-        "reported_at": _when(r["reported_at"], shift),
-        "burn_hours": _num(r["burn_hours"]),
-        "note": r["note"] or None,
-    }
+def _cell(kind: str, text: str, shift: timedelta) -> Any:
+    """One cell as its column kind says (hours and volts as floats)."""
+    if kind == "text":
+        return text
+    if kind == "text?":
+        return text or None
+    if kind == "int":
+        return int(text)
+    if kind == "float":
+        return float(text)
+    if kind == "float?":
+        return _num(text)
+    if kind == "when":
+        return _when(text, shift)
+    return text.strip().lower() == "true"  # "flag"
 
 
-def _burn_hours(r: dict[str, str], shift: timedelta) -> dict[str, Any]:
-    return {
-        "site": r["site"],
-        "area": r["area"],
-        "tag": r["tag"] or None,
-        "period_start": _when(r["period_start"], shift),
-        "period_end": _when(r["period_end"], shift),
-        "hours": float(r["hours"]),
-        "starts": _num(r["starts"]),
-    }
-
-
-def _voltage(r: dict[str, str], shift: timedelta) -> dict[str, Any]:
-    return {
-        "site": r["site"],
-        "area": r["area"],
-        "tag": r["tag"] or None,
-        "measured_at": _when(r["measured_at"], shift),
-        "volts": float(r["volts"]),
-        "note": r["note"] or None,
-    }
+def _history(path: Path, columns: dict[str, str], shift: timedelta) -> Rows:
+    """A history file's rows with each column converted (an absent file is no rows)."""
+    return [{k: _cell(kind, r[k], shift) for k, kind in columns.items()} for r in _csv(path)]
 
 
 def read_scenario(directory: Path | None = None, today: date | None = None) -> Scenario:
@@ -210,8 +205,8 @@ def read_scenario(directory: Path | None = None, today: date | None = None) -> S
             _lamp_type_values(raw, f"{LAMP_TYPES}[{i}]") for i, raw in enumerate(lamp_docs)
         ],
         fixtures=_fixtures(root / FIXTURES, shift),
-        removals=[_removal(r, shift) for r in _csv(root / REMOVALS)],
-        burnouts=[_burnout(r, shift) for r in _csv(root / BURNOUTS)],
-        burn_hours=[_burn_hours(r, shift) for r in _csv(root / BURN_HOURS)],
-        voltages=[_voltage(r, shift) for r in _csv(root / VOLTAGES)],
+        removals=_history(root / REMOVALS, REMOVAL_COLUMNS, shift),
+        burnouts=_history(root / BURNOUTS, BURNOUT_COLUMNS, shift),
+        burn_hours=_history(root / BURN_HOURS, BURN_HOUR_COLUMNS, shift),
+        voltages=_history(root / VOLTAGES, VOLTAGE_COLUMNS, shift),
     )

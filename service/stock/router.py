@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Depends, Query, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import export_response
@@ -38,6 +38,14 @@ LevelQ = Annotated[
     float | None, Query(ge=0.5, le=0.999, description="Cycle service level, e.g. 0.95.")
 ]
 FormatQ = Annotated[Literal["json", "csv"], Query(description="Download as JSON or CSV.")]
+
+
+def forecast_options(weeks: WeeksQ = None, service_level: LevelQ = None) -> forecast.Options:
+    """The horizon and service level from the query; the settings fill what is not given."""
+    return forecast.Options.of(weeks, service_level)
+
+
+OptionsDep = Annotated[forecast.Options, Depends(forecast_options)]
 
 
 def balance_read(b: StockBalance) -> BalanceRead:
@@ -172,11 +180,9 @@ def _demand_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
         storeroom_id: IdPath,
         session: SessionDep,
         _: ReadKey,
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
+        opt: OptionsDep,
     ) -> DemandRead:
         """Lamps needed per week and lamp type: spot (mean, quantile), group, breakage."""
-        opt = forecast.Options.of(weeks, service_level)
         sd = forecast.storeroom_demand(
             session, storeroom_id, last_relamps=last_relamps, options=opt
         )
@@ -187,25 +193,20 @@ def _demand_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
         storeroom_id: IdPath,
         session: SessionDep,
         _: ReadKey,
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
+        opt: OptionsDep,
     ) -> list[ToOrderLine]:
         """Every stocked lamp type with its reorder point and the quantity to order now."""
-        return show.to_order_lines(
-            session, storeroom_id, last_relamps, forecast.Options.of(weeks, service_level)
-        )
+        return show.to_order_lines(session, storeroom_id, last_relamps, opt)
 
     @router.get("/storerooms/{storeroom_id}/to-order/download", response_class=Response)
     def download_to_order(
         storeroom_id: IdPath,
         session: SessionDep,
         _: ReadKey,
+        opt: OptionsDep,
         format: FormatQ = "csv",
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
     ) -> Response:
         """The to-order list as a CSV or JSON file (lines with a quantity to order only)."""
-        opt = forecast.Options.of(weeks, service_level)
         lines = show.to_order_lines(session, storeroom_id, last_relamps, opt)
         rows = [ln.model_dump() for ln in lines if ln.order_quantity > 0]
         cols = list(ToOrderLine.model_fields)
@@ -219,11 +220,9 @@ def _demand_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
         lamp_type_id: IdPath,
         session: SessionDep,
         _: ReadKey,
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
+        opt: OptionsDep,
     ) -> OutlookRead:
         """The available stock week by week, with the suggested order arriving after lead."""
-        opt = forecast.Options.of(weeks, service_level)
         return show.outlook_read(session, storeroom_id, lamp_type_id, last_relamps, opt)
 
 
