@@ -196,6 +196,11 @@ def client(app: FastAPI, db: Session) -> Iterator[TestClient]:
         except BaseException:
             db.rollback()
             raise
+        finally:
+            # A real request ends with its session closed, so the next one reads fresh rows.
+            # The shared session keeps its identity map: expire it, or an object loaded before
+            # a bulk UPDATE (a retirement) reads stale until something happens to roll back.
+            db.expire_all()
 
     app.dependency_overrides[get_session] = session_override
     # Jobs that commit on their own (the weekly run) do so in savepoints of the same connection.

@@ -106,10 +106,14 @@ def problem(
     return JSONResponse(body, status_code=status, media_type=PROBLEM_MEDIA_TYPE, headers=headers)
 
 
+# Where a request's field can be; `in` of every errors[] item is one of them.
+LOCATIONS = ("body", "query", "path", "header")
+
+
 def _field_name(loc: tuple[Any, ...] | list[Any]) -> str:
     # Drop the "body"/"query"/"path" prefix so the field reads as a client named it.
     parts = [str(p) for p in loc]
-    if parts and parts[0] in {"body", "query", "path", "header"}:
+    if parts and parts[0] in LOCATIONS:
         parts = parts[1:]
     return ".".join(parts) or "body"
 
@@ -119,10 +123,12 @@ def validation_errors(raw: list[Any]) -> list[dict[str, Any]]:
     items = []
     for err in raw:
         loc = err.get("loc", ())
+        # A model validated by a service (not the request) has no location prefix: body.
+        where = str(loc[0]) if loc and str(loc[0]) in LOCATIONS else "body"
         items.append(
             {
                 "field": _field_name(loc),
-                "in": str(loc[0]) if loc else "body",
+                "in": where,
                 "message": err.get("msg", "invalid"),
                 "type": err.get("type", "value_error"),
             }

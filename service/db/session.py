@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from functools import lru_cache
@@ -11,6 +12,7 @@ from typing import Annotated, Any, TypeVar
 from fastapi import Depends, Request
 from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
+from sqlalchemy.exc import DisconnectionError
 from sqlalchemy.orm import Session, sessionmaker
 from sqlalchemy.pool import QueuePool
 
@@ -58,8 +60,6 @@ def make_engine(url: str) -> Engine:
         "pool_size": settings.db_pool_size,
         "max_overflow": settings.db_max_overflow,
         "pool_timeout": settings.db_pool_timeout_s,
-        # Test a connection before use; one the server dropped is replaced, not handed out.
-        "pool_pre_ping": True,
     }
     if parsed.get_backend_name() == "sqlite":
         if parsed.database and parsed.database != ":memory:":
@@ -74,7 +74,38 @@ def make_engine(url: str) -> Engine:
         event.listen(engine, "connect", _sqlite_pragmas)
         event.listen(engine, "begin", _sqlite_begin)
         return engine
-    return create_engine(url, **pool)
+    engine = create_engine(url, **pool)
+    event.listen(engine.pool, "checkin", _note_idle)
+    event.listen(engine.pool, "checkout", _ping_if_idle)
+    return engine
+
+
+# Seconds a pooled connection may sit unused before it is tested at checkout. A test on
+# every checkout (pool_pre_ping) costs a round trip per request; under load connections
+# come back within milliseconds, and one the server dropped while in use invalidates the
+# whole pool (SQLAlchemy's disconnect handling), so only long-idle ones need the test.
+PING_AFTER_IDLE_S = 2.0
+
+
+def _note_idle(_dbapi_connection: Any, record: Any) -> None:
+    record.info["idle_since"] = time.monotonic()
+
+
+def _ping_if_idle(dbapi_connection: Any, record: Any, _proxy: Any) -> None:
+    # A server restart or an idle timeout kills connections nobody is using: test those,
+    # and hand out a fresh one instead (DisconnectionError makes the pool reconnect).
+    since = record.info.get("idle_since")
+    if since is None or time.monotonic() - since < PING_AFTER_IDLE_S:
+        return
+    try:
+        cur = dbapi_connection.cursor()
+        try:
+            cur.execute("SELECT 1")
+        finally:
+            cur.close()
+        dbapi_connection.rollback()  # the driver opened a transaction for the SELECT
+    except Exception as exc:
+        raise DisconnectionError(f"pooled connection lost while idle: {exc}") from exc
 
 
 @lru_cache
@@ -85,7 +116,15 @@ def get_engine() -> Engine:
 
 def session_factory(engine: Engine | None = None) -> sessionmaker[Session]:
     """A session factory bound to an engine (the settings' engine by default)."""
-    return sessionmaker(bind=engine or get_engine(), expire_on_commit=False, autoflush=False)
+    if engine is None:
+        return _default_factory(get_engine())
+    return sessionmaker(bind=engine, expire_on_commit=False, autoflush=False)
+
+
+@lru_cache(maxsize=4)
+def _default_factory(engine: Engine) -> sessionmaker[Session]:
+    # One factory per process engine, not one per request.
+    return sessionmaker(bind=engine, expire_on_commit=False, autoflush=False)
 
 
 def get_job_factory() -> sessionmaker[Session]:

@@ -133,7 +133,7 @@ def test_existing_tag_is_409_unless_update(client: TestClient, writer: dict[str,
     assert post(client, writer, csv_of(*GOOD)).status_code == 200
     r = post(client, writer, csv_of(GOOD[0]))
     assert r.status_code == 409 and r.json()["errors"] == [
-        {"row": 2, "field": "tag", "message": f"site '{SITE}' already has this tag"}
+        {"row": 2, "field": "tag", "in": "body", "message": f"site '{SITE}' already has this tag"}
     ]
     changed = f"{SITE},Yard,H-001,Moved,LED-20,3,,,2023-02-01,,,"
     r = post(
@@ -189,6 +189,7 @@ def test_upload_shape_errors(client: TestClient, writer: dict[str, str]) -> None
     assert r.status_code == 422 and r.json()["errors"][0] == {
         "row": 1,
         "field": "colour",
+        "in": "body",
         "message": r.json()["errors"][0]["message"],
     }
     assert post(client, writer, "tag\nx\n", "application/xml").status_code == 415
@@ -229,5 +230,10 @@ def test_missing_required_column_is_one_header_error(
     r = post(client, writer, "site,area,lamp_type\n" + f"{SITE},Main Hall,T8-58\n" * 50)
     assert r.status_code == 422
     assert r.json()["errors"] == [
-        {"row": 1, "field": "tag", "message": "required column is missing from the header"}
+        {
+            "row": 1,
+            "field": "tag",
+            "in": "body",
+            "message": "required column is missing from the header",
+        }
     ]
