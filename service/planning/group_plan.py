@@ -32,7 +32,13 @@ import numpy as np
 
 from service.catalogue.lamp_model import LampModel
 from service.reliability.block_batch import ScaledProblems, plan_block_replacement_scaled
-from service.reliability.conditions import VoltageEffect, switching_life_factor, voltage_effect
+from service.reliability.conditions import (
+    VoltageEffect,
+    needs_words,
+    switching_life_factor,
+    voltage_effect,
+    voltage_model,
+)
 from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.replacement import BlockPlan, plan_block_replacement
 from service.reliability.weibull import Weibull
@@ -206,7 +212,17 @@ class _Prepared:
 
 def _prepare(model: LampModel, cond: Conditions) -> _Prepared:
     """Scaled life, light-floor hours and rupture cap of one lamp type at its conditions."""
-    life, ve, swf, warnings = scaled_life(model, cond)
+    return _prepared(model, cond, *scaled_life(model, cond))
+
+
+def _prepared(
+    model: LampModel,
+    cond: Conditions,
+    life: Weibull,
+    ve: VoltageEffect,
+    swf: float,
+    warnings: list[str],
+) -> _Prepared:
     mean_h = life.mean()
     horizon = HORIZON_MEANS * mean_h
     floor_h = None
@@ -227,6 +243,47 @@ def _prepare(model: LampModel, cond: Conditions) -> _Prepared:
         floor_h=floor_h,
         cap_h=cap_h,
     )
+
+
+def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepared]:
+    """_prepare for many conditions of one lamp model: one vectorised voltage and cycle call.
+
+    Conditions the scalar path would word a warning for (outside the band or driver range, a
+    supply fault, below the halogen floor) or refuse go through scaled_life itself.
+    """
+    volts = np.array([c.voltage_v for c in conds], dtype=np.float64)
+    hps = np.array([math.nan if c.hours_per_start is None else c.hours_per_start for c in conds])
+    vm = voltage_model(
+        model.rated_volts,
+        model.technology,
+        model.ballast_behaviour,
+        life_exponent=model.life_exponent,
+        light_exponent=model.light_exponent,
+        power_exponent=model.power_exponent,
+        driver_range=model.driver_range,
+    )
+    scalar = ~(np.isfinite(volts) & (volts > 0)) | ~(np.isnan(hps) | (hps > 0))
+    ratio = np.where(scalar, 1.0, volts) / model.rated_volts
+    life, light, power, out = vm.factors(ratio)
+    scalar |= needs_words(vm, ratio, out)
+    sw, warn = switching_life_factor(
+        np.where(scalar, math.nan, hps),
+        model.rated_hours_per_start,
+        model.second_hours_per_start,
+        model.second_life_ratio,
+        default_slope=model.switching_slope,
+    )
+    result = []
+    for i, cond in enumerate(conds):
+        if scalar[i]:
+            result.append(_prepare(model, cond))
+            continue
+        ve = VoltageEffect(float(life[i]), float(light[i]), float(power[i]), ())
+        swf = float(sw[i])
+        words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warn[i])
+        scaled = Weibull(model.shape, model.scale_h * ve.life_factor * swf)
+        result.append(_prepared(model, cond, scaled, ve, swf, words))
+    return result
 
 
 def _on_unit_curve(p: _Prepared) -> bool:
@@ -281,7 +338,14 @@ def plan_groups(
     items: Sequence[tuple[LampModel, CostInputs, Conditions]],
 ) -> list[GroupPlan]:
     """plan_group for many groups: one vectorised search per shared unit renewal curve."""
-    prepared = [_prepare(m, c) for m, _, c in items]
+    by_model: dict[int, list[int]] = {}
+    for i, (m, _, _) in enumerate(items):
+        by_model.setdefault(id(m), []).append(i)
+    prepared: list[_Prepared] = [None] * len(items)  # type: ignore[list-item]
+    for idx in by_model.values():
+        conds = [items[i][2] for i in idx]
+        for i, p in zip(idx, _prepare_many(items[idx[0]][0], conds), strict=True):
+            prepared[i] = p
     out: list[GroupPlan | None] = [None] * len(items)
     by_unit: dict[tuple[float, float], list[int]] = {}
     for i, p in enumerate(prepared):

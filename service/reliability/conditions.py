@@ -188,6 +188,108 @@ def supply_fault(
     return np.asarray(discharge & (r < 1.0 - _arr(band) - _BAND_TOL), dtype=bool)
 
 
+@dataclass(frozen=True)
+class VoltageModel:
+    """One lamp type's voltage-response parameters, resolved against its technology."""
+
+    technology: str
+    ballast: str
+    rated_voltage: float  # volts
+    is_filament: bool
+    life_exponent: float
+    light_exponent: float
+    power_exponent: float
+    ballast_gain: float
+    band: float  # fraction of rated voltage
+    life_ratio_floor: float  # NaN = none
+    driver_range: tuple[float, float] | None  # volts
+    driver_min_ratio: float  # NaN = not given
+    driver_max_ratio: float
+
+    def factors(self, ratio: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, BoolArray]:
+        """voltage_factors at these voltage ratios (one array per output)."""
+
+        def full(v: float) -> FloatArray:
+            return np.full(ratio.shape, v, dtype=np.float64)
+
+        return voltage_factors(
+            ratio,
+            full(self.life_exponent),
+            full(self.light_exponent),
+            full(self.power_exponent),
+            full(self.ballast_gain),
+            np.full(ratio.shape, self.is_filament),
+            band=full(self.band),
+            life_ratio_floor=full(self.life_ratio_floor),
+            driver_min_ratio=full(self.driver_min_ratio),
+            driver_max_ratio=full(self.driver_max_ratio),
+        )
+
+
+def voltage_model(
+    rated_voltage: float,
+    technology: str,
+    ballast: str | None = None,
+    *,
+    life_exponent: float | None = None,
+    light_exponent: float | None = None,
+    power_exponent: float | None = None,
+    driver_range: tuple[float, float] | None = None,
+    ballast_gain: float | None = None,
+    band: float | None = None,
+) -> VoltageModel:
+    """The checked parameters voltage_effect uses (technology defaults where not given)."""
+    if technology not in TECHNOLOGY_DEFAULTS:
+        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
+    d = TECHNOLOGY_DEFAULTS[technology]
+    ballast = d.default_ballast if ballast is None else ballast
+    if ballast not in BALLAST_POWER_GAIN:
+        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
+    if d.is_filament != (ballast == "none"):
+        raise ValueError(
+            f"ballast {ballast!r} does not fit {technology}: "
+            "'none' is for filament lamps only, and filament lamps take no ballast"
+        )
+    if not (math.isfinite(rated_voltage) and rated_voltage > 0):
+        raise ValueError("rated voltage must be a positive number of volts")
+    dmin = dmax = math.nan
+    if driver_range is not None:
+        if ballast not in ("led_driver", "electronic"):
+            raise ValueError("driver_range applies only to an LED driver or electronic ballast")
+        vmin, vmax = driver_range
+        if not (0 < vmin < vmax):
+            raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
+        dmin, dmax = vmin / rated_voltage, vmax / rated_voltage
+    return VoltageModel(
+        technology=technology,
+        ballast=ballast,
+        rated_voltage=rated_voltage,
+        is_filament=d.is_filament,
+        life_exponent=d.life_exponent if life_exponent is None else life_exponent,
+        light_exponent=d.light_exponent if light_exponent is None else light_exponent,
+        power_exponent=d.power_exponent if power_exponent is None else power_exponent,
+        ballast_gain=BALLAST_POWER_GAIN[ballast] if ballast_gain is None else ballast_gain,
+        band=BALLAST_VOLTAGE_BAND[ballast] if band is None else band,
+        life_ratio_floor=d.life_ratio_floor if d.life_ratio_floor is not None else math.nan,
+        driver_range=driver_range,
+        driver_min_ratio=dmin,
+        driver_max_ratio=dmax,
+    )
+
+
+def needs_words(vm: VoltageModel, ratio: FloatArray, out: BoolArray) -> BoolArray:
+    """Where voltage_effect would warn: out of band or range, a supply fault, below the floor."""
+    fault = supply_fault(
+        ratio,
+        np.full(ratio.shape, vm.ballast_gain),
+        np.full(ratio.shape, vm.is_filament),
+        band=np.full(ratio.shape, vm.band),
+    )
+    wide = np.abs(ratio - 1.0) > vm.band + _BAND_TOL
+    low = vm.is_filament & (ratio < vm.life_ratio_floor)
+    return np.asarray(out | fault | wide | low, dtype=bool)
+
+
 def voltage_effect(
     voltage: float,
     rated_voltage: float,
@@ -202,55 +304,28 @@ def voltage_effect(
     band: float | None = None,
 ) -> VoltageEffect:
     """Life, light and power factors for one lamp type at one operating voltage (volts)."""
-    if technology not in TECHNOLOGY_DEFAULTS:
-        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
-    d = TECHNOLOGY_DEFAULTS[technology]
-    ballast = d.default_ballast if ballast is None else ballast
-    if ballast not in BALLAST_POWER_GAIN:
-        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
-    if d.is_filament != (ballast == "none"):
-        raise ValueError(
-            f"ballast {ballast!r} does not fit {technology}: "
-            "'none' is for filament lamps only, and filament lamps take no ballast"
-        )
+    vm = voltage_model(
+        rated_voltage,
+        technology,
+        ballast,
+        life_exponent=life_exponent,
+        light_exponent=light_exponent,
+        power_exponent=power_exponent,
+        driver_range=driver_range,
+        ballast_gain=ballast_gain,
+        band=band,
+    )
     if not (math.isfinite(voltage) and voltage > 0):
         raise ValueError("operating voltage must be a positive number of volts")
-    if not (math.isfinite(rated_voltage) and rated_voltage > 0):
-        raise ValueError("rated voltage must be a positive number of volts")
-    dmin = dmax = math.nan
-    if driver_range is not None:
-        if ballast not in ("led_driver", "electronic"):
-            raise ValueError("driver_range applies only to an LED driver or electronic ballast")
-        vmin, vmax = driver_range
-        if not (0 < vmin < vmax):
-            raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
-        dmin, dmax = vmin / rated_voltage, vmax / rated_voltage
-
-    n = d.life_exponent if life_exponent is None else life_exponent
-    k = d.light_exponent if light_exponent is None else light_exponent
-    m = d.power_exponent if power_exponent is None else power_exponent
-    g = BALLAST_POWER_GAIN[ballast] if ballast_gain is None else ballast_gain
-    bnd = BALLAST_VOLTAGE_BAND[ballast] if band is None else band
-    floor = d.life_ratio_floor if d.life_ratio_floor is not None else math.nan
     ratio = voltage / rated_voltage
-
     # One-element arrays take the same numpy code path as a fleet (numpy special-cases some
     # scalar exponents), so scalar and vectorised results agree exactly.
+    life, light, power, out = vm.factors(np.array([ratio], dtype=np.float64))
+    ballast, bnd, g, floor = vm.ballast, vm.band, vm.ballast_gain, vm.life_ratio_floor
+    d = TECHNOLOGY_DEFAULTS[technology]
+
     def one(v: float) -> FloatArray:
         return np.array([v], dtype=np.float64)
-
-    life, light, power, out = voltage_factors(
-        one(ratio),
-        one(n),
-        one(k),
-        one(m),
-        one(g),
-        np.array([d.is_filament]),
-        band=one(bnd),
-        life_ratio_floor=one(floor),
-        driver_min_ratio=one(dmin),
-        driver_max_ratio=one(dmax),
-    )
 
     warnings: list[str] = []
     pct = (ratio - 1.0) * 100.0

@@ -22,7 +22,6 @@ EXEMPT: dict[str, int] = {
     "reliability/megalumen.py:cost_per_megalumen_hour": 92,
     "reliability/fleet.py:evaluate_fleet": 87,  # was 86; grew with the model-fidelity work, to split
     "readings/operating_voltage.py:reading_voltages": 90,  # was 85; grew with the model-fidelity work, to split
-    "reliability/conditions.py:voltage_effect": 86,  # was 84; grew with the model-fidelity work, to split
     "api/errors.py:install_error_handlers": 82,
     "stock/router.py:build_router": 199,
 }
