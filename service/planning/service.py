@@ -30,7 +30,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.catalogue.lamp_model import LampModel
-from service.catalogue.resolved import CurveInUse
+from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
@@ -145,6 +145,13 @@ def _models(
     types = load_fitted_types(
         session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind
     )
+    return models_of(types, pos)
+
+
+def models_of(
+    types: TypeTable, pos: PositionArrays
+) -> tuple[dict[tuple[int, str], LampModel], dict[int, CurveInUse], np.ndarray]:
+    """_models from a type table already loaded for these positions (or more)."""
     keys = list(zip(types.ids.tolist(), types.ballasts.tolist(), strict=True))
     models = dict(zip(keys, types.models, strict=True))
     curves = {k[0]: c for k, c in zip(keys, types.curves, strict=True)}
