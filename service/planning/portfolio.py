@@ -27,8 +27,9 @@ from service.planning.service import (
     AreaPlan,
     LastRelamps,
     PlanInputs,
-    compute_plans,
+    assemble_plans,
     models_of,
+    pending_plans,
 )
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
@@ -74,8 +75,7 @@ def portfolio_plans(
     ).all()
     last = last_relamps(session, [a.id for a in areas])
     site_of = ages.site_id
-    cache = PlanCache()
-    out: list[AreaPlan] = []
+    pending = []
     for site in sites:
         mask = site_of == site.id
         inp = PlanInputs(
@@ -88,6 +88,13 @@ def portfolio_plans(
             at=at,
             last_relamps=last,
         )
-        plans = compute_plans(inp, PlanOverrides(), cache)
+        pending.append(pending_plans(inp, PlanOverrides()))
+    # One interval search for the whole portfolio: areas alike across sites share it.
+    searched = PlanCache().get_many([it for sp in pending for it in sp.items()])
+    out: list[AreaPlan] = []
+    start = 0
+    for sp in pending:
+        plans = assemble_plans(sp, searched[start : start + len(sp.pending)], PlanOverrides())
+        start += len(sp.pending)
         out.extend(sorted(plans, key=lambda p: (p.due_on or date.max, p.area.id)))
     return PortfolioPlans(plans=out, ages=ages, types=types)
