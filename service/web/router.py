@@ -37,6 +37,7 @@ from service.workorders.schemas import (
     FixtureOutcome,
     PositionOutcome,
 )
+from service.workorders.spend import spend_this_year
 
 router = APIRouter(include_in_schema=False)
 Text = Annotated[str, Form(max_length=1000)]
@@ -101,8 +102,10 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
     today = now.date()
     rows = queries.site_summaries(session, today)
     # One load of the portfolio for every site's plans and for the chart (no per-site loads).
-    pf = portfolio_plans(session, queries.sites(session), now, last_relamps=last_group_relamps)
+    sites = queries.sites(session)
+    pf = portfolio_plans(session, sites, now, last_relamps=last_group_relamps)
     plans = pf.plans
+    spend = spend_this_year(session, sites, plans, now)
     due = [p for p in plans if p.due_on is not None]
     soon = [p for p in due if p.due_on is not None and (p.due_on - today).days < DUE_SOON_DAYS]
     due_days = [p.due_on for p in due if p.due_on]
@@ -112,6 +115,7 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
         "overview.html",
         visitor=visitor,
         rows=rows,
+        spend=spend,
         soon=soon,
         plans=plans,
         due_soon_weeks=DUE_SOON_DAYS // 7,
