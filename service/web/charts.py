@@ -206,6 +206,22 @@ def area_charts(session: Session, plan: AreaPlan) -> list[list[Chart]]:
     return out
 
 
+def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """np.unique(keys, axis=0, return_inverse=True) by one lexsort: same rows, same order.
+
+    Rows sort column by column (the first column first), as np.unique's structured view
+    compares them, at a fraction of its cost for a few hundred thousand rows.
+    """
+    n = keys.shape[0]
+    order = np.lexsort(keys.T[::-1])
+    ordered = keys[order]
+    new = np.ones(n, dtype=bool)
+    new[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
+    member = np.empty(n, dtype=np.intp)
+    member[order] = np.cumsum(new) - 1
+    return ordered[new], member
+
+
 def weekly_burnouts(
     session: Session,
     at: datetime,
@@ -240,8 +256,8 @@ def weekly_burnouts(
     keys = np.column_stack(
         [ages.lamp_type_id, k, np.round(scale_h / mag) * mag, np.round(age), ages.burn_h_per_week]
     )
-    groups, member = np.unique(keys, axis=0, return_inverse=True)
-    weight = np.bincount(member.ravel(), minlength=len(groups)).astype(float)
+    groups, member = unique_rows(keys)
+    weight = np.bincount(member, minlength=len(groups)).astype(float)
     g_type, g_k = groups[:, 0].astype(np.int64), groups[:, 1].astype(np.int64)
     type_ids, per_type = np.unique(g_type, return_inverse=True)
     # One call for every week's window (groups tiled week by week), so each lamp type's
