@@ -52,6 +52,7 @@ from service.reliability.technologies import (
     DEFAULT_SWITCHING_SLOPE,
     TECHNOLOGIES,
     TECHNOLOGY_DEFAULTS,
+    TechnologyDefaults,
 )
 
 FloatArray = NDArray[np.float64]
@@ -188,13 +189,89 @@ def supply_fault(
     return np.asarray(discharge & (r < 1.0 - _arr(band) - _BAND_TOL), dtype=bool)
 
 
+def _checked_ballast(technology: str, ballast: str | None) -> tuple[TechnologyDefaults, str]:
+    """The technology's defaults and the ballast (its default if None), both checked."""
+    if technology not in TECHNOLOGY_DEFAULTS:
+        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
+    d = TECHNOLOGY_DEFAULTS[technology]
+    ballast = d.default_ballast if ballast is None else ballast
+    if ballast not in BALLAST_POWER_GAIN:
+        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
+    if d.is_filament != (ballast == "none"):
+        raise ValueError(
+            f"ballast {ballast!r} does not fit {technology}: "
+            "'none' is for filament lamps only, and filament lamps take no ballast"
+        )
+    return d, ballast
+
+
+def _driver_ratios(
+    ballast: str, rated_voltage: float, driver_range: tuple[float, float] | None
+) -> tuple[float, float]:
+    """The driver's input range as fractions of rated voltage (NaN, NaN without one)."""
+    if driver_range is None:
+        return math.nan, math.nan
+    if ballast not in ("led_driver", "electronic"):
+        raise ValueError("driver_range applies only to an LED driver or electronic ballast")
+    vmin, vmax = driver_range
+    if not (0 < vmin < vmax):
+        raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
+    return vmin / rated_voltage, vmax / rated_voltage
+
+
+def _one(v: float) -> FloatArray:
+    # One-element arrays take the same numpy code path as a fleet (numpy special-cases some
+    # scalar exponents), so scalar and vectorised results agree exactly.
+    return np.array([v], dtype=np.float64)
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Case:
+    """One voltage_effect call's resolved inputs, for its warnings."""
+
+    voltage: float
+    ratio: float  # operating / rated voltage
+    ballast: str
+    is_filament: bool
+    gain: float
+    band: float
+    floor: float  # filament life-ratio floor (NaN where none)
+    driver_range: tuple[float, float] | None
+    outside_driver: bool
+
+
+def _voltage_warnings(c: _Case) -> tuple[str, ...]:
+    """Warnings for one case: outside the driver range or the trusted band, supply fault."""
+    warnings: list[str] = []
+    pct = (c.ratio - 1.0) * 100.0
+    if c.driver_range is not None:
+        if c.outside_driver:
+            warnings.append(
+                "outside driver input range; not extrapolated "
+                f"({c.voltage:g} V vs {c.driver_range[0]:g}-{c.driver_range[1]:g} V)"
+            )
+    elif abs(c.ratio - 1.0) > c.band + _BAND_TOL:
+        kind = "filament power laws" if c.is_filament else f"{c.ballast} ballast"
+        warnings.append(
+            f"supply is {pct:+.1f}% from rated voltage, outside the +/-{c.band * 100:g}% band "
+            f"for {kind}; figures are extrapolated"
+        )
+    filament = np.array([c.is_filament])
+    if bool(supply_fault(_one(c.ratio), _one(c.gain), filament, band=_one(c.band))[0]):
+        warnings.append(_fault_text(c.voltage, pct, c.ballast))
+    if c.is_filament and not math.isnan(c.floor) and c.ratio < c.floor:
+        warnings.append(
+            f"below {c.floor * 100:g}% of rated voltage the halogen cycle stops; "
+            f"life gain held at its {c.floor * 100:g}% value"
+        )
+    return tuple(warnings)
+
+
 @dataclass(frozen=True)
 class VoltageModel:
     """One lamp type's voltage-response parameters, resolved against its technology."""
 
-    technology: str
     ballast: str
-    rated_voltage: float  # volts
     is_filament: bool
     life_exponent: float
     light_exponent: float
@@ -202,12 +279,11 @@ class VoltageModel:
     ballast_gain: float
     band: float  # fraction of rated voltage
     life_ratio_floor: float  # NaN = none
-    driver_range: tuple[float, float] | None  # volts
     driver_min_ratio: float  # NaN = not given
     driver_max_ratio: float
 
     def factors(self, ratio: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, BoolArray]:
-        """voltage_factors at these voltage ratios (one array per output)."""
+        """voltage_factors at these voltage ratios, as voltage_effect calls it per value."""
 
         def full(v: float) -> FloatArray:
             return np.full(ratio.shape, v, dtype=np.float64)
@@ -235,50 +311,28 @@ def voltage_model(
     light_exponent: float | None = None,
     power_exponent: float | None = None,
     driver_range: tuple[float, float] | None = None,
-    ballast_gain: float | None = None,
-    band: float | None = None,
 ) -> VoltageModel:
     """The checked parameters voltage_effect uses (technology defaults where not given)."""
-    if technology not in TECHNOLOGY_DEFAULTS:
-        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
-    d = TECHNOLOGY_DEFAULTS[technology]
-    ballast = d.default_ballast if ballast is None else ballast
-    if ballast not in BALLAST_POWER_GAIN:
-        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
-    if d.is_filament != (ballast == "none"):
-        raise ValueError(
-            f"ballast {ballast!r} does not fit {technology}: "
-            "'none' is for filament lamps only, and filament lamps take no ballast"
-        )
+    d, ballast = _checked_ballast(technology, ballast)
     if not (math.isfinite(rated_voltage) and rated_voltage > 0):
         raise ValueError("rated voltage must be a positive number of volts")
-    dmin = dmax = math.nan
-    if driver_range is not None:
-        if ballast not in ("led_driver", "electronic"):
-            raise ValueError("driver_range applies only to an LED driver or electronic ballast")
-        vmin, vmax = driver_range
-        if not (0 < vmin < vmax):
-            raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
-        dmin, dmax = vmin / rated_voltage, vmax / rated_voltage
+    dmin, dmax = _driver_ratios(ballast, rated_voltage, driver_range)
     return VoltageModel(
-        technology=technology,
         ballast=ballast,
-        rated_voltage=rated_voltage,
         is_filament=d.is_filament,
         life_exponent=d.life_exponent if life_exponent is None else life_exponent,
         light_exponent=d.light_exponent if light_exponent is None else light_exponent,
         power_exponent=d.power_exponent if power_exponent is None else power_exponent,
-        ballast_gain=BALLAST_POWER_GAIN[ballast] if ballast_gain is None else ballast_gain,
-        band=BALLAST_VOLTAGE_BAND[ballast] if band is None else band,
+        ballast_gain=BALLAST_POWER_GAIN[ballast],
+        band=BALLAST_VOLTAGE_BAND[ballast],
         life_ratio_floor=d.life_ratio_floor if d.life_ratio_floor is not None else math.nan,
-        driver_range=driver_range,
         driver_min_ratio=dmin,
         driver_max_ratio=dmax,
     )
 
 
 def needs_words(vm: VoltageModel, ratio: FloatArray, out: BoolArray) -> BoolArray:
-    """Where voltage_effect would warn: out of band or range, a supply fault, below the floor."""
+    """Where voltage_effect would word a warning: out of band or range, supply fault, floor."""
     fault = supply_fault(
         ratio,
         np.full(ratio.shape, vm.ballast_gain),
@@ -304,51 +358,43 @@ def voltage_effect(
     band: float | None = None,
 ) -> VoltageEffect:
     """Life, light and power factors for one lamp type at one operating voltage (volts)."""
-    vm = voltage_model(
-        rated_voltage,
-        technology,
-        ballast,
-        life_exponent=life_exponent,
-        light_exponent=light_exponent,
-        power_exponent=power_exponent,
-        driver_range=driver_range,
-        ballast_gain=ballast_gain,
-        band=band,
-    )
+    d, ballast = _checked_ballast(technology, ballast)
     if not (math.isfinite(voltage) and voltage > 0):
         raise ValueError("operating voltage must be a positive number of volts")
+    if not (math.isfinite(rated_voltage) and rated_voltage > 0):
+        raise ValueError("rated voltage must be a positive number of volts")
+    dmin, dmax = _driver_ratios(ballast, rated_voltage, driver_range)
+    n = d.life_exponent if life_exponent is None else life_exponent
+    k = d.light_exponent if light_exponent is None else light_exponent
+    m = d.power_exponent if power_exponent is None else power_exponent
+    g = BALLAST_POWER_GAIN[ballast] if ballast_gain is None else ballast_gain
+    bnd = BALLAST_VOLTAGE_BAND[ballast] if band is None else band
+    floor = d.life_ratio_floor if d.life_ratio_floor is not None else math.nan
     ratio = voltage / rated_voltage
-    # One-element arrays take the same numpy code path as a fleet (numpy special-cases some
-    # scalar exponents), so scalar and vectorised results agree exactly.
-    life, light, power, out = vm.factors(np.array([ratio], dtype=np.float64))
-    ballast, bnd, g, floor = vm.ballast, vm.band, vm.ballast_gain, vm.life_ratio_floor
-    d = TECHNOLOGY_DEFAULTS[technology]
-
-    def one(v: float) -> FloatArray:
-        return np.array([v], dtype=np.float64)
-
-    warnings: list[str] = []
-    pct = (ratio - 1.0) * 100.0
-    if driver_range is not None:
-        if bool(out[0]):
-            warnings.append(
-                "outside driver input range; not extrapolated "
-                f"({voltage:g} V vs {driver_range[0]:g}-{driver_range[1]:g} V)"
-            )
-    elif abs(ratio - 1.0) > bnd + _BAND_TOL:
-        kind = "filament power laws" if d.is_filament else f"{ballast} ballast"
-        warnings.append(
-            f"supply is {pct:+.1f}% from rated voltage, outside the +/-{bnd * 100:g}% band "
-            f"for {kind}; figures are extrapolated"
-        )
-    if bool(supply_fault(one(ratio), one(g), np.array([d.is_filament]), band=one(bnd))[0]):
-        warnings.append(_fault_text(voltage, pct, ballast))
-    if d.is_filament and not math.isnan(floor) and ratio < floor:
-        warnings.append(
-            f"below {floor * 100:g}% of rated voltage the halogen cycle stops; "
-            f"life gain held at its {floor * 100:g}% value"
-        )
-    return VoltageEffect(float(life[0]), float(light[0]), float(power[0]), tuple(warnings))
+    life, light, power, out = voltage_factors(
+        _one(ratio),
+        _one(n),
+        _one(k),
+        _one(m),
+        _one(g),
+        np.array([d.is_filament]),
+        band=_one(bnd),
+        life_ratio_floor=_one(floor),
+        driver_min_ratio=_one(dmin),
+        driver_max_ratio=_one(dmax),
+    )
+    case = _Case(
+        voltage=voltage,
+        ratio=ratio,
+        ballast=ballast,
+        is_filament=d.is_filament,
+        gain=g,
+        band=bnd,
+        floor=floor,
+        driver_range=driver_range,
+        outside_driver=bool(out[0]),
+    )
+    return VoltageEffect(float(life[0]), float(light[0]), float(power[0]), _voltage_warnings(case))
 
 
 def switching_life_factor(
