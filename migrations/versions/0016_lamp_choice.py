@@ -103,6 +103,7 @@ def upgrade() -> None:
         "lamp_choice_records",
         sa.Column("id", sa.Integer(), nullable=False),
         sa.Column("work_order_id", sa.Integer(), nullable=False),
+        sa.Column("for_lamp_type_id", sa.Integer(), nullable=False),
         sa.Column("option_kind", sa.String(length=20), nullable=False),
         sa.Column("label", sa.String(length=200), nullable=False),
         sa.Column("lamp_type_id", sa.Integer(), nullable=True),
@@ -125,7 +126,14 @@ def upgrade() -> None:
             name=op.f("fk_lamp_choice_records_work_order_id_work_orders"), ondelete="CASCADE",
         ),
         sa.PrimaryKeyConstraint("id", name=op.f("pk_lamp_choice_records")),
-        sa.UniqueConstraint("work_order_id", name=op.f("uq_lamp_choice_records_work_order_id")),
+        sa.ForeignKeyConstraint(
+            ["for_lamp_type_id"], ["lamp_types.id"],
+            name=op.f("fk_lamp_choice_records_for_lamp_type_id_lamp_types"), ondelete="RESTRICT",
+        ),
+        sa.UniqueConstraint(
+            "work_order_id", "for_lamp_type_id",
+            name=op.f("uq_lamp_choice_records_work_order_id_for_lamp_type_id"),
+        ),
     )
     op.create_index(
         op.f("ix_lamp_choice_records_retrofit_option_id"),

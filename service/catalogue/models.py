@@ -5,7 +5,16 @@ from __future__ import annotations
 from datetime import date, datetime
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, CheckConstraint, Float, ForeignKey, Integer, String
+from sqlalchemy import (
+    JSON,
+    Boolean,
+    CheckConstraint,
+    Float,
+    ForeignKey,
+    Integer,
+    String,
+    UniqueConstraint,
+)
 from sqlalchemy.orm import Mapped, mapped_column
 from sqlalchemy.sql import func
 
@@ -115,11 +124,12 @@ class LampChoiceRecord(Base):
     """The lamp choice a group work order names: history that keeps an option from deletion."""
 
     __tablename__ = "lamp_choice_records"
+    __table_args__ = (UniqueConstraint("work_order_id", "for_lamp_type_id"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    work_order_id: Mapped[int] = mapped_column(
-        ForeignKey("work_orders.id", ondelete="CASCADE"), unique=True
-    )
+    work_order_id: Mapped[int] = mapped_column(ForeignKey("work_orders.id", ondelete="CASCADE"))
+    # The lamp type being relamped; the option chosen for it follows.
+    for_lamp_type_id: Mapped[int] = mapped_column(ForeignKey("lamp_types.id", ondelete="RESTRICT"))
     option_kind: Mapped[str] = mapped_column(String(20))  # same_type, rated_for_voltage, retrofit
     label: Mapped[str] = mapped_column(String(200))
     lamp_type_id: Mapped[int | None] = mapped_column(
