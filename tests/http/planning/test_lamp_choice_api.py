@@ -12,6 +12,7 @@ from sqlalchemy.orm import Session
 from service.catalogue.models import LampChoiceRecord, RetrofitOption
 from service.planning import choice, service
 from tests import factories as fx
+from tests.http.web.signin import sign_in_as
 
 NOW = datetime.now(UTC)
 
@@ -160,3 +161,22 @@ def test_market_mismatch_leaves_the_type_buyable(
     db.commit()
     p = client.get(f"/api/v1/areas/{area_id}/relamp-plan", headers=reader).json()
     assert p["lamp_choice"][0]["replacement_required"] is False
+
+
+def test_area_page_shows_the_comparison_table(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    area_id, lt_id = _hall(db)
+    assert (
+        client.post("/api/v1/retrofit-options", json=_option(lt_id), headers=writer).status_code
+        == 201
+    )
+    sign_in_as(client, db, "viewer")
+    r = client.get(f"/app/areas/{area_id}")
+    assert r.status_code == 200, r.text
+    table = r.text[r.text.index(f'id="lamp-choice-{lt_id}"') :]
+    table = table[: table.index("</table>")]
+    assert table.count("<tr") == 4  # header and three options
+    assert "LED-A19-KIT (LED lamp)" in table and "GS-130 (rated 130 V)" in table
+    assert table.count('class="best"') == 1
+    assert "local codes" in r.text
