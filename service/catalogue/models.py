@@ -83,8 +83,8 @@ RETROFIT_KINDS = ("led_lamp", "luminaire")
 class RetrofitOption(TimestampMixin, Base):
     """An LED lamp or replacement luminaire offered in place of a lamp type (or in one area).
 
-    Money in the site currency of the areas it is used in; per fixture: kit cost, labour,
-    rebate, watts and light output. Life model as LED lamp types have it: L70 (lumen life),
+    Money in the site currency of the areas it is used in. Per unit (a lamp for an LED lamp,
+    a fixture for a luminaire): kit cost, labour, rebate, watts and light output. Life model as LED lamp types have it: L70 (lumen life),
     failure B10 (catastrophic failures) and an optional Weibull shape of those failures.
     """
 
@@ -109,11 +109,11 @@ class RetrofitOption(TimestampMixin, Base):
     area_id: Mapped[int | None] = mapped_column(
         ForeignKey("areas.id", ondelete="CASCADE"), default=None, index=True
     )
-    kit_cost_per_fixture: Mapped[float] = mapped_column(Float)
-    labour_minutes_per_fixture: Mapped[float] = mapped_column(Float)
-    rebate_per_fixture: Mapped[float] = mapped_column(Float, default=0.0)
-    watts_per_fixture: Mapped[float] = mapped_column(Float)  # input watts, driver included
-    lumens_per_fixture: Mapped[float] = mapped_column(Float)  # initial light output
+    kit_cost_per_unit: Mapped[float] = mapped_column(Float)
+    labour_minutes_per_unit: Mapped[float] = mapped_column(Float)
+    rebate_per_unit: Mapped[float] = mapped_column(Float, default=0.0)
+    watts_per_unit: Mapped[float] = mapped_column(Float)  # input watts, driver included
+    lumens_per_unit: Mapped[float] = mapped_column(Float)  # initial light output
     l70_h: Mapped[float] = mapped_column(Float)  # burn hours to 70 % of initial light
     failure_b10_h: Mapped[float | None] = mapped_column(Float, default=None)  # None: = L70
     failure_shape: Mapped[float | None] = mapped_column(Float, default=None)  # None: LED default

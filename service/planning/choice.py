@@ -4,9 +4,10 @@ Per lamp type in the area's plan: the same type (its plan as the area plan compu
 the type of the same catalogue family, same technology, rated nearest the measured voltage
 (only when nearer than the current type's rating, or as near and at or above the supply
 while the current one is below it; neither retired nor withdrawn at the due date); every retrofit option offered for the type or for the area. Retrofit costs are per
-fixture: the kit, its labour per fixture (a spot call adds the area's spot minus group
-minutes per lamp: travel and set-up of a single call), the area's equipment hire shared over
-the fixtures; the removed lamps' disposal and the rebate fall in year 0. The withdrawal date
+unit, a lamp position for an LED lamp and a fixture for a replacement luminaire: the kit, its
+labour per unit (a spot call adds the area's spot minus group minutes per lamp: travel and
+set-up of a single call), the area's equipment hire shared over the units; the removed
+lamps' disposal and the rebate fall in year 0. The withdrawal date
 applies when the lamp type names no market, the site none, or both the same one.
 """
 
@@ -88,14 +89,14 @@ def _sibling(session: Session, lt: LampType, site: Site, volts: float, on: date)
 def retrofit_model(opt: RetrofitOption, site: Site) -> LampModel:
     """An LED life model from a retrofit option: failures from B10, light through L70."""
     row = SimpleNamespace(
-        id=None, code=opt.code, technology="led", rated_watts=opt.watts_per_fixture,
+        id=None, code=opt.code, technology="led", rated_watts=opt.watts_per_unit,
         rated_volts=site.nominal_voltage_v, rated_life_h=opt.l70_h, rated_percentile=50.0,
         rated_hours_per_start=None, second_hours_per_start=None, second_cycle_life_h=None,
         weibull_shape=opt.failure_shape, mortality_points=None, lumen_points=None,
-        lumen_basis="hours", initial_lumens=opt.lumens_per_fixture, life_exponent=None,
+        lumen_basis="hours", initial_lumens=opt.lumens_per_unit, life_exponent=None,
         light_exponent=None, power_exponent=None, ballast_behaviour=None, driver_min_volts=None,
         driver_max_volts=None, failure_b10_h=opt.failure_b10_h or opt.l70_h, lm80_points=None,
-        lm80_units=None, unit_price=opt.kit_cost_per_fixture, contains_mercury=False,
+        lm80_units=None, unit_price=opt.kit_cost_per_unit, contains_mercury=False,
         rupture_risk=False,
     )  # fmt: skip
     model = resolve_lamp_model(row)
@@ -111,23 +112,24 @@ def _retrofit_option(
     cleaning: float,
 ) -> Option:  # fmt: skip
     c = g.costs
+    units = g.positions if opt.kind == "led_lamp" else fixtures  # an LED lamp per position
     costs = dataclasses.replace(
         c,
-        lamp_price=opt.kit_cost_per_fixture,
-        group_minutes_per_lamp=opt.labour_minutes_per_fixture,
-        spot_minutes_per_lamp=opt.labour_minutes_per_fixture + spot_extra_min,
-        area_positions=max(fixtures, 1),
+        lamp_price=opt.kit_cost_per_unit,
+        group_minutes_per_lamp=opt.labour_minutes_per_unit,
+        spot_minutes_per_lamp=opt.labour_minutes_per_unit + spot_extra_min,
+        area_positions=max(units, 1),
         disposal_fee_per_lamp=0.0,
-        lamp_watts=opt.watts_per_fixture,
+        lamp_watts=opt.watts_per_unit,
     )
     cond = dataclasses.replace(g.cond, hours_per_start=None)
     kind = "LED lamp" if opt.kind == "led_lamp" else "replacement luminaire"
     return Option(
         kind=RETROFIT, label=f"{opt.code} ({kind})", model=retrofit_model(opt, site),
-        costs=costs, cond=cond, units=fixtures, fixtures=fixtures,
+        costs=costs, cond=cond, units=units, fixtures=fixtures,
         cleaning_per_fixture_visit=cleaning,
         removal_disposal=g.positions * c.disposal_fee_per_lamp,
-        rebate=fixtures * opt.rebate_per_fixture, retrofit_option_id=opt.id,
+        rebate=units * opt.rebate_per_unit, retrofit_option_id=opt.id,
     )  # fmt: skip
 
 

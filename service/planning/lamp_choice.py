@@ -2,7 +2,7 @@
 
 Options for one lamp type's positions in an area, all starting at the next group relamp
 (time 0): the same lamp type; a lamp type of the same family rated nearer the measured
-voltage; each retrofit option (an LED lamp or a replacement luminaire, costed per fixture).
+voltage; each retrofit option (an LED lamp costed per lamp, or a replacement luminaire per fixture).
 
 Each option runs on its own replacement cycle: the block-replacement plan of the numeric
 core (planning.group_plan.plan_group: the cost optimum under the area's light floor,
@@ -74,7 +74,7 @@ class Option:
     kind: str
     label: str
     model: LampModel
-    costs: CostInputs  # per unit: a lamp position, or a fixture for a retrofit
+    costs: CostInputs  # per unit: a lamp position, or a fixture for a luminaire
     cond: Conditions
     units: int
     fixtures: int

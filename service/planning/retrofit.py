@@ -28,7 +28,11 @@ Hours = Annotated[float, Field(ge=100, le=1_000_000, allow_inf_nan=False, descri
 
 
 class RetrofitOptionCreate(BaseModel):
-    """A new retrofit option, offered in place of a lamp type, in one area, or both."""
+    """A new retrofit option, offered in place of a lamp type, in one area, or both.
+
+    Figures are per unit: one lamp for kind led_lamp (it replaces each lamp position), one
+    fixture for kind luminaire (it replaces the whole fixture).
+    """
 
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
@@ -37,11 +41,11 @@ class RetrofitOptionCreate(BaseModel):
     kind: Literal["led_lamp", "luminaire"]
     lamp_type_id: Id | None = Field(default=None, description="Offered in place of this type.")
     area_id: Id | None = Field(default=None, description="Offered in this area.")
-    kit_cost_per_fixture: Money
-    labour_minutes_per_fixture: float = Field(ge=0, le=600, allow_inf_nan=False)
-    rebate_per_fixture: Money = 0.0
-    watts_per_fixture: float = Field(ge=0.1, le=10_000, allow_inf_nan=False)
-    lumens_per_fixture: float = Field(gt=0, le=1_000_000, allow_inf_nan=False)
+    kit_cost_per_unit: Money
+    labour_minutes_per_unit: float = Field(ge=0, le=600, allow_inf_nan=False)
+    rebate_per_unit: Money = 0.0
+    watts_per_unit: float = Field(ge=0.1, le=10_000, allow_inf_nan=False)
+    lumens_per_unit: float = Field(gt=0, le=1_000_000, allow_inf_nan=False)
     l70_h: Hours = Field(description="Burn hours to 70 % of initial light (L70).")
     failure_b10_h: Hours | None = Field(
         default=None, description="Hours by which 10 % have failed; unset: the L70 hours."
@@ -54,8 +58,8 @@ class RetrofitOptionCreate(BaseModel):
     def _somewhere(self) -> RetrofitOptionCreate:
         if self.lamp_type_id is None and self.area_id is None:
             raise ValueError("give lamp_type_id, area_id or both")
-        if self.rebate_per_fixture > self.kit_cost_per_fixture:
-            raise ValueError("rebate_per_fixture must not exceed kit_cost_per_fixture")
+        if self.rebate_per_unit > self.kit_cost_per_unit:
+            raise ValueError("rebate_per_unit must not exceed kit_cost_per_unit")
         return self
 
 
@@ -71,11 +75,11 @@ class RetrofitOptionRead(BaseModel):
     kind: str
     lamp_type_id: int | None
     area_id: int | None
-    kit_cost_per_fixture: float
-    labour_minutes_per_fixture: float
-    rebate_per_fixture: float
-    watts_per_fixture: float
-    lumens_per_fixture: float
+    kit_cost_per_unit: float
+    labour_minutes_per_unit: float
+    rebate_per_unit: float
+    watts_per_unit: float
+    lumens_per_unit: float
     l70_h: float
     failure_b10_h: float | None
     failure_shape: float | None

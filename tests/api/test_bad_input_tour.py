@@ -44,10 +44,10 @@ LAMP: dict[str, Any] = {
 RETROFIT: dict[str, Any] = {
     "code": "TOUR-LED-KIT",
     "kind": "led_lamp",
-    "kit_cost_per_fixture": 20.0,
-    "labour_minutes_per_fixture": 10.0,
-    "watts_per_fixture": 18.0,
-    "lumens_per_fixture": 2200.0,
+    "kit_cost_per_unit": 20.0,
+    "labour_minutes_per_unit": 10.0,
+    "watts_per_unit": 18.0,
+    "lumens_per_unit": 2200.0,
     "l70_h": 50000.0,
 }
 LAMP_CSV_HEADER = "code,technology,rated_watts,rated_volts,rated_life_h,rated_percentile\n"
@@ -720,10 +720,10 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
         422,
         lambda c, h, w: c.post(
             "/api/v1/retrofit-options",
-            json={**RETROFIT, "lamp_type_id": w["lamp"], "kit_cost_per_fixture": -5},
+            json={**RETROFIT, "lamp_type_id": w["lamp"], "kit_cost_per_unit": -5},
             headers=h,
         ),
-        {"kit_cost_per_fixture"},
+        {"kit_cost_per_unit"},
     ),
     (
         "retrofit option for a lamp type that does not exist",

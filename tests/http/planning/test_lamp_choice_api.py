@@ -36,8 +36,8 @@ def _hall(db: Session, *, withdrawn: bool = False) -> tuple[int, int]:
 def _option(lt_id: int, **over: object) -> dict[str, object]:
     body: dict[str, object] = {
         "code": "LED-A19-KIT", "kind": "led_lamp", "lamp_type_id": lt_id,
-        "kit_cost_per_fixture": 6.0, "labour_minutes_per_fixture": 5.0,
-        "rebate_per_fixture": 1.0, "watts_per_fixture": 14.0, "lumens_per_fixture": 1500.0,
+        "kit_cost_per_unit": 6.0, "labour_minutes_per_unit": 5.0,
+        "rebate_per_unit": 1.0, "watts_per_unit": 14.0, "lumens_per_unit": 1500.0,
         "l70_h": 25_000.0, "failure_b10_h": 20_000.0,
     }  # fmt: skip
     body.update(over)
@@ -88,7 +88,7 @@ def test_comparison_query_validation_names_the_field(
 
 @pytest.mark.parametrize(
     ("over", "field"),
-    [({"kit_cost_per_fixture": -1}, "kit_cost_per_fixture"), ({"kind": "laser"}, "kind"),
+    [({"kit_cost_per_unit": -1}, "kit_cost_per_unit"), ({"kind": "laser"}, "kind"),
      ({"l70_h": 1e9}, "l70_h"), ({"lamp_type_id": 999_999}, "lamp_type_id"),
      ({"area_id": 999_999}, "area_id"), ({"surprise": 1}, "surprise")],
 )  # fmt: skip

@@ -70,9 +70,9 @@ def _case(db: Session, *, floor: float | None = None, withdrawn: bool = False) -
     fx.fixtures(db, a, lt, 10, installed_at=AT - timedelta(days=10), measured_voltage_v=125.0)
     db.add(
         RetrofitOption(
-            code="LED-A19-14", kind="led_lamp", lamp_type_id=lt.id, kit_cost_per_fixture=8.0,
-            labour_minutes_per_fixture=10.0, rebate_per_fixture=2.0, watts_per_fixture=14.0,
-            lumens_per_fixture=1500.0, l70_h=25_000.0, failure_b10_h=25_000.0, failure_shape=1.0,
+            code="LED-A19-14", kind="led_lamp", lamp_type_id=lt.id, kit_cost_per_unit=8.0,
+            labour_minutes_per_unit=10.0, rebate_per_unit=2.0, watts_per_unit=14.0,
+            lumens_per_unit=1500.0, l70_h=25_000.0, failure_b10_h=25_000.0, failure_shape=1.0,
         )
     )  # fmt: skip
     db.flush()
