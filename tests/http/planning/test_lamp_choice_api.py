@@ -180,3 +180,15 @@ def test_area_page_shows_the_comparison_table(
     assert "LED-A19-KIT (LED lamp)" in table and "GS-130 (rated 130 V)" in table
     assert table.count('class="best"') == 1
     assert "local codes" in r.text
+
+
+def test_a_retried_create_with_its_idempotency_key_makes_one_option(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    _, lt_id = _hall(db)
+    headers = {**writer, "Idempotency-Key": "retrofit-create-1"}
+    first = client.post("/api/v1/retrofit-options", json=_option(lt_id), headers=headers)
+    again = client.post("/api/v1/retrofit-options", json=_option(lt_id), headers=headers)
+    assert first.status_code == again.status_code == 201
+    assert first.json()["id"] == again.json()["id"]
+    assert db.scalar(select(func.count(RetrofitOption.id))) == 1
