@@ -15,8 +15,8 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import Engine, func, select
-from sqlalchemy.orm import Session, sessionmaker
+from sqlalchemy import Engine, event, func, select
+from sqlalchemy.orm import ORMExecuteState, Session, sessionmaker
 
 from service.api.errors import DomainError
 from service.catalogue.models import LampChoiceRecord, RetrofitOption
@@ -24,10 +24,8 @@ from service.db.base import utcnow
 from service.db.session import begin_write, make_engine, session_factory
 from service.planning import retrofit
 from service.planning.retrofit import RetrofitOptionCreate
-from service.register.models import Site
 from service.workorders import service as workorders
-from service.workorders.issue import issue_orders
-from service.workorders.models import WorkOrder, WorkOrderState
+from service.workorders.models import WorkOrder
 from service.workorders.schemas import WorkOrderCreate
 from tests import factories as fx
 from tests.conftest import migrate, scratch_postgres
@@ -160,24 +158,24 @@ def test_a_crash_after_the_orders_are_written_keeps_no_choice_record(
     area_id, lt_id = _hall(make, 900)
     _create(make, _body("CRASH-LED", lt_id))
 
-    def boom(step: str) -> None:
-        raise RuntimeError(f"crash at {step}")
+    # Failure injected from the test side (as tests/scheduling/faults.py does): the orders
+    # and their lines are written, the choice records are the last insert and fail.
+    def boom(state: ORMExecuteState) -> None:
+        table = getattr(state.statement, "table", None)
+        if state.is_insert and getattr(table, "name", None) == "lamp_choice_records":
+            raise RuntimeError("crash before the choice records")
 
     with make() as s:
         records_before = s.scalar(select(func.count()).select_from(LampChoiceRecord))
-    with make() as s:
-        begin_write(s)
-        site = s.scalar(select(Site).where(Site.name == "Race Hall 900"))
-        assert site is not None
+    event.listen(make, "do_orm_execute", boom)
+    try:
         with pytest.raises(RuntimeError):
-            issue_orders(
-                s, site, at=utcnow(), iso_week=None, run_id=None, state=WorkOrderState.DRAFT,
-                lookahead_weeks=0, area_id=area_id, whole_area=True, checkpoint=boom,
-            )  # fmt: skip
-        s.rollback()
+            _order(make, area_id)
+    finally:
+        event.remove(make, "do_orm_execute", boom)
     with make() as s:
         orders = s.scalars(select(WorkOrder.id).where(WorkOrder.area_id == area_id)).all()
-        assert orders == []
+        assert orders == []  # nothing half-written: the order went with the records
         assert s.scalar(select(func.count()).select_from(LampChoiceRecord)) == records_before
     # The same order made without the crash names the LED.
     order_id = _order(make, area_id)
