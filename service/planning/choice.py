@@ -18,7 +18,7 @@ import math
 from datetime import date
 from types import SimpleNamespace
 
-from sqlalchemy import func, or_, select
+from sqlalchemy import event, func, or_, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.lamp_model import LampModel, resolve_lamp_model
@@ -233,20 +233,64 @@ def area_choice(
     return out
 
 
-def has_alternatives(session: Session, plan: AreaPlan) -> bool:
-    """Whether any lamp type of the plan has a sibling family, a retrofit or a withdrawal."""
-    ids = [g.lamp_type_id for g in plan.groups]
+@dataclasses.dataclass(frozen=True)
+class AlternativesIndex:
+    """Lamp types with a family or a withdrawal date, and where retrofit options apply."""
+
+    types: frozenset[int]  # lamp types with a family or a withdrawal date
+    option_types: frozenset[int]  # lamp types a (not retired) retrofit option names
+    option_areas: frozenset[int]  # areas a (not retired) retrofit option names
+
+
+_INDEX_KEY = "lamp_choice_alternatives"
+
+
+@event.listens_for(Session, "after_flush")
+def _forget_index(session: Session, _ctx: object) -> None:
+    """A flushed lamp type or retrofit option makes the kept index stale."""
+    if _INDEX_KEY in session.info and any(
+        isinstance(o, LampType | RetrofitOption)
+        for o in (*session.new, *session.dirty, *session.deleted)
+    ):
+        session.info.pop(_INDEX_KEY, None)
+
+
+def alternatives_index(session: Session) -> AlternativesIndex:
+    """Two queries, kept for the session's current transaction (a weekly run asks per area)."""
+    tx = session.get_transaction()
+    cached = session.info.get(_INDEX_KEY)
+    if cached is not None and tx is not None and cached[0] is tx:
+        return cached[1]
+    types = session.scalars(
+        select(LampType.id).where(
+            or_(LampType.family.is_not(None), LampType.withdrawn_after.is_not(None))
+        )
+    ).all()
+    opts = session.execute(
+        select(RetrofitOption.lamp_type_id, RetrofitOption.area_id).where(
+            RetrofitOption.retired_at.is_(None)
+        )
+    ).all()
+    index = AlternativesIndex(
+        types=frozenset(types),
+        option_types=frozenset(t for t, _ in opts if t is not None),
+        option_areas=frozenset(a for _, a in opts if a is not None),
+    )
+    if tx is not None:
+        session.info[_INDEX_KEY] = (tx, index)
+    return index
+
+
+def has_alternatives(session: Session, plan: AreaPlan, *, cached: bool = False) -> bool:
+    """Whether any lamp type of the plan has a family, a retrofit option or a withdrawal.
+
+    cached: use the index kept for the current transaction (the weekly run, which writes no
+    option); otherwise read afresh.
+    """
+    ids = {g.lamp_type_id for g in plan.groups}
     if not ids:
         return False
-    rows = session.execute(
-        select(LampType.family, LampType.withdrawn_after).where(LampType.id.in_(ids))
-    ).all()
-    if any(f or w for f, w in rows):
-        return True
-    n = session.scalar(
-        select(func.count(RetrofitOption.id)).where(
-            RetrofitOption.retired_at.is_(None),
-            or_(RetrofitOption.lamp_type_id.in_(ids), RetrofitOption.area_id == plan.area.id),
-        )
-    )
-    return bool(n)
+    if not cached:
+        session.info.pop(_INDEX_KEY, None)
+    ix = alternatives_index(session)
+    return bool(ids & ix.types or ids & ix.option_types or plan.area.id in ix.option_areas)

@@ -4,7 +4,8 @@ Each due lamp type's best option (planning.choice: lowest life-cycle cost that c
 and keeps the light floor) goes into the order's plan figures as "lamp_choice", and one
 LampChoiceRecord per (order, lamp type) keeps it as history (a retrofit option named there
 is retired, never deleted). Areas with nothing to choose (no family, retrofit option or
-withdrawal date on their types) cost the weekly run two small queries and nothing else.
+withdrawal date on their types) cost the weekly run nothing: two queries per transaction
+tell which areas have something to choose (planning.choice.alternatives_index).
 The lines keep the current lamp type: fitting another one is the planner's decision.
 """
 
@@ -22,7 +23,7 @@ from service.planning.service import AreaPlan
 
 def order_choice(session: Session, plan: AreaPlan, types: set[int]) -> list[dict[str, Any]] | None:
     """The best option per due lamp type, as plain JSON for the order; None: nothing to choose."""
-    if not has_alternatives(session, plan):
+    if not has_alternatives(session, plan, cached=True):
         return None
     try:
         choices = area_choice(session, plan, lamp_type_ids=types)
