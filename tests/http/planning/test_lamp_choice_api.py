@@ -132,6 +132,10 @@ def test_group_order_names_the_choice_and_the_option_is_then_retired_not_deleted
     assert db.scalar(select(func.count(LampChoiceRecord.id))) == 1
     if named["option_kind"] != "retrofit":
         pytest.fail(f"expected the LED to win on a withdrawn filament lamp: {named}")
+    sign_in_as(client, db, "viewer")
+    page = client.get(f"/app/work-orders/{r.json()['id']}")
+    assert page.status_code == 200 and "LED-A19-KIT (LED lamp)" in page.text
+    assert "a replacement must be chosen" in page.text
     oid = opt["id"]
     gone = client.delete(f"/api/v1/retrofit-options/{oid}", headers=writer)
     assert gone.status_code == 409 and "retire" in gone.text
