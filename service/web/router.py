@@ -13,6 +13,8 @@ from service.api.auth import SessionDep
 from service.api.errors import DomainError
 from service.db.base import utcnow
 from service.planning import service as planning
+from service.planning.choice import has_alternatives
+from service.planning.choice_bodies import lamp_choice_read
 from service.planning.plan_bodies import area_plan_read
 from service.planning.portfolio import portfolio_plans
 from service.planning.service import WEEKS_PER_YEAR
@@ -184,6 +186,7 @@ def area_page(
         reports=queries.open_reports_in_area(session, area_id),
         fixtures=queries.fixture_risks(session, area_id),
         risk_weeks=queries.RISK_WEEKS,
+        choice=lamp_choice_read(session, plan) if has_alternatives(session, plan) else None,
     )
 
 
