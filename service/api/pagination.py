@@ -67,7 +67,7 @@ def page_of(schema: type[T], rows: Sequence[Any], total: int, params: PageParams
     )
 
 
-def page_params(
+async def page_params(
     limit: Annotated[int, Query(ge=1, le=1000, description="Items per page.")] = 50,
     # No table holds more rows than ids (MAX_ID); a larger offset could not bind on SQLite.
     offset: Annotated[int, Query(ge=0, le=MAX_ID, description="Items to skip.")] = 0,
@@ -84,11 +84,14 @@ def page_params(
         ),
     ] = None,
 ) -> PageParams:
-    """FastAPI dependency that reads the page window, the sort order and the cursor."""
+    """FastAPI dependency that reads the page window, the sort order and the cursor.
+
+    Async because it does no I/O: a sync dependency costs a worker-thread hop per request.
+    """
     return PageParams(limit=limit, offset=offset, sort=sort, after=after)
 
 
-def offset_page_params(
+async def offset_page_params(
     limit: Annotated[int, Query(ge=1, le=1000, description="Items per page.")] = 50,
     offset: Annotated[int, Query(ge=0, le=MAX_ID, description="Items to skip.")] = 0,
 ) -> PageParams:
