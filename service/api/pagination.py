@@ -22,6 +22,7 @@ from typing import Annotated, Any, Generic, TypeVar
 from fastapi import Depends, Query
 from pydantic import BaseModel, Field
 from sqlalchemy import ColumnElement, Select, and_, false, func, or_, select
+from sqlalchemy import inspect as sa_inspect
 from sqlalchemy.orm import Session
 from sqlalchemy.orm.attributes import InstrumentedAttribute
 
@@ -216,6 +217,16 @@ def _check_keyset(keys: list[tuple[str, Any, bool]]) -> None:
             raise _bad_cursor(f"the sort field '{name}' can be empty; page it with offset")
 
 
+def _one_entity(stmt: Select[Any]) -> bool:
+    described = stmt.column_descriptions
+    return len(described) == 1 and described[0].get("expr") is described[0].get("entity")
+
+
+def columns_of(model: type[Any]) -> list[InstrumentedAttribute[Any]]:
+    """The mapped column attributes of a model, to select its rows without ORM objects."""
+    return [getattr(model, attr.key) for attr in sa_inspect(model).column_attrs]
+
+
 def paginate(
     session: Session,
     stmt: Select[Any],
@@ -237,7 +248,10 @@ def paginate(
         _check_keyset(keys)
         window = window.where(_after(keys, values))
     ordered = window.order_by(*[col.desc() if desc else col.asc() for _, col, desc in keys])
-    rows = session.scalars(ordered.limit(params.limit).offset(params.offset)).all()
+    ordered = ordered.limit(params.limit).offset(params.offset)
+    # One entity: ORM objects. Columns (see columns_of): plain rows, no identity map or
+    # instrumentation, for lists answered straight from the rows.
+    rows = (session.scalars(ordered) if _one_entity(stmt) else session.execute(ordered)).all()
     params.next_after = None
     if len(rows) == params.limit:
         try:
