@@ -7,7 +7,7 @@ from collections.abc import AsyncIterator, Iterator
 from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
-from typing import Annotated, Any
+from typing import Annotated, Any, TypeVar
 
 import anyio
 import anyio.to_thread
@@ -36,6 +36,10 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
 # Execution option marking a transaction that will write (see _sqlite_begin, begin_write).
 WRITE_OPTION = "lampkeeper_write"
 READ_ONLY_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+# Endpoint attribute set by writes_in_jobs: the request's own session only reads.
+JOB_WRITES = "lampkeeper_writes_in_jobs"
+
+F = TypeVar("F")
 
 
 def _sqlite_begin(conn: Connection) -> None:
@@ -137,6 +141,23 @@ def get_job_factory() -> sessionmaker[Session]:
 JobFactoryDep = Annotated[sessionmaker[Session], Depends(get_job_factory)]
 
 
+def writes_in_jobs(endpoint: F) -> F:
+    """Mark a route whose writes all happen in a job's own transactions (the weekly run).
+
+    Its request session then begins as a reader even for a POST: on SQLite a writer's
+    BEGIN IMMEDIATE would hold the one write lock the job, on another connection, waits for.
+    """
+    setattr(endpoint, JOB_WRITES, True)
+    return endpoint
+
+
+def request_writes(request: Request) -> bool:
+    """Whether a request's own transaction may write (not a GET, not a writes_in_jobs route)."""
+    if request.method in READ_ONLY_METHODS:
+        return False
+    return not getattr(request.scope.get("endpoint"), JOB_WRITES, False)
+
+
 async def get_session(request: Request) -> AsyncIterator[Session]:
     """FastAPI dependency: one transaction per request, committed on success, else rolled back.
 
@@ -147,7 +168,7 @@ async def get_session(request: Request) -> AsyncIterator[Session]:
     """
     session = session_factory()()
     try:
-        if request.method not in READ_ONLY_METHODS:
+        if request_writes(request):
             await anyio.to_thread.run_sync(begin_write, session)
         yield session
         with anyio.CancelScope(shield=True):
