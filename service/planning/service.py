@@ -41,6 +41,7 @@ from service.planning.group_plan import (
     GroupPlan,
     PlanCache,
 )
+from service.planning.maintained import fixtures_by_area, group_cleaning_cost, regime_of
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
@@ -189,6 +190,7 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
     per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
     np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
     dominant = kinds[per_kind.argmax(axis=1)] if kinds.size else kinds
+    n_fixtures = fixtures_by_area(pos.area_id, pos.fixture_id)
     by_area: dict[int, list[int]] = {}
     for g in range(ng):
         by_area.setdefault(int(uniq[g, 0]), []).append(g)
@@ -247,6 +249,7 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
                 disposal_fee_per_lamp=fee if mercury else 0.0,
                 energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
                 lamp_watts=model.rated_watts,
+                cleaning_per_position=_cleaning(area, site, over, n_fixtures, n_area),
             )
             cond = Conditions(
                 voltage_v=volts,
@@ -258,6 +261,8 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
                     else area.burnout_ceiling
                 ),
                 rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
+                dirt=regime_of(area),
+                weekly_burn_hours=weekly,
             )
             gp = cache.get(model, costs, cond)
             if over.objective == MEGALUMEN:
@@ -290,6 +295,14 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
             area, site, at, n_area, weekly, basis, last_at, pos.source, groups
         )
     return [plans[a.id] for a in areas]
+
+
+def _cleaning(
+    area: Area, site: Site, over: PlanOverrides, n_fixtures: Mapping[int, int], n_area: int
+) -> float:
+    """Cleaning labour per position of the area's group visit (planning/maintained.py)."""
+    rate = _pick(over.labour_rate_per_h, site.labour_rate_per_h)
+    return group_cleaning_cost(area, rate, n_fixtures.get(area.id, 0), max(n_area, 1))
 
 
 def _pick(value: float | None, default: float) -> float:

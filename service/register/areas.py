@@ -19,6 +19,10 @@ NOT_NULL = (
     "spot_minutes_per_lamp",
     "equipment_hire_per_visit",
     "starts_per_day",
+    "luminaire_type",
+    "dirt_environment",
+    "relamp_includes_cleaning",
+    "cleaning_minutes_per_fixture",
 )
 
 
