@@ -16,6 +16,9 @@ lamp's voltage response follows its fixture's ballast kind, see catalogue.resolv
   the maintained light (reliability/dirt.maintained_light, the one definition plans use
   too): lamp lumen depreciation at the age x the luminaire dirt factor of the area's CIE 97
   regime at the time since cleaning (forecasting/dirt.py) x the voltage light factor;
+- a 90 % range for the count of burning lamps that burn out within the horizon
+  (burnouts_low/high): Poisson-binomial over positions plus the life curves' parameter
+  uncertainty by the delta method (forecasting/ranges.py, reliability/uncertainty.py);
 - per area, the dates it crosses its light floor (mean lumen fraction of its lamps, burnouts
   spot-replaced, falls below Area.light_floor) and its burnout ceiling (share of positions
   whose current lamp has burned out if none were replaced, 1 - mean S(age + t), rises above
@@ -39,6 +42,7 @@ from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
 from service.forecasting.dirt import PositionDirt, no_dirt, position_dirt
 from service.forecasting.fit import load_fitted_types
+from service.forecasting.ranges import ParamSpread, param_spread
 from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
@@ -67,6 +71,7 @@ class PositionForecast:
     horizon_h: FloatArray
     type_row: IntArray  # each position's row in the type table (found once per forecast)
     dirt: PositionDirt  # each position's luminaire dirt regime (forecasting/dirt.py)
+    spread: ParamSpread  # gradients and parameter spreads for burnout ranges (ranges.py)
 
 
 @dataclass(frozen=True)
@@ -86,6 +91,8 @@ class Summary:
     voltage_warnings: int
     switching_warnings: int
     supply_faults: int = 0  # discharge lamps below their ballast's band: no life credit
+    burnouts_low: int = 0  # 90 % range of expected_failures_no_replacement (ranges.py)
+    burnouts_high: int = 0
 
 
 @dataclass(frozen=True)
@@ -152,6 +159,9 @@ def evaluate_positions(
         horizon_h=horizon_h,
         type_row=k,
         dirt=dirt,
+        spread=param_spread(
+            types, ages.lamp_type_id, k, res.effective_age_h, horizon_h, res.scale_h
+        ),
     )
 
 
@@ -165,6 +175,10 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         return float(x.mean()) if x.size else 0.0
 
     p_fail = pf.p_fail[sel]
+    live = np.zeros(pf.ages.size, dtype=bool)
+    live[sel] = True
+    live &= ~pf.ages.burned_out
+    rng = pf.spread.count(pf.p_fail, live)
     return Summary(
         positions=n,
         burning=nb,
@@ -179,6 +193,8 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         voltage_warnings=int(pf.fleet.warn_voltage[sel].sum()),
         switching_warnings=int(pf.fleet.warn_switching[sel].sum()),
         supply_faults=int(pf.fleet.warn_supply_fault[sel].sum()),
+        burnouts_low=rng.low,
+        burnouts_high=rng.high,
     )
 
 
