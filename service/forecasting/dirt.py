@@ -35,22 +35,25 @@ _S_PER_YEAR = 365.25 * 86400.0
 
 @dataclass(frozen=True)
 class PositionDirt:
-    """Per-position dirt inputs: table column, years since cleaning now, interval, years/hour."""
+    """Per-position dirt inputs: area table columns, years since cleaning, interval, years/h."""
 
-    columns: FloatArray  # (n, 6) LMF at the table's years, of the position's area
-    cleaned_ago_y: FloatArray  # years since the area's luminaires were cleaned, now
+    columns: FloatArray  # (areas, 6) LMF at the table's years, per area
+    area_row: IntArray  # each position's row in columns
+    cleaned_ago_y: FloatArray  # years since the position's luminaire was cleaned, now
     interval_y: FloatArray  # years between cleanings (NaN: none scheduled)
     years_per_burn_h: FloatArray  # calendar years per burn hour at the area's rate (0: none)
 
     def factor(self, hours_ahead: FloatArray | float) -> FloatArray:
         """Each position's luminaire maintenance factor `hours_ahead` burn hours from now."""
         t = self.cleaned_ago_y + np.asarray(hours_ahead, dtype=np.float64) * self.years_per_burn_h
-        return lmf_interp(self.columns, years_since_cleaning(t, self.interval_y))
+        return lmf_interp(self.columns, years_since_cleaning(t, self.interval_y), self.area_row)
 
 
 def no_dirt(n: int) -> PositionDirt:
     """Clean luminaires throughout (LMF 1): positions of no known area."""
-    return PositionDirt(np.ones((n, 6)), np.zeros(n), np.full(n, np.nan), np.zeros(n))
+    return PositionDirt(
+        np.ones((1, 6)), np.zeros(n, np.int64), np.zeros(n), np.full(n, np.nan), np.zeros(n)
+    )
 
 
 def position_dirt(session: Session, ages: PositionAges, at: datetime) -> PositionDirt:
@@ -77,7 +80,7 @@ def position_dirt(session: Session, ages: PositionAges, at: datetime) -> Positio
     group = np.asarray(group).ravel()
     y_per_h = _years_per_burn_hour(ages.burn_h_per_week)
     cleaned = _cleaned_ago(ordered, interval, group, ages.age_h * y_per_h, at)
-    return PositionDirt(cols[group], cleaned, interval[group], y_per_h)
+    return PositionDirt(cols, group, cleaned, interval[group], y_per_h)
 
 
 def _years_per_burn_hour(rate_h_per_week: FloatArray) -> FloatArray:

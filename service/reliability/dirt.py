@@ -43,6 +43,9 @@ LUMINAIRE_TYPES: dict[str, str] = {
 ENVIRONMENTS: tuple[str, ...] = ("very_clean", "clean", "normal", "dirty")
 TABLE_YEARS: FloatArray = np.array([0.5, 1.0, 1.5, 2.0, 2.5, 3.0])  # years between cleanings
 LMF_FLOOR = 0.3  # lowest factor an extrapolation past the table may reach (ours)
+_XS: FloatArray = np.concatenate(([0.0], TABLE_YEARS))  # years, with the clean point at 0
+_STEP_Y = 0.5  # years between the table's columns (and from 0 to the first)
+assert np.allclose(np.diff(_XS), _STEP_Y)
 
 # LMF[type][row = TABLE_YEARS, column = ENVIRONMENTS]. RECALLED FROM MEMORY of CIE 97:2005.
 LMF_TABLE: dict[str, FloatArray] = {
@@ -135,18 +138,25 @@ def lmf_columns(luminaire_types: list[str], environments: list[str]) -> FloatArr
     ).reshape(len(luminaire_types), TABLE_YEARS.size)
 
 
-def lmf_interp(columns: ArrayLike, years_since_cleaning: ArrayLike) -> FloatArray:
-    """LMF per row: row i's column (..., 6) interpolated at t_i, from 1 at t = 0."""
+def lmf_interp(
+    columns: ArrayLike, years_since_cleaning: ArrayLike, rows: ArrayLike | None = None
+) -> FloatArray:
+    """LMF at t, from 1 at t = 0: columns (..., 6) aligned with t, or (m, 6) picked by rows."""
     t = np.asarray(years_since_cleaning, dtype=np.float64)
     if np.any(t < 0) or np.any(~np.isfinite(t)):
         raise ValueError("years since cleaning must be finite and >= 0")
     cols = np.asarray(columns, dtype=np.float64)
-    xs = np.concatenate(([0.0], TABLE_YEARS))
+    xs = _XS
     ys = np.concatenate((np.ones((*cols.shape[:-1], 1)), cols), axis=-1)
-    j = np.clip(np.searchsorted(xs, t, side="right") - 1, 0, xs.size - 2)
+    # The table's years are evenly spaced (0.5 y): the segment is floor(t / step), no search.
+    j = np.minimum((t * (1.0 / _STEP_Y)).astype(np.intp), xs.size - 2)
     x0, x1 = xs[j], xs[j + 1]
-    y0 = np.take_along_axis(ys, j[..., None], axis=-1)[..., 0]
-    y1 = np.take_along_axis(ys, (j + 1)[..., None], axis=-1)[..., 0]
+    if rows is not None:
+        r = np.asarray(rows, dtype=np.intp)
+        y0, y1 = ys[r, j], ys[r, j + 1]
+    else:
+        y0 = np.take_along_axis(ys, j[..., None], axis=-1)[..., 0]
+        y1 = np.take_along_axis(ys, (j + 1)[..., None], axis=-1)[..., 0]
     # Linear between table points; past the end the last segment's slope continues.
     out = y0 + (y1 - y0) * (t - x0) / (x1 - x0)
     return np.maximum(out, LMF_FLOOR)
@@ -165,8 +175,10 @@ def years_since_cleaning(
     i = np.asarray(np.nan if cleaning_interval_years is None else cleaning_interval_years, float)
     if np.any(i <= 0):
         raise ValueError("cleaning interval must be positive years")
-    safe = np.where(np.isnan(i), 1.0, i)
-    return np.where(np.isnan(i), t, np.mod(t, safe))
+    none = np.isnan(i)
+    safe = np.where(none, 1.0, i)
+    # t mod I as t - I floor(t / I) (t >= 0); no interval leaves t.
+    return np.where(none, t, t - safe * np.floor(t / safe))
 
 
 def maintained_light(
