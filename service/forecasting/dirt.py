@@ -16,6 +16,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import NDArray
@@ -33,7 +34,7 @@ WEEKS_PER_YEAR = 365.25 / 7.0
 _S_PER_YEAR = 365.25 * 86400.0
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class PositionDirt:
     """Per-position dirt inputs: area table columns, years since cleaning, interval, years/h."""
 
@@ -47,6 +48,36 @@ class PositionDirt:
         """Each position's luminaire maintenance factor `hours_ahead` burn hours from now."""
         t = self.cleaned_ago_y + np.asarray(hours_ahead, dtype=np.float64) * self.years_per_burn_h
         return lmf_interp(self.columns, years_since_cleaning(t, self.interval_y), self.area_row)
+
+    def factor_by_area(self, hours_ahead_by_area: FloatArray) -> FloatArray:
+        """Per position, with hours ahead given per area row (computed once per area if it can)."""
+        per_area = self._per_area
+        if per_area is None:
+            return self.factor(hours_ahead_by_area[self.area_row])
+        ago, interval, y_per_h = per_area
+        t = ago + hours_ahead_by_area * y_per_h
+        rows = np.arange(self.columns.shape[0])
+        lmf = lmf_interp(self.columns, years_since_cleaning(t, interval), rows)
+        return lmf[self.area_row]
+
+    @cached_property
+    def _per_area(self) -> tuple[FloatArray, FloatArray, FloatArray] | None:
+        """(years since cleaning, interval, years per burn hour) per area, if uniform in each."""
+        n_g = self.columns.shape[0]
+        if self.area_row.size == 0:
+            return None
+        first = np.full(n_g, -1, dtype=np.int64)
+        first[self.area_row[::-1]] = np.arange(self.area_row.size)[::-1]
+        if np.any(first < 0):
+            return None
+        out = []
+        for arr in (self.cleaned_ago_y, self.interval_y, self.years_per_burn_h):
+            area_val = arr[first]
+            same = np.isclose(arr, area_val[self.area_row], equal_nan=True, rtol=0, atol=0)
+            if not bool(same.all()):
+                return None
+            out.append(area_val)
+        return out[0], out[1], out[2]
 
 
 def no_dirt(n: int) -> PositionDirt:

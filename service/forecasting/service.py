@@ -199,9 +199,13 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
 
 
 def _light_at(
-    pf: PositionForecast, types: TypeTable, tau: FloatArray, by_row: list[tuple[int, IntArray]]
+    pf: PositionForecast,
+    types: TypeTable,
+    tau: FloatArray,
+    by_row: list[tuple[int, IntArray]],
+    dirt: FloatArray,
 ) -> FloatArray:
-    """Maintained light of each position tau burn hours ahead (dark: new lamp; with dirt)."""
+    """Maintained light of each position tau burn hours ahead (dark: new lamp), dirt given."""
     age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
     worn = pf.fleet.effective_age_h + tau  # filament curves follow the life used (exposure)
     out = np.empty(age.size)
@@ -211,7 +215,7 @@ def _light_at(
             out[idx] = curve.at(worn[idx], pf.fleet.life_h[idx])
         else:
             out[idx] = curve.at(age[idx], None)
-    return maintained_light(out, pf.fleet.light_factor, pf.dirt.factor(tau))
+    return maintained_light(out, pf.fleet.light_factor, dirt)
 
 
 def _burned_share_at(pf: PositionForecast, beta: FloatArray, tau: FloatArray) -> FloatArray:
@@ -247,7 +251,7 @@ def _crossings(
     def metric(tau_g: FloatArray) -> FloatArray:
         tau = tau_g[group]
         if kind == "light":
-            vals = _light_at(pf, types, tau, by_row)
+            vals = _light_at(pf, types, tau, by_row, pf.dirt.factor_by_area(tau_g))
         else:
             vals = _burned_share_at(pf, beta, tau)
         return np.bincount(group, weights=vals, minlength=n_groups) / counts

@@ -91,3 +91,23 @@ def test_maintained_light_is_the_product() -> None:
         luminaire_maintenance_factor("enclosed", "muddy", 1.0)
     with pytest.raises(ValueError):
         luminaire_maintenance_factor("enclosed", "clean", -1.0)
+
+
+def test_per_area_shortcut_equals_the_per_position_factor() -> None:
+    from service.forecasting.dirt import PositionDirt  # the forecast's per-position view
+
+    cols = lmf_columns(["enclosed", "dustproof"], ["clean", "dirty"])
+    rows = np.array([0, 1, 1, 0, 1])
+    per_area = PositionDirt(
+        cols,
+        rows,
+        np.array([0.5, 0.2, 0.2, 0.5, 0.2]),
+        np.array([1.0, np.nan, np.nan, 1.0, np.nan]),
+        np.full(5, 1.0 / 3000.0),
+    )
+    hours = np.array([1200.0, 4000.0])
+    assert per_area.factor_by_area(hours) == pytest.approx(per_area.factor(hours[rows]))
+    mixed = PositionDirt(
+        cols, rows, np.array([0.5, 0.2, 0.9, 0.5, 0.2]), np.full(5, np.nan), np.full(5, 1e-4)
+    )
+    assert mixed.factor_by_area(hours) == pytest.approx(mixed.factor(hours[rows]))
