@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 from service.reliability.conditions import switching_life_factor, voltage_effect
 from service.reliability.replacement import plan_block_replacement
 from service.reliability.weibull import Weibull
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)
 # The default linear fluorescent lumen curve's knots (service/reliability/lumen.py, [memory]).
@@ -30,10 +30,10 @@ CIE_97_E_CLEAN = [0.96, 0.94, 0.92, 0.90, 0.88, 0.86]
 
 
 def _area(db: Session, **over: object) -> int:
-    s = b.site(db)
-    lt = b.lamp_type(db, ballast_behaviour="reactor")
-    a = b.area(db, s, **over)
-    b.fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=230.0)
+    s = plan_site(db)
+    lt = plan_lamp_type(db, ballast_behaviour="reactor")
+    a = plan_area(db, s, **over)
+    plan_fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=230.0)
     db.commit()
     return a.id
 
