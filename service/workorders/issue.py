@@ -32,7 +32,7 @@ from service.planning.positions import load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.uploads.write import write_rows
-from service.workorders import stock_hooks
+from service.workorders import choice_hooks, stock_hooks
 from service.workorders.models import (
     OPEN_STATES,
     WorkOrder,
@@ -238,7 +238,8 @@ def issue_orders(
         if ls:
             taken = [r.id for r in per_area.get(aid, []) if r.status == BurnoutReportState.OPEN]
             minutes = areas[aid].group_minutes_per_lamp
-            order = mk(areas[aid], GROUP, due, ls, minutes, _plan_info(plan, types))
+            info = _plan_info(plan, types, session)
+            order = mk(areas[aid], GROUP, due, ls, minutes, info)
             built.append((order, ls, taken))
     grouped = {o["area_id"] for o, _, _ in built}
     if SPOT in kinds:
@@ -293,17 +294,21 @@ def _due_types(
     return out
 
 
-def _plan_info(plan: AreaPlan, types: set[int]) -> dict[str, Any] | None:
+def _plan_info(plan: AreaPlan, types: set[int], session: Session) -> dict[str, Any] | None:
     first = plan.first
     if first is None:
         return None
     p = first.group.plan
-    return {
+    info: dict[str, Any] = {
         "interval_h": p.interval_h,
         "binding": p.binding,
         "group_age_h": first.group_age_h,
         "lamp_types": sorted(types),
     }
+    chosen = choice_hooks.order_choice(session, plan, types)
+    if chosen is not None:
+        info["lamp_choice"] = chosen  # the best option per lamp type (choice_hooks)
+    return info
 
 
 def _group_lines(
@@ -386,6 +391,9 @@ def _write(
         if o["kind"] == GROUP:
             groups.setdefault(o["area_id"], oid)  # one group order per area and run
         result.created.append((oid, o["area_id"], o["kind"]))
+    choice_hooks.record_choices(
+        session, [(oid, o["plan"]) for oid, (o, _, _) in zip(ids, built, strict=True)]
+    )
     # One UPDATE for every area, not one per group order (one crew visit, not two).
     cover_spot_orders(session, groups, at)
 

@@ -1,7 +1,7 @@
 """maintained light - luminaire dirt and cleaning per area
 
-Revision ID: 0015
-Revises: 0014
+Revision ID: 0017
+Revises: 0016
 Create Date: 2026-12-03
 
 Areas get what the luminaire maintenance factor needs (service/reliability/dirt.py, CIE
@@ -20,8 +20,8 @@ from typing import Any
 import sqlalchemy as sa
 from alembic import op
 
-revision: str = "0015"
-down_revision: str | None = "0014"
+revision: str = "0017"
+down_revision: str | None = "0016"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
