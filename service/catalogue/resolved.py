@@ -47,6 +47,8 @@ class CurveInUse:
     weight: float = 0.0  # credibility Z of the field data (0 = catalogue alone)
     scale_bounds_h: tuple[float, float] | None = None  # the scale's bounds at `confidence`
     confidence: float = 0.90
+    # The shape's bounds at `confidence` when the field fit's shape is used as it is ("field").
+    shape_bounds: tuple[float, float] | None = None
 
 
 def with_ballast(model: LampModel, ballast: str) -> LampModel:

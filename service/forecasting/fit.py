@@ -153,6 +153,7 @@ def fit_field(
         weight=blended.weight,
         scale_bounds_h=blended.scale_bounds,
         confidence=blended.confidence,
+        shape_bounds=field_est.shape_bounds if blended.name == "field" and field_est else None,
     )
     return FieldFit(data, mle, mle_error, wb, km, choice, curve)
 

@@ -44,10 +44,17 @@ At = Annotated[Timestamp | None, Query(description="Moment to forecast from (def
 METHOD = (
     "Survival S(age) per lamp; P(fail within horizon) = 1 - S(age+w)/S(age); expected "
     "burnouts with spot replacement by per-position delayed renewal from the current age; "
-    "lumen fraction = lamp lumen depreciation x voltage light factor; dark positions count "
+    "lumen fraction = maintained light: lamp lumen depreciation x luminaire dirt factor "
+    "(CIE 97:2005 luminaire maintenance factor by the area's luminaire type, environment and "
+    "time since cleaning) x voltage light factor; dark positions count "
     "as new lamps going in now. Light floor date: mean lumen fraction (burnouts replaced) "
     "falls below the floor; burnout ceiling date: share of current lamps burned out (none "
-    "replaced) reaches the ceiling. Dates in the site's time zone."
+    "replaced) reaches the ceiling. Dates in the site's time zone. burnouts_low/high: "
+    "central 90 % range of expected_failures_no_replacement (lamps now burning that burn "
+    "out within the horizon): variance = Poisson-binomial sum p(1-p) over positions + "
+    "delta-method variance of sum p from each lamp type's life-curve parameter uncertainty "
+    "(scale from the curve's bounds, or the catalogue prior ln 1.5/1.645; shape only where "
+    "the field shape is used as it is; correlation 0), continuity-corrected normal interval."
 )
 
 

@@ -38,6 +38,12 @@ class SummaryRead(BaseModel):
     supply_faults: int = Field(
         0, description="Discharge lamps below their ballast's voltage band (a supply fault)."
     )
+    burnouts_low: int = Field(
+        0, description="Lower end of the 90 % range of expected_failures_no_replacement."
+    )
+    burnouts_high: int = Field(
+        0, description="Upper end of that range (method: the forecast's `method` text)."
+    )
 
 
 class AreaForecastRead(BaseModel):

@@ -13,7 +13,12 @@ lamp's voltage response follows its fixture's ballast kind, see catalogue.resolv
   from the lamp's current age (forecasting.spot_replacements); a dark position counts as a new lamp
   going in now;
 - lumen fraction now (dark = 0) and at the horizon end (dark positions relamped), each
-  the lamp lumen depreciation at the age times the voltage light factor;
+  the maintained light (reliability/dirt.maintained_light, the one definition plans use
+  too): lamp lumen depreciation at the age x the luminaire dirt factor of the area's CIE 97
+  regime at the time since cleaning (forecasting/dirt.py) x the voltage light factor;
+- a 90 % range for the count of burning lamps that burn out within the horizon
+  (burnouts_low/high): Poisson-binomial over positions plus the life curves' parameter
+  uncertainty by the delta method (forecasting/ranges.py, reliability/uncertainty.py);
 - per area, the dates it crosses its light floor (mean lumen fraction of its lamps, burnouts
   spot-replaced, falls below Area.light_floor) and its burnout ceiling (share of positions
   whose current lamp has burned out if none were replaced, 1 - mean S(age + t), rises above
@@ -35,10 +40,13 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
+from service.forecasting.dirt import PositionDirt, no_dirt, position_dirt
 from service.forecasting.fit import load_fitted_types
+from service.forecasting.ranges import ParamSpread, param_spread
 from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
+from service.reliability.dirt import maintained_light
 from service.reliability.fleet import FleetResult, evaluate_fleet
 
 FloatArray = NDArray[np.float64]
@@ -62,6 +70,8 @@ class PositionForecast:
     lumen_end: FloatArray
     horizon_h: FloatArray
     type_row: IntArray  # each position's row in the type table (found once per forecast)
+    dirt: PositionDirt  # each position's luminaire dirt regime (forecasting/dirt.py)
+    spread: ParamSpread  # gradients and parameter spreads for burnout ranges (ranges.py)
 
 
 @dataclass(frozen=True)
@@ -81,6 +91,8 @@ class Summary:
     voltage_warnings: int
     switching_warnings: int
     supply_faults: int = 0  # discharge lamps below their ballast's band: no life credit
+    burnouts_low: int = 0  # 90 % range of expected_failures_no_replacement (ranges.py)
+    burnouts_high: int = 0
 
 
 @dataclass(frozen=True)
@@ -112,13 +124,17 @@ class Forecast:
 
 
 def evaluate_positions(
-    ages: PositionAges, types: TypeTable, horizon_weeks: float
+    ages: PositionAges,
+    types: TypeTable,
+    horizon_weeks: float,
+    dirt: PositionDirt | None = None,
 ) -> PositionForecast:
     """Run the numeric core over positions (dark positions as new lamps going in now)."""
     k = types.index(ages.lamp_type_id, ages.ballast_kind)
     dark = ages.burned_out
     age = np.where(dark, 0.0, ages.age_h)
     horizon_h = horizon_weeks * ages.burn_h_per_week
+    dirt = dirt if dirt is not None else no_dirt(ages.size)
     # Wear accumulated over the past supply (cumulative exposure); dark = a new lamp now.
     res = evaluate_fleet(
         types.table,
@@ -128,6 +144,8 @@ def evaluate_positions(
         ages.hours_per_start,
         horizon_h,
         history=ages.history.drop_rows(dark),
+        luminaire_factor=dirt.factor(0.0),
+        luminaire_factor_end=dirt.factor(horizon_h),
     )
     ahead = expected_replacements(types.table.shape, k, res.scale_h, res.effective_age_h, horizon_h)
     return PositionForecast(
@@ -140,6 +158,10 @@ def evaluate_positions(
         lumen_end=res.lumen_fraction_end,
         horizon_h=horizon_h,
         type_row=k,
+        dirt=dirt,
+        spread=param_spread(
+            types, ages.lamp_type_id, k, res.effective_age_h, horizon_h, res.scale_h
+        ),
     )
 
 
@@ -153,6 +175,10 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         return float(x.mean()) if x.size else 0.0
 
     p_fail = pf.p_fail[sel]
+    live = np.zeros(pf.ages.size, dtype=bool)
+    live[sel] = True
+    live &= ~pf.ages.burned_out
+    rng = pf.spread.count(pf.p_fail, live)
     return Summary(
         positions=n,
         burning=nb,
@@ -167,13 +193,19 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         voltage_warnings=int(pf.fleet.warn_voltage[sel].sum()),
         switching_warnings=int(pf.fleet.warn_switching[sel].sum()),
         supply_faults=int(pf.fleet.warn_supply_fault[sel].sum()),
+        burnouts_low=rng.low,
+        burnouts_high=rng.high,
     )
 
 
 def _light_at(
-    pf: PositionForecast, types: TypeTable, tau: FloatArray, by_row: list[tuple[int, IntArray]]
+    pf: PositionForecast,
+    types: TypeTable,
+    tau: FloatArray,
+    by_row: list[tuple[int, IntArray]],
+    dirt: FloatArray,
 ) -> FloatArray:
-    """Lumen fraction of each position's lamp tau burn hours ahead (dark: new lamp)."""
+    """Maintained light of each position tau burn hours ahead (dark: new lamp), dirt given."""
     age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
     worn = pf.fleet.effective_age_h + tau  # filament curves follow the life used (exposure)
     out = np.empty(age.size)
@@ -183,7 +215,7 @@ def _light_at(
             out[idx] = curve.at(worn[idx], pf.fleet.life_h[idx])
         else:
             out[idx] = curve.at(age[idx], None)
-    return out * pf.fleet.light_factor
+    return maintained_light(out, pf.fleet.light_factor, dirt)
 
 
 def _burned_share_at(pf: PositionForecast, beta: FloatArray, tau: FloatArray) -> FloatArray:
@@ -219,7 +251,7 @@ def _crossings(
     def metric(tau_g: FloatArray) -> FloatArray:
         tau = tau_g[group]
         if kind == "light":
-            vals = _light_at(pf, types, tau, by_row)
+            vals = _light_at(pf, types, tau, by_row, pf.dirt.factor_by_area(tau_g))
         else:
             vals = _burned_share_at(pf, beta, tau)
         return np.bincount(group, weights=vals, minlength=n_groups) / counts
@@ -272,7 +304,7 @@ def forecast(
     types = load_fitted_types(
         session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind
     )
-    pf = evaluate_positions(ages, types, horizon_weeks)
+    pf = evaluate_positions(ages, types, horizon_weeks, position_dirt(session, ages, at))
     curves = {int(i): c for i, c in zip(types.ids.tolist(), types.curves, strict=True)}
 
     area_ids, group = np.unique(ages.area_id, return_inverse=True)

@@ -14,8 +14,10 @@ delivered megalumen-hour, which energy and light loss do change, is planning/ene
 Life: the lamp model's Weibull (shape, scale at rated volts and cycle) scaled by the voltage
 life factor (conditions.voltage_effect) and the switching factor
 (conditions.switching_life_factor): accelerated-failure-time scaling, shape unchanged.
-Light floor hours: first burn hours at which the lamp lumen depreciation curve falls to the
-floor (fraction of the lamp's own initial light). Rupture cap (lamps with rupture risk):
+Light floor hours: first burn hours at which maintained light (planning/maintained.py: lamp
+lumen depreciation x luminaire dirt x voltage light factor, the forecasts' definition) falls
+to the floor (fraction of rated initial light). A group visit that cleans adds the cleaning
+labour per position to c_group. Rupture cap (lamps with rupture risk):
 fraction x min(rated life, rated life x life factor): at or before rated life even when a
 low supply voltage stretches life, 0.7 by default [practice: common practice].
 """
@@ -31,6 +33,7 @@ from typing import Any
 import numpy as np
 
 from service.catalogue.lamp_model import LampModel
+from service.planning.maintained import floor_hours
 from service.reliability.block_batch import ScaledProblems, plan_block_replacement_scaled
 from service.reliability.conditions import (
     VoltageEffect,
@@ -39,6 +42,7 @@ from service.reliability.conditions import (
     voltage_effect,
     voltage_model,
 )
+from service.reliability.dirt import DirtRegime
 from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.replacement import BlockPlan, plan_block_replacement
 from service.reliability.weibull import Weibull
@@ -63,6 +67,13 @@ class CostInputs:
     disposal_fee_per_lamp: float  # charged only for mercury lamps
     energy_price_per_kwh: float
     lamp_watts: float  # rated lamp watts (the plan scales them by GroupPlan.power_factor)
+    cleaning_labour_per_position: float = 0.0  # cleaning the area's fixtures, per position
+    relamp_cleans: bool = False  # whether the group visit includes that cleaning
+
+    @property
+    def cleaning_per_position(self) -> float:
+        """Cleaning labour in c_group: only when the group visit includes cleaning."""
+        return self.cleaning_labour_per_position if self.relamp_cleans else 0.0
 
     @property
     def group_labour(self) -> float:
@@ -87,9 +98,9 @@ class CostInputs:
     @property
     def c_group(self) -> float:
         """Cost per position of a group relamp."""
-        return (
-            self.lamp_price + self.group_labour + self.group_equipment_share
-        ) + self.disposal_fee_per_lamp
+        return (self.lamp_price + self.group_labour + self.group_equipment_share) + (
+            self.disposal_fee_per_lamp + self.cleaning_per_position
+        )
 
     @property
     def c_spot(self) -> float:
@@ -110,6 +121,8 @@ class Conditions:
     light_floor: float | None  # fraction of initial light
     burnout_ceiling: float | None  # share of positions
     rupture_fraction: float  # fraction of rated life (used only with rupture risk)
+    dirt: DirtRegime | None = None  # luminaire dirt and cleaning (None: clean luminaires)
+    weekly_burn_hours: float = 0.0  # turns burn hours into calendar time for the dirt
 
 
 @dataclass(frozen=True)
@@ -131,21 +144,17 @@ class GroupPlan:
     cost_plan: BlockPlan | None = None  # the cost objective's plan, when another one chose
 
 
-def light_floor_hours(model: LampModel, life: Weibull, floor: float, horizon_h: float) -> float:
-    """Burn hours at which lumen depreciation first reaches the floor (inf if never)."""
-    t = np.linspace(0.0, horizon_h, 4001)
-    life_h = life.scale * _LN2 ** (1.0 / life.shape)  # effective B50, for rated-life curves
-    lld = model.lumen_curve.at(t, life_h if model.lumen_curve.basis != "hours" else None)
-    below = np.nonzero(lld <= floor)[0]
-    if below.size == 0:
-        return math.inf
-    k = int(below[0])
-    if k == 0:
-        return float(t[1])
-    # Linear interpolation between the grid points either side of the crossing.
-    f0, f1 = float(lld[k - 1]), float(lld[k])
-    x = (f0 - floor) / (f0 - f1) if f0 != f1 else 1.0
-    return float(t[k - 1] + x * (t[k] - t[k - 1]))
+def light_floor_hours(
+    model: LampModel,
+    life: Weibull,
+    floor: float,
+    horizon_h: float,
+    light_factor: float = 1.0,
+    dirt: DirtRegime | None = None,
+    weekly_h: float = 0.0,
+) -> float:
+    """Burn hours at which maintained light first reaches the floor (inf if never)."""
+    return floor_hours(model, life, floor, horizon_h, light_factor, dirt, weekly_h)
 
 
 def scaled_life(
@@ -227,7 +236,15 @@ def _prepared(
     horizon = HORIZON_MEANS * mean_h
     floor_h = None
     if cond.light_floor is not None:
-        h = light_floor_hours(model, life, cond.light_floor, horizon)
+        h = light_floor_hours(
+            model,
+            life,
+            cond.light_floor,
+            horizon,
+            ve.light_factor,
+            cond.dirt,
+            cond.weekly_burn_hours,
+        )
         floor_h = h if math.isfinite(h) else None
     cap_h = None
     if model.rupture_risk:

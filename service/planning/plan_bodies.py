@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from service.planning.energy import EnergyView
+from service.planning.light_bodies import bounds_read, maintained_read
 from service.planning.schemas import AreaPlanRead, EnergyViewRead, LampTypePlan, PlanInputs
 from service.planning.service import WEEKS_PER_YEAR, AreaPlan, TypeGroup
 
@@ -95,6 +96,8 @@ def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
         objective=gp.objective,
         energy_view=_energy(g, per_year_h),
         energy_view_omitted=g.energy if isinstance(g.energy, str) else None,
+        maintained_light=maintained_read(g),
+        fit_bounds=bounds_read(g, per_year_h),
     )
 
 

@@ -123,6 +123,49 @@ class EnergyViewRead(BaseModel):
     note: str | None = Field(description="Set when the best interval differs from the cost one.")
 
 
+class CleaningOnlyRead(BaseModel):
+    """A cleaning visit without relamping at mid-interval: the light it gives back, its cost."""
+
+    at_h: float = Field(description="Burn hours into the group cycle (half the interval).")
+    light_before: float = Field(description="Maintained light per position before cleaning.")
+    light_after: float
+    light_gain: float = Field(description="Fraction of rated initial light given back.")
+    cost_per_visit: float = Field(description="Cleaning labour of all fixtures + one hire.")
+    cost_per_position: float
+
+
+class MaintainedLightRead(BaseModel):
+    """Maintained light = lamp lumen depreciation x luminaire dirt x voltage light factor."""
+
+    luminaire_type: str | None
+    dirt_environment: str | None
+    cleaning_interval_months: float | None
+    relamp_includes_cleaning: bool
+    source: str = Field(description="The luminaire maintenance factor table followed.")
+    voltage_light_factor: float
+    light_at_interval: float | None = Field(
+        description="Maintained light just before the group relamp (null: spot only)."
+    )
+    cleaning_labour_per_position: float = Field(
+        description="Cleaning the area's fixtures, per position (in c_group when the relamp cleans)."
+    )
+    cleaning_only: CleaningOnlyRead | None
+
+
+class FitBoundsRead(BaseModel):
+    """How the interval and saving move across the life curve's scale bounds (shape held)."""
+
+    confidence: float
+    basis: str
+    scale_bounds_h: tuple[float, float]
+    interval_h_at_lower: float | None
+    interval_h_at_upper: float | None
+    binding_at_lower: str
+    binding_at_upper: str
+    yearly_saving_at_lower: float
+    yearly_saving_at_upper: float
+
+
 class LampTypePlan(BaseModel):
     """The group plan for one lamp type in an area."""
 
@@ -152,6 +195,8 @@ class LampTypePlan(BaseModel):
         description="Energy and cost per megalumen-hour; null with energy_view_omitted."
     )
     energy_view_omitted: str | None = None
+    maintained_light: MaintainedLightRead | None = None
+    fit_bounds: FitBoundsRead | None = None
 
 
 class AreaPlanRead(BaseModel):

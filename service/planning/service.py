@@ -42,6 +42,11 @@ from service.planning.group_plan import (
     GroupPlan,
     PlanCache,
 )
+from service.planning.maintained import (
+    cleaning_labour_per_position,
+    fixtures_by_area,
+    regime_of,
+)
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
@@ -220,10 +225,16 @@ class AreaBasis:
     basis: str  # "override" | "last_group_relamp" | "mean_position_age"
     last_at: datetime | None
     positions: int
+    fixtures: int = 0  # distinct fixtures among the area's positions (for cleaning labour)
 
 
 def area_basis(
-    area: Area, gidx: list[int], sums: GroupSums, over: PlanOverrides, last_at: datetime | None
+    area: Area,
+    gidx: list[int],
+    sums: GroupSums,
+    over: PlanOverrides,
+    last_at: datetime | None,
+    fixtures: int = 0,
 ) -> AreaBasis:
     """The area's weekly burn hours (schedule, else measured, else override) and age basis."""
     n_area = int(sum(int(sums.count[g]) for g in gidx))
@@ -238,7 +249,9 @@ def area_basis(
         basis = "last_group_relamp"
     else:
         basis = "mean_position_age"
-    return AreaBasis(weekly=weekly, basis=basis, last_at=last_at, positions=n_area)
+    return AreaBasis(
+        weekly=weekly, basis=basis, last_at=last_at, positions=n_area, fixtures=fixtures
+    )
 
 
 def group_conditions(
@@ -287,6 +300,8 @@ def group_inputs(
         disposal_fee_per_lamp=fee if model.contains_mercury else 0.0,
         energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
         lamp_watts=model.rated_watts,
+        relamp_cleans=area.relamp_includes_cleaning,
+        cleaning_labour_per_position=_cleaning(area, site, over, ab.fixtures, ab.positions),
     )
     cond = Conditions(
         voltage_v=volts,
@@ -296,6 +311,8 @@ def group_inputs(
             over.burnout_ceiling if over.burnout_ceiling is not None else area.burnout_ceiling
         ),
         rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
+        dirt=regime_of(area),
+        weekly_burn_hours=ab.weekly,
     )
     return costs, cond
 
@@ -419,8 +436,11 @@ def pending_plans(inp: PlanInputs, over: PlanOverrides) -> SitePending:
     """Group sums, area bases and every group's inputs (pure)."""
     sums = group_sums(inp.pos, inp.ballast)
     by_area = sums.by_area()
+    n_fix = fixtures_by_area(inp.pos.area_id, inp.pos.fixture_id)
     bases = {
-        a.id: area_basis(a, by_area.get(a.id, []), sums, over, inp.last_relamps.get(a.id))
+        a.id: area_basis(
+            a, by_area.get(a.id, []), sums, over, inp.last_relamps.get(a.id), n_fix.get(a.id, 0)
+        )
         for a in inp.areas
     }
     pending = _pending(inp.site, inp.areas, sums, bases, inp.models, over)
@@ -478,6 +498,13 @@ def compute_plans(inp: PlanInputs, over: PlanOverrides, cache: PlanCache) -> lis
     """The area plans from loaded inputs (pure: no database); one bulk interval search."""
     sp = pending_plans(inp, over)
     return assemble_plans(sp, cache.get_many(sp.items()), over)
+
+
+def _cleaning(area: Area, site: Site, over: PlanOverrides, fixtures: int, positions: int) -> float:
+    """Cleaning labour per position of the area's group visit (planning/maintained.py)."""
+    rate = _pick(over.labour_rate_per_h, site.labour_rate_per_h)
+    minutes = area.cleaning_minutes_per_fixture
+    return cleaning_labour_per_position(minutes, rate, fixtures, positions)
 
 
 def _pick(value: float | None, default: float) -> float:

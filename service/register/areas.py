@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from sqlalchemy import null
 from sqlalchemy.orm import Session
 
 from service.api.errors import Conflict, Invalid, NotFound
@@ -19,6 +20,10 @@ NOT_NULL = (
     "spot_minutes_per_lamp",
     "equipment_hire_per_visit",
     "starts_per_day",
+    "luminaire_type",
+    "dirt_environment",
+    "relamp_includes_cleaning",
+    "cleaning_minutes_per_fixture",
 )
 
 
@@ -45,7 +50,11 @@ def create_area(session: Session, body: AreaCreate) -> Area:
     refuse_retired("site", "site_id", _site_for(session, body.site_id))
     if repo.area_name_taken(session, body.site_id, body.name):
         raise Conflict(f"The site already has an area named '{body.name}'.", field="name")
-    area = Area(**body.model_dump())
+    values = body.model_dump()
+    if values["cleaning_interval_months"] is None:
+        # The ORM would put the column default in for a None: NULL (only at relamps) is meant.
+        values["cleaning_interval_months"] = null()
+    area = Area(**values)
     session.add(area)
     session.flush()
     return area

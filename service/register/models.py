@@ -4,7 +4,17 @@ from __future__ import annotations
 
 from datetime import date, datetime
 
-from sqlalchemy import CheckConstraint, Float, ForeignKey, Index, Integer, String, UniqueConstraint
+from sqlalchemy import (
+    Boolean,
+    CheckConstraint,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    String,
+    UniqueConstraint,
+    true,
+)
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from service.db.base import Base, TimestampMixin
@@ -80,6 +90,24 @@ class Area(TimestampMixin, Base):
     starts_per_day: Mapped[float] = mapped_column(Float, default=1.0)
     light_floor: Mapped[float | None] = mapped_column(Float, default=None)  # fraction of initial
     burnout_ceiling: Mapped[float | None] = mapped_column(Float, default=None)  # share of positions
+    # Luminaire dirt (reliability/dirt.py, CIE 97:2005 types and environments) and cleaning.
+    luminaire_type: Mapped[str] = mapped_column(
+        String(24), default="enclosed", server_default="enclosed"
+    )
+    dirt_environment: Mapped[str] = mapped_column(
+        String(12), default="clean", server_default="clean"
+    )
+    # months between cleanings; None: cleaned only at group relamps (when those include it)
+    cleaning_interval_months: Mapped[float | None] = mapped_column(
+        Float, default=12.0, server_default="12"
+    )
+    relamp_includes_cleaning: Mapped[bool] = mapped_column(
+        Boolean, default=True, server_default=true()
+    )
+    cleaning_minutes_per_fixture: Mapped[float] = mapped_column(
+        Float, default=10.0, server_default="10"
+    )
+    last_cleaned_at: Mapped[datetime | None] = mapped_column(default=None)
     # Set when retired: kept with its history, hidden from lists, no new work planned.
     retired_at: Mapped[datetime | None] = mapped_column(default=None)
 

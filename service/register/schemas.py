@@ -25,6 +25,20 @@ Volts = Annotated[float, Field(ge=1, le=1000, description="Volts, in [1, 1000]."
 # Prices and rates in the site currency; the cap keeps cost sums finite.
 Money = Annotated[float, Field(ge=0, le=1_000_000_000)]
 Fraction = Annotated[float, Field(gt=0, lt=1)]
+# CIE 97:2005 luminaire types A-F and environments (service/reliability/dirt.py).
+LuminaireType = Literal[
+    "bare_lamp",
+    "open_top_reflector",
+    "closed_top_reflector",
+    "enclosed",
+    "dustproof",
+    "indirect_uplighter",
+]
+DirtEnvironment = Literal["very_clean", "clean", "normal", "dirty"]
+CleaningMonths = Annotated[
+    float,
+    Field(ge=0.5, le=120, description="Months between luminaire cleanings (null: at relamps)."),
+]
 
 
 def _check_zone(name: str) -> str:
@@ -178,6 +192,16 @@ class AreaFields(BaseModel):
     starts_per_day: float = Field(default=1.0, ge=0, le=1000)
     light_floor: Fraction | None = None
     burnout_ceiling: Fraction | None = None
+    luminaire_type: LuminaireType = Field(
+        default="enclosed", description="CIE 97 luminaire type (A bare lamp ... F uplighter)."
+    )
+    dirt_environment: DirtEnvironment = "clean"
+    cleaning_interval_months: CleaningMonths | None = 12.0
+    relamp_includes_cleaning: bool = True
+    cleaning_minutes_per_fixture: float = Field(default=10.0, ge=0, le=600)
+    last_cleaned_at: Timestamp | None = Field(
+        default=None, description="When the luminaires were last cleaned (without an offset: UTC)."
+    )
 
     @model_validator(mode="after")
     def _schedule_pairs(self) -> AreaFields:
@@ -210,6 +234,12 @@ class AreaUpdate(BaseModel):
     starts_per_day: float | None = Field(default=None, ge=0, le=1000)
     light_floor: Fraction | None = None
     burnout_ceiling: Fraction | None = None
+    luminaire_type: LuminaireType | None = None
+    dirt_environment: DirtEnvironment | None = None
+    cleaning_interval_months: CleaningMonths | None = None
+    relamp_includes_cleaning: bool | None = None
+    cleaning_minutes_per_fixture: float | None = Field(default=None, ge=0, le=600)
+    last_cleaned_at: Timestamp | None = None
 
 
 class AreaRead(AreaFields):

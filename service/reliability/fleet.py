@@ -17,7 +17,9 @@ evaluated per type, by grouping positions with numpy indexing):
   and the horizon adds w / f_now; the switching factor of every segment is the position's;
 - discharge lamps below rated voltage: life factor capped at 1 (conditions.py), and a
   supply-fault flag below the ballast's band (warn_supply_fault);
-- lumen fraction = LLD(a) x voltage light factor; for curves in fractions of rated life the
+- lumen fraction = maintained light (dirt.maintained_light): LLD(a) x luminaire dirt factor
+  (luminaire_factor now, luminaire_factor_end at the horizon end, from the caller; 1 =
+  clean) x voltage light factor; for curves in fractions of rated life the
   life used is the effective B50 life eta_i (ln 2)^(1/beta) (rated life taken as the median);
 - expected failures within the horizon, no replacement: sum of the conditional failure
   probabilities (renewal-based counts are computed elsewhere).
@@ -41,6 +43,7 @@ from service.reliability.conditions import (
     voltage_factors,
     voltage_life_factor,
 )
+from service.reliability.dirt import maintained_light
 from service.reliability.exposure import ExposureHistory, accumulated_exposure
 from service.reliability.lumen import LumenCurve, default_lumen_curve
 from service.reliability.technologies import (
@@ -240,8 +243,8 @@ class FleetResult:
     scale_h: FloatArray  # effective Weibull eta, hours
     survival: FloatArray  # S(age)
     p_fail_horizon: FloatArray  # P(fail within horizon | burning at age)
-    lumen_fraction: FloatArray  # LLD(age) x voltage light factor
-    lumen_fraction_end: FloatArray  # LLD(age + horizon) x voltage light factor
+    lumen_fraction: FloatArray  # LLD(age) x luminaire dirt x voltage light factor
+    lumen_fraction_end: FloatArray  # LLD(age + horizon) x dirt then x voltage light factor
     power_factor: FloatArray  # lamp watts / rated watts
     warn_voltage: BoolArray
     warn_switching: BoolArray
@@ -262,6 +265,8 @@ def evaluate_fleet(
     horizon_h: ArrayLike,
     *,
     history: ExposureHistory | None = None,
+    luminaire_factor: ArrayLike = 1.0,
+    luminaire_factor_end: ArrayLike = 1.0,
 ) -> FleetResult:
     """Evaluate N lamp positions at once (voltage NaN = rated; hours_per_start NaN = rated).
 
@@ -326,8 +331,8 @@ def evaluate_fleet(
         scale_h=eta,
         survival=survival,
         p_fail_horizon=p_fail,
-        lumen_fraction=lld_age * light_v,
-        lumen_fraction_end=lld_end * light_v,
+        lumen_fraction=maintained_light(lld_age, light_v, luminaire_factor),
+        lumen_fraction_end=maintained_light(lld_end, light_v, luminaire_factor_end),
         power_factor=power_v,
         warn_voltage=warn_v,
         warn_switching=warn_sw,

@@ -1,5 +1,8 @@
 """Lamp demand per week: spot replacements as a Poisson-binomial sum, plus group relamps.
 
+The Poisson-binomial arithmetic lives in service/reliability/poisson_binomial.py (one home,
+shared with the forecast's burnout range); this module applies it to weekly demand.
+
 Each position j contributes, in week i, a replacement with probability p_ij: the increase
 of its expected replacements (per-position delayed renewal, forecasting.spot_replacements) over the
 week, clipped to [0, 1] (a lamp failing twice inside one week is negligible next to lamp
@@ -22,54 +25,23 @@ new lamp from week g on.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.special import ndtri
+
+from service.reliability.poisson_binomial import (
+    EXACT_MAX,
+    pmf_dft,
+    quantile,
+    quantile_exact,
+    quantile_normal,
+)
+
+__all__ = ["EXACT_MAX", "pmf_dft", "quantile", "quantile_exact", "quantile_normal"]
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
-
-EXACT_MAX = 400  # positions up to which the quantile is exact (DFT: O(n^2) work)
-
-
-def pmf_dft(p: FloatArray) -> FloatArray:
-    """Poisson-binomial pmf of sum of Bernoulli(p_j), by the DFT of its characteristic function."""
-    p = np.clip(np.asarray(p, dtype=float), 0.0, 1.0)
-    n = p.size
-    if n == 0:
-        return np.ones(1)
-    w = 2.0 * np.pi / (n + 1)
-    l_idx = np.arange(n + 1)
-    # log of each factor, summed: a product of hundreds of complex numbers stays finite.
-    factors = 1.0 - p[None, :] + p[None, :] * np.exp(1j * w * l_idx[:, None])
-    z = np.exp(np.sum(np.log(factors), axis=1))
-    pmf = np.fft.fft(z).real / (n + 1)
-    return np.clip(pmf, 0.0, 1.0)
-
-
-def quantile_exact(p: FloatArray, level: float) -> int:
-    """Smallest k with P(K <= k) >= level (exact pmf)."""
-    cdf = np.cumsum(pmf_dft(p))
-    k = int(np.searchsorted(cdf, level - 1e-12))
-    return min(k, int(p.size))
-
-
-def quantile_normal(mean: float, var: float, level: float, n_max: float = math.inf) -> int:
-    """Continuity-corrected normal quantile of a count, within [0, n_max]."""
-    if var <= 0:
-        return int(min(max(math.ceil(mean - 1e-9), 0), n_max))
-    k = math.ceil(mean + float(ndtri(level)) * math.sqrt(var) - 0.5)
-    return int(min(max(k, 0), n_max))
-
-
-def quantile(p: FloatArray, level: float) -> tuple[int, str]:
-    """The level quantile of a Poisson-binomial count and the method used."""
-    if p.size <= EXACT_MAX:
-        return quantile_exact(p, level), "exact"
-    return quantile_normal(float(p.sum()), float((p * (1 - p)).sum()), level, p.size), "normal"
 
 
 def weekly_increments(cum: FloatArray) -> FloatArray:

@@ -341,6 +341,24 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
         {"access_method"},
     ),
     (
+        "area with a luminaire type not in the CIE 97 table",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/areas",
+            json={"site_id": w["site"], "name": "Roof", "luminaire_type": "lantern"},
+            headers=h,
+        ),
+        {"luminaire_type"},
+    ),
+    (
+        "area cleaned every week (below half a month)",
+        422,
+        lambda c, h, w: c.patch(
+            f"/api/v1/areas/{w['area']}", json={"cleaning_interval_months": 0.2}, headers=h
+        ),
+        {"cleaning_interval_months"},
+    ),
+    (
         "area in an unknown site",
         404,
         lambda c, h, w: c.post(

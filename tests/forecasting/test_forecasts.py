@@ -103,7 +103,21 @@ def test_fixture_forecast_equals_the_numeric_core(
     table = LampTypeTable.from_specs(
         [LampTypeSpec("incandescent", 1000.0, 230.0, shape=3.5, life_exponent=13.0)]
     )
-    core = evaluate_fleet(table, np.zeros(3, dtype=np.int64), ages.age_h, 236.0, np.nan, 6 * 84.0)
+    # Luminaire dirt: the area's default regime (enclosed, clean, yearly cleaning), with no
+    # cleaning date: assumed half an interval ago. CIE 97:2005 LMF table, type D clean:
+    # 0.93 at 0.5 years, 0.87 at 1 year (recalled from memory), linear in between.
+    y_end = 0.5 + 6.0 / (365.25 / 7.0)
+    lmf = [0.93, 0.93 + (0.87 - 0.93) * (y_end - 0.5) / 0.5]
+    core = evaluate_fleet(
+        table,
+        np.zeros(3, dtype=np.int64),
+        ages.age_h,
+        236.0,
+        np.nan,
+        6 * 84.0,
+        luminaire_factor=lmf[0],
+        luminaire_factor_end=lmf[1],
+    )
     got = body["positions"]
     assert [p["age_h"] for p in got] == pytest.approx([480.0] * 3)
     assert [p["survival"] for p in got] == pytest.approx(core.survival.tolist(), rel=1e-12)
@@ -132,7 +146,7 @@ def test_burnout_ceiling_and_light_floor_dates(
     db: Session, client: TestClient, reader: dict[str, str]
 ) -> None:
     s = fx.site(db)
-    a = fx.area(db, s, light_floor=0.95, burnout_ceiling=0.2)
+    a = fx.area(db, s, light_floor=0.88, burnout_ceiling=0.2)
     lt = fx.lamp_type(db)
     fx.fixtures(db, a, lt, 4)
     db.commit()
@@ -146,13 +160,19 @@ def test_burnout_ceiling_and_light_floor_dates(
     got = datetime.fromisoformat(area["burnout_ceiling_date"])
     assert abs((got - expect).total_seconds()) < 60
     assert got.utcoffset() is not None
-    # Light floor: the default filament lumen curve (fraction of the median life) is 0.95 there.
+    # Light floor on maintained light: the default filament lumen curve (fraction of the
+    # median life) x the luminaire factor is 0.88 there. Dirt: the default regime (enclosed,
+    # clean, yearly cleaning, assumed cleaned half a year ago); CIE 97:2005 LMF table, type D
+    # clean: 0.93 at 0.5 years, 0.87 at 1 year (recalled from memory), linear in between.
     floor_at = datetime.fromisoformat(area["light_floor_date"])
-    hours = 240.0 + (floor_at - at).total_seconds() / 3600 / 168 * 84.0
+    weeks = (floor_at - at).total_seconds() / 3600 / 168
+    hours = 240.0 + weeks * 84.0
+    years = 0.5 + weeks / (365.25 / 7.0)
+    assert years < 1.0  # before the next cleaning
+    lmf = 0.93 + (0.87 - 0.93) * (years - 0.5) / 0.5
     curve = default_lumen_curve("incandescent")
-    assert float(curve.at(hours, eta * math.log(2.0) ** (1 / beta))) == pytest.approx(
-        0.95, abs=1e-6
-    )
+    lld = float(curve.at(hours, eta * math.log(2.0) ** (1 / beta)))
+    assert lld * lmf == pytest.approx(0.88, abs=1e-6)
 
 
 def test_what_if_curve_matches_weibull_and_renewal(

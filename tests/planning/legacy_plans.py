@@ -18,6 +18,7 @@ from service.catalogue.resolved import CurveInUse
 from service.planning import service as svc
 from service.planning.energy import MEGALUMEN, megalumen_plan
 from service.planning.group_plan import DEFAULT_RUPTURE_FRACTION, Conditions, CostInputs, PlanCache
+from service.planning.maintained import fixtures_by_area, regime_of
 from service.planning.positions import PositionArrays
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
@@ -64,6 +65,7 @@ def legacy_plan_areas(  # noqa: PLR0915  (the pre-split code, kept as the test o
     per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
     np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
     dominant = kinds[per_kind.argmax(axis=1)] if kinds.size else kinds
+    n_fixtures = fixtures_by_area(pos.area_id, pos.fixture_id)  # luminaire cleaning labour
     by_area: dict[int, list[int]] = {}
     for g in range(ng):
         by_area.setdefault(int(uniq[g, 0]), []).append(g)
@@ -126,6 +128,10 @@ def legacy_plan_areas(  # noqa: PLR0915  (the pre-split code, kept as the test o
                     over.energy_price_per_kwh, site.energy_price_per_kwh
                 ),
                 lamp_watts=model.rated_watts,
+                relamp_cleans=area.relamp_includes_cleaning,
+                cleaning_labour_per_position=svc._cleaning(
+                    area, site, over, n_fixtures.get(area.id, 0), n_area
+                ),
             )
             cond = Conditions(
                 voltage_v=volts,
@@ -137,6 +143,8 @@ def legacy_plan_areas(  # noqa: PLR0915  (the pre-split code, kept as the test o
                     else area.burnout_ceiling
                 ),
                 rupture_fraction=svc._pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
+                dirt=regime_of(area),
+                weekly_burn_hours=weekly,
             )
             gp = cache.get(model, costs, cond)
             if over.objective == MEGALUMEN:

@@ -8,6 +8,7 @@ from datetime import UTC, date, datetime, timedelta
 import numpy as np
 import pytest
 from fastapi.testclient import TestClient
+from scipy.interpolate import PchipInterpolator
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
@@ -21,7 +22,10 @@ from service.workorders.models import WorkOrder
 from tests import factories as fx
 from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
-AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)  # 2 June 08:00 in Auckland
+AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)
+# The default linear fluorescent lumen curve's knots (service/reliability/lumen.py, [memory]).
+KNOTS_H = [0.0, 1200.0, 9600.0, 16800.0, 24000.0]
+KNOTS_F = [1.0, 0.97, 0.93, 0.9, 0.87]  # 2 June 08:00 in Auckland
 
 
 def _setup(db: Session, **area_over: object) -> tuple[int, int]:
@@ -53,7 +57,9 @@ def test_interval_matches_the_numeric_core(
     fv = voltage_effect(240.0, 230.0, "linear_fluorescent", "reactor").life_factor
     fs = float(switching_life_factor(hps, 3.0)[0])
     life = Weibull(5.0, base.scale * fv * fs)
-    c_group = 4.0 + 4.0 / 60.0 * 40.0 + 0.0 + 0.5  # lamp + group labour + hire share + disposal
+    # lamp + group labour + hire share + disposal + cleaning (the area's default: 10 minutes
+    # per fixture, 10 fixtures over 20 positions, the relamp includes cleaning)
+    c_group = 4.0 + 4.0 / 60.0 * 40.0 + 0.0 + 0.5 + 10.0 / 60.0 * 40.0 * 10 / 20
     c_spot = 4.0 + 30.0 / 60.0 * 40.0 + 0.0 + 0.5
     core = plan_block_replacement(life, c_group, c_spot)
     assert inp["c_group"] == pytest.approx(c_group) and inp["c_spot"] == pytest.approx(c_spot)
@@ -75,16 +81,33 @@ def test_interval_matches_the_numeric_core(
 def test_light_floor_binds_at_the_lumen_curve_crossing(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
-    area_id, _ = _setup(db, light_floor=0.9)
+    # Dustproof luminaires in a very clean room, cleaned every half month: the dirt is
+    # negligible here (CIE 97:2005 LMF >= 0.998, recalled from memory), and at 230 V the
+    # voltage light factor is 1, so the lamp's own curve sets the floor.
+    area_id, _ = _setup(
+        db,
+        light_floor=0.9,
+        luminaire_type="dustproof",
+        dirt_environment="very_clean",
+        cleaning_interval_months=0.5,
+        cleaning_minutes_per_fixture=0.0,
+    )
     # Dearer group labour pushes the cost optimum past the floor.
-    body = {"group_minutes_per_lamp": 12.0}
+    body = {"group_minutes_per_lamp": 12.0, "voltage_v": 230.0}
     r = client.post(f"/api/v1/areas/{area_id}/relamp-plan", json=body, headers=reader)
     (lt,) = r.json()["lamp_types"]
     assert lt["unconstrained_optimum_h"] > lt["inputs"]["light_floor_h"]
     assert lt["binding"] == "light_floor"
     # The default fluorescent curve passes through its knot (70 % of rated life, 0.90):
-    # PCHIP interpolation goes through the data points (scipy PchipInterpolator).
-    assert lt["inputs"]["light_floor_h"] == pytest.approx(0.7 * 24_000, rel=1e-3)
+    # PCHIP interpolation goes through the data points (scipy PchipInterpolator). The
+    # half-month dirt (CIE 97:2005 type E very clean: 0.98 at 0.5 years, recalled from
+    # memory, so 0.04 a year from 1) takes at most 0.0017 off and moves the crossing earlier.
+    h = lt["inputs"]["light_floor_h"]
+    assert 0.97 * 0.7 * 24_000 < h < 0.7 * 24_000
+    years = h / (60.0 * 365.25 / 7.0)
+    lmf = 1.0 - 0.04 * (years % (0.5 / 12.0))
+    lld = float(PchipInterpolator(KNOTS_H, KNOTS_F)(h))
+    assert lld * lmf == pytest.approx(0.9, abs=3e-4)
     assert lt["interval_h"] == pytest.approx(lt["inputs"]["light_floor_h"], rel=1e-6)
 
 

@@ -1,10 +1,11 @@
-"""The demo shows the model's fidelity features: TM-21 at the cap, an HID supply fault."""
+"""The demo shows the model's fidelity features: TM-21 at the cap, an HID supply fault, dirt."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
 import numpy as np
+import pytest
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -12,6 +13,8 @@ from service.catalogue.lamp_model import resolve_lamp_model
 from service.catalogue.models import LampType
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import forecast
+from service.planning.light_view import maintained_view
+from service.planning.service import area_plan
 from service.register.models import Area
 from service.reliability.fleet import evaluate_fleet
 from service.seed.loader import load_demo
@@ -46,3 +49,23 @@ def test_demo_ramp_has_a_supply_fault_and_no_life_credit(db: Session, tmp_path: 
     rated = evaluate_fleet(types.table, k, ages.age_h, np.nan, ages.hours_per_start, 0.0)
     assert faulty.sum() == 3
     np.testing.assert_allclose(fc.positions.fleet.life_factor[faulty], rated.life_factor[faulty])
+
+
+def test_demo_office_light_floor_binds_through_dirt(db: Session, tmp_path: Path) -> None:
+    # CIE 97:2005 luminaire maintenance factor (type C closed-top troffers, normal room,
+    # cleaned every 6 months; table values recalled from memory): the maintained light
+    # reaches the floor before the burnout ceiling would end the cycle.
+    load_demo(db, key_file=tmp_path / "key.txt")
+    db.commit()
+    office = db.scalars(select(Area).where(Area.name == "Floor 1 open office")).one()
+    (g,) = area_plan(db, office.id, last_relamps=lambda s, ids: {}).groups
+    assert g.group.plan.binding == "light_floor"
+    view = maintained_view(g.model, g.costs, g.cond, g.group)
+    assert view.light_at_interval == pytest.approx(office.light_floor, abs=1e-3)
+    assert view.cleaning_only is not None and view.cleaning_only.light_gain > 0
+    # The same area with near-clean luminaires: the floor no longer binds (lamp alone).
+    office.luminaire_type, office.dirt_environment = "dustproof", "very_clean"
+    office.cleaning_interval_months = 0.5
+    db.flush()
+    (clean,) = area_plan(db, office.id, last_relamps=lambda s, ids: {}).groups
+    assert clean.group.plan.binding != "light_floor"

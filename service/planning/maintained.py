@@ -1,0 +1,139 @@
+"""Maintained light in plans: the light floor with luminaire dirt, cleaning costs, cleaning-only.
+
+Maintained light after t burn hours of a group cycle (reliability/dirt.maintained_light, the
+one definition the forecasts use too) = lamp lumen depreciation at t x the luminaire
+maintenance factor (CIE 97:2005 table, reliability/dirt.py) at the calendar time since the
+last cleaning x the voltage light factor at the operating voltage. Burn hours become
+calendar years with the area's weekly burn hours (none: no dirt builds in the plan). A
+group relamp that includes cleaning restarts the dirt with the lamps; scheduled cleanings
+every cleaning interval restart it in between (DirtRegime.factor_after_relamp).
+
+Cleaning labour per position of a group visit that includes cleaning = cleaning minutes
+per fixture / 60 x labour rate x fixtures / positions of the area (added to c_group).
+
+Cleaning-only option: a visit at mid-interval that cleans every luminaire without
+relamping. Its light gain per position is LLD(T/2) x VLF x (1 - LMF(T/2)) (the dirt taken
+away); its cost is the cleaning labour of all the area's fixtures plus one equipment hire.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from service.catalogue.lamp_model import LampModel
+from service.reliability.dirt import DirtRegime, maintained_light
+from service.reliability.weibull import Weibull
+
+FloatArray = NDArray[np.float64]
+WEEKS_PER_YEAR = 365.25 / 7.0
+_LN2 = math.log(2.0)
+_GRID = 4001
+
+
+def regime_of(area: object) -> DirtRegime:
+    """An area's dirt regime from its stored fields."""
+    months = getattr(area, "cleaning_interval_months", None)
+    return DirtRegime(
+        str(getattr(area, "luminaire_type", "enclosed")),
+        str(getattr(area, "dirt_environment", "clean")),
+        None if months is None else float(months) / 12.0,
+        bool(getattr(area, "relamp_includes_cleaning", True)),
+    )
+
+
+def cleaning_labour_per_position(
+    minutes_per_fixture: float, labour_rate_per_h: float, fixtures: int, positions: int
+) -> float:
+    """Cleaning labour of one group visit, shared per lamp position (currency)."""
+    return minutes_per_fixture / 60.0 * labour_rate_per_h * fixtures / max(positions, 1)
+
+
+def _years(t_h: FloatArray, weekly_h: float) -> FloatArray:
+    """Calendar years for burn hours at the weekly rate (0 burn hours a week: no time)."""
+    return t_h / (weekly_h * WEEKS_PER_YEAR) if weekly_h > 0 else np.zeros_like(t_h)
+
+
+def maintained_in_cycle(
+    model: LampModel,
+    life: Weibull,
+    t_h: FloatArray,
+    light_factor: float,
+    dirt: DirtRegime | None,
+    weekly_h: float,
+) -> FloatArray:
+    """Maintained light t burn hours after a group relamp (fraction of rated initial light)."""
+    life_h = life.scale * _LN2 ** (1.0 / life.shape)  # effective B50, for rated-life curves
+    lld = model.lumen_curve.at(t_h, life_h if model.lumen_curve.basis != "hours" else None)
+    lmf = 1.0 if dirt is None else dirt.factor_after_relamp(_years(t_h, weekly_h))
+    return maintained_light(lld, light_factor, lmf)
+
+
+def first_below(t: FloatArray, light: FloatArray, floor: float) -> float:
+    """First t where light reaches the floor, linearly interpolated (inf if never)."""
+    below = np.nonzero(light <= floor)[0]
+    if below.size == 0:
+        return math.inf
+    k = int(below[0])
+    if k == 0:
+        return float(t[1])
+    f0, f1 = float(light[k - 1]), float(light[k])
+    x = (f0 - floor) / (f0 - f1) if f0 != f1 else 1.0
+    return float(t[k - 1] + x * (t[k] - t[k - 1]))
+
+
+def floor_hours(
+    model: LampModel,
+    life: Weibull,
+    floor: float,
+    horizon_h: float,
+    light_factor: float = 1.0,
+    dirt: DirtRegime | None = None,
+    weekly_h: float = 0.0,
+) -> float:
+    """Burn hours at which maintained light first falls to the floor (inf if never)."""
+    t = np.linspace(0.0, horizon_h, _GRID)
+    return first_below(t, maintained_in_cycle(model, life, t, light_factor, dirt, weekly_h), floor)
+
+
+@dataclass(frozen=True)
+class CleaningOnly:
+    """A cleaning visit without relamping at mid-interval: light before, after, gain, cost."""
+
+    at_h: float  # burn hours into the group cycle
+    light_before: float  # maintained light per position, fraction of rated initial
+    light_after: float
+    light_gain: float
+    cost_per_visit: float  # currency: cleaning labour of all fixtures + one equipment hire
+    cost_per_position: float
+
+
+def cleaning_only(
+    model: LampModel,
+    life: Weibull,
+    interval_h: float,
+    light_factor: float,
+    dirt: DirtRegime,
+    weekly_h: float,
+    visit_cost: float,
+    positions: int,
+) -> CleaningOnly:
+    """Light gained and cost of one cleaning-only visit half-way through the group interval."""
+    mid = np.array([0.5 * interval_h])
+    before = float(maintained_in_cycle(model, life, mid, light_factor, dirt, weekly_h)[0])
+    after = float(maintained_in_cycle(model, life, mid, light_factor, None, weekly_h)[0])
+    return CleaningOnly(
+        float(mid[0]), before, after, after - before, visit_cost, visit_cost / max(positions, 1)
+    )
+
+
+def fixtures_by_area(area_id: NDArray[np.int64], fixture_id: NDArray[np.int64]) -> dict[int, int]:
+    """Number of distinct fixtures per area among the positions."""
+    if area_id.size == 0:
+        return {}
+    pairs = np.unique(np.stack([area_id, fixture_id], axis=1), axis=0)
+    areas, counts = np.unique(pairs[:, 0], return_counts=True)
+    return dict(zip(areas.tolist(), counts.tolist(), strict=True))

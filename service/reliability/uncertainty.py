@@ -1,0 +1,126 @@
+"""A range for the count of burnouts over a horizon: event chance plus parameter uncertainty.
+
+Given the Weibull parameters, position j (burning, wear equivalent to age a_j at today's
+supply, effective scale eta_j) burns out within the horizon w with probability
+p_j = 1 - exp(-(H1_j - H0_j)), H1 = ((a + w)/eta)^beta, H0 = (a/eta)^beta. Positions fail
+independently, so the count is Poisson-binomial: mean sum p, variance sum p (1 - p)
+(reliability/poisson_binomial.py).
+
+The parameters are themselves estimates. Each lamp type's (ln beta, ln eta) has a
+covariance (the field fit's, or the credibility blend's prior for the catalogue curve); all
+positions of a type share them, so their errors add up across the fleet instead of
+averaging out. Delta method [published: e.g. Casella & Berger, *Statistical Inference*,
+§5.5.4; Meeker & Escobar, *Statistical Methods for Reliability Data*, App. B]: the mean
+count's variance is sum over types g_t' Sigma_t g_t with g_t the gradient of sum_j p_j over
+that type's positions:
+
+    dp/d ln eta  = -(1 - p) beta (H1 - H0)
+    dp/d ln beta =  (1 - p) beta (H1 ln((a + w)/eta) - H0 ln(a/eta))   (the H0 term 0 at a = 0)
+
+(eta_j = eta_type x the position's life factor, so d ln eta_j = d ln eta_type.) By the law
+of total variance the count's variance is about sum p (1 - p) + g' Sigma g. The range at a
+level is the continuity-corrected normal interval [ceil(mu - z sd - 1/2), ceil(mu + z sd - 1/2)]
+(clipped to [0, n]); with no parameter uncertainty and at most EXACT_MAX positions the
+exact Poisson-binomial quantiles are used instead.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+from scipy.special import ndtri
+
+from service.reliability.poisson_binomial import EXACT_MAX, pmf_dft
+
+FloatArray = NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class CountRange:
+    """A count's mean and range at `level`, and what the variance came from."""
+
+    mean: float
+    low: int
+    high: int
+    level: float
+    var_events: float  # sum p (1 - p): which positions fail, parameters known
+    var_params: float  # delta method: the parameters' uncertainty
+    method: str
+
+
+def window_gradients(
+    age_h: ArrayLike, horizon_h: ArrayLike, shape: ArrayLike, scale_h: ArrayLike
+) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """(p, dp/d ln beta, dp/d ln eta) of burning out within the horizon, per position."""
+    a = np.asarray(age_h, dtype=np.float64)
+    w = np.asarray(horizon_h, dtype=np.float64)
+    beta = np.asarray(shape, dtype=np.float64)
+    eta = np.asarray(scale_h, dtype=np.float64)
+    x0, x1 = a / eta, (a + w) / eta
+    h0, h1 = np.power(x0, beta), np.power(x1, beta)
+    surv = np.exp(-(h1 - h0))  # 1 - p
+    p = -np.expm1(-(h1 - h0))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        l0 = np.where(x0 > 0, h0 * np.log(np.where(x0 > 0, x0, 1.0)), 0.0)
+        l1 = np.where(x1 > 0, h1 * np.log(np.where(x1 > 0, x1, 1.0)), 0.0)
+    d_ln_shape = surv * beta * (l1 - l0)
+    d_ln_scale = -surv * beta * (h1 - h0)
+    return p, d_ln_shape, d_ln_scale
+
+
+def sd_from_bounds(lower: float, upper: float, confidence: float) -> float:
+    """Standard deviation of ln(x) from two-sided log-symmetric bounds at `confidence`."""
+    if not (0 < lower <= upper) or not (0 < confidence < 1):
+        raise ValueError("bounds must be positive and ordered, confidence in (0, 1)")
+    return math.log(upper / lower) / (2.0 * float(ndtri(0.5 + confidence / 2.0)))
+
+
+def parameter_variance(
+    group: ArrayLike,
+    d_ln_shape: ArrayLike,
+    d_ln_scale: ArrayLike,
+    sd_ln_shape: ArrayLike,
+    sd_ln_scale: ArrayLike,
+    corr: ArrayLike = 0.0,
+) -> float:
+    """Delta-method variance of sum p: per parameter group t, g_t' Sigma_t g_t, summed."""
+    g = np.asarray(group, dtype=np.int64)
+    sb = np.broadcast_to(np.asarray(sd_ln_shape, dtype=np.float64), (max(int(g.max()) + 1, 0),))
+    n_g = sb.size if g.size else 0
+    if n_g == 0:
+        return 0.0
+    se = np.broadcast_to(np.asarray(sd_ln_scale, dtype=np.float64), (n_g,))
+    rho = np.broadcast_to(np.asarray(corr, dtype=np.float64), (n_g,))
+    gb = np.bincount(g, weights=np.asarray(d_ln_shape, dtype=np.float64), minlength=n_g)
+    ge = np.bincount(g, weights=np.asarray(d_ln_scale, dtype=np.float64), minlength=n_g)
+    var = gb * gb * sb * sb + ge * ge * se * se + 2.0 * rho * gb * ge * sb * se
+    return float(var.sum())
+
+
+def count_range(p: ArrayLike, var_params: float = 0.0, level: float = 0.90) -> CountRange:
+    """Central `level` range of a Poisson-binomial count plus parameter variance."""
+    if not 0 < level < 1:
+        raise ValueError("level must be in (0, 1)")
+    pr = np.clip(np.asarray(p, dtype=np.float64), 0.0, 1.0)
+    n = int(pr.size)
+    mean = float(pr.sum())
+    var_e = float((pr * (1.0 - pr)).sum())
+    tail = (1.0 - level) / 2.0
+    if var_params <= 0 and n <= EXACT_MAX:
+        cdf = np.cumsum(pmf_dft(pr))
+        low = int(np.searchsorted(cdf, tail - 1e-12))
+        high = int(np.searchsorted(cdf, 1.0 - tail - 1e-12))
+        method = "Poisson-binomial, exact (DFT of the characteristic function)"
+        return CountRange(mean, min(low, n), min(high, n), level, var_e, 0.0, method)
+    sd = math.sqrt(var_e + max(var_params, 0.0))
+    z = float(ndtri(1.0 - tail))
+    low = max(math.ceil(mean - z * sd - 0.5), 0)
+    high = min(max(math.ceil(mean + z * sd - 0.5), 0), n)
+    method = (
+        "normal approximation (continuity-corrected): Poisson-binomial variance sum p(1-p) "
+        "+ delta-method variance from the life curves' parameter uncertainty"
+    )
+    return CountRange(mean, min(low, n), high, level, var_e, max(var_params, 0.0), method)
