@@ -11,8 +11,9 @@ at most one open group order per area. Exits 1 when a check fails or a 5xx other
 was seen.
 
 Run: python benchmarks/bench_load.py [--clients 50] [--seconds 60] [--db sqlite,postgresql]
-     [--pg-url postgresql+psycopg://postgres@127.0.0.1:5432/test_edge]
-The PostgreSQL database is emptied (schema public dropped) first: give a scratch one.
+     [--workers 1|2] [--pg-url postgresql+psycopg://postgres@127.0.0.1:5432/bench_load]
+The PostgreSQL database is created when missing and emptied (schema public dropped) first:
+give a scratch one. More than one worker needs PostgreSQL (SQLite is skipped then).
 """
 
 from __future__ import annotations
@@ -43,7 +44,7 @@ from _table import Row, Table  # noqa: E402
 from _table import parser as table_parser  # noqa: E402
 
 LAMPKEEPER = str(Path(sys.executable).with_name("lampkeeper"))
-DEFAULT_PG = "postgresql+psycopg://postgres@127.0.0.1:5432/test_edge"
+DEFAULT_PG = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_load"
 # Share of each kind of request in the mix (reads dominate, as in a maintenance office).
 MIX = {
     "list": 30,
@@ -278,7 +279,11 @@ class Client(threading.Thread):
 
 def report(label: str, tally: Tally, seconds: float) -> None:
     total = sum(len(v) for v in tally.latency.values())
-    print(f"\n== {label}: {total} requests in {seconds:.0f} s ({total / seconds:.0f}/s)")
+    load = " ".join(f"{x:.2f}" for x in os.getloadavg())
+    print(
+        f"\n== {label}, {WORKERS} worker(s): {total} requests in {seconds:.0f} s "
+        f"({total / seconds:.0f}/s); load average now {load}"
+    )
     print(f"{'kind':<11}{'n':>7}{'p50 ms':>9}{'p95 ms':>9}{'p99 ms':>9}  statuses")
     for kind in MIX:
         lat = np.array(tally.latency.get(kind, [])) * 1000
@@ -365,7 +370,8 @@ def bench(label: str, url: str, clients: int, seconds: float, table: Table | Non
                     table.add(
                         Row(
                             "-",
-                            f"{label} {kind}, p50 of {lat.size}, {clients} clients",
+                            f"{label} {kind}, p50 of {lat.size}, {clients} clients, "
+                            f"{WORKERS} worker(s)",
                             float(np.percentile(lat, 50)),
                             note=f"p99 {np.percentile(lat, 99) * 1000:.0f} ms; "
                             f"all kinds {total / seconds:.0f} req/s",
@@ -405,11 +411,14 @@ def main() -> int:
     table = Table("bench_load", args.quick)
     ok = True
     for db in args.db.split(","):
-        if db == "sqlite":
+        if db == "sqlite" and WORKERS > 1:
+            print("SQLite skipped: more than one worker needs PostgreSQL (lampkeeper serve)")
+        elif db == "sqlite":
             with tempfile.TemporaryDirectory() as tmp:
                 url = f"sqlite:///{Path(tmp) / 'bench.sqlite3'}"
                 ok &= bench("SQLite", url, args.clients, args.seconds, table)
         elif db == "postgresql":
+            ensure_database(args.pg_url)
             ok &= bench("PostgreSQL", args.pg_url, args.clients, args.seconds, table)
         else:
             parser.error(f"unknown database {db}")

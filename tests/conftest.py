@@ -81,7 +81,7 @@ TIERS = {
     "browser": "a real browser against a served app",
 }
 HTTP_FIXTURES = frozenset({"client", "app"})
-DB_FIXTURES = frozenset({"db_url", "engine", "db", "own_db_url"})
+DB_FIXTURES = frozenset({"db_url", "engine", "db", "own_db_url", "scratch_url"})
 
 
 def pytest_configure(config: pytest.Config) -> None:
@@ -109,6 +109,8 @@ def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item
     """Mark each test with its tier; skip tests marked postgres_only on SQLite."""
     for item in items:
         fixtures = set(getattr(item, "fixturenames", ()))
+        if "postgres_only" in item.keywords:
+            fixtures.add("db_url")  # a database by definition, whatever fixture it takes
         tier = tier_of(Path(item.path), fixtures)
         if tier == "unit" and fixtures & DB_FIXTURES:
             raise pytest.UsageError(f"{item.nodeid} is in tests/unit but takes a database")

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Awaitable, Callable
 from contextlib import nullcontext
 from typing import Annotated
 
+import anyio.to_thread
 from fastapi import Depends, Request
 from sqlalchemy.orm import Session
 
@@ -25,15 +26,20 @@ def _bearer(request: Request) -> str:
     return token.strip()
 
 
-def require(scope: str) -> Callable[..., ActiveKey]:
+def require(scope: str) -> Callable[..., Awaitable[ActiveKey]]:
     """Dependency factory: the caller's key must hold `scope` (read < write < admin).
 
     The key comes from the key cache (the gate has just put it there), else from one read
     in the route's own session: no second connection, no second lookup per request.
     """
 
-    def check(request: Request, session: SessionDep) -> ActiveKey:
-        key = keys.active_key(lambda: nullcontext(session), _bearer(request))
+    async def check(request: Request, session: SessionDep) -> ActiveKey:
+        token = _bearer(request)
+        # A cache hit is a dict read: no worker-thread hop. A miss reads the database, off
+        # the event loop.
+        key = keys.cached_key(token) or await anyio.to_thread.run_sync(
+            keys.active_key, lambda: nullcontext(session), token
+        )
         if key is None:
             raise Unauthorized("The API key is unknown or revoked.")
         if not keys.scope_allows(key.scope, scope):

@@ -22,6 +22,7 @@ from typing import Annotated, Any, Generic, TypeVar
 from fastapi import Depends, Query
 from pydantic import BaseModel, Field
 from sqlalchemy import ColumnElement, Select, and_, false, func, or_, select
+from sqlalchemy import inspect as sa_inspect
 from sqlalchemy.orm import Session
 from sqlalchemy.orm.attributes import InstrumentedAttribute
 
@@ -67,7 +68,7 @@ def page_of(schema: type[T], rows: Sequence[Any], total: int, params: PageParams
     )
 
 
-def page_params(
+async def page_params(
     limit: Annotated[int, Query(ge=1, le=1000, description="Items per page.")] = 50,
     # No table holds more rows than ids (MAX_ID); a larger offset could not bind on SQLite.
     offset: Annotated[int, Query(ge=0, le=MAX_ID, description="Items to skip.")] = 0,
@@ -84,11 +85,14 @@ def page_params(
         ),
     ] = None,
 ) -> PageParams:
-    """FastAPI dependency that reads the page window, the sort order and the cursor."""
+    """FastAPI dependency that reads the page window, the sort order and the cursor.
+
+    Async because it does no I/O: a sync dependency costs a worker-thread hop per request.
+    """
     return PageParams(limit=limit, offset=offset, sort=sort, after=after)
 
 
-def offset_page_params(
+async def offset_page_params(
     limit: Annotated[int, Query(ge=1, le=1000, description="Items per page.")] = 50,
     offset: Annotated[int, Query(ge=0, le=MAX_ID, description="Items to skip.")] = 0,
 ) -> PageParams:
@@ -213,6 +217,16 @@ def _check_keyset(keys: list[tuple[str, Any, bool]]) -> None:
             raise _bad_cursor(f"the sort field '{name}' can be empty; page it with offset")
 
 
+def _one_entity(stmt: Select[Any]) -> bool:
+    described = stmt.column_descriptions
+    return len(described) == 1 and described[0].get("expr") is described[0].get("entity")
+
+
+def columns_of(model: type[Any]) -> list[InstrumentedAttribute[Any]]:
+    """The mapped column attributes of a model, to select its rows without ORM objects."""
+    return [getattr(model, attr.key) for attr in sa_inspect(model).column_attrs]
+
+
 def paginate(
     session: Session,
     stmt: Select[Any],
@@ -234,7 +248,10 @@ def paginate(
         _check_keyset(keys)
         window = window.where(_after(keys, values))
     ordered = window.order_by(*[col.desc() if desc else col.asc() for _, col, desc in keys])
-    rows = session.scalars(ordered.limit(params.limit).offset(params.offset)).all()
+    ordered = ordered.limit(params.limit).offset(params.offset)
+    # One entity: ORM objects. Columns (see columns_of): plain rows, no identity map or
+    # instrumentation, for lists answered straight from the rows.
+    rows = (session.scalars(ordered) if _one_entity(stmt) else session.execute(ordered)).all()
     params.next_after = None
     if len(rows) == params.limit:
         try:

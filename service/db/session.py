@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import time
-from collections.abc import Iterator
+from collections.abc import AsyncIterator, Iterator
 from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
 
+import anyio
+import anyio.to_thread
 from fastapi import Depends, Request
 from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
@@ -156,17 +158,40 @@ def request_writes(request: Request) -> bool:
     return not getattr(request.scope.get("endpoint"), JOB_WRITES, False)
 
 
-def get_session(request: Request) -> Iterator[Session]:
-    """FastAPI dependency: one transaction per request, committed on success, else rolled back."""
+async def get_session(request: Request) -> AsyncIterator[Session]:
+    """FastAPI dependency: one transaction per request, committed on success, else rolled back.
+
+    Async so that a read costs no worker-thread hop to begin (making a Session does no I/O);
+    what does I/O (a writer's BEGIN, which may wait for SQLite's write lock, the commit or
+    rollback and the connection's return) runs in a worker thread, shielded so a cancelled
+    request still ends its transaction.
+    """
     session = session_factory()()
     try:
         if request_writes(request):
-            begin_write(session)
+            await anyio.to_thread.run_sync(begin_write, session)
         yield session
+        with anyio.CancelScope(shield=True):
+            await anyio.to_thread.run_sync(_commit_and_close, session)
+    except BaseException:
+        with anyio.CancelScope(shield=True):
+            await anyio.to_thread.run_sync(_rollback_and_close, session)
+        raise
+
+
+def _commit_and_close(session: Session) -> None:
+    try:
         session.commit()
     except BaseException:
         session.rollback()
         raise
+    finally:
+        session.close()
+
+
+def _rollback_and_close(session: Session) -> None:
+    try:
+        session.rollback()
     finally:
         session.close()
 

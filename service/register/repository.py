@@ -7,6 +7,7 @@ from typing import Any
 from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session, selectinload
 
+from service.api.pagination import columns_of
 from service.register.models import Area, Fixture, LampPosition, Site
 
 SITE_SORT = {
@@ -145,3 +146,26 @@ def fixtures_using_lamp_type(session: Session, lamp_type_id: int) -> int:
     """How many fixtures hold this lamp type."""
     stmt = select(func.count()).where(Fixture.lamp_type_id == lamp_type_id)
     return int(session.scalar(stmt) or 0)
+
+
+def as_rows(stmt: Select[Any]) -> Select[Any]:
+    """A fixture query (fixture_query) selecting the fixtures' columns, not ORM objects."""
+    rows = select(*columns_of(Fixture))
+    return rows if stmt.whereclause is None else rows.where(stmt.whereclause)
+
+
+def positions_by_fixture(
+    session: Session, fixture_ids: list[int]
+) -> dict[int, list[dict[str, Any]]]:
+    """The lamp positions of some fixtures as plain rows, per fixture in position order."""
+    found: dict[int, list[dict[str, Any]]] = {}
+    if not fixture_ids:
+        return found
+    stmt = (
+        select(*columns_of(LampPosition))
+        .where(LampPosition.fixture_id.in_(fixture_ids))
+        .order_by(LampPosition.fixture_id, LampPosition.position_no)
+    )
+    for row in session.execute(stmt):
+        found.setdefault(row.fixture_id, []).append(dict(row._mapping))
+    return found
