@@ -11,6 +11,7 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampChoiceRecord, RetrofitOption
 from service.planning import choice, service
+from service.register.models import Area
 from tests import factories as fx
 from tests.http.web.signin import sign_in_as
 
@@ -196,3 +197,30 @@ def test_a_retried_create_with_its_idempotency_key_makes_one_option(
     assert first.status_code == again.status_code == 201
     assert first.json()["id"] == again.json()["id"]
     assert db.scalar(select(func.count(RetrofitOption.id))) == 1
+
+
+def test_site_money_terms_and_lamp_withdrawal_round_trip(
+    client: TestClient, db: Session, writer: dict[str, str]
+) -> None:
+    area_id, lt_id = _hall(db)
+    area = db.get(Area, area_id)
+    assert area is not None
+    site_id = area.site_id
+    r = client.patch(
+        f"/api/v1/sites/{site_id}",
+        json={"discount_rate": 0.09, "energy_escalation_rate": 0.04, "market": "EU"},
+        headers=writer,
+    )
+    assert r.status_code == 200, r.text
+    assert (r.json()["discount_rate"], r.json()["market"]) == (0.09, "EU")
+    bad = client.patch(f"/api/v1/sites/{site_id}", json={"discount_rate": None}, headers=writer)
+    assert bad.status_code == 422 and "discount_rate" in bad.text
+    lt = client.patch(
+        f"/api/v1/lamp-types/{lt_id}",
+        json={"withdrawn_after": "2027-09-01", "withdrawn_market": "EU"},
+        headers=writer,
+    )
+    assert lt.status_code == 200, lt.text
+    assert lt.json()["withdrawn_after"] == "2027-09-01" and lt.json()["family"] == "A19 100 W"
+    got = client.get(f"/api/v1/areas/{area_id}/lamp-choice", headers=writer).json()
+    assert got["discount_rate"] == 0.09 and got["energy_escalation_rate"] == 0.04
