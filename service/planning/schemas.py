@@ -165,7 +165,10 @@ class AreaPlanRead(BaseModel):
     positions: int
     weekly_burn_hours: float
     group_age_h: float | None
-    group_age_basis: str
+    group_age_basis: str = Field(
+        description="override | last_group_relamp | installation_dates (a cluster of the "
+        "lamps' installation dates: a group relamp before the service) | mean_position_age"
+    )
     last_group_relamp_at: datetime | None
     due_on: date | None
     overdue: bool

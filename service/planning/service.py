@@ -7,7 +7,9 @@ type: the kind most of the group's positions run on (catalogue.resolved decides 
 the fixture's kind for discharge lamps, "none" for filament, "led_driver" for LED; a tie goes
 to the alphabetically first kind). The plan's inputs name it (PlanInputs.ballast_kind). Group age: burn hours since the area's last
 completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
-schedule), else the mean age of the group's positions. The calendar date divides the
+schedule); else, where the area's installation dates cluster (a group relamp before the
+service: planning.group_age states the rule), the median age of the lamps put in then;
+else the mean age of the group's positions. The calendar date divides the
 remaining hours by the area's weekly burn hours, counted from today in the site's zone.
 What-if objective "cost_per_megalumen_hour" re-chooses each group's interval by cost per
 delivered megalumen-hour (energy.megalumen_plan); each group's energy view (energy.py) is
@@ -34,6 +36,7 @@ from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
+from service.planning.group_age import group_ages
 from service.planning.group_plan import (
     DEFAULT_RUPTURE_FRACTION,
     Conditions,
@@ -184,6 +187,12 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
     volt_sum = np.bincount(inv, weights=pos.voltage_v, minlength=ng)
     area_count = np.bincount(inv, minlength=ng)
     rate_sum = np.bincount(inv, weights=np.nan_to_num(pos.burn_h_per_week), minlength=ng)
+    # Group ages from clustered installation dates (NaN where an area's dates spread).
+    cluster_age = (
+        group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng)
+        if pos.installed_at_s.size == pos.size
+        else np.full(ng, np.nan)
+    )
     # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
     kinds, kind_of = np.unique(ballast, return_inverse=True)
     per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
@@ -205,6 +214,8 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
             basis = "override"
         elif last_at is not None and weekly > 0:
             basis = "last_group_relamp"
+        elif any(np.isfinite(cluster_age[g]) for g in gidx):
+            basis = "installation_dates"
         else:
             basis = "mean_position_age"
         groups: list[TypeGroup] = []
@@ -266,6 +277,8 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
                 age = float(over.group_age_h or 0.0)
             elif basis == "last_group_relamp" and last_at is not None:
                 age = weekly * max((at - last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
+            elif basis == "installation_dates" and np.isfinite(cluster_age[g]):
+                age = float(cluster_age[g])
             else:
                 age = float(hours[g] / count[g])
             due, overdue = due_date(today, gp.plan.interval_h, age, weekly)
