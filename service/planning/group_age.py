@@ -82,6 +82,8 @@ def group_ages(
     group inside one area).
     """
     out = np.full(n_groups, np.nan)
+    if installed_s.size != area_of.size:  # no installation dates handed in
+        return out
     order = np.argsort(area_of, kind="stable")
     cuts = np.nonzero(np.diff(area_of[order]))[0] + 1
     for idx in np.split(order, cuts) if order.size else []:  # positions of one area at a time

@@ -153,6 +153,22 @@ class LampTypePlan(BaseModel):
     energy_view_omitted: str | None = None
 
 
+class CatchUpRead(BaseModel):
+    """An area's place in its site's catch-up schedule (planning.catch_up)."""
+
+    week: int = Field(description="Weeks from this week (0: this week).")
+    week_starts_on: date
+    risk_order: int = Field(description="0 for the riskiest due area of the site.")
+    risk_weeks: float | None = Field(
+        description="Weeks until a safety limit is reached (negative: past it); null: none set."
+    )
+    labour_h: float
+    cost: float = Field(description="Lamps, group labour and disposal, without the hire.")
+    hire_charged: float = Field(description="Equipment hire it adds (0 when sharing a visit).")
+    shares_visit_with_area_id: int | None
+    over_capacity: bool = Field(description="Bigger than a week's capacity on its own.")
+
+
 class AreaPlanRead(BaseModel):
     """An area's relamp plan: when, why, and at what cost."""
 
@@ -177,6 +193,9 @@ class AreaPlanRead(BaseModel):
     yearly_saving: float
     age_source: str
     lamp_types: list[LampTypePlan]
+    catch_up: CatchUpRead | None = Field(
+        default=None, description="Its week in the site's catch-up schedule (site plans only)."
+    )
 
 
 class SitePlanRead(BaseModel):
@@ -185,4 +204,6 @@ class SitePlanRead(BaseModel):
     site_id: int
     time_zone: str
     as_of: datetime
+    weekly_labour_h_capacity: float | None = None
+    weekly_budget_capacity: float | None = None
     areas: list[AreaPlanRead]

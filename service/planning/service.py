@@ -35,6 +35,7 @@ from service.catalogue.resolved import CurveInUse
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
+from service.planning.catch_up import Slot
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
 from service.planning.group_age import group_ages
 from service.planning.group_plan import (
@@ -92,6 +93,7 @@ class AreaPlan:
     last_group_relamp_at: datetime | None
     age_source: str
     groups: list[TypeGroup]
+    catch_up: Slot | None = None  # its week in the site's catch-up schedule, where one ran
 
     @property
     def first(self) -> TypeGroup | None:
@@ -188,11 +190,7 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
     area_count = np.bincount(inv, minlength=ng)
     rate_sum = np.bincount(inv, weights=np.nan_to_num(pos.burn_h_per_week), minlength=ng)
     # Group ages from clustered installation dates (NaN where an area's dates spread).
-    cluster_age = (
-        group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng)
-        if pos.installed_at_s.size == pos.size
-        else np.full(ng, np.nan)
-    )
+    cluster_age = group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng)
     # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
     kinds, kind_of = np.unique(ballast, return_inverse=True)
     per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
@@ -210,14 +208,7 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
         if over.weekly_burn_hours is not None:
             weekly = over.weekly_burn_hours
         last_at = last.get(area.id)
-        if over.group_age_h is not None:
-            basis = "override"
-        elif last_at is not None and weekly > 0:
-            basis = "last_group_relamp"
-        elif any(np.isfinite(cluster_age[g]) for g in gidx):
-            basis = "installation_dates"
-        else:
-            basis = "mean_position_age"
+        basis = _age_basis(over, last_at, weekly, [float(cluster_age[g]) for g in gidx])
         groups: list[TypeGroup] = []
         for g in gidx:
             lt_id = int(uniq[g, 1])
@@ -273,14 +264,8 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
             gp = cache.get(model, costs, cond)
             if over.objective == MEGALUMEN:
                 gp = megalumen_plan(model, costs, cond, gp)
-            if basis == "override":
-                age = float(over.group_age_h or 0.0)
-            elif basis == "last_group_relamp" and last_at is not None:
-                age = weekly * max((at - last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
-            elif basis == "installation_dates" and np.isfinite(cluster_age[g]):
-                age = float(cluster_age[g])
-            else:
-                age = float(hours[g] / count[g])
+            mean_age = float(hours[g] / count[g])
+            age = _group_age(basis, over, last_at, weekly, at, float(cluster_age[g]), mean_age)
             due, overdue = due_date(today, gp.plan.interval_h, age, weekly)
             groups.append(
                 TypeGroup(
@@ -303,6 +288,38 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
             area, site, at, n_area, weekly, basis, last_at, pos.source, groups
         )
     return [plans[a.id] for a in areas]
+
+
+def _age_basis(
+    over: PlanOverrides, last_at: datetime | None, weekly: float, cluster_ages: list[float]
+) -> str:
+    """Where an area's group age comes from (see the module docstring)."""
+    if over.group_age_h is not None:
+        return "override"
+    if last_at is not None and weekly > 0:
+        return "last_group_relamp"
+    if any(math.isfinite(a) for a in cluster_ages):
+        return "installation_dates"
+    return "mean_position_age"
+
+
+def _group_age(
+    basis: str,
+    over: PlanOverrides,
+    last_at: datetime | None,
+    weekly: float,
+    at: datetime,
+    cluster_age: float,
+    mean_age: float,
+) -> float:
+    """A lamp-type group's age in burn hours by the area's basis."""
+    if basis == "override":
+        return float(over.group_age_h or 0.0)
+    if basis == "last_group_relamp" and last_at is not None:
+        return weekly * max((at - last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
+    if basis == "installation_dates" and math.isfinite(cluster_age):
+        return cluster_age
+    return mean_age
 
 
 def _pick(value: float | None, default: float) -> float:
