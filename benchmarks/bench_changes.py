@@ -10,8 +10,12 @@ template database, then per repeat clones it and times:
 - reading the whole feed in pages of 1,000 (the feed's own query, below the horizon),
   beside the same keyset paging over the fixtures table (the anchor).
 
-Medians of the repeats; the order of with/without alternates between repeats.
-Run: python benchmarks/bench_changes.py [URL of a scratch database] [repeats] [--reads-only]
+Medians of the repeats; the order of with/without alternates between repeats. Rows:
+C1 the run with triggers beside the run without (target: at most 1.2x), C2 the UPDATE with
+beside without (change rows written per second in the note), C3 the feed read beside the
+keyset read of as many fixture rows (changes read per second in the note).
+Run: python benchmarks/bench_changes.py [URL of a scratch database] [--repeats N] [--quick]
+[--reads-only] [--json PATH]; --quick: 2 sites x 10 areas x 10 fixtures, one repeat.
 """
 
 from __future__ import annotations
@@ -31,17 +35,13 @@ sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import bench_weekly_run as weekly  # noqa: E402
+from _table import Row, Table, parser  # noqa: E402
 
 from service.changes import repository  # noqa: E402
 from service.changes.models import Change  # noqa: E402
 from service.db.session import make_engine  # noqa: E402
 
-URL = (
-    sys.argv[1]
-    if len(sys.argv) > 1
-    else "postgresql+psycopg://postgres@127.0.0.1:5432/bench_changes"
-)
-REPEATS = int(sys.argv[2]) if len(sys.argv) > 2 else 3
+URL = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_changes"  # set by main()
 TRACKED = (
     "sites",
     "areas",
@@ -103,18 +103,22 @@ def time_update(url: str) -> float:
 
 
 READ_ROWS = 100_000  # changes read per timing (the anchor reads as many fixture rows)
+PAGE = 1000  # rows per page of both reads
 
 
-def time_feed_read(url: str, page: int = 1000) -> tuple[float, int, float, int]:
+def time_feed_read(url: str) -> tuple[float, int, float, int]:
     """(seconds, rows) reading READ_ROWS of the feed, then as many fixtures by keyset (anchor)."""
+    page = PAGE
     eng = make_engine(url)
     factory = sessionmaker(bind=eng, expire_on_commit=False)
     with factory() as s:
         t0 = time.perf_counter()
         n, after = 0, None
         while True:
-            rows = repository.read_after(s, after, page)
-            if not rows or n >= READ_ROWS:
+            if n >= READ_ROWS:
+                break
+            rows = repository.read_after(s, after, min(page, READ_ROWS - n))
+            if not rows:
                 break
             n += len(rows)
             after = (rows[-1].xact_id, rows[-1].id)
@@ -122,8 +126,10 @@ def time_feed_read(url: str, page: int = 1000) -> tuple[float, int, float, int]:
         t1 = time.perf_counter()
         m, last = 0, 0
         while True:
-            ids = keyset_fixtures(s, last, page)
-            if not ids or m >= READ_ROWS:
+            if m >= READ_ROWS:
+                break
+            ids = keyset_fixtures(s, last, min(page, READ_ROWS - m))
+            if not ids:
                 break
             m += len(ids)
             last = ids[-1][0]
@@ -138,30 +144,101 @@ def keyset_fixtures(s: Session, last: int, page: int) -> list[tuple[int, ...]]:
     return [tuple(r) for r in s.execute(q, {"last": last, "page": page})]
 
 
-def print_reads(url: str) -> None:
-    """The feed-read figures on a database that already holds changes."""
-    reads = [time_feed_read(url) for _ in range(REPEATS)]
+def add_reads(table: Table, url: str, repeats: int) -> None:
+    """C3: the feed read beside the keyset read, on a database that already holds changes."""
+    reads = [time_feed_read(url) for _ in range(repeats)]
     dt_r = statistics.median(r[0] for r in reads)
     dt_a = statistics.median(r[2] for r in reads)
-    print(f"feed read in pages of 1,000, median of {REPEATS}:")
-    print(f"  {reads[0][1]:,} changes in {dt_r:.2f} s: {reads[0][1] / dt_r:,.0f} changes/s")
-    print(f"  anchor, keyset pages of whole fixture rows: {reads[0][3] / dt_a:,.0f} rows/s")
+    n, m = reads[0][1], reads[0][3]
+    table.add(
+        Row(
+            "C3",
+            f"feed read, {n:,} changes in pages of {PAGE:,}",
+            dt_r,
+            f"keyset pages of {m:,} whole fixture rows",
+            dt_a,
+            repeats,
+            "",
+            f"{n / dt_r:,.0f} changes/s read; anchor {m / dt_a:,.0f} rows/s",
+        )
+    )
 
 
-def main() -> None:
-    """Load once, then repeat: runs and updates with and without triggers; print medians."""
+def set_size(quick: bool) -> int:
+    """Portfolio size of the weekly benchmark's loader (small in quick mode); fixtures."""
+    global PAGE
+    if quick:
+        weekly.N_SITES, weekly.AREAS_PER_SITE, weekly.FIXTURES_PER_AREA = 2, 10, 10
+        PAGE = 50  # still several pages
+    n_fix = weekly.N_SITES * weekly.AREAS_PER_SITE * weekly.FIXTURES_PER_AREA
+    weekly.OPEN_REPORTS = min(3_000, n_fix * weekly.LAMPS_PER_FIXTURE // 100)
+    return n_fix
+
+
+def main() -> int:
+    """Load once, then repeat: runs and updates with and without triggers; table rows."""
+    global URL, READ_ROWS
+    ap = parser(__doc__, default_repeats=3)
+    ap.add_argument("url", nargs="?", default=URL, help="scratch PostgreSQL database")
+    ap.add_argument("--reads-only", action="store_true", help="C3 on a database with changes")
+    args = ap.parse_args()
+    URL = args.url
+    repeats = 1 if args.quick else args.repeats
+    table = Table("bench_changes", args.quick)
+    n_fix = set_size(args.quick)
+    READ_ROWS = min(READ_ROWS, n_fix)  # the anchor has n_fix fixture rows to read
+    if args.reads_only:  # e.g. a kept clone
+        add_reads(table, URL, repeats)
+        table.finish(args.json)
+        return 0
     rng = np.random.default_rng(20261201)
     t0 = time.perf_counter()
     weekly.rebuild(URL)
     sites = weekly.load(URL, rng)
-    print(
-        f"load (template): {time.perf_counter() - t0:.1f} s, {count_changes(URL):,} changes written"
+    print(f"load (template): {time.perf_counter() - t0:.1f} s, {count_changes(URL):,} changes")
+    runs, updates, run_changes, last_url = measure(sites, repeats)
+    med = {k: statistics.median(v) for k, v in runs.items()}
+    upd = {k: statistics.median(v) for k, v in updates.items()}
+    table.add(
+        Row(
+            "C1",
+            f"weekly run, {n_fix:,} fixtures, change triggers on",
+            med[True],
+            "the same run, triggers dropped",
+            med[False],
+            repeats,
+            "<= 1.2x",
+            f"{run_changes:,} changes written by the run",
+        )
     )
+    extra = max(upd[True] - upd[False], 1e-9)
+    table.add(
+        Row(
+            "C2",
+            f"UPDATE of {n_fix:,} fixtures, change triggers on",
+            upd[True],
+            "the same UPDATE, triggers dropped",
+            upd[False],
+            repeats,
+            "",
+            f"{n_fix / extra:,.0f} change rows written/s; {n_fix / upd[False]:,.0f} plain updates/s",
+        )
+    )
+    add_reads(table, last_url, repeats)
+    admin_exec(f'DROP DATABASE IF EXISTS "{make_url(last_url).database}" WITH (FORCE)')
+    table.finish(args.json)
+    return 0
+
+
+def measure(
+    sites: list[int], repeats: int
+) -> tuple[dict[bool, list[float]], dict[bool, list[float]], int, str]:
+    """Run and UPDATE times with and without triggers per repeat, changes of a run, a kept clone."""
     base = make_url(URL).database
     runs: dict[bool, list[float]] = {True: [], False: []}
     updates: dict[bool, list[float]] = {True: [], False: []}
-    run_changes = 0
-    for rep in range(REPEATS):
+    run_changes, last_url = 0, ""
+    for rep in range(repeats):
         order = (True, False) if rep % 2 == 0 else (False, True)
         for with_triggers in order:
             url = clone(f"{base}_r{rep}_{'t' if with_triggers else 'n'}")
@@ -174,28 +251,12 @@ def main() -> None:
             if with_triggers:
                 run_changes = count_changes(url) - before
             updates[with_triggers].append(time_update(url))
-            if not (with_triggers and rep == REPEATS - 1):
-                admin_exec(f'DROP DATABASE IF EXISTS "{make_url(url).database}" WITH (FORCE)')
+            if with_triggers and rep == repeats - 1:
+                last_url = url  # kept for the reads
             else:
-                last_url = url
-    med = {k: statistics.median(v) for k, v in runs.items()}
-    upd = {k: statistics.median(v) for k, v in updates.items()}
-    n_fix = weekly.N_SITES * weekly.AREAS_PER_SITE * weekly.FIXTURES_PER_AREA
-    print(f"weekly run, {len(sites)} sites, median of {REPEATS}:")
-    print(f"  with change triggers:      {med[True]:.2f} s ({run_changes:,} changes written)")
-    print(f"  anchor, triggers dropped:  {med[False]:.2f} s")
-    print(f"  feed's share: {100 * (med[True] / med[False] - 1):+.1f}% (target at most +20%)")
-    extra = upd[True] - upd[False]
-    print(f"UPDATE of {n_fix:,} fixtures, median of {REPEATS}:")
-    print(f"  with triggers {upd[True]:.2f} s, anchor without {upd[False]:.2f} s")
-    print(f"  plain row updates/s (anchor): {n_fix / upd[False]:,.0f}")
-    print(f"  change rows written/s (rows / extra time): {n_fix / max(extra, 1e-9):,.0f}")
-    print_reads(last_url)
-    admin_exec(f'DROP DATABASE IF EXISTS "{make_url(last_url).database}" WITH (FORCE)')
+                admin_exec(f'DROP DATABASE IF EXISTS "{make_url(url).database}" WITH (FORCE)')
+    return runs, updates, run_changes, last_url
 
 
 if __name__ == "__main__":
-    if len(sys.argv) > 3 and sys.argv[3] == "--reads-only":
-        print_reads(URL)  # on a database already holding changes (e.g. a kept clone)
-    else:
-        main()
+    sys.exit(main())

@@ -7,9 +7,11 @@ through the ASGI app: server time without a network). Anchors measured in the sa
 the API calls that compute the same plans and forecast (every site's relamp plan; the
 area's relamp plan and forecast) and a bare SQL count of the fixtures.
 
+Rows G1 (overview) and G2 (area page), target at most 1 s each.
 Run: python benchmarks/bench_web_pages.py [postgresql+psycopg://postgres@127.0.0.1:5432/bench_web]
-Add --profile to print the top of a cProfile of one overview (--profile-only: just that),
---reuse to time an earlier run's database again without rebuilding it.
+[--repeats N] [--quick] [--json PATH]. Add --profile to print the top of a cProfile of one
+overview (--profile-only: just that), --reuse to time an earlier run's database again
+without rebuilding it; --quick: 2 sites x 5 areas x 10 fixtures, one repeat.
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ import sys
 import time
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 from sqlalchemy import func, select
@@ -30,15 +33,14 @@ from sqlalchemy.orm import Session
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_weekly_run import load, rebuild  # the same invented portfolio
+import bench_weekly_run as weekly  # the same invented portfolio
+from _table import Row, Table, parser
 
-ARGS = [a for a in sys.argv[1:] if not a.startswith("--")]
-URL = ARGS[0] if ARGS else "postgresql+psycopg://postgres@127.0.0.1:5432/bench_web"
-REPEATS = 5
+URL = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_web"
 PASSWORD = "bench-pages-2026"
 
 
-def median_s(call: Callable[[], object], repeats: int = REPEATS) -> float:
+def median_s(call: Callable[[], object], repeats: int) -> float:
     """Median seconds of `repeats` calls after one warm-up call."""
     call()
     times = []
@@ -49,93 +51,139 @@ def median_s(call: Callable[[], object], repeats: int = REPEATS) -> float:
     return statistics.median(times)
 
 
-def main() -> None:  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
-    """Build, load, sign in, time pages beside their anchors, print the figures."""
+def build(url: str, quick: bool, reuse: bool) -> list[int]:
+    """Load the portfolio (small in quick mode) unless reusing an earlier run's; site ids."""
+    if quick:  # 2 sites x 5 areas x 10 fixtures
+        weekly.N_SITES, weekly.AREAS_PER_SITE, weekly.FIXTURES_PER_AREA = 2, 5, 10
+        n_fix = weekly.N_SITES * weekly.AREAS_PER_SITE * weekly.FIXTURES_PER_AREA
+        weekly.OPEN_REPORTS = n_fix * weekly.LAMPS_PER_FIXTURE // 100
+    if reuse:  # the database of an earlier run, as it was left
+        return list(range(1, weekly.N_SITES + 1))
     t0 = time.perf_counter()
-    if "--reuse" in sys.argv:  # the database of an earlier run, as it was left
-        sites = list(range(1, 11))
-    else:
-        rebuild(URL)
-        sites = load(URL, np.random.default_rng(20261203))
-        print(f"load: {time.perf_counter() - t0:.1f} s")
-    os.environ["LAMPKEEPER_DATABASE_URL"] = URL
+    weekly.rebuild(url)
+    sites = weekly.load(url, np.random.default_rng(20261203))
+    print(f"load: {time.perf_counter() - t0:.1f} s")
+    return sites
+
+
+def main() -> int:
+    """Build, load, sign in, time pages beside their anchors; table rows G1, G2."""
+    ap = parser(__doc__, default_repeats=5)
+    ap.add_argument("url", nargs="?", default=URL, help="scratch PostgreSQL database")
+    ap.add_argument("--reuse", action="store_true", help="time an earlier run's database")
+    ap.add_argument("--profile", action="store_true", help="also profile one overview")
+    ap.add_argument("--profile-only", action="store_true", help="only profile one overview")
+    args = ap.parse_args()
+    repeats = 1 if args.quick else args.repeats
+    sites = build(args.url, args.quick, args.reuse)
+    os.environ["LAMPKEEPER_DATABASE_URL"] = args.url
     os.environ["LAMPKEEPER_SCHEDULER_ENABLED"] = "false"
     from fastapi.testclient import TestClient
 
     from service.config import get_settings
-    from service.db.session import make_engine
+    from service.db.session import get_engine, make_engine
     from service.keys.service import create_key
+    from service.main import create_app
     from service.register.models import Area, Fixture
     from service.users import service as users
 
-    get_settings.cache_clear()
-    engine = make_engine(URL)
+    get_settings.cache_clear()  # the loader's imports read the settings before URL was set
+    get_engine.cache_clear()
+    engine = make_engine(args.url)
     with Session(engine) as s, s.begin():
         if users.repo.by_username(s, "bench") is None:
             users.create_user(s, "bench", "Bench Viewer", "viewer", PASSWORD)
         _, key = create_key(s, f"bench-{time.time_ns()}", "read")
         area_id = int(s.scalar(select(func.min(Area.id))) or 1)
+        n_fix = int(s.scalar(select(func.count()).select_from(Fixture)) or 0)
 
     def sql_count() -> None:
         with Session(engine) as s:
             s.scalar(select(func.count()).select_from(Fixture))
 
-    from service.main import create_app
-
+    table = Table("bench_web_pages", args.quick)
     with TestClient(create_app(start_scheduler=False)) as client:
         r = client.post("/sign-in", data={"username": "bench", "password": PASSWORD})
         assert r.status_code == 200 and "Portfolio overview" in r.text, r.status_code
         api = {"Authorization": f"Bearer {key}"}
-
-        def get(url: str, headers: dict[str, str] | None = None) -> Callable[[], None]:
-            def call() -> None:
-                resp = client.get(url, headers=headers)
-                assert resp.status_code == 200, (url, resp.status_code, resp.text[:300])
-
-            return call
-
-        def all_site_plans() -> None:
-            for site in sites:
-                get(f"/api/v1/sites/{site}/relamp-plan", api)()
-
-        def area_api() -> None:
-            get(f"/api/v1/areas/{area_id}/relamp-plan", api)()
-            get(f"/api/v1/forecasts/areas/{area_id}", api)()
-
-        if "--profile-only" in sys.argv:
-            prof = cProfile.Profile()
-            prof.enable()
-            get("/app")()
-            prof.disable()
-            pstats.Stats(prof).sort_stats("cumulative").print_stats(45)
-            return
-        count = median_s(sql_count)
-        overview = median_s(get("/app"))
-        plans = median_s(all_site_plans)
-        area = median_s(get(f"/app/areas/{area_id}"))
-        area_anchor = median_s(area_api)
-        print(f"bare SQL count(*) of 100,000 fixtures: {count * 1000:.1f} ms")
-        print(
-            f"overview /app: {overview:.3f} s (median of {REPEATS}); anchor, every site's "
-            f"relamp plan through the API: {plans:.3f} s; ratio {overview / plans:.2f}; "
-            f"{overview / count:.0f}x the count"
-        )
-        print(
-            f"area page /app/areas/{area_id}: {area:.3f} s; anchor, the area's relamp plan and "
-            f"forecast through the API: {area_anchor:.3f} s; ratio {area / area_anchor:.2f}"
-        )
-        print(
-            f"target <= 1 s each: overview {'met' if overview <= 1 else 'MISSED'}, "
-            f"area {'met' if area <= 1 else 'MISSED'}"
-        )
-        if "--profile" in sys.argv:
-            prof = cProfile.Profile()
-            prof.enable()
-            get("/app")()
-            prof.disable()
-            pstats.Stats(prof).sort_stats("cumulative").print_stats(35)
+        if args.profile_only:
+            profile(get(client, "/app"))
+            return 0
+        time_pages(table, client, api, sites, area_id, n_fix, median_s(sql_count, repeats), repeats)
+        if args.profile:
+            profile(get(client, "/app"))
     engine.dispose()
+    table.finish(args.json)
+    return 0
+
+
+def get(client: Any, url: str, headers: dict[str, str] | None = None) -> Callable[[], None]:
+    """A call that GETs a URL and checks it answered 200."""
+
+    def call() -> None:
+        resp = client.get(url, headers=headers)
+        assert resp.status_code == 200, (url, resp.status_code, resp.text[:300])
+
+    return call
+
+
+def time_pages(
+    table: Table,
+    client: Any,
+    api: dict[str, str],
+    sites: list[int],
+    area_id: int,
+    n_fix: int,
+    count_s: float,
+    repeats: int,
+) -> None:
+    """G1 the overview beside every site's plan through the API; G2 an area page likewise."""
+
+    def all_site_plans() -> None:
+        for site in sites:
+            get(client, f"/api/v1/sites/{site}/relamp-plan", api)()
+
+    def area_api() -> None:
+        get(client, f"/api/v1/areas/{area_id}/relamp-plan", api)()
+        get(client, f"/api/v1/forecasts/areas/{area_id}", api)()
+
+    overview = median_s(get(client, "/app"), repeats)
+    plans = median_s(all_site_plans, repeats)
+    area = median_s(get(client, f"/app/areas/{area_id}"), repeats)
+    area_anchor = median_s(area_api, repeats)
+    table.add(
+        Row(
+            "G1",
+            f"overview /app, {n_fix:,} fixtures",
+            overview,
+            "every site's relamp plan, API (no page)",
+            plans,
+            repeats,
+            "<= 1 s",
+            f"{overview / count_s:.0f}x a bare SQL count(*) of the fixtures ({count_s * 1e3:.1f} ms)",
+        )
+    )
+    table.add(
+        Row(
+            "G2",
+            f"area page /app/areas/{area_id}",
+            area,
+            "the area's relamp plan + forecast, API",
+            area_anchor,
+            repeats,
+            "<= 1 s",
+        )
+    )
+
+
+def profile(call: Callable[[], None]) -> None:
+    """Print the top of a cProfile of one call."""
+    prof = cProfile.Profile()
+    prof.enable()
+    call()
+    prof.disable()
+    pstats.Stats(prof).sort_stats("cumulative").print_stats(40)
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())

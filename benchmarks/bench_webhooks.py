@@ -3,8 +3,10 @@
 A scratch database (SQLite file by default, or a PostgreSQL URL) gets N site changes and
 one subscription to an http.server receiver on loopback; the delivery worker then drains
 the outbox (fan-out, claims, POSTs, attempt records). The anchor POSTs the same signed
-bodies with the same kept httpx client and no database. Medians of the repeats.
-Run: python benchmarks/bench_webhooks.py [URL] [N] [repeats]
+bodies with the same kept httpx client and no database. Medians of the repeats; row W1
+(seconds for N, the ratio is the worker's time over the bare POSTs'; rates in the note).
+Run: python benchmarks/bench_webhooks.py [URL] [--n N] [--repeats R] [--quick] [--json PATH]
+(--quick: 100 changes, one repeat, SQLite).
 """
 
 from __future__ import annotations
@@ -16,29 +18,67 @@ import time
 from pathlib import Path
 
 import httpx
+from alembic import command
+from sqlalchemy import text
+from sqlalchemy.engine import make_url
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 
+from _table import Row, Table, parser  # noqa: E402
+
+from service.api.health import alembic_config  # noqa: E402
 from service.config import get_settings  # noqa: E402
 from service.db.session import begin_write, make_engine, session_factory  # noqa: E402
 from service.webhooks.schemas import SubscriptionCreate  # noqa: E402
 from service.webhooks.service import create_subscription  # noqa: E402
 from service.webhooks.signing import sign  # noqa: E402
 from service.webhooks.worker import Deliverer  # noqa: E402
-from tests.changes.live import drop_scratch, scratch_url  # noqa: E402
 from tests.changes.slow_writer import site  # noqa: E402
 from tests.webhooks.receiver import receiver  # noqa: E402
 
-BASE = sys.argv[1] if len(sys.argv) > 1 else ""
-N = int(sys.argv[2]) if len(sys.argv) > 2 else 2000
-REPEATS = int(sys.argv[3]) if len(sys.argv) > 3 else 3
+BASE = ""  # a scratch PostgreSQL URL, or a SQLite file in a temporary directory (main sets it)
+N = 2000
+
+
+def _admin(url: str, sql: str) -> None:
+    """One statement on the server's postgres database (autocommit)."""
+    admin = make_engine(
+        make_url(url).set(database="postgres").render_as_string(hide_password=False)
+    )
+    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as c:
+        c.execute(text(sql))
+    admin.dispose()
+
+
+def scratch(tmp: Path, tag: str) -> str:
+    """A freshly migrated database for one round (a SQLite file, or a PostgreSQL clone)."""
+    if BASE.startswith("postgresql"):
+        url = make_url(BASE).set(database=tag).render_as_string(hide_password=False)
+        _admin(url, f'DROP DATABASE IF EXISTS "{tag}" WITH (FORCE)')
+        _admin(url, f'CREATE DATABASE "{tag}"')
+    else:
+        url = f"sqlite:///{tmp / f'{tag}.sqlite3'}"
+    engine = make_engine(url)
+    cfg = alembic_config()
+    cfg.attributes["configure_logger"] = False
+    with engine.begin() as conn:
+        cfg.attributes["connection"] = conn
+        command.upgrade(cfg, "head")
+    engine.dispose()
+    return url
+
+
+def drop_scratch(url: str) -> None:
+    """Drop a round's PostgreSQL database (a SQLite file goes with its directory)."""
+    if url.startswith("postgresql"):
+        _admin(url, f'DROP DATABASE IF EXISTS "{make_url(url).database}" WITH (FORCE)')
 
 
 def one_round(tmp: Path, rep: int) -> tuple[float, float]:
     """(deliveries/s through the worker, bare signed POSTs/s) for N changes."""
-    base = BASE or f"sqlite:///{tmp / 'base.sqlite3'}"
-    url = scratch_url(base, tmp, f"bench_hooks_{rep}")
+    url = scratch(tmp, f"bench_hooks_{rep}")
     engine = make_engine(url)
     factory = session_factory(engine)
     settings = get_settings()
@@ -79,20 +119,39 @@ def one_round(tmp: Path, rep: int) -> tuple[float, float]:
     finally:
         engine.dispose()
         drop_scratch(url)
-    return N / dt, N / dt_anchor
+    return dt, dt_anchor
 
 
-def main() -> None:
-    """Repeat rounds; print medians."""
+def main() -> int:
+    """Repeat rounds; the medians as a table row."""
+    global BASE, N
+    ap = parser(__doc__, default_repeats=3)
+    ap.add_argument("url", nargs="?", default="", help="scratch PostgreSQL URL (default SQLite)")
+    ap.add_argument("--n", type=int, default=N, help="changes delivered per round")
+    args = ap.parse_args()
+    BASE = args.url
+    N = 100 if args.quick else args.n
+    repeats = 1 if args.quick else args.repeats
     with tempfile.TemporaryDirectory() as d, factory_silence():
-        rounds = [one_round(Path(d), r) for r in range(REPEATS)]
+        rounds = [one_round(Path(d), r) for r in range(repeats)]
     worker = statistics.median(r[0] for r in rounds)
     anchor = statistics.median(r[1] for r in rounds)
     db = "PostgreSQL" if BASE.startswith("postgresql") else "SQLite"
-    print(f"webhook delivery, {N:,} changes to a loopback receiver, {db}, median of {REPEATS}:")
-    print(f"  worker (fan-out, claim, POST, record): {worker:,.0f} deliveries/s")
-    print(f"  anchor, bare signed POSTs, same client: {anchor:,.0f} POSTs/s")
-    print(f"  worker / anchor: {worker / anchor:.2f}")
+    table = Table("bench_webhooks", args.quick)
+    table.add(
+        Row(
+            "W1",
+            f"worker delivers {N:,} changes to loopback ({db})",
+            worker,
+            f"{N:,} bare signed POSTs, same kept client",
+            anchor,
+            repeats,
+            "",
+            f"{N / worker:,.0f} deliveries/s; anchor {N / anchor:,.0f} POSTs/s",
+        )
+    )
+    table.finish(args.json)
+    return 0
 
 
 class factory_silence:  # noqa: N801 (a tiny context manager)
@@ -108,4 +167,4 @@ class factory_silence:  # noqa: N801 (a tiny context manager)
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())

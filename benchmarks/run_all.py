@@ -21,11 +21,6 @@ from _table import BENCH_DIR, LATEST, Table, document, format_rows, load_rows
 HERE = Path(__file__).resolve().parent
 
 
-# Scripts that still print their own figures instead of table rows: a full run prints them
-# as they are; a quick run leaves them out (they have no small mode yet).
-OWN_OUTPUT = {"bench_changes", "bench_webhooks", "bench_web_pages"}
-
-
 def scripts() -> list[Path]:
     """Every bench_*.py beside this file, in name order."""
     return sorted(HERE.glob("bench_*.py"))
@@ -47,11 +42,6 @@ def main() -> int:
     for path in scripts():
         name = path.stem
         if (only and name not in only) or name in skip:
-            continue
-        if name in OWN_OUTPUT:
-            if not args.quick:
-                print(f"=== {name} (its own figures, not in the table)", flush=True)
-                failed.update({name: rc} if (rc := subprocess.call([sys.executable, str(path)], cwd=HERE.parent)) else {})
             continue
         out = BENCH_DIR / f"{name}.json"
         out.unlink(missing_ok=True)

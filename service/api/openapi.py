@@ -65,16 +65,25 @@ STATUS_TEXT: dict[int, str] = {
 PROBLEM_ERROR_SCHEMA: dict[str, Any] = {
     "title": "ProblemError",
     "type": "object",
-    "description": "One field at fault: `field` and `in` (body, query, path, header) name it; "
-    "an upload's row errors carry `row` instead of `in`, and `field` null when the whole row "
-    "or upload is at fault.",
-    "required": ["field", "message"],
+    "description": "One field at fault: `field` and `in` (body, query, path, header) name it. "
+    "An upload's row errors also carry the optional `row` (the row's number in the file; "
+    "`in` is then body), with `field` null when the whole row or upload is at fault.",
+    "required": ["field", "in", "message"],
     "properties": {
         "field": {"type": ["string", "null"], "description": "The field as a client names it."},
-        "in": {"type": "string", "description": "Where: body, query, path or header."},
+        "in": {
+            "type": "string",
+            "enum": ["body", "query", "path", "header"],
+            "description": "Where: body, query, path or header.",
+        },
         "message": {"type": "string"},
         "type": {"type": "string", "description": "A machine-readable error kind."},
-        "row": {"type": "integer", "description": "Upload row number, for bulk errors."},
+        "row": {
+            "type": "integer",
+            "minimum": 1,
+            "description": "Optional: the upload row number (1 = the CSV header line or the "
+            "first JSON item), present only on bulk-upload errors.",
+        },
     },
 }
 

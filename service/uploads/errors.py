@@ -36,7 +36,7 @@ class RowErrors:
         if conflict:
             self._conflicts += 1
         if len(self.items) < self.cap:
-            self.items.append({"row": row, "field": field, "message": message})
+            self.items.append({"row": row, "field": field, "in": "body", "message": message})
 
     def add_mask(
         self,

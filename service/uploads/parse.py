@@ -105,9 +105,8 @@ def read_upload(body: RawBody, spec: UploadSpec) -> Columns:
             if is_json
             else ("CSV upload is empty: give a header line and rows")
         )
-        raise Invalid(
-            f"The {what}.", errors=[{"row": 1, "field": None, "message": "the upload is empty"}]
-        )
+        empty = {"row": 1, "field": None, "in": "body", "message": "the upload is empty"}
+        raise Invalid(f"The {what}.", errors=[empty])
     return _json_columns(text, spec) if is_json else _csv_columns(text, spec)
 
 
@@ -221,7 +220,7 @@ def _read_rows(reader: Any, width: int) -> list[list[str]]:
     except csv.Error as exc:  # e.g. a bare carriage return inside an unquoted cell
         raise Invalid(
             f"The CSV upload cannot be read at line {reader.line_num}: {exc}.",
-            errors=[{"row": reader.line_num, "field": None, "message": str(exc)}],
+            errors=[{"row": reader.line_num, "field": None, "in": "body", "message": str(exc)}],
         ) from None
     # A line with no cells at all is blank: one empty cell per column, skipped later.
     rows = [r if r else [""] * width for r in rows]

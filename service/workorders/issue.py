@@ -19,7 +19,7 @@ puts in this week; the others wait for their week's run. Each order's plan names
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from datetime import date, datetime, timedelta
 from functools import partial
@@ -198,7 +198,6 @@ def issue_orders(
     kinds: Sequence[str] = (GROUP, SPOT),
     whole_area: bool = False,
     cache: PlanCache | None = None,
-    checkpoint: Callable[[str], None] | None = None,
 ) -> IssueResult:
     """Create the group and spot orders a site (or one area) needs now; flushes, no commit."""
     result = IssueResult()
@@ -259,7 +258,7 @@ def issue_orders(
             order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
             built.append((order, ls, [r.id for r in rs]))
     if built:
-        _write(session, built, result, at, checkpoint)
+        _write(session, built, result, at)
         if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
             _reserve(session, site.id, [oid for oid, _, _ in result.created])
     return result
@@ -410,7 +409,6 @@ def _write(
     built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]],
     result: IssueResult,
     at: datetime,
-    checkpoint: Callable[[str], None] | None,
 ) -> None:
     """Insert orders and lines, take the reports, and let group orders cover spot orders."""
     orders = [o for o, _, _ in built]
@@ -421,8 +419,6 @@ def _write(
         .scalars()
         .all()
     )
-    if checkpoint is not None:  # tests inject failures here: orders written, lines not yet
-        checkpoint("orders_inserted")
     flat = []
     for oid, (_, ls, _) in zip(ids, built, strict=True):
         for x in ls:

@@ -64,6 +64,9 @@ def assert_problem(r: Response, status: int) -> dict[str, Any]:
     for member in ("type", "title", "status", "detail"):
         assert body.get(member), f"missing {member}: {body}"
     assert body["status"] == status
+    for item in body.get("errors") or []:  # the ProblemError shape of service.api.openapi
+        assert {"field", "in", "message"} <= set(item), item
+        assert item["in"] in {"body", "query", "path", "header"}, item
     return body
 
 
@@ -250,6 +253,14 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
         422,
         lambda c, h, w: c.patch(f"/api/v1/sites/{w['site']}", json={"currency": "euro"}, headers=h),
         {"currency"},
+    ),
+    (
+        "patch a lamp type into a whole that breaks a rule",
+        422,
+        lambda c, h, w: c.patch(
+            f"/api/v1/lamp-types/{w['lamp']}", json={"second_hours_per_start": 12}, headers=h
+        ),
+        {"second_cycle_life_h"},
     ),
     (
         "sort by a column that is not offered",

@@ -21,13 +21,13 @@ pytestmark = pytest.mark.skipif(
 ROOT = Path(__file__).resolve().parents[2]
 BENCH = ROOT / "benchmarks"
 SCRIPTS = sorted(p.stem for p in BENCH.glob("bench_*.py"))
-sys.path.insert(0, str(BENCH))
-from run_all import OWN_OUTPUT  # noqa: E402
 
 # Scripts that need the local PostgreSQL server (scratch databases of their own names).
-NEEDS_PG = {"bench_weekly_run", "bench_burn_upload"}
+NEEDS_PG = {"bench_weekly_run", "bench_burn_upload", "bench_changes", "bench_web_pages"}
 PG_ARGS = {
     "bench_weekly_run": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_weekly"],
+    "bench_changes": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_changes"],
+    "bench_web_pages": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_web"],
     "bench_burn_upload": ["--scratch", "bench_quick_burn"],
     "bench_import": ["--scratch", "bench_quick_import"],
 }
@@ -46,8 +46,7 @@ def test_every_script_is_listed() -> None:
     assert {"bench_renewal", "bench_fleet", "bench_import", "bench_burn_upload"} <= set(SCRIPTS)
 
 
-# Scripts printing their own figures (run_all.OWN_OUTPUT) have no quick mode to test yet.
-@pytest.mark.parametrize("name", [s for s in SCRIPTS if s not in OWN_OUTPUT])
+@pytest.mark.parametrize("name", SCRIPTS)
 def test_quick_run_writes_rows(name: str, tmp_path: Path) -> None:
     pg = _pg_up()
     if name in NEEDS_PG and not pg:

@@ -10,7 +10,6 @@ import json
 import random
 import threading
 import time
-from collections.abc import Iterator
 from datetime import timedelta
 from typing import Any
 
@@ -26,26 +25,8 @@ from service.db.session import begin_write
 from service.webhooks.models import WebhookAttempt, WebhookDelivery, WebhookSubscription
 from service.webhooks.worker import Deliverer, backoff_s, claim, fan_out, new_owner
 from tests.changes.slow_writer import site
-from tests.webhooks.receiver import Receiver, receiver
+from tests.webhooks.receiver import Receiver
 from tests.webhooks.test_signing import readme_verify
-
-
-@pytest.fixture()
-def rec(allow_loopback: None) -> Iterator[Receiver]:
-    """A receiver serving for one test."""
-    with receiver() as r:
-        yield r
-
-
-@pytest.fixture()
-def subscription(
-    live: TestClient, live_admin: dict[str, str], rec: Receiver
-) -> Iterator[dict[str, Any]]:
-    """A site subscription to the receiver, removed after the test."""
-    r = live.post("/api/v1/webhooks", json={"url": rec.url, "types": ["site"]}, headers=live_admin)
-    assert r.status_code == 201, r.text
-    yield r.json()
-    live.delete(f"/api/v1/webhooks/{r.json()['id']}", headers=live_admin)
 
 
 def add_sites(factory: sessionmaker[Session], *names: str) -> None:

@@ -151,6 +151,7 @@ def test_short_and_long_rows_are_refused_naming_the_row(
         {
             "row": 3,
             "field": None,
+            "in": "body",
             "message": f"the row has {len(bad)} cells but the header has {len(header)} columns",
         }
     ]
@@ -177,9 +178,12 @@ def test_a_bad_number_names_row_and_column(
     row = 3 if media == "text/csv" else 2
     before = counts(db)
     body = refused(post(client, writer, ep.url, data, media))
-    assert {"row": row, "field": ep.number, "message": "must be a number, not 'abc'"} in body[
-        "errors"
-    ]
+    assert {
+        "row": row,
+        "field": ep.number,
+        "in": "body",
+        "message": "must be a number, not 'abc'",
+    } in body["errors"]
     assert counts(db) == before
 
 
@@ -199,7 +203,9 @@ def test_a_bad_boolean_has_one_wording(
     before = counts(db)
     data = csv_body(list(ep.good), list(bad.values()))
     body = refused(post(client, writer, ep.url, data, "text/csv"))
-    assert body["errors"] == [{"row": 2, "field": ep.boolean, "message": "must be true or false"}]
+    assert body["errors"] == [
+        {"row": 2, "field": ep.boolean, "in": "body", "message": "must be true or false"}
+    ]
     assert counts(db) == before
 
 
@@ -286,6 +292,7 @@ def test_a_local_time_the_clocks_skip_is_refused(
         {
             "row": 2,
             "field": ep.timestamp,
+            "in": "body",
             "message": "2025-03-30T01:30:00 does not exist in Europe/Lisbon (the clocks skip it); "
             "give a UTC offset",
         }
@@ -423,6 +430,7 @@ def test_a_bad_last_row_of_many_stores_nothing(
     assert body["errors"][-1] == {
         "row": 3,
         "field": ep.number,
+        "in": "body",
         "message": "must be a finite number",
     }
     assert counts(db) == before

@@ -144,4 +144,9 @@ def test_fixture_plan_resolves_names_and_finds_clashes() -> None:
     assert plan.changed[0]["b_id"] == 99
     e = RowErrors()
     plan_import(f=f, names=fixture_names(), on_duplicate="error", now=now, errors=e)
-    assert {"row": 4, "field": "tag", "message": "site 'Depot' already has this tag"} in e.items
+    assert {
+        "row": 4,
+        "field": "tag",
+        "in": "body",
+        "message": "site 'Depot' already has this tag",
+    } in e.items

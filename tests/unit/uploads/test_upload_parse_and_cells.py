@@ -43,9 +43,24 @@ def test_columns_left_out_read_as_blank() -> None:
 def test_every_short_or_long_row_is_named() -> None:
     errs = errors_of(lambda: csv("a,b,c\n1,2,3\n1,2\n1,2,3,4\n1\n"))
     assert errs == [
-        {"row": 3, "field": None, "message": "the row has 2 cells but the header has 3 columns"},
-        {"row": 4, "field": None, "message": "the row has 4 cells but the header has 3 columns"},
-        {"row": 5, "field": None, "message": "the row has 1 cells but the header has 3 columns"},
+        {
+            "row": 3,
+            "field": None,
+            "in": "body",
+            "message": "the row has 2 cells but the header has 3 columns",
+        },
+        {
+            "row": 4,
+            "field": None,
+            "in": "body",
+            "message": "the row has 4 cells but the header has 3 columns",
+        },
+        {
+            "row": 5,
+            "field": None,
+            "in": "body",
+            "message": "the row has 1 cells but the header has 3 columns",
+        },
     ]
 
 
@@ -81,8 +96,8 @@ def test_json_shape_errors_are_numbered() -> None:
     raw = b'[{"a": 1}, 5, {"a": 2, "zz": 1}]'
     errs = errors_of(lambda: read_upload(RawBody(raw, "application/json"), SPEC))
     assert errs == [
-        {"row": 2, "field": None, "message": "each row must be a JSON object"},
-        {"row": 3, "field": "zz", "message": "unknown field"},
+        {"row": 2, "field": None, "in": "body", "message": "each row must be a JSON object"},
+        {"row": 3, "field": "zz", "in": "body", "message": "unknown field"},
     ]
 
 
