@@ -35,6 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
+from scipy.fft import next_fast_len
 from scipy.special import ndtri
 
 from service.reliability.renewal import weibull_renewal
@@ -100,9 +101,9 @@ def weekly_cumulative(
             f_a = -np.expm1(-(np.power(a + d * edges[None, :], beta) - np.power(a, beta)))
             d_f = np.diff(f_a, axis=1)
             m_lag = _read_linear(table, d * lags[None, :] / step)
-            # A linear (not circular) convolution of two length-K rows needs 2K - 1 points;
-            # a power of two is the FFT's fast size.
-            size = 1 << (2 * k_cells - 1).bit_length()
+            # A linear (not circular) convolution of two length-K rows needs 2K - 1 points,
+            # rounded up to a length the FFT factors quickly (2, 3 and 5 only).
+            size = next_fast_len(2 * k_cells - 1, real=True)
             conv = np.fft.irfft(
                 np.fft.rfft(d_f, size, axis=1) * np.fft.rfft(m_lag, size, axis=1), size, axis=1
             )
