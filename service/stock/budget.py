@@ -117,15 +117,20 @@ def site_budget(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length
     # Spot: weekly expected replacements per (area, lamp type), binned by week start.
     inc = np.diff(sc.cum, axis=1)
     week_month = [month_of(at.date() + timedelta(weeks=w), starts) for w in range(WEEKS)]
-    keys = sorted(set(zip(sc.area_id.tolist(), sc.lamp_type_id.tolist(), strict=True)))
-    for area_id, lt in keys:
+    # Sums per (area, lamp type) in one pass (np.unique + np.add.at), not a mask per key.
+    pairs = np.stack([sc.area_id, sc.lamp_type_id], axis=1)
+    uniq, inv = np.unique(pairs, axis=0, return_inverse=True)
+    inv = np.asarray(inv).ravel()
+    sums_w = np.zeros((len(uniq), inc.shape[1]))
+    np.add.at(sums_w, inv, inc)
+    dark_n = np.bincount(inv, weights=sc.dark.astype(float), minlength=len(uniq))
+    for row, (area_id, lt) in enumerate(uniq.tolist()):
         if (area_id, lt) not in costs:
             continue
         _, g = costs[(area_id, lt)]
         c = g.costs
-        sel = (sc.area_id == area_id) & (sc.lamp_type_id == lt)
-        per_week = inc[sel].sum(axis=0)
-        per_week[0] += float(sc.dark[sel].sum())
+        per_week = sums_w[row].copy()
+        per_week[0] += float(dark_n[row])
         for w, wm in enumerate(week_month):
             if wm is None:
                 continue

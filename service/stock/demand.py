@@ -141,6 +141,32 @@ def quantile_normal(mean: float, var: float, level: float, n_max: float = math.i
     return int(min(max(k, 0), n_max))
 
 
+def pmf_weeks(p: FloatArray) -> FloatArray:
+    """Poisson-binomial pmf of every week at once (H, n+1) from p (n, H), by convolution.
+
+    Adds one position at a time to every week's pmf: P_j(k) = P_{j-1}(k)(1 - p_j) +
+    P_{j-1}(k - 1) p_j, the pmf of a sum of independent Bernoullis (textbook recursion);
+    n steps over an (H, n+1) array instead of one O(n^2) transform per week.
+    """
+    p = np.clip(np.asarray(p, dtype=float), 0.0, 1.0)
+    n, h = p.shape
+    out = np.zeros((h, n + 1))
+    out[:, 0] = 1.0
+    for j in range(n):
+        pj = p[j][:, None]
+        head = out[:, : j + 1].copy()
+        out[:, : j + 1] *= 1.0 - pj
+        out[:, 1 : j + 2] += head * pj
+    return out
+
+
+def quantiles_exact(p: FloatArray, level: float) -> IntArray:
+    """Each week's smallest k with P(K <= k) >= level, exact (p: (n, H))."""
+    cdf = np.cumsum(pmf_weeks(p), axis=1)
+    k = np.sum(cdf < level - 1e-12, axis=1)
+    return np.minimum(k, p.shape[0]).astype(np.int64)
+
+
 def quantile(p: FloatArray, level: float) -> tuple[int, str]:
     """The level quantile of a Poisson-binomial count and the method used."""
     if p.size <= EXACT_MAX:
@@ -210,12 +236,12 @@ def week_demand(
     mean = p.sum(axis=0)
     var = (p * (1.0 - p)).sum(axis=0)
     method = "exact" if p.shape[0] <= EXACT_MAX else "normal"
-    q = np.zeros(h, dtype=np.int64)
-    for i in range(h):
-        q[i] = (
-            quantile(p[:, i], level)[0]
-            if method == "exact"
-            else quantile_normal(float(mean[i]), float(var[i]), level, p.shape[0])
+    if method == "exact":  # every week in one pass (pmf_weeks)
+        q = quantiles_exact(p, level) if p.shape[0] else np.zeros(h, dtype=np.int64)
+    else:
+        q = np.array(
+            [quantile_normal(float(mean[i]), float(var[i]), level, p.shape[0]) for i in range(h)],
+            dtype=np.int64,
         )
     mean = mean.copy()
     if h:

@@ -132,3 +132,20 @@ def test_dark_lamp_of_a_first_week_group_relamp_is_not_also_spot_demand(db: Sess
         False,
         True,
     ]
+
+
+def test_weekly_exact_quantiles_match_the_dft_and_scipy() -> None:
+    # Fernandez & Williams 2010 (the DFT pmf) and scipy.stats.poisson_binom, week by week.
+    from scipy import stats
+
+    rng = np.random.default_rng(8)
+    p = rng.uniform(0.0, 0.2, (60, 5))
+    pmf = demand.pmf_weeks(p)
+    for w in range(5):
+        assert np.allclose(pmf[w], demand.pmf_dft(p[:, w]), atol=1e-12)
+        assert np.allclose(pmf[w], stats.poisson_binom(p[:, w]).pmf(np.arange(61)), atol=1e-10)
+    big = rng.uniform(0.0, 0.05, (demand.EXACT_MAX, 26))
+    for level in (0.5, 0.95, 0.99):
+        got = demand.quantiles_exact(big, level)
+        want = [demand.quantile_exact(big[:, w], level) for w in range(26)]
+        assert got.tolist() == want
