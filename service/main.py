@@ -23,6 +23,7 @@ from service.config import get_settings
 from service.events.router import router as events_router
 from service.forecasting.router import router as forecasting_router
 from service.keys.router import router as keys_router
+from service.planning.choice_router import build_router as build_choice_router
 from service.planning.router import build_router as build_planning_router
 from service.readings.router import router as readings_router
 from service.register.router import router as register_router
@@ -46,6 +47,7 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     events_router,
     forecasting_router,
     build_planning_router(last_group_relamps),
+    build_choice_router(last_group_relamps),
     workorders_router,
     build_stock_router(last_group_relamps),
     retirement_router,

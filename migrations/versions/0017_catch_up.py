@@ -1,7 +1,7 @@
 """catch-up capacity and draft runs per site
 
 Revision ID: 0017
-Revises: 0014
+Revises: 0016
 Create Date: 2026-12-03
 
 Sites get a weekly capacity for group relamps (labour hours and money, both optional: no
@@ -20,7 +20,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision: str = "0017"
-down_revision: str | None = "0014"
+down_revision: str | None = "0016"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 

@@ -2,13 +2,23 @@
 
 from __future__ import annotations
 
-from datetime import datetime
+from datetime import date, datetime
 from typing import Any
 
-from sqlalchemy import JSON, Boolean, Float, Integer, String
+from sqlalchemy import (
+    JSON,
+    Boolean,
+    CheckConstraint,
+    Float,
+    ForeignKey,
+    Integer,
+    String,
+    UniqueConstraint,
+)
 from sqlalchemy.orm import Mapped, mapped_column
+from sqlalchemy.sql import func
 
-from service.db.base import Base, TimestampMixin
+from service.db.base import Base, TimestampMixin, UTCDateTime, utcnow
 
 
 class LampType(TimestampMixin, Base):
@@ -57,5 +67,78 @@ class LampType(TimestampMixin, Base):
     contains_mercury: Mapped[bool] = mapped_column(Boolean, default=False)
     rupture_risk: Mapped[bool] = mapped_column(Boolean, default=False)  # non-passive failure
     extra: Mapped[dict[str, Any] | None] = mapped_column(JSON, default=None)
+    # Lamp choice (migration 0016): types of one family (e.g. "A19 100 W general service")
+    # differ only in rated volts or make; plans offer the one rated nearest the measured supply.
+    family: Mapped[str | None] = mapped_column(String(60), default=None)
+    # Withdrawn from sale in a market from this date on: plans then ask for a replacement.
+    withdrawn_after: Mapped[date | None] = mapped_column(default=None)
+    withdrawn_market: Mapped[str | None] = mapped_column(String(40), default=None)  # None: all
     # Set when retired: kept for past orders and field fits, hidden from lists.
     retired_at: Mapped[datetime | None] = mapped_column(default=None)
+
+
+RETROFIT_KINDS = ("led_lamp", "luminaire")
+
+
+class RetrofitOption(TimestampMixin, Base):
+    """An LED lamp or replacement luminaire offered in place of a lamp type (or in one area).
+
+    Money in the site currency of the areas it is used in. Per unit (a lamp for an LED lamp,
+    a fixture for a luminaire): kit cost, labour, rebate, watts and light output. Life model as LED lamp types have it: L70 (lumen life),
+    failure B10 (catastrophic failures) and an optional Weibull shape of those failures.
+    """
+
+    __tablename__ = "retrofit_options"
+    __table_args__ = (
+        CheckConstraint("kind IN ('led_lamp', 'luminaire')", name="kind"),
+        CheckConstraint(
+            "lamp_type_id IS NOT NULL OR area_id IS NOT NULL", name="lamp_type_or_area"
+        ),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    version: Mapped[int] = mapped_column(Integer, server_default="1")
+    __mapper_args__ = {"version_id_col": version}
+    code: Mapped[str] = mapped_column(String(40), unique=True)
+    description: Mapped[str | None] = mapped_column(String(300), default=None)
+    kind: Mapped[str] = mapped_column(String(12))
+    # Offered in place of this lamp type (anywhere), or in this area (any of its lamp types).
+    lamp_type_id: Mapped[int | None] = mapped_column(
+        ForeignKey("lamp_types.id", ondelete="RESTRICT"), default=None, index=True
+    )
+    area_id: Mapped[int | None] = mapped_column(
+        ForeignKey("areas.id", ondelete="CASCADE"), default=None, index=True
+    )
+    kit_cost_per_unit: Mapped[float] = mapped_column(Float)
+    labour_minutes_per_unit: Mapped[float] = mapped_column(Float)
+    rebate_per_unit: Mapped[float] = mapped_column(Float, default=0.0)
+    watts_per_unit: Mapped[float] = mapped_column(Float)  # input watts, driver included
+    lumens_per_unit: Mapped[float] = mapped_column(Float)  # initial light output
+    l70_h: Mapped[float] = mapped_column(Float)  # burn hours to 70 % of initial light
+    failure_b10_h: Mapped[float | None] = mapped_column(Float, default=None)  # None: = L70
+    failure_shape: Mapped[float | None] = mapped_column(Float, default=None)  # None: LED default
+    retired_at: Mapped[datetime | None] = mapped_column(default=None)
+
+
+class LampChoiceRecord(Base):
+    """The lamp choice a group work order names: history that keeps an option from deletion."""
+
+    __tablename__ = "lamp_choice_records"
+    __table_args__ = (UniqueConstraint("work_order_id", "for_lamp_type_id"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    work_order_id: Mapped[int] = mapped_column(ForeignKey("work_orders.id", ondelete="CASCADE"))
+    # The lamp type being relamped; the option chosen for it follows.
+    for_lamp_type_id: Mapped[int] = mapped_column(ForeignKey("lamp_types.id", ondelete="RESTRICT"))
+    option_kind: Mapped[str] = mapped_column(String(20))  # same_type, rated_for_voltage, retrofit
+    label: Mapped[str] = mapped_column(String(200))
+    lamp_type_id: Mapped[int | None] = mapped_column(
+        ForeignKey("lamp_types.id", ondelete="RESTRICT"), default=None
+    )
+    retrofit_option_id: Mapped[int | None] = mapped_column(
+        ForeignKey("retrofit_options.id", ondelete="RESTRICT"), default=None, index=True
+    )
+    npv: Mapped[float | None] = mapped_column(Float, default=None)  # site currency
+    created_at: Mapped[datetime] = mapped_column(
+        UTCDateTime(), default=utcnow, server_default=func.now(), nullable=False
+    )

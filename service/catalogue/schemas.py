@@ -5,12 +5,13 @@ from __future__ import annotations
 import itertools
 import json
 import math
-from datetime import datetime
+from datetime import date, datetime
 from typing import Annotated, Any, Literal
 
 from fastapi import Query
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
+from service.api.times import Day
 from service.catalogue.lamp_model import LampModel
 from service.catalogue.mortality import (
     MortalityFitRead,
@@ -203,6 +204,17 @@ class LampTypeCreate(BaseModel):
     unit_price: Price = 0.0
     contains_mercury: bool | None = Field(default=None, description="Default: by technology.")
     rupture_risk: bool | None = Field(default=None, description="Default: by technology.")
+    family: str | None = Field(
+        default=None, min_length=1, max_length=60,
+        description="Types of one family differ only in rated volts or make; lamp choice "
+        "offers the one rated nearest the measured voltage.",
+    )  # fmt: skip
+    withdrawn_after: Day | None = Field(
+        default=None, description="Withdrawn from sale from this date: plans ask for a replacement."
+    )
+    withdrawn_market: str | None = Field(
+        default=None, min_length=1, max_length=40, description="Where withdrawn; unset: everywhere."
+    )
     extra: Extra | None = None
 
     def stored_values(self) -> dict[str, Any]:
@@ -299,6 +311,9 @@ class LampTypeUpdate(BaseModel):
     unit_price: Price | None = None
     contains_mercury: bool | None = None
     rupture_risk: bool | None = None
+    family: str | None = Field(default=None, min_length=1, max_length=60)
+    withdrawn_after: Day | None = None
+    withdrawn_market: str | None = Field(default=None, min_length=1, max_length=40)
     extra: Extra | None = None
 
 
@@ -419,6 +434,9 @@ class LampTypeRead(BaseModel):
     unit_price: float
     contains_mercury: bool
     rupture_risk: bool
+    family: str | None = None
+    withdrawn_after: date | None = None
+    withdrawn_market: str | None = None
     extra: dict[str, Any] | None
     created_at: datetime
     updated_at: datetime

@@ -23,6 +23,7 @@ low supply voltage stretches life, 0.7 by default [practice: common practice].
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Any
@@ -30,7 +31,14 @@ from typing import Any
 import numpy as np
 
 from service.catalogue.lamp_model import LampModel
-from service.reliability.conditions import VoltageEffect, switching_life_factor, voltage_effect
+from service.reliability.block_batch import ScaledProblems, plan_block_replacement_scaled
+from service.reliability.conditions import (
+    VoltageEffect,
+    needs_words,
+    switching_life_factor,
+    voltage_effect,
+    voltage_model,
+)
 from service.reliability.renewal import RenewalCurve, weibull_renewal
 from service.reliability.replacement import BlockPlan, plan_block_replacement
 from service.reliability.weibull import Weibull
@@ -188,10 +196,33 @@ def weibull_renewal_scaled(life: Weibull, horizon_h: float, n: int = RENEWAL_STE
     )
 
 
-def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
-    """Cheapest group interval for one lamp type under the area's caps (numeric core)."""
-    life, ve, swf, warnings = scaled_life(model, cond)
-    vf = ve.life_factor
+@dataclass(frozen=True, kw_only=True)
+class _Prepared:
+    """A group's life at its conditions and its caps, before the interval search."""
+
+    life: Weibull
+    ve: VoltageEffect
+    swf: float
+    warnings: tuple[str, ...]
+    mean_h: float
+    horizon: float  # hours: HORIZON_MEANS mean lives
+    floor_h: float | None
+    cap_h: float | None
+
+
+def _prepare(model: LampModel, cond: Conditions) -> _Prepared:
+    """Scaled life, light-floor hours and rupture cap of one lamp type at its conditions."""
+    return _prepared(model, cond, *scaled_life(model, cond))
+
+
+def _prepared(
+    model: LampModel,
+    cond: Conditions,
+    life: Weibull,
+    ve: VoltageEffect,
+    swf: float,
+    warnings: list[str],
+) -> _Prepared:
     mean_h = life.mean()
     horizon = HORIZON_MEANS * mean_h
     floor_h = None
@@ -200,35 +231,144 @@ def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPl
         floor_h = h if math.isfinite(h) else None
     cap_h = None
     if model.rupture_risk:
+        vf = ve.life_factor
         cap_h = cond.rupture_fraction * min(model.rated_life_h, model.rated_life_h * vf * swf)
-    # The core's own grid for a Weibull (horizon 3 mean lives, RENEWAL_STEPS steps), solved
-    # once per shape; a rupture cap past that horizon takes the core's Weibull path instead.
+    return _Prepared(
+        life=life,
+        ve=ve,
+        swf=swf,
+        warnings=tuple(warnings),
+        mean_h=mean_h,
+        horizon=horizon,
+        floor_h=floor_h,
+        cap_h=cap_h,
+    )
+
+
+def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepared]:
+    """_prepare for many conditions of one lamp model: one vectorised voltage and cycle call.
+
+    Conditions the scalar path would word a warning for (outside the band or driver range, a
+    supply fault, below the halogen floor) or refuse go through scaled_life itself.
+    """
+    volts = np.array([c.voltage_v for c in conds], dtype=np.float64)
+    hps = np.array([math.nan if c.hours_per_start is None else c.hours_per_start for c in conds])
+    vm = voltage_model(
+        model.rated_volts,
+        model.technology,
+        model.ballast_behaviour,
+        life_exponent=model.life_exponent,
+        light_exponent=model.light_exponent,
+        power_exponent=model.power_exponent,
+        driver_range=model.driver_range,
+    )
+    scalar = ~(np.isfinite(volts) & (volts > 0)) | ~(np.isnan(hps) | (hps > 0))
+    ratio = np.where(scalar, 1.0, volts) / model.rated_volts
+    life, light, power, out = vm.factors(ratio)
+    scalar |= needs_words(vm, ratio, out)
+    sw, warn = switching_life_factor(
+        np.where(scalar, math.nan, hps),
+        model.rated_hours_per_start,
+        model.second_hours_per_start,
+        model.second_life_ratio,
+        default_slope=model.switching_slope,
+    )
+    result = []
+    for i, cond in enumerate(conds):
+        if scalar[i]:
+            result.append(_prepare(model, cond))
+            continue
+        ve = VoltageEffect(float(life[i]), float(light[i]), float(power[i]), ())
+        swf = float(sw[i])
+        words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warn[i])
+        scaled = Weibull(model.shape, model.scale_h * ve.life_factor * swf)
+        result.append(_prepared(model, cond, scaled, ve, swf, words))
+    return result
+
+
+def _on_unit_curve(p: _Prepared) -> bool:
+    """The core's own grid for a Weibull (horizon 3 mean lives), solved once per shape.
+
+    A rupture cap past that horizon takes the core's Weibull path instead.
+    """
+    return p.cap_h is None or p.cap_h <= p.horizon
+
+
+def _group_plan(p: _Prepared, plan: BlockPlan) -> GroupPlan:
+    vf = p.ve.life_factor
+    return GroupPlan(
+        plan,
+        p.life,
+        vf * p.swf,
+        vf,
+        p.swf,
+        p.floor_h,
+        p.cap_h,
+        p.warnings,
+        power_factor=p.ve.power_factor,
+        light_factor=p.ve.light_factor,
+        horizon_h=max(p.horizon, p.cap_h or 0.0),
+    )
+
+
+def plan_group(model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
+    """Cheapest group interval for one lamp type under the area's caps (numeric core)."""
+    p = _prepare(model, cond)
     # (With a curve the burnout ceiling hours come from F on the grid, linearly interpolated.)
-    life_in: Weibull | RenewalCurve = life
-    if cap_h is None or cap_h <= horizon:
-        life_in = weibull_renewal_scaled(life, horizon)
+    life_in: Weibull | RenewalCurve = p.life
+    if _on_unit_curve(p):
+        life_in = weibull_renewal_scaled(p.life, p.horizon)
     plan = plan_block_replacement(
         life_in,
         costs.c_group,
         costs.c_spot,
-        mean_life_h=mean_h,
-        light_floor_h=floor_h,
+        mean_life_h=p.mean_h,
+        light_floor_h=p.floor_h,
         burnout_ceiling=cond.burnout_ceiling,
-        rupture_cap_h=cap_h,
+        rupture_cap_h=p.cap_h,
     )
-    return GroupPlan(
-        plan,
-        life,
-        vf * swf,
-        vf,
-        swf,
-        floor_h,
-        cap_h,
-        tuple(warnings),
-        power_factor=ve.power_factor,
-        light_factor=ve.light_factor,
-        horizon_h=max(horizon, cap_h or 0.0),
-    )
+    return _group_plan(p, plan)
+
+
+def _nan(v: float | None) -> float:
+    return math.nan if v is None else float(v)
+
+
+def plan_groups(
+    items: Sequence[tuple[LampModel, CostInputs, Conditions]],
+) -> list[GroupPlan]:
+    """plan_group for many groups: one vectorised search per shared unit renewal curve."""
+    by_model: dict[int, list[int]] = {}
+    for i, (m, _, _) in enumerate(items):
+        by_model.setdefault(id(m), []).append(i)
+    prepared: list[_Prepared] = [None] * len(items)  # type: ignore[list-item]
+    for idx in by_model.values():
+        conds = [items[i][2] for i in idx]
+        for i, p in zip(idx, _prepare_many(items[idx[0]][0], conds), strict=True):
+            prepared[i] = p
+    out: list[GroupPlan | None] = [None] * len(items)
+    by_unit: dict[tuple[float, float], list[int]] = {}
+    for i, p in enumerate(prepared):
+        if _on_unit_curve(p):
+            by_unit.setdefault((p.life.shape, p.horizon / p.life.scale), []).append(i)
+        else:
+            out[i] = plan_group(*items[i])
+    for (shape, ratio), idx in by_unit.items():
+        ps = [prepared[i] for i in idx]
+        costs = [items[i][1] for i in idx]
+        problems = ScaledProblems(
+            unit=_unit_renewal(shape, ratio, RENEWAL_STEPS),
+            scale_h=np.array([p.life.scale for p in ps]),
+            c_group=np.array([c.c_group for c in costs]),
+            c_spot=np.array([c.c_spot for c in costs]),
+            mean_life_h=np.array([p.mean_h for p in ps]),
+            light_floor_h=np.array([_nan(p.floor_h) for p in ps]),
+            burnout_ceiling=np.array([_nan(items[i][2].burnout_ceiling) for i in idx]),
+            rupture_cap_h=np.array([_nan(p.cap_h) for p in ps]),
+        )
+        for i, p, plan in zip(idx, ps, plan_block_replacement_scaled(problems), strict=True):
+            out[i] = _group_plan(p, plan)
+    return [g for g in out if g is not None]
 
 
 class PlanCache:
@@ -239,7 +379,17 @@ class PlanCache:
 
     def get(self, model: LampModel, costs: CostInputs, cond: Conditions) -> GroupPlan:
         """The plan for these inputs, computed on first use."""
-        key = (
+        key = self.key(model, costs, cond)
+        got = self._plans.get(key)
+        if got is None:
+            got = plan_group(model, costs, cond)
+            self._plans[key] = got
+        return got
+
+    @staticmethod
+    def key(model: LampModel, costs: CostInputs, cond: Conditions) -> tuple[Any, ...]:
+        """What a plan depends on (the lamp model's identity, the two costs, the conditions)."""
+        return (
             model.lamp_type_id,
             model.code,
             model.ballast_behaviour,
@@ -247,8 +397,15 @@ class PlanCache:
             costs.c_spot,
             cond,
         )
-        got = self._plans.get(key)
-        if got is None:
-            got = plan_group(model, costs, cond)
-            self._plans[key] = got
-        return got
+
+    def get_many(
+        self, items: Sequence[tuple[LampModel, CostInputs, Conditions]]
+    ) -> list[GroupPlan]:
+        """Plans for many inputs; the ones not cached yet computed together (plan_groups)."""
+        keys = [self.key(*it) for it in items]
+        todo: dict[tuple[Any, ...], tuple[LampModel, CostInputs, Conditions]] = {}
+        for k, it in zip(keys, items, strict=True):
+            if k not in self._plans:
+                todo.setdefault(k, it)
+        self._plans.update(zip(todo, plan_groups(list(todo.values())), strict=True))
+        return [self._plans[k] for k in keys]

@@ -15,7 +15,7 @@ from numpy.typing import NDArray
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
-from service.readings.ages import position_ages
+from service.readings.ages import PositionAges, position_ages
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -56,6 +56,11 @@ def load_positions(
     pa = position_ages(
         session, site_id=site_id, area_id=area_id, at=at or utcnow(), active_only=True
     )
+    return from_ages(pa)
+
+
+def from_ages(pa: PositionAges) -> PositionArrays:
+    """The planning view of position ages (positions loaded once, e.g. for a portfolio)."""
     return PositionArrays(
         position_id=np.asarray(pa.position_id, dtype=np.int64),
         fixture_id=np.asarray(pa.fixture_id, dtype=np.int64),

@@ -8,6 +8,7 @@ from fastapi import APIRouter
 
 from service.api.auth import ReadKey, SessionDep
 from service.planning import service
+from service.planning.choice_bodies import plan_briefs
 from service.planning.plan_bodies import area_plan_read, catch_up_read
 from service.planning.schemas import AreaPlanRead, PlanOverrides, SitePlanRead
 from service.planning.site_schedule import site_schedule
@@ -21,7 +22,10 @@ def build_router(last_relamps: service.LastRelamps) -> APIRouter:
     @router.get("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
     def get_area_plan(area_id: int, session: SessionDep, _: ReadKey) -> AreaPlanRead:
         """An area's group relamp plan: interval, due date, cost rates, binding reason, inputs."""
-        return area_plan_read(service.area_plan(session, area_id, last_relamps=last_relamps))
+        plan = service.area_plan(session, area_id, last_relamps=last_relamps)
+        body = area_plan_read(plan)
+        body.lamp_choice = plan_briefs(session, plan)  # the best option per lamp type
+        return body
 
     @router.post("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
     def what_if_area_plan(

@@ -8,6 +8,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from service.api.times import Timestamp
+from service.planning.choice_schemas import LampChoiceBrief
 from service.register.schemas import Money, Volts
 
 
@@ -195,6 +196,11 @@ class AreaPlanRead(BaseModel):
     lamp_types: list[LampTypePlan]
     catch_up: CatchUpRead | None = Field(
         default=None, description="Its week in the site's catch-up schedule (site plans only)."
+    )
+    # Set by the area plan route (planning.choice_bodies.plan_briefs): null when no lamp type
+    # has an alternative (family, retrofit option) or a withdrawal date.
+    lamp_choice: list[LampChoiceBrief] | None = Field(
+        default=None, description="Best option per lamp type at the next group relamp."
     )
 
 

@@ -27,11 +27,12 @@ from functools import cached_property
 from zoneinfo import ZoneInfo
 
 import numpy as np
+from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.catalogue.lamp_model import LampModel
-from service.catalogue.resolved import CurveInUse
+from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
@@ -49,6 +50,8 @@ from service.planning.positions import PositionArrays, load_positions
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
 
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
 WEEKS_PER_YEAR = 365.25 / 7.0
 VOLTAGE_STEP_V = 0.1  # representative voltages are rounded to this (meters read no finer)
 
@@ -147,13 +150,224 @@ def _models(
     types = load_fitted_types(
         session, pos.lamp_type_id, field_fit=True, ballast_kinds=pos.ballast_kind
     )
+    return models_of(types, pos)
+
+
+def models_of(
+    types: TypeTable, pos: PositionArrays
+) -> tuple[dict[tuple[int, str], LampModel], dict[int, CurveInUse], np.ndarray]:
+    """_models from a type table already loaded for these positions (or more)."""
     keys = list(zip(types.ids.tolist(), types.ballasts.tolist(), strict=True))
     models = dict(zip(keys, types.models, strict=True))
     curves = {k[0]: c for k, c in zip(keys, types.curves, strict=True)}
     return models, curves, types.ballast_of(pos.lamp_type_id, pos.ballast_kind)
 
 
-def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
+@dataclass(frozen=True, kw_only=True)
+class GroupSums:
+    """Per (area, lamp type) group of positions: sums over its positions (numpy, no loop)."""
+
+    area_id: IntArray
+    lamp_type_id: IntArray
+    count: FloatArray  # positions
+    hours: FloatArray  # sum of ages, burn hours
+    starts: FloatArray
+    volt_h: FloatArray  # sum of age x volts
+    volt_sum: FloatArray
+    rate_sum: FloatArray  # sum of weekly burn hours (NaN as 0)
+    dominant: NDArray[np.str_]  # the ballast kind most of the group's positions run on
+    # Age from the area's clustered installation dates (planning.group_age; NaN: none).
+    cluster_age: FloatArray
+
+    def by_area(self) -> dict[int, list[int]]:
+        """Group indices of each area, in lamp type order."""
+        out: dict[int, list[int]] = {}
+        for g, a in enumerate(self.area_id.tolist()):
+            out.setdefault(int(a), []).append(g)
+        return out
+
+
+def group_sums(pos: PositionArrays, ballast: NDArray[np.str_]) -> GroupSums:
+    """Sums by (area, lamp type) with numpy; ballast: each position's resolved ballast kind."""
+    # One integer key per (area, lamp type), sorting as the pairs do: a 1-D unique is far
+    # quicker than np.unique(axis=0) on the pairs.
+    width = int(pos.lamp_type_id.max()) + 1 if pos.size else 1
+    key = pos.area_id.astype(np.int64) * width + pos.lamp_type_id
+    ukey, inv = np.unique(key, return_inverse=True)
+    uniq = np.stack([ukey // width, ukey % width], axis=1)
+    inv = np.asarray(inv).ravel()
+    ng = len(uniq)
+
+    def total(w: FloatArray | None = None) -> FloatArray:
+        out: FloatArray = np.bincount(inv, weights=w, minlength=ng).astype(np.float64)
+        return out
+
+    # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
+    kinds, kind_of = np.unique(ballast, return_inverse=True)
+    per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
+    np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
+    return GroupSums(
+        area_id=uniq[:, 0].astype(np.int64),
+        lamp_type_id=uniq[:, 1].astype(np.int64),
+        count=total(),
+        hours=total(pos.age_h),
+        starts=total(pos.starts),
+        volt_h=total(pos.age_h * pos.voltage_v),
+        volt_sum=total(pos.voltage_v),
+        rate_sum=total(np.nan_to_num(pos.burn_h_per_week)),
+        dominant=kinds[per_kind.argmax(axis=1)] if kinds.size else kinds,
+        cluster_age=group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng),
+    )
+
+
+@dataclass(frozen=True, kw_only=True)
+class AreaBasis:
+    """An area's burn rate and how its group age is found."""
+
+    weekly: float  # burn hours per week
+    basis: str  # "override" | "last_group_relamp" | "installation_dates" | "mean_position_age"
+    last_at: datetime | None
+    positions: int
+
+
+def area_basis(
+    area: Area, gidx: list[int], sums: GroupSums, over: PlanOverrides, last_at: datetime | None
+) -> AreaBasis:
+    """The area's weekly burn hours (schedule, else measured, else override) and age basis."""
+    n_area = int(sum(int(sums.count[g]) for g in gidx))
+    weekly = area.burn_hours_per_week
+    if weekly <= 0 and n_area > 0:  # no schedule: the measured rate, if any
+        weekly = float(sum(sums.rate_sum[g] for g in gidx) / n_area)
+    if over.weekly_burn_hours is not None:
+        weekly = over.weekly_burn_hours
+    if over.group_age_h is not None:
+        basis = "override"
+    elif last_at is not None and weekly > 0:
+        basis = "last_group_relamp"
+    elif any(math.isfinite(float(sums.cluster_age[g])) for g in gidx):
+        basis = "installation_dates"
+    else:
+        basis = "mean_position_age"
+    return AreaBasis(weekly=weekly, basis=basis, last_at=last_at, positions=n_area)
+
+
+def group_conditions(
+    g: int, sums: GroupSums, area: Area, over: PlanOverrides
+) -> tuple[float, str, float | None]:
+    """(volts, voltage basis, hours per start) of one group."""
+    if over.voltage_v is not None:
+        volts, vbasis = over.voltage_v, "override"
+    elif sums.hours[g] > 0:
+        volts, vbasis = sums.volt_h[g] / sums.hours[g], "burn_hour_weighted_mean"
+    else:
+        volts, vbasis = sums.volt_sum[g] / sums.count[g], "mean_of_positions"
+    volts = round(round(volts / VOLTAGE_STEP_V) * VOLTAGE_STEP_V, 6)
+    if over.hours_per_start is not None:
+        hps: float | None = over.hours_per_start
+    elif area.hours_per_start is not None:
+        hps = area.hours_per_start
+    elif sums.starts[g] > 0 and sums.hours[g] > 0:
+        hps = round(sums.hours[g] / sums.starts[g], 3)
+    else:
+        hps = None
+    return float(volts), vbasis, hps
+
+
+def group_inputs(
+    model: LampModel,
+    site: Site,
+    area: Area,
+    ab: AreaBasis,
+    volts: float,
+    hps: float | None,
+    over: PlanOverrides,
+) -> tuple[CostInputs, Conditions]:
+    """What a group's positions cost to relamp and the conditions it runs under."""
+    fee = _pick(over.disposal_fee_per_lamp, site.disposal_fee_per_mercury_lamp)
+    costs = CostInputs(
+        lamp_price=over.lamp_price if over.lamp_price is not None else model.unit_price,
+        labour_rate_per_h=_pick(over.labour_rate_per_h, site.labour_rate_per_h),
+        group_minutes_per_lamp=_pick(over.group_minutes_per_lamp, area.group_minutes_per_lamp),
+        spot_minutes_per_lamp=_pick(over.spot_minutes_per_lamp, area.spot_minutes_per_lamp),
+        equipment_hire_per_visit=_pick(
+            over.equipment_hire_per_visit, area.equipment_hire_per_visit
+        ),
+        area_positions=max(ab.positions, 1),
+        spot_lamps_per_visit=_pick(over.spot_lamps_per_visit, 1.0),
+        disposal_fee_per_lamp=fee if model.contains_mercury else 0.0,
+        energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
+        lamp_watts=model.rated_watts,
+    )
+    cond = Conditions(
+        voltage_v=volts,
+        hours_per_start=hps,
+        light_floor=over.light_floor if over.light_floor is not None else area.light_floor,
+        burnout_ceiling=(
+            over.burnout_ceiling if over.burnout_ceiling is not None else area.burnout_ceiling
+        ),
+        rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
+    )
+    return costs, cond
+
+
+def group_age(ab: AreaBasis, g: int, sums: GroupSums, over: PlanOverrides, at: datetime) -> float:
+    """Burn hours of the group's lamps: override, since the last group relamp, from clustered
+    installation dates, or the mean."""
+    if ab.basis == "override":
+        return float(over.group_age_h or 0.0)
+    if ab.basis == "last_group_relamp" and ab.last_at is not None:
+        return ab.weekly * max((at - ab.last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
+    if ab.basis == "installation_dates" and math.isfinite(float(sums.cluster_age[g])):
+        return float(sums.cluster_age[g])
+    return float(sums.hours[g] / sums.count[g])
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Pending:
+    """A group's inputs before its interval is searched."""
+
+    area_id: int
+    g: int
+    model: LampModel
+    volts: float
+    vbasis: str
+    hps: float | None
+    costs: CostInputs
+    cond: Conditions
+
+
+def _pending(
+    site: Site,
+    areas: Sequence[Area],
+    sums: GroupSums,
+    bases: Mapping[int, AreaBasis],
+    models: Mapping[tuple[int, str], LampModel],
+    over: PlanOverrides,
+) -> list[_Pending]:
+    """Every group's inputs, areas in the given order (pure)."""
+    by_area = sums.by_area()
+    out = []
+    for area in areas:
+        for g in by_area.get(area.id, []):
+            model = models[(int(sums.lamp_type_id[g]), str(sums.dominant[g]))]
+            volts, vbasis, hps = group_conditions(g, sums, area, over)
+            costs, cond = group_inputs(model, site, area, bases[area.id], volts, hps, over)
+            out.append(
+                _Pending(
+                    area_id=area.id,
+                    g=g,
+                    model=model,
+                    volts=volts,
+                    vbasis=vbasis,
+                    hps=hps,
+                    costs=costs,
+                    cond=cond,
+                )
+            )
+    return out
+
+
+def plan_areas(
     session: Session,
     site: Site,
     areas: Sequence[Area],
@@ -165,164 +379,122 @@ def plan_areas(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.
     last_relamps: Mapping[int, datetime],
 ) -> list[AreaPlan]:
     """Plans for the given areas of one site; last_relamps: last completed group relamp by area."""
-    over = over or PlanOverrides()
-    cache = cache or PlanCache()
-    today = local_today(site, at)
-    last = last_relamps
     models: dict[tuple[int, str], LampModel] = {}
     curves: dict[int, CurveInUse] = {}
     ballast = np.zeros(0, dtype="<U12")
     if pos.size:
         models, curves, ballast = _models(session, pos)
-    plans: dict[int, AreaPlan] = {}
-    # Group positions by (area, lamp type) with numpy: sums by group, no per-row loop.
-    keys = np.stack([pos.area_id, pos.lamp_type_id], axis=1) if pos.size else np.empty((0, 2))
-    uniq, inv = (
-        np.unique(keys, axis=0, return_inverse=True) if pos.size else (keys, np.empty(0, int))
+    return compute_plans(
+        PlanInputs(
+            site=site,
+            areas=areas,
+            pos=pos,
+            ballast=ballast,
+            models=models,
+            curves=curves,
+            at=at,
+            last_relamps=last_relamps,
+        ),
+        over or PlanOverrides(),
+        cache or PlanCache(),
     )
-    inv = np.asarray(inv).ravel()
-    ng = len(uniq)
-    count = np.bincount(inv, minlength=ng).astype(np.float64)
-    hours = np.bincount(inv, weights=pos.age_h, minlength=ng)
-    starts = np.bincount(inv, weights=pos.starts, minlength=ng)
-    volt_h = np.bincount(inv, weights=pos.age_h * pos.voltage_v, minlength=ng)
-    volt_sum = np.bincount(inv, weights=pos.voltage_v, minlength=ng)
-    area_count = np.bincount(inv, minlength=ng)
-    rate_sum = np.bincount(inv, weights=np.nan_to_num(pos.burn_h_per_week), minlength=ng)
-    # Group ages from clustered installation dates (NaN where an area's dates spread).
-    cluster_age = group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng)
-    # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
-    kinds, kind_of = np.unique(ballast, return_inverse=True)
-    per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
-    np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
-    dominant = kinds[per_kind.argmax(axis=1)] if kinds.size else kinds
-    by_area: dict[int, list[int]] = {}
-    for g in range(ng):
-        by_area.setdefault(int(uniq[g, 0]), []).append(g)
-    for area in areas:
-        gidx = by_area.get(area.id, [])
-        n_area = int(sum(int(area_count[g]) for g in gidx))
-        weekly = area.burn_hours_per_week
-        if weekly <= 0 and n_area > 0:  # no schedule: the measured rate, if any
-            weekly = float(sum(rate_sum[g] for g in gidx) / n_area)
-        if over.weekly_burn_hours is not None:
-            weekly = over.weekly_burn_hours
-        last_at = last.get(area.id)
-        basis = _age_basis(over, last_at, weekly, [float(cluster_age[g]) for g in gidx])
-        groups: list[TypeGroup] = []
-        for g in gidx:
-            lt_id = int(uniq[g, 1])
-            model = models[(lt_id, str(dominant[g]))]
-            if over.voltage_v is not None:
-                volts, vbasis = over.voltage_v, "override"
-            elif hours[g] > 0:
-                volts, vbasis = volt_h[g] / hours[g], "burn_hour_weighted_mean"
-            else:
-                volts, vbasis = volt_sum[g] / count[g], "mean_of_positions"
-            volts = round(round(volts / VOLTAGE_STEP_V) * VOLTAGE_STEP_V, 6)
-            if over.hours_per_start is not None:
-                hps: float | None = over.hours_per_start
-            elif area.hours_per_start is not None:
-                hps = area.hours_per_start
-            elif starts[g] > 0 and hours[g] > 0:
-                hps = round(hours[g] / starts[g], 3)
-            else:
-                hps = None
-            mercury = model.contains_mercury
-            fee = (
-                over.disposal_fee_per_lamp
-                if over.disposal_fee_per_lamp is not None
-                else site.disposal_fee_per_mercury_lamp
+
+
+@dataclass(frozen=True, kw_only=True)
+class PlanInputs:
+    """Everything a site's area plans are computed from (loaded by plan_areas)."""
+
+    site: Site
+    areas: Sequence[Area]
+    pos: PositionArrays
+    ballast: NDArray[np.str_]  # each position's resolved ballast kind
+    models: Mapping[tuple[int, str], LampModel]  # by (lamp type, ballast kind)
+    curves: Mapping[int, CurveInUse]  # by lamp type
+    at: datetime
+    last_relamps: Mapping[int, datetime]  # last completed group relamp by area
+
+
+@dataclass(frozen=True, kw_only=True)
+class SitePending:
+    """A site's groups with their inputs, before the interval search (compute_plans)."""
+
+    inp: PlanInputs
+    sums: GroupSums
+    bases: Mapping[int, AreaBasis]
+    pending: list[_Pending]
+
+    def items(self) -> list[tuple[LampModel, CostInputs, Conditions]]:
+        """The interval-search inputs of every group."""
+        return [(p.model, p.costs, p.cond) for p in self.pending]
+
+
+def pending_plans(inp: PlanInputs, over: PlanOverrides) -> SitePending:
+    """Group sums, area bases and every group's inputs (pure)."""
+    sums = group_sums(inp.pos, inp.ballast)
+    by_area = sums.by_area()
+    bases = {
+        a.id: area_basis(a, by_area.get(a.id, []), sums, over, inp.last_relamps.get(a.id))
+        for a in inp.areas
+    }
+    pending = _pending(inp.site, inp.areas, sums, bases, inp.models, over)
+    return SitePending(inp=inp, sums=sums, bases=bases, pending=pending)
+
+
+def assemble_plans(
+    sp: SitePending, plans: Sequence[GroupPlan], over: PlanOverrides
+) -> list[AreaPlan]:
+    """The area plans from the groups' inputs and their searched intervals (pure)."""
+    inp, sums, bases = sp.inp, sp.sums, sp.bases
+    today = local_today(inp.site, inp.at)
+    groups: dict[int, list[TypeGroup]] = {a.id: [] for a in inp.areas}
+    for p, gp in zip(sp.pending, plans, strict=True):
+        if over.objective == MEGALUMEN:
+            gp = megalumen_plan(p.model, p.costs, p.cond, gp)
+        ab = bases[p.area_id]
+        age = group_age(ab, p.g, sums, over, inp.at)
+        due, overdue = due_date(today, gp.plan.interval_h, age, ab.weekly)
+        lt_id = int(sums.lamp_type_id[p.g])
+        groups[p.area_id].append(
+            TypeGroup(
+                lt_id,
+                p.model,
+                int(sums.count[p.g]),
+                p.volts,
+                p.vbasis,
+                p.hps,
+                p.costs,
+                p.cond,
+                gp,
+                age,
+                due,
+                overdue,
+                inp.curves.get(lt_id),
             )
-            costs = CostInputs(
-                lamp_price=over.lamp_price if over.lamp_price is not None else model.unit_price,
-                labour_rate_per_h=_pick(over.labour_rate_per_h, site.labour_rate_per_h),
-                group_minutes_per_lamp=_pick(
-                    over.group_minutes_per_lamp, area.group_minutes_per_lamp
-                ),
-                spot_minutes_per_lamp=_pick(over.spot_minutes_per_lamp, area.spot_minutes_per_lamp),
-                equipment_hire_per_visit=_pick(
-                    over.equipment_hire_per_visit, area.equipment_hire_per_visit
-                ),
-                area_positions=max(n_area, 1),
-                spot_lamps_per_visit=_pick(over.spot_lamps_per_visit, 1.0),
-                disposal_fee_per_lamp=fee if mercury else 0.0,
-                energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
-                lamp_watts=model.rated_watts,
-            )
-            cond = Conditions(
-                voltage_v=volts,
-                hours_per_start=hps,
-                light_floor=over.light_floor if over.light_floor is not None else area.light_floor,
-                burnout_ceiling=(
-                    over.burnout_ceiling
-                    if over.burnout_ceiling is not None
-                    else area.burnout_ceiling
-                ),
-                rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
-            )
-            gp = cache.get(model, costs, cond)
-            if over.objective == MEGALUMEN:
-                gp = megalumen_plan(model, costs, cond, gp)
-            mean_age = float(hours[g] / count[g])
-            age = _group_age(basis, over, last_at, weekly, at, float(cluster_age[g]), mean_age)
-            due, overdue = due_date(today, gp.plan.interval_h, age, weekly)
-            groups.append(
-                TypeGroup(
-                    lt_id,
-                    model,
-                    int(count[g]),
-                    volts,
-                    vbasis,
-                    hps,
-                    costs,
-                    cond,
-                    gp,
-                    age,
-                    due,
-                    overdue,
-                    curves.get(lt_id),
-                )
-            )
-        plans[area.id] = AreaPlan(
-            area, site, at, n_area, weekly, basis, last_at, pos.source, groups
         )
-    return [plans[a.id] for a in areas]
+    return [
+        AreaPlan(
+            a,
+            inp.site,
+            inp.at,
+            bases[a.id].positions,
+            bases[a.id].weekly,
+            bases[a.id].basis,
+            bases[a.id].last_at,
+            inp.pos.source,
+            groups[a.id],
+        )
+        for a in inp.areas
+    ]
 
 
-def _age_basis(
-    over: PlanOverrides, last_at: datetime | None, weekly: float, cluster_ages: list[float]
-) -> str:
-    """Where an area's group age comes from (see the module docstring)."""
-    if over.group_age_h is not None:
-        return "override"
-    if last_at is not None and weekly > 0:
-        return "last_group_relamp"
-    if any(math.isfinite(a) for a in cluster_ages):
-        return "installation_dates"
-    return "mean_position_age"
-
-
-def _group_age(
-    basis: str,
-    over: PlanOverrides,
-    last_at: datetime | None,
-    weekly: float,
-    at: datetime,
-    cluster_age: float,
-    mean_age: float,
-) -> float:
-    """A lamp-type group's age in burn hours by the area's basis."""
-    if basis == "override":
-        return float(over.group_age_h or 0.0)
-    if basis == "last_group_relamp" and last_at is not None:
-        return weekly * max((at - last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
-    if basis == "installation_dates" and math.isfinite(cluster_age):
-        return cluster_age
-    return mean_age
+def compute_plans(inp: PlanInputs, over: PlanOverrides, cache: PlanCache) -> list[AreaPlan]:
+    """The area plans from loaded inputs (pure: no database); one bulk interval search."""
+    sp = pending_plans(inp, over)
+    return assemble_plans(sp, cache.get_many(sp.items()), over)
 
 
 def _pick(value: float | None, default: float) -> float:
+    """The override if given, else the default, as a float."""
     return float(default) if value is None else float(value)
 
 

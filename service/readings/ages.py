@@ -25,7 +25,7 @@ Method (all vectorised; a handful of queries whatever the number of positions):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import datetime
 from typing import Any
 
@@ -127,28 +127,8 @@ def empty_ages(at: datetime) -> PositionAges:
     )
 
 
-def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
-    session: Session,
-    *,
-    site_id: int | None = None,
-    area_id: int | None = None,
-    fixture_id: int | None = None,
-    at: datetime | None = None,
-    lamp_type_id: int | None = None,
-    position_ids: list[int] | None = None,
-    active_only: bool = False,
-) -> PositionAges:
-    """Ages, starts and operating voltages of every position in a scope, at a moment.
-
-    active_only leaves out retired fixtures (forecasts and plans of future work).
-    """
-    at = utcnow() if at is None else at
-    t_at = at.timestamp()
-    cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
-    if active_only:
-        cond.append(Fixture.retired_at.is_(None))
-    conn = session.connection()
-    dialect = conn.dialect.name
+def _load_positions(session: Session, cond: list[ColumnElement[bool]], dialect: str) -> FloatArray:
+    """One row per position in scope (the columns _Positions names), in position id order."""
     matrix = float_matrix(
         session,
         select(
@@ -165,25 +145,33 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
             case(_BALLAST_CODE, value=Fixture.ballast_kind, else_=-1),
         )
         .join(Fixture, Fixture.id == LampPosition.fixture_id)
-        .where(*cond)
-        .order_by(LampPosition.id),
+        .where(*cond),
         11,
     )
-    if matrix.shape[0] == 0:
-        return empty_ages(at)
-    pos_id, fix_id, area_of, site_of, type_of = (matrix[:, j].astype(np.int64) for j in range(5))
-    t0 = matrix[:, 5]
-    h0 = matrix[:, 6]
-    s0 = matrix[:, 7]
-    dark_at = matrix[:, 8]
-    fix_v = matrix[:, 9]
-    ballast = _BALLAST_NAMES[np.nan_to_num(matrix[:, 10], nan=-1.0).astype(np.int64)]
+    # Sorted here rather than by the database: ids are unique, and numpy's sort of a few
+    # hundred thousand floats is quicker than the server's (which may spill to disk).
+    out: FloatArray = matrix[np.argsort(matrix[:, 0], kind="stable")]
+    return out
 
-    # Areas (schedule) and their sites (nominal volts): a few rows.
-    fixture_scope = select(Fixture.id).join(LampPosition, LampPosition.fixture_id == Fixture.id)
-    fixture_scope = fixture_scope.where(*cond) if cond else fixture_scope
-    area_scope = select(Fixture.area_id).where(Fixture.id.in_(fixture_scope))
-    area_rows = session.execute(
+
+@dataclass(frozen=True, kw_only=True)
+class AreaRates:
+    """Per area (sorted by id): scheduled burn hours and starts a week, site nominal volts."""
+
+    area_id: IntArray
+    week_h: FloatArray
+    starts_week: FloatArray
+    nominal_v: FloatArray
+
+    def of(self, area_of: IntArray) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """(weekly hours, weekly starts, nominal volts) of each position's area."""
+        ai = np.searchsorted(self.area_id, area_of)
+        return self.week_h[ai], self.starts_week[ai], self.nominal_v[ai]
+
+
+def _load_areas(session: Session, area_ids: IntArray) -> AreaRates:
+    """The areas' schedules and their sites' nominal volts: one query, a few rows."""
+    rows = session.execute(
         select(
             Area.id,
             Area.weekly_burn_hours,
@@ -193,39 +181,30 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
             Site.nominal_voltage_v,
         )
         .join(Site, Site.id == Area.site_id)
-        .where(Area.id.in_(area_scope))
+        .where(Area.id.in_([int(a) for a in np.unique(area_ids)]))
     ).all()
-    a_ids = np.array([r[0] for r in area_rows], dtype=np.int64)
-    a_week = np.array(
-        [
-            r[1]
-            if r[1] is not None
-            else (r[2] * r[3] if r[2] is not None and r[3] is not None else 0.0)
-            for r in area_rows
-        ],
-        dtype=np.float64,
+    week = [
+        r[1]
+        if r[1] is not None
+        else (r[2] * r[3] if r[2] is not None and r[3] is not None else 0.0)
+        for r in rows
+    ]
+    starts = [(r[4] or 0.0) * (r[3] if r[3] is not None else 7.0) for r in rows]
+    ids = np.array([r[0] for r in rows], dtype=np.int64)
+    order = np.argsort(ids)
+    return AreaRates(
+        area_id=ids[order],
+        week_h=np.array(week, dtype=np.float64)[order],
+        starts_week=np.array(starts, dtype=np.float64)[order],
+        nominal_v=np.array([r[5] for r in rows], dtype=np.float64)[order],
     )
-    a_starts_week = np.array(
-        [(r[4] or 0.0) * (r[3] if r[3] is not None else 7.0) for r in area_rows], dtype=np.float64
-    )
-    a_nominal = np.array([r[5] for r in area_rows], dtype=np.float64)
-    order = np.argsort(a_ids)
-    a_ids, a_week, a_starts_week, a_nominal = (
-        a_ids[order],
-        a_week[order],
-        a_starts_week[order],
-        a_nominal[order],
-    )
-    ai = np.searchsorted(a_ids, area_of)
-    week_h = a_week[ai]
-    rate_h = week_h / _HOURS_PER_WEEK  # burn hours per calendar hour
-    rate_starts = a_starts_week[ai] / _HOURS_PER_WEEK
-    nominal_v = a_nominal[ai]
 
-    base = float(np.nanmin(np.concatenate((t0, [t_at])))) - 86_400.0
-    t_min = float(np.nanmin(t0))
 
-    # Burn-hour records: which fixtures carry their own, then the records themselves.
+def _load_records(
+    session: Session, fixture_scope: Any, area_scope: Any, since: datetime, at: datetime
+) -> tuple[IntArray, FloatArray]:
+    """Fixtures in scope that carry their own burn-hour records, and the records themselves."""
+    dialect = session.connection().dialect.name
     own_fixtures = np.array(
         session.scalars(
             select(BurnHourRecord.fixture_id)
@@ -234,10 +213,6 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
         ).all(),
         dtype=np.int64,
     )
-    own = np.isin(fix_id, own_fixtures)
-    bkey = target_keys(fix_id, area_of, own)
-    since = datetime.fromtimestamp(t_min - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo)
-    since = min(since, datetime.fromtimestamp(t_at - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo))
     rec = float_matrix(
         session,
         select(
@@ -256,19 +231,93 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
         ),
         5,
     )
-    timeline = _timeline(rec, base)
-    clock = Clock.for_keys(timeline, bkey, rate_h, rate_starts)
+    return own_fixtures, rec
 
+
+@dataclass(frozen=True, kw_only=True)
+class AgeInputs:
+    """What the ages are computed from (loaded by position_ages)."""
+
+    positions: FloatArray  # _load_positions' matrix
+    areas: AreaRates
+    own_fixtures: IntArray  # fixtures with their own burn-hour records
+    records: FloatArray  # _load_records' matrix
+    at: datetime
+
+
+def records_since(positions: FloatArray, at: datetime) -> datetime:
+    """Oldest record end worth loading: the rate window before the first install or `at`."""
+    t_min = float(np.nanmin(positions[:, 5]))
+    since = datetime.fromtimestamp(t_min - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo)
+    late = datetime.fromtimestamp(at.timestamp() - RATE_WINDOW_DAYS * 86_400.0, tz=at.tzinfo)
+    return min(since, late)
+
+
+@dataclass(frozen=True, kw_only=True)
+class Aged:
+    """Ages, starts and burn rates of each position (compute_ages), before the voltages."""
+
+    ages: PositionAges  # voltage, its source and the history still to fill
+    t_start: FloatArray  # when each lamp's life began (epoch s), capped at t_end
+    t_end: FloatArray  # `at`, or when it was reported dark
+    clock: Clock
+    measured_v: FloatArray  # the fixture's measured volts (NaN = none)
+    nominal_v: FloatArray  # the site's nominal volts
+
+
+def compute_ages(inp: AgeInputs) -> Aged:
+    """Burn hours, starts, hours per start and burn rate of every position (pure)."""
+    m, t_at = inp.positions, inp.at.timestamp()
+    pos_id, fix_id, area_of, site_of, type_of = (m[:, j].astype(np.int64) for j in range(5))
+    t0, h0, s0, dark_at, fix_v = m[:, 5], m[:, 6], m[:, 7], m[:, 8], m[:, 9]
+    week_h, starts_week, nominal_v = inp.areas.of(area_of)
+    rate_h = week_h / _HOURS_PER_WEEK  # burn hours per calendar hour
+    rate_starts = starts_week / _HOURS_PER_WEEK
+    base = float(np.nanmin(np.concatenate((t0, [t_at])))) - 86_400.0
+    bkey = target_keys(fix_id, area_of, np.isin(fix_id, inp.own_fixtures))
+    timeline = _timeline(inp.records, base)
+    clock = Clock.for_keys(timeline, bkey, rate_h, rate_starts)
     t_end = np.where(np.isnan(dark_at), t_at, np.minimum(dark_at, t_at))
     t_start = np.minimum(t0, t_end)
     h_end, s_end = clock.at(t_end)
     h_start, s_start = clock.at(t_start)
-    life_h = np.maximum(h_end - h_start, 0.0)
-    life_starts = np.maximum(s_end - s_start, 0.0)
-    age_h = h0 + life_h
-    starts = s0 + life_starts
+    age_h = h0 + np.maximum(h_end - h_start, 0.0)
+    starts = s0 + np.maximum(s_end - s_start, 0.0)
+    hps = _hours_per_start(timeline, bkey, t_start, t_end, rate_h, rate_starts)
+    # Burn rate per week: schedule, else measured over the last RATE_WINDOW_DAYS.
+    week_rate = np.where(week_h > 0, week_h, _measured_rate(timeline, bkey, t_at))
+    n = pos_id.size
+    ages = PositionAges(
+        position_id=pos_id,
+        fixture_id=fix_id,
+        area_id=area_of,
+        site_id=site_of,
+        lamp_type_id=type_of,
+        ballast_kind=_BALLAST_NAMES[np.nan_to_num(m[:, 10], nan=-1.0).astype(np.int64)],
+        age_h=age_h,
+        starts=starts,
+        hours_per_start=hps,
+        voltage_v=np.full(n, np.nan),
+        voltage_source=np.full(n, "", dtype="<U17"),
+        burned_out=~np.isnan(dark_at) & (dark_at <= t_at),
+        installed_at_s=t0,
+        burn_h_per_week=week_rate,
+        at=inp.at,
+    )
+    return Aged(
+        ages=ages, t_start=t_start, t_end=t_end, clock=clock, measured_v=fix_v, nominal_v=nominal_v
+    )
 
-    # Hours per start: recorded starts over the lamp's life, else the schedule.
+
+def _hours_per_start(
+    timeline: Timeline,
+    bkey: IntArray,
+    t_start: FloatArray,
+    t_end: FloatArray,
+    rate_h: FloatArray,
+    rate_starts: FloatArray,
+) -> FloatArray:
+    """Recorded starts over the lamp's life, else the schedule, else NaN."""
     rec_h_end, rec_s_end = timeline.metered(bkey, t_end)
     rec_h_start, rec_s_start = timeline.metered(bkey, t_start)
     rec_starts = rec_s_end - rec_s_start
@@ -279,38 +328,67 @@ def position_ages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_leng
     sched_hps = np.where(sched_hps > 0, sched_hps, np.nan)
     with np.errstate(divide="ignore", invalid="ignore"):
         meas_hps = np.where(rec_starts > 0, rec_hours / rec_starts, np.nan)
-    hps = np.where(np.isfinite(meas_hps) & (meas_hps > 0), meas_hps, sched_hps)
+    out: FloatArray = np.where(np.isfinite(meas_hps) & (meas_hps > 0), meas_hps, sched_hps)
+    return out
 
-    # Burn rate per week: schedule, else measured over the last RATE_WINDOW_DAYS.
-    week_rate = np.where(week_h > 0, week_h, _measured_rate(timeline, bkey, t_at))
 
-    volts, source, history = reading_voltages(
-        session, fixture_scope, area_scope, fix_id, area_of, at, t_start, t_end, clock
-    )
-    history = _with_rest(history, age_h, np.where(np.isnan(fix_v), nominal_v, fix_v))
+def with_voltages(
+    aged: Aged, volts: FloatArray, source: NDArray[np.str_], history: ExposureHistory
+) -> PositionAges:
+    """The ages with operating volts by precedence and the exposure history (pure)."""
+    fix_v, nominal_v = aged.measured_v, aged.nominal_v
+    history = _with_rest(history, aged.ages.age_h, np.where(np.isnan(fix_v), nominal_v, fix_v))
     volts = np.where(np.isnan(volts) & ~np.isnan(fix_v), fix_v, volts)
     source = np.where((source == "") & ~np.isnan(fix_v), "fixture_measured", source)
     volts = np.where(np.isnan(volts), nominal_v, volts)
     source = np.where(source == "", "site_nominal", source).astype("<U17")
+    return replace(aged.ages, voltage_v=volts, voltage_source=source, history=history)
 
-    return PositionAges(
-        position_id=pos_id,
-        fixture_id=fix_id,
-        area_id=area_of,
-        site_id=site_of,
-        lamp_type_id=type_of,
-        ballast_kind=ballast,
-        age_h=age_h,
-        starts=starts,
-        hours_per_start=hps,
-        voltage_v=volts,
-        voltage_source=source,
-        burned_out=~np.isnan(dark_at) & (dark_at <= t_at),
-        installed_at_s=t0,
-        burn_h_per_week=week_rate,
-        at=at,
-        history=history,
+
+def position_ages(
+    session: Session,
+    *,
+    site_id: int | None = None,
+    area_id: int | None = None,
+    fixture_id: int | None = None,
+    at: datetime | None = None,
+    lamp_type_id: int | None = None,
+    position_ids: list[int] | None = None,
+    active_only: bool = False,
+) -> PositionAges:
+    """Ages, starts and operating voltages of every position in a scope, at a moment.
+
+    active_only leaves out retired fixtures (forecasts and plans of future work). Queries:
+    the positions, their areas, the burn-hour records and the voltage readings, each once.
+    """
+    at = utcnow() if at is None else at
+    cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
+    if active_only:
+        cond.append(Fixture.retired_at.is_(None))
+    matrix = _load_positions(session, cond, session.connection().dialect.name)
+    if matrix.shape[0] == 0:
+        return empty_ages(at)
+    fixture_scope = select(Fixture.id).join(LampPosition, LampPosition.fixture_id == Fixture.id)
+    fixture_scope = fixture_scope.where(*cond) if cond else fixture_scope
+    area_scope = select(Fixture.area_id).where(Fixture.id.in_(fixture_scope))
+    areas = _load_areas(session, matrix[:, 2].astype(np.int64))
+    own, rec = _load_records(session, fixture_scope, area_scope, records_since(matrix, at), at)
+    aged = compute_ages(
+        AgeInputs(positions=matrix, areas=areas, own_fixtures=own, records=rec, at=at)
     )
+    a = aged.ages
+    volts, source, history = reading_voltages(
+        session,
+        fixture_scope,
+        area_scope,
+        a.fixture_id,
+        a.area_id,
+        at,
+        aged.t_start,
+        aged.t_end,
+        aged.clock,
+    )
+    return with_voltages(aged, volts, source, history)
 
 
 def _with_rest(history: ExposureHistory, age_h: FloatArray, rest_v: FloatArray) -> ExposureHistory:

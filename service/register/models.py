@@ -40,6 +40,13 @@ class Site(TimestampMixin, Base):
     energy_price_per_kwh: Mapped[float] = mapped_column(Float)
     labour_rate_per_h: Mapped[float] = mapped_column(Float)
     disposal_fee_per_mercury_lamp: Mapped[float] = mapped_column(Float, default=0.0)
+    # Lamp choice (migration 0016): yearly discount rate and energy price escalation
+    # (fractions), grid emission factor (kg CO2 per kWh; None: not reported) and the market
+    # whose lamp withdrawals apply (None: every withdrawal applies).
+    discount_rate: Mapped[float] = mapped_column(Float, default=0.05, server_default="0.05")
+    energy_escalation_rate: Mapped[float] = mapped_column(Float, default=0.0, server_default="0")
+    emission_factor_kg_per_kwh: Mapped[float | None] = mapped_column(Float, default=None)
+    market: Mapped[str | None] = mapped_column(String(40), default=None)
     # The weekly relamping run, in the site's local time: 0 = Monday.
     weekly_run_weekday: Mapped[int] = mapped_column(Integer, default=0)
     weekly_run_time: Mapped[str] = mapped_column(String(5), default="06:00")  # HH:MM local

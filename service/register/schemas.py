@@ -61,6 +61,18 @@ class SiteFields(BaseModel):
     energy_price_per_kwh: Money
     labour_rate_per_h: Money
     disposal_fee_per_mercury_lamp: Money = 0.0
+    # Lamp choice (life-cycle cost of relamp options): yearly fractions and kg CO2 per kWh.
+    discount_rate: float = Field(default=0.05, ge=0, le=1, description="Per year, e.g. 0.05.")
+    energy_escalation_rate: float = Field(
+        default=0.0, ge=-0.5, le=1, description="Energy price growth per year, e.g. 0.03."
+    )
+    emission_factor_kg_per_kwh: float | None = Field(
+        default=None, ge=0, le=5, description="Grid kg CO2 per kWh; unset: CO2 not reported."
+    )
+    market: str | None = Field(
+        default=None, min_length=1, max_length=40,
+        description="Market whose lamp withdrawals apply (e.g. EU); unset: all apply.",
+    )  # fmt: skip
     weekly_run_weekday: int = Field(default=0, ge=0, le=6, description="0 = Monday.")
     weekly_run_time: ClockTime = "06:00"
     lookahead_weeks: int = Field(default=4, ge=1, le=52)
@@ -116,6 +128,8 @@ class SiteCreate(SiteFields):
 SITE_OPTIONAL = (
     "notes",
     "external_reference",
+    "emission_factor_kg_per_kwh",
+    "market",
     "weekly_labour_h_capacity",
     "weekly_budget_capacity",
 )
@@ -134,6 +148,10 @@ class SiteUpdate(BaseModel):
     energy_price_per_kwh: Money | None = None
     labour_rate_per_h: Money | None = None
     disposal_fee_per_mercury_lamp: Money | None = None
+    discount_rate: float | None = Field(default=None, ge=0, le=1)
+    energy_escalation_rate: float | None = Field(default=None, ge=-0.5, le=1)
+    emission_factor_kg_per_kwh: float | None = Field(default=None, ge=0, le=5)
+    market: str | None = Field(default=None, min_length=1, max_length=40)
     weekly_run_weekday: int | None = Field(default=None, ge=0, le=6)
     weekly_run_time: ClockTime | None = None
     lookahead_weeks: int | None = Field(default=None, ge=1, le=52)

@@ -267,6 +267,83 @@ def _voltage_warnings(c: _Case) -> tuple[str, ...]:
     return tuple(warnings)
 
 
+@dataclass(frozen=True)
+class VoltageModel:
+    """One lamp type's voltage-response parameters, resolved against its technology."""
+
+    ballast: str
+    is_filament: bool
+    life_exponent: float
+    light_exponent: float
+    power_exponent: float
+    ballast_gain: float
+    band: float  # fraction of rated voltage
+    life_ratio_floor: float  # NaN = none
+    driver_min_ratio: float  # NaN = not given
+    driver_max_ratio: float
+
+    def factors(self, ratio: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, BoolArray]:
+        """voltage_factors at these voltage ratios, as voltage_effect calls it per value."""
+
+        def full(v: float) -> FloatArray:
+            return np.full(ratio.shape, v, dtype=np.float64)
+
+        return voltage_factors(
+            ratio,
+            full(self.life_exponent),
+            full(self.light_exponent),
+            full(self.power_exponent),
+            full(self.ballast_gain),
+            np.full(ratio.shape, self.is_filament),
+            band=full(self.band),
+            life_ratio_floor=full(self.life_ratio_floor),
+            driver_min_ratio=full(self.driver_min_ratio),
+            driver_max_ratio=full(self.driver_max_ratio),
+        )
+
+
+def voltage_model(
+    rated_voltage: float,
+    technology: str,
+    ballast: str | None = None,
+    *,
+    life_exponent: float | None = None,
+    light_exponent: float | None = None,
+    power_exponent: float | None = None,
+    driver_range: tuple[float, float] | None = None,
+) -> VoltageModel:
+    """The checked parameters voltage_effect uses (technology defaults where not given)."""
+    d, ballast = _checked_ballast(technology, ballast)
+    if not (math.isfinite(rated_voltage) and rated_voltage > 0):
+        raise ValueError("rated voltage must be a positive number of volts")
+    dmin, dmax = _driver_ratios(ballast, rated_voltage, driver_range)
+    return VoltageModel(
+        ballast=ballast,
+        is_filament=d.is_filament,
+        life_exponent=d.life_exponent if life_exponent is None else life_exponent,
+        light_exponent=d.light_exponent if light_exponent is None else light_exponent,
+        power_exponent=d.power_exponent if power_exponent is None else power_exponent,
+        ballast_gain=BALLAST_POWER_GAIN[ballast],
+        band=BALLAST_VOLTAGE_BAND[ballast],
+        life_ratio_floor=d.life_ratio_floor if d.life_ratio_floor is not None else math.nan,
+        driver_min_ratio=dmin,
+        driver_max_ratio=dmax,
+    )
+
+
+def needs_words(vm: VoltageModel, ratio: FloatArray, out: BoolArray) -> BoolArray:
+    """Where voltage_effect would word a warning: out of band or range, supply fault, floor."""
+    fault = supply_fault(
+        ratio,
+        np.full(ratio.shape, vm.ballast_gain),
+        np.full(ratio.shape, vm.is_filament),
+        band=np.full(ratio.shape, vm.band),
+    )
+    wide = np.abs(ratio - 1.0) > vm.band + _BAND_TOL
+    low = vm.is_filament & (ratio < vm.life_ratio_floor)
+    return np.asarray(out | fault | wide | low, dtype=bool)
+
+
 def voltage_effect(
     voltage: float,
     rated_voltage: float,

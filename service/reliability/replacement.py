@@ -108,7 +108,174 @@ def _burnout_interval(life: Weibull | RenewalCurve, share: float) -> float:
     return float(np.interp(share, life.cdf, life.t))  # F is non-decreasing
 
 
-def plan_block_replacement(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
+def _check_costs(c_group: float, c_spot: float) -> None:
+    if not (c_spot > 0 and np.isfinite(c_spot)):
+        raise ValueError("c_spot must be a positive cost per spot replacement")
+    if not (c_group > 0 and np.isfinite(c_group)):
+        raise ValueError("c_group must be a positive cost per position per group relamp")
+
+
+def _mean_life(life: Weibull | RenewalCurve, mean_life_h: float | None) -> float:
+    if isinstance(life, Weibull):
+        mu = float(mean_life_h) if mean_life_h is not None else life.mean()
+    else:
+        if mean_life_h is None:
+            raise ValueError("mean_life_h is required when life is a RenewalCurve")
+        mu = float(mean_life_h)
+    if not mu > 0:
+        raise ValueError("mean life must be positive hours")
+    return mu
+
+
+def _caps(
+    life: Weibull | RenewalCurve,
+    light_floor_h: float | None,
+    burnout_ceiling: float | None,
+    rupture_cap_h: float | None,
+) -> list[tuple[str, float]]:
+    """The team's upper limits on T, in priority order for ties (safety first)."""
+    caps: list[tuple[str, float]] = []
+    if rupture_cap_h is not None:
+        if not rupture_cap_h > 0:
+            raise ValueError("rupture_cap_h must be positive hours")
+        caps.append(("rupture_cap", float(rupture_cap_h)))
+    if light_floor_h is not None:
+        if not light_floor_h > 0:
+            raise ValueError("light_floor_h must be positive hours")
+        caps.append(("light_floor", float(light_floor_h)))
+    if burnout_ceiling is not None:
+        caps.append(("burnout_ceiling", _burnout_interval(life, float(burnout_ceiling))))
+    return caps
+
+
+def _renewal_and_horizon(
+    life: Weibull | RenewalCurve,
+    mu: float,
+    max_interval_h: float | None,
+    rupture_cap_h: float | None,
+    n: int,
+) -> tuple[RenewalCurve, float, list[str]]:
+    """The renewal curve, the longest interval considered (hours) and a note if extended."""
+    notes: list[str] = []
+    if not isinstance(life, Weibull):
+        horizon = life.horizon_h
+        if max_interval_h is not None:
+            horizon = min(horizon, float(max_interval_h))
+        if rupture_cap_h is not None and rupture_cap_h > horizon:
+            raise ValueError("the renewal curve must reach the rupture cap")
+        return life, horizon, notes
+    horizon = float(max_interval_h) if max_interval_h is not None else DEFAULT_HORIZON_MEANS * mu
+    if rupture_cap_h is not None and rupture_cap_h > horizon:
+        notes.append(
+            f"horizon extended from {horizon:.0f} h to the rupture cap {rupture_cap_h:.0f} h"
+        )
+        horizon = float(rupture_cap_h)
+    if not horizon > 0:
+        raise ValueError("max_interval_h must be positive hours")
+    return weibull_renewal(life.shape, life.scale, horizon, n), horizon, notes
+
+
+def _minimise_up_to(
+    g_t: FloatArray, g_c: FloatArray, cost: Callable[[float], float], limit: float
+) -> tuple[float, float, bool]:
+    """Minimum of C over (0, limit]; flag True when it sits at the limit itself."""
+    mask = g_t < limit
+    cand_t = np.append(g_t[mask], limit)
+    cand_c = np.append(g_c[mask], cost(limit))
+    k = int(np.argmin(cand_c))
+    if k == cand_t.size - 1:
+        return limit, float(cand_c[k]), True
+    lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
+    hi = float(cand_t[k + 1])
+    x, c = refine_minimum(cost, lo, hi, float(cand_t[k]), float(cand_c[k]))
+    return x, c, x >= limit * (1 - 1e-9)
+
+
+def _tightest(caps: list[tuple[str, float]], horizon: float) -> tuple[str, float]:
+    """The lowest cap (first listed on ties), or the horizon when none is below it."""
+    cap_name, cap = min(caps, key=lambda c: c[1]) if caps else ("horizon", horizon)
+    if cap >= horizon:
+        return "horizon", horizon
+    return cap_name, cap
+
+
+@dataclass(frozen=True, kw_only=True)
+class Searched:
+    """One problem's two minimisations (over the horizon, and up to the tightest cap)."""
+
+    c_group: float
+    c_spot: float
+    spot_rate: float  # c_spot / mean life
+    horizon: float  # hours
+    rupture_cap_h: float | None
+    notes: list[str]
+    g_t: FloatArray  # candidate intervals in the horizon, hours
+    g_c: FloatArray  # C(T) on g_t
+    unconstrained: tuple[float, float, bool]  # (T, C, at the horizon)
+    cap_name: str
+    constrained: tuple[float, float, bool]  # (T, C, at the cap)
+    expected_spot: float  # M at the constrained T
+
+
+def _decide(s: Searched) -> BlockPlan:
+    """The plan from the two minimisations: spot only, the cost optimum or a binding cap."""
+    notes = list(s.notes)
+    x_u, c_u, at_end = s.unconstrained
+    pays = c_u < s.spot_rate * (1 - MIN_REL_SAVING)
+    unconstrained = x_u if (not at_end and pays) else None
+    if at_end:
+        notes.append(f"cost rate still falling at the {s.horizon:.0f} h horizon: no finite optimum")
+    x_c, c_c, at_cap = s.constrained
+    binding = s.cap_name if at_cap else "cost_optimum"
+    group_pays = c_c < s.spot_rate * (1 - MIN_REL_SAVING) and binding != "horizon"
+    if s.c_group >= s.c_spot:
+        notes.append(
+            "group cost per position is not below the spot cost: group relamping cannot pay "
+            "on cost (M(T) + 1 >= T / mean life)"
+        )
+        group_pays = False
+    safety_forced = s.rupture_cap_h is not None
+    if not group_pays and not safety_forced:
+        return BlockPlan(
+            interval_h=None,
+            cost_rate=s.spot_rate,
+            spot_only_rate=s.spot_rate,
+            saving_rate=0.0,
+            binding="spot_only",
+            unconstrained_optimum_h=unconstrained,
+            expected_spot_per_position=0.0,
+            grid_t=s.g_t,
+            grid_cost=s.g_c,
+            notes=(*notes, "spot replacement only: no group interval costs less"),
+            horizon_h=s.horizon,
+        )
+    if binding == "horizon":
+        # Only reachable with a safety cap at the horizon itself.
+        binding = "rupture_cap"
+    if safety_forced and not group_pays:
+        notes.append(
+            "spot replacement would cost less, but lamps that can rupture must be group "
+            "relamped at or before the cap"
+        )
+    if binding != "cost_optimum" and unconstrained is not None:
+        notes.append(f"{binding} limits the interval below the cost optimum {unconstrained:.0f} h")
+    return BlockPlan(
+        interval_h=x_c,
+        cost_rate=c_c,
+        spot_only_rate=s.spot_rate,
+        saving_rate=max(s.spot_rate - c_c, 0.0),
+        binding=binding,
+        unconstrained_optimum_h=unconstrained,
+        expected_spot_per_position=s.expected_spot,
+        grid_t=s.g_t,
+        grid_cost=s.g_c,
+        notes=tuple(notes),
+        safety_premium_rate=max(c_c - s.spot_rate, 0.0),
+        horizon_h=s.horizon,
+    )
+
+
+def plan_block_replacement(
     life: Weibull | RenewalCurve,
     c_group: float,
     c_spot: float,
@@ -121,135 +288,32 @@ def plan_block_replacement(  # noqa: PLR0915  (exempt list: tests/unit/test_func
     n: int = 2000,
 ) -> BlockPlan:
     """Cheapest group relamping interval per position under the team's caps, or spot only."""
-    if not (c_spot > 0 and np.isfinite(c_spot)):
-        raise ValueError("c_spot must be a positive cost per spot replacement")
-    if not (c_group > 0 and np.isfinite(c_group)):
-        raise ValueError("c_group must be a positive cost per position per group relamp")
-    if isinstance(life, Weibull):
-        mu = float(mean_life_h) if mean_life_h is not None else life.mean()
-    else:
-        if mean_life_h is None:
-            raise ValueError("mean_life_h is required when life is a RenewalCurve")
-        mu = float(mean_life_h)
-    if not mu > 0:
-        raise ValueError("mean life must be positive hours")
-    spot_rate = c_spot / mu
-    notes: list[str] = []
-
-    # Caps, in priority order for ties (safety first).
-    caps: list[tuple[str, float]] = []
-    if rupture_cap_h is not None:
-        if not rupture_cap_h > 0:
-            raise ValueError("rupture_cap_h must be positive hours")
-        caps.append(("rupture_cap", float(rupture_cap_h)))
-    if light_floor_h is not None:
-        if not light_floor_h > 0:
-            raise ValueError("light_floor_h must be positive hours")
-        caps.append(("light_floor", float(light_floor_h)))
-    if burnout_ceiling is not None:
-        caps.append(("burnout_ceiling", _burnout_interval(life, float(burnout_ceiling))))
-
-    # Horizon: the grid of candidate intervals.
-    if isinstance(life, Weibull):
-        horizon = (
-            float(max_interval_h) if max_interval_h is not None else DEFAULT_HORIZON_MEANS * mu
-        )
-        if rupture_cap_h is not None and rupture_cap_h > horizon:
-            notes.append(
-                f"horizon extended from {horizon:.0f} h to the rupture cap {rupture_cap_h:.0f} h"
-            )
-            horizon = float(rupture_cap_h)
-        if not horizon > 0:
-            raise ValueError("max_interval_h must be positive hours")
-        curve = weibull_renewal(life.shape, life.scale, horizon, n)
-    else:
-        curve = life
-        horizon = curve.horizon_h
-        if max_interval_h is not None:
-            horizon = min(horizon, float(max_interval_h))
-        if rupture_cap_h is not None and rupture_cap_h > horizon:
-            raise ValueError("the renewal curve must reach the rupture cap")
-
+    _check_costs(c_group, c_spot)
+    mu = _mean_life(life, mean_life_h)
+    caps = _caps(life, light_floor_h, burnout_ceiling, rupture_cap_h)
+    curve, horizon, notes = _renewal_and_horizon(life, mu, max_interval_h, rupture_cap_h, n)
     grid_t = curve.t[1:]
     grid_cost = block_cost_rate(grid_t, curve, c_group, c_spot)
     in_horizon = grid_t <= horizon * (1 + 1e-12)
-    g_t = grid_t[in_horizon]
-    g_c = grid_cost[in_horizon]
+    g_t, g_c = grid_t[in_horizon], grid_cost[in_horizon]
 
     def cost(x: float) -> float:
         return (c_group + c_spot * curve.at_scalar(float(x))) / x
 
-    def minimise_up_to(limit: float) -> tuple[float, float, bool]:
-        """Minimum of C over (0, limit]; flag True when it sits at the limit itself."""
-        mask = g_t < limit
-        cand_t = np.append(g_t[mask], limit)
-        cand_c = np.append(g_c[mask], cost(limit))
-        k = int(np.argmin(cand_c))
-        if k == cand_t.size - 1:
-            return limit, float(cand_c[k]), True
-        lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
-        hi = float(cand_t[k + 1])
-        x, c = refine_minimum(cost, lo, hi, float(cand_t[k]), float(cand_c[k]))
-        return x, c, x >= limit * (1 - 1e-9)
-
-    # Unconstrained: interior minimum over the whole horizon that beats spot only.
-    x_u, c_u, at_end = minimise_up_to(horizon)
-    pays = c_u < spot_rate * (1 - MIN_REL_SAVING)
-    unconstrained = x_u if (not at_end and pays) else None
-    if at_end:
-        notes.append(f"cost rate still falling at the {horizon:.0f} h horizon: no finite optimum")
-
-    cap_name, cap = min(caps, key=lambda c: c[1]) if caps else ("horizon", horizon)
-    if cap >= horizon:
-        cap_name, cap = "horizon", horizon
-
-    x_c, c_c, at_cap = minimise_up_to(cap)
-    binding = cap_name if at_cap else "cost_optimum"
-    group_pays = c_c < spot_rate * (1 - MIN_REL_SAVING) and binding != "horizon"
-    if c_group >= c_spot:
-        notes.append(
-            "group cost per position is not below the spot cost: group relamping cannot pay "
-            "on cost (M(T) + 1 >= T / mean life)"
-        )
-        group_pays = False
-
-    safety_forced = rupture_cap_h is not None
-    if not group_pays and not safety_forced:
-        return BlockPlan(
-            interval_h=None,
-            cost_rate=spot_rate,
-            spot_only_rate=spot_rate,
-            saving_rate=0.0,
-            binding="spot_only",
-            unconstrained_optimum_h=unconstrained,
-            expected_spot_per_position=0.0,
-            grid_t=g_t,
-            grid_cost=g_c,
-            notes=(*notes, "spot replacement only: no group interval costs less"),
-            horizon_h=horizon,
-        )
-    if binding == "horizon":
-        # Only reachable with a safety cap at the horizon itself.
-        binding = "rupture_cap"
-    premium = max(c_c - spot_rate, 0.0)
-    if safety_forced and not group_pays:
-        notes.append(
-            "spot replacement would cost less, but lamps that can rupture must be group "
-            "relamped at or before the cap"
-        )
-    if binding != "cost_optimum" and unconstrained is not None:
-        notes.append(f"{binding} limits the interval below the cost optimum {unconstrained:.0f} h")
-    return BlockPlan(
-        interval_h=x_c,
-        cost_rate=c_c,
-        spot_only_rate=spot_rate,
-        saving_rate=max(spot_rate - c_c, 0.0),
-        binding=binding,
-        unconstrained_optimum_h=unconstrained,
-        expected_spot_per_position=float(curve.at(x_c)),
-        grid_t=g_t,
-        grid_cost=g_c,
-        notes=tuple(notes),
-        safety_premium_rate=premium,
-        horizon_h=horizon,
+    cap_name, cap = _tightest(caps, horizon)
+    constrained = _minimise_up_to(g_t, g_c, cost, cap)
+    searched = Searched(
+        c_group=c_group,
+        c_spot=c_spot,
+        spot_rate=c_spot / mu,
+        horizon=horizon,
+        rupture_cap_h=rupture_cap_h,
+        notes=notes,
+        g_t=g_t,
+        g_c=g_c,
+        unconstrained=_minimise_up_to(g_t, g_c, cost, horizon),
+        cap_name=cap_name,
+        constrained=constrained,
+        expected_spot=float(curve.at(constrained[0])),
     )
+    return _decide(searched)

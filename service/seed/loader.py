@@ -24,6 +24,7 @@ from service.keys.models import ApiKey
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.seed import history
 from service.seed.files import Scenario, read_scenario, seed_dir
+from service.seed.retrofit import load_retrofit_options
 from service.seed.stock import load_stock
 
 # The demo key's secret lives only here (the database keeps its hash); var/ is gitignored.
@@ -143,12 +144,22 @@ def load_demo(
     counts.update(history.insert_readings(session, sc, site_id, area_id, fixture_id))
     counts["burnout_reports"] = history.report_burnouts(session, sc, where)
     counts["lamp_removals"] = removals + counts["burnout_reports"]  # a report records a failure
-    counts["stock_lines"] = load_stock(session, seed_directory or seed_dir(), site_id, lamp_id)
+    counts.update(_stock_and_retrofits(session, seed_directory or seed_dir(), site_id, lamp_id))
     session.flush()
 
     path = key_file_path(key_file)
     secret = _new_demo_key(session, path)
     return DemoSummary(True, "loaded", sc.organisation, counts, secret, path)
+
+
+def _stock_and_retrofits(
+    session: Session, root: Path, site_id: dict[str, int], lamp_id: dict[str, int]
+) -> dict[str, int]:
+    """The demo's storerooms with their stock, and its retrofit options: rows made."""
+    return {
+        "stock_lines": load_stock(session, root, site_id, lamp_id),
+        "retrofit_options": load_retrofit_options(session, root, lamp_id),
+    }
 
 
 def _read_key_file(path: Path) -> str | None:

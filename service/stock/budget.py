@@ -22,11 +22,13 @@ from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
 import numpy as np
+from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.api.errors import Invalid
 from service.db.base import utcnow
+from service.planning.group_plan import CostInputs
 from service.planning.service import LastRelamps, local_today
 from service.register.models import Site
 from service.stock.forecast import position_cumulative
@@ -71,7 +73,48 @@ class Row:
     amount: float
 
 
-def site_budget(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
+def group_cost(
+    c: CostInputs, lamps: float, *, hire: bool, cleaning_minutes_per_lamp: float = 0.0
+) -> dict[str, float]:
+    """A group relamp of `lamps` positions by category: lamps, labour, disposal, cleaning and,
+    when this is the area's visit, one equipment hire."""
+    return {
+        "lamps": lamps * c.lamp_price,
+        "labour": lamps * c.group_labour,
+        "disposal": lamps * c.disposal_fee_per_lamp,
+        "cleaning": lamps * cleaning_minutes_per_lamp / 60.0 * c.labour_rate_per_h,
+        "hire": c.equipment_hire_per_visit if hire else 0.0,
+    }
+
+
+def spot_cost(c: CostInputs, lamps: float) -> dict[str, float]:
+    """Spot replacement of `lamps` lamps by category (hire per spot visit, as planned)."""
+    return {
+        "lamps": lamps * c.lamp_price,
+        "labour": lamps * c.spot_labour,
+        "hire": lamps * c.spot_equipment,
+        "disposal": lamps * c.disposal_fee_per_lamp,
+    }
+
+
+def _spot_per_group(
+    area_id: NDArray[np.int64],
+    lamp_type_id: NDArray[np.int64],
+    inc: NDArray[np.float64],
+    dark: NDArray[np.bool_],
+) -> list[tuple[tuple[int, int], NDArray[np.float64]]]:
+    """Weekly spot lamps per (area, lamp type), dark lamps in week one; one pass, no masks."""
+    pairs = np.stack([area_id, lamp_type_id], axis=1)
+    uniq, inv = np.unique(pairs, axis=0, return_inverse=True)
+    inv = np.asarray(inv).ravel()
+    sums_w = np.zeros((len(uniq), inc.shape[1]))
+    np.add.at(sums_w, inv, inc)
+    if inc.shape[1]:
+        sums_w[:, 0] += np.bincount(inv, weights=dark.astype(float), minlength=len(uniq))
+    return [((int(a), int(t)), sums_w[i]) for i, (a, t) in enumerate(uniq.tolist())]
+
+
+def site_budget(
     session: Session,
     site: Site,
     *,
@@ -101,44 +144,31 @@ def site_budget(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length
             step = timedelta(days=interval / plan.weekly_burn_hours * 7.0)
             day = g.due_on
             while (mi := month_of(day, starts)) is not None:
-                n = g.positions
-                sums[(mi, "group", "lamps")] += n * c.lamp_price
-                sums[(mi, "group", "labour")] += n * c.group_labour
-                sums[(mi, "group", "disposal")] += n * c.disposal_fee_per_lamp
-                sums[(mi, "group", "cleaning")] += (
-                    n * cleaning_minutes_per_lamp / 60.0 * c.labour_rate_per_h
+                first_visit = (plan.area.id, day) not in visits  # one hire per area visit
+                visits.add((plan.area.id, day))
+                priced = group_cost(
+                    c,
+                    g.positions,
+                    hire=first_visit,
+                    cleaning_minutes_per_lamp=cleaning_minutes_per_lamp,
                 )
-                if (plan.area.id, day) not in visits:  # one hire per area visit
-                    visits.add((plan.area.id, day))
-                    sums[(mi, "group", "hire")] += c.equipment_hire_per_visit
+                for cat, amount in priced.items():
+                    sums[(mi, "group", cat)] += amount
                 if step.days < 1:
                     break
                 day = day + step
     # Spot: weekly expected replacements per (area, lamp type), binned by week start.
     inc = np.diff(sc.cum, axis=1)
     week_month = [month_of(at.date() + timedelta(weeks=w), starts) for w in range(WEEKS)]
-    # Sums per (area, lamp type) in one pass (np.unique + np.add.at), not a mask per key.
-    pairs = np.stack([sc.area_id, sc.lamp_type_id], axis=1)
-    uniq, inv = np.unique(pairs, axis=0, return_inverse=True)
-    inv = np.asarray(inv).ravel()
-    sums_w = np.zeros((len(uniq), inc.shape[1]))
-    np.add.at(sums_w, inv, inc)
-    dark_n = np.bincount(inv, weights=sc.dark.astype(float), minlength=len(uniq))
-    for row, (area_id, lt) in enumerate(uniq.tolist()):
+    for (area_id, lt), per_week in _spot_per_group(sc.area_id, sc.lamp_type_id, inc, sc.dark):
         if (area_id, lt) not in costs:
             continue
-        _, g = costs[(area_id, lt)]
-        c = g.costs
-        per_week = sums_w[row].copy()
-        per_week[0] += float(dark_n[row])
+        c = costs[(area_id, lt)][1].costs
         for w, wm in enumerate(week_month):
             if wm is None:
                 continue
-            lamps = float(per_week[w])
-            sums[(wm, "spot", "lamps")] += lamps * c.lamp_price
-            sums[(wm, "spot", "labour")] += lamps * c.spot_labour
-            sums[(wm, "spot", "hire")] += lamps * c.spot_equipment
-            sums[(wm, "spot", "disposal")] += lamps * c.disposal_fee_per_lamp
+            for cat, amount in spot_cost(c, float(per_week[w])).items():
+                sums[(wm, "spot", cat)] += amount
     rows: list[Row] = []
     for i in range(MONTHS):
         label = starts[i].strftime("%Y-%m")

@@ -13,7 +13,10 @@ from service.api.auth import SessionDep
 from service.api.errors import DomainError
 from service.db.base import utcnow
 from service.planning import service as planning
+from service.planning.choice import has_alternatives
+from service.planning.choice_bodies import lamp_choice_read
 from service.planning.plan_bodies import area_plan_read
+from service.planning.portfolio import portfolio_plans
 from service.planning.service import WEEKS_PER_YEAR
 from service.register.models import Site
 from service.users import service as users
@@ -36,6 +39,7 @@ from service.workorders.schemas import (
     FixtureOutcome,
     PositionOutcome,
 )
+from service.workorders.spend import spend_this_year
 
 router = APIRouter(include_in_schema=False)
 Text = Annotated[str, Form(max_length=1000)]
@@ -99,19 +103,21 @@ def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTML
     now = utcnow()
     today = now.date()
     rows = queries.site_summaries(session, today)
-    plans = [
-        p
-        for s in queries.sites(session)
-        for p in planning.site_plans(session, s, now, last_relamps=last_group_relamps)
-    ]
+    # One load of the portfolio for every site's plans and for the chart (no per-site loads).
+    sites = queries.sites(session)
+    pf = portfolio_plans(session, sites, now, last_relamps=last_group_relamps)
+    plans = pf.plans
+    spend = spend_this_year(session, sites, plans, now)
     due = [p for p in plans if p.due_on is not None]
     soon = [p for p in due if p.due_on is not None and (p.due_on - today).days < DUE_SOON_DAYS]
-    weekly = charts.weekly_burnouts(session, now, [p.due_on for p in due if p.due_on], today)
+    due_days = [p.due_on for p in due if p.due_on]
+    weekly = charts.weekly_burnouts(session, now, due_days, today, loaded=(pf.ages, pf.types))
     return page(
         request,
         "overview.html",
         visitor=visitor,
         rows=rows,
+        spend=spend,
         soon=soon,
         plans=plans,
         due_soon_weeks=DUE_SOON_DAYS // 7,
@@ -180,6 +186,7 @@ def area_page(
         reports=queries.open_reports_in_area(session, area_id),
         fixtures=queries.fixture_risks(session, area_id),
         risk_weeks=queries.RISK_WEEKS,
+        choice=lamp_choice_read(session, plan) if has_alternatives(session, plan) else None,
     )
 
 

@@ -37,7 +37,7 @@ from service.planning.service import AreaPlan, local_today, plan_areas
 from service.planning.site_schedule import capacity_of, site_schedule
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.uploads.write import write_rows
-from service.workorders import stock_hooks
+from service.workorders import choice_hooks, stock_hooks
 from service.workorders.models import (
     OPEN_STATES,
     WorkOrder,
@@ -213,10 +213,9 @@ def issue_orders(
         done = {a for a in areas if (a, GROUP) in existing}  # this week has it already
         result.already_there += len(done)
         todo = [a for a in areas.values() if a.id not in busy and a.id not in done]
-        horizon = today + timedelta(weeks=lookahead_weeks)
         ordered = [areas[a] for a in sorted(done)]  # scheduled with the rest (catch-up)
         group_types = _due_types(
-            session, site, todo, area_id, at, today, horizon, whole_area, cache, ordered
+            session, site, todo, area_id, at, today, lookahead_weeks, whole_area, cache, ordered
         )
     # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
     # order a new group order will cover) only flag their positions on the group order.
@@ -244,7 +243,8 @@ def issue_orders(
         if ls:
             taken = [r.id for r in per_area.get(aid, []) if r.status == BurnoutReportState.OPEN]
             minutes = areas[aid].group_minutes_per_lamp
-            order = mk(areas[aid], GROUP, due, ls, minutes, _plan_info(plan, types))
+            info = _plan_info(plan, types, session)
+            order = mk(areas[aid], GROUP, due, ls, minutes, info)
             built.append((order, ls, taken))
     grouped = {o["area_id"] for o, _, _ in built}
     if SPOT in kinds:
@@ -279,7 +279,7 @@ def _due_types(
     area_id: int | None,
     at: datetime,
     today: date,
-    horizon: date,
+    lookahead_weeks: int,
     whole_area: bool,
     cache: PlanCache | None,
     ordered: list[Area],
@@ -288,6 +288,7 @@ def _due_types(
 
     On a site with a weekly capacity the weekly run keeps those its catch-up puts in this week.
     """
+    horizon = today + timedelta(weeks=lookahead_weeks)
     out: dict[int, tuple[set[int], date, AreaPlan]] = {}
     if not todo:
         return out
@@ -333,7 +334,7 @@ def _this_week(
     return out
 
 
-def _plan_info(plan: AreaPlan, types: set[int]) -> dict[str, Any] | None:
+def _plan_info(plan: AreaPlan, types: set[int], session: Session) -> dict[str, Any] | None:
     first = plan.first
     if first is None:
         return None
@@ -353,6 +354,9 @@ def _plan_info(plan: AreaPlan, types: set[int]) -> dict[str, Any] | None:
             "hire_charged": c.hire_charged,
             "over_capacity": c.over_capacity,
         }
+    chosen = choice_hooks.order_choice(session, plan, types)
+    if chosen is not None:
+        info["lamp_choice"] = chosen  # the best option per lamp type (choice_hooks)
     return info
 
 
@@ -436,6 +440,9 @@ def _write(
         if o["kind"] == GROUP:
             groups.setdefault(o["area_id"], oid)  # one group order per area and run
         result.created.append((oid, o["area_id"], o["kind"]))
+    choice_hooks.record_choices(
+        session, [(oid, o["plan"]) for oid, (o, _, _) in zip(ids, built, strict=True)]
+    )
     # One UPDATE for every area, not one per group order (one crew visit, not two).
     cover_spot_orders(session, groups, at)
 

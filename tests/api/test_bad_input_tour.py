@@ -41,6 +41,15 @@ LAMP: dict[str, Any] = {
     "rated_volts": 230,
     "rated_life_h": 24000,
 }
+RETROFIT: dict[str, Any] = {
+    "code": "TOUR-LED-KIT",
+    "kind": "led_lamp",
+    "kit_cost_per_unit": 20.0,
+    "labour_minutes_per_unit": 10.0,
+    "watts_per_unit": 18.0,
+    "lumens_per_unit": 2200.0,
+    "l70_h": 50000.0,
+}
 LAMP_CSV_HEADER = "code,technology,rated_watts,rated_volts,rated_life_h,rated_percentile\n"
 FIXTURE_CSV_HEADER = (
     "site,area,tag,location,lamp_type,lamps_per_fixture,ballast_kind,measured_voltage_v,"
@@ -715,6 +724,63 @@ CASES: list[tuple[str, int, Call, set[str]]] = [
             headers=h,
         ),
         {"types.0"},
+    ),
+    # Lamp choice and retrofit options
+    (
+        "retrofit option with a negative kit cost",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/retrofit-options",
+            json={**RETROFIT, "lamp_type_id": w["lamp"], "kit_cost_per_unit": -5},
+            headers=h,
+        ),
+        {"kit_cost_per_unit"},
+    ),
+    (
+        "retrofit option for a lamp type that does not exist",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/retrofit-options",
+            json={**RETROFIT, "lamp_type_id": 987654},
+            headers=h,
+        ),
+        {"lamp_type_id"},
+    ),
+    (
+        "retrofit option with an unknown kind",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/retrofit-options",
+            json={**RETROFIT, "area_id": w["area"], "kind": "plasma"},
+            headers=h,
+        ),
+        {"kind"},
+    ),
+    (
+        "lamp choice over a 100-year horizon",
+        422,
+        lambda c, h, w: c.get(
+            f"/api/v1/areas/{w['area']}/lamp-choice?horizon_years=100", headers=h
+        ),
+        {"horizon_years"},
+    ),
+    (
+        "site with a discount rate above 100 %",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/sites", json={**SITE, "name": "R", "discount_rate": 3}, headers=h
+        ),
+        {"discount_rate"},
+    ),
+    (
+        "lamp type withdrawn on a date that is no date",
+        422,
+        lambda c, h, w: c.post(
+            "/api/v1/lamp-types",
+            json={**LAMP, "code": "W-1", "withdrawn_after": "2027-02-30"},
+            headers=h,
+        ),
+        {"withdrawn_after"},
     ),
 ]
 

@@ -32,7 +32,12 @@ def test_counter_readings_become_increments_and_ages(
     # Reset: the meter restarted from zero, so the increment is the new value.
     r = client.post(
         "/api/v1/burn-hours",
-        json={"fixture_id": f.id, "read_at": fx.iso_days(25), "counter_hours": 40, "counter_reset": True},
+        json={
+            "fixture_id": f.id,
+            "read_at": fx.iso_days(25),
+            "counter_hours": 40,
+            "counter_reset": True,
+        },
         headers=writer,
     )
     assert r.status_code == 201 and r.json()["hours"] == 40.0
@@ -113,7 +118,10 @@ def test_voltage_source_precedence(db: Session, client: TestClient, writer: dict
             },
             "period_end",
         ),
-        ({"hours": 5.0, "period_start": fx.iso_days(1), "period_end": fx.iso_days(0)}, "period_end"),
+        (
+            {"hours": 5.0, "period_start": fx.iso_days(1), "period_end": fx.iso_days(0)},
+            "period_end",
+        ),
         ({"hours": 5.0, "period_start": "yesterday", "period_end": fx.iso_days(0)}, "period_start"),
     ],
 )
