@@ -22,6 +22,7 @@ from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import evaluate_positions
 from service.readings.ages import position_ages
 from service.register.models import LampPosition, Site
+from service.reliability import poisson_binomial
 from service.seed.loader import load_demo
 from service.stock import demand
 from service.stock.forecast import group_weeks, position_cumulative
@@ -140,12 +141,12 @@ def test_weekly_exact_quantiles_match_the_dft_and_scipy() -> None:
 
     rng = np.random.default_rng(8)
     p = rng.uniform(0.0, 0.2, (60, 5))
-    pmf = demand.pmf_weeks(p)
+    pmf = poisson_binomial.pmf_weeks(p)
     for w in range(5):
         assert np.allclose(pmf[w], demand.pmf_dft(p[:, w]), atol=1e-12)
         assert np.allclose(pmf[w], stats.poisson_binom(p[:, w]).pmf(np.arange(61)), atol=1e-10)
     big = rng.uniform(0.0, 0.05, (demand.EXACT_MAX, 26))
     for level in (0.5, 0.95, 0.99):
-        got = demand.quantiles_exact(big, level)
+        got = poisson_binomial.quantiles_exact(big, level)
         want = [demand.quantile_exact(big[:, w], level) for w in range(26)]
         assert got.tolist() == want
