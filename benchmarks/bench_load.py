@@ -34,6 +34,7 @@ from typing import Any
 import httpx
 import numpy as np
 from sqlalchemy import create_engine, text
+from sqlalchemy.engine import make_url
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "benchmarks"))
@@ -126,18 +127,36 @@ def start_server(env: dict[str, str], port: int) -> subprocess.Popen[bytes]:
     """Start `lampkeeper serve` and wait until /healthz answers."""
     cmd = [LAMPKEEPER, "serve", "--host", "127.0.0.1", "--port", str(port)]
     proc = subprocess.Popen([*cmd, "--workers", str(WORKERS)], env=env, cwd=ROOT)
+    wait_healthy(proc, port)
+    return proc
+
+
+def wait_healthy(proc: subprocess.Popen[bytes], port: int, path: str = "/healthz") -> None:
+    """Wait until a started server answers 200 on path (60 s at most)."""
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:
         try:
-            if httpx.get(f"http://127.0.0.1:{port}/healthz", timeout=1).status_code == 200:
-                return proc
+            if httpx.get(f"http://127.0.0.1:{port}{path}", timeout=1).status_code == 200:
+                return
         except httpx.HTTPError:
             pass
         if proc.poll() is not None:
             raise SystemExit("the server exited at start-up")
         time.sleep(0.2)
     proc.terminate()
-    raise SystemExit("the server did not answer /healthz within 60 s")
+    raise SystemExit(f"the server did not answer {path} within 60 s")
+
+
+def ensure_database(url: str) -> None:
+    """Create a PostgreSQL database of the URL's name when it does not exist yet."""
+    parsed = make_url(url)
+    admin = create_engine(parsed.set(database="postgres"), isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        name = parsed.database
+        found = conn.execute(text("SELECT 1 FROM pg_database WHERE datname = :n"), {"n": name})
+        if found.scalar() is None:
+            conn.execute(text(f'CREATE DATABASE "{name}"'))
+    admin.dispose()
 
 
 def load_demo_ids(url: str) -> Demo:

@@ -71,8 +71,48 @@ def scratch_postgres(base_url: str, label: str) -> Iterator[str]:
         admin.dispose()
 
 
+TESTS = Path(__file__).resolve().parent
+# Test tiers, one marker each (`pytest -m unit`): by folder for tests/unit, tests/service,
+# tests/http and tests/browser; in a domain folder by the fixtures a test takes.
+TIERS = {
+    "unit": "no database: pure computation on values and arrays",
+    "service": "a database session, no HTTP",
+    "http": "through the ASGI app (TestClient)",
+    "browser": "a real browser against a served app",
+}
+HTTP_FIXTURES = frozenset({"client", "app"})
+DB_FIXTURES = frozenset({"db_url", "engine", "db", "own_db_url"})
+
+
+def pytest_configure(config: pytest.Config) -> None:
+    """Register one marker per test tier."""
+    for name, meaning in TIERS.items():
+        config.addinivalue_line("markers", f"{name}: tier - {meaning}")
+
+
+def tier_of(path: Path, fixtures: set[str]) -> str:
+    """A test's tier: its tier folder, else http with a client, service with a database."""
+    try:
+        top = path.resolve().relative_to(TESTS).parts[0]
+    except (ValueError, IndexError):
+        top = ""
+    if top in TIERS:
+        return top
+    if fixtures & HTTP_FIXTURES:
+        return "http"
+    if fixtures & DB_FIXTURES:
+        return "service"
+    return "unit"
+
+
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
-    """Skip tests marked postgres_only when the suite runs on SQLite."""
+    """Mark each test with its tier; skip tests marked postgres_only on SQLite."""
+    for item in items:
+        fixtures = set(getattr(item, "fixturenames", ()))
+        tier = tier_of(Path(item.path), fixtures)
+        if tier == "unit" and fixtures & DB_FIXTURES:
+            raise pytest.UsageError(f"{item.nodeid} is in tests/unit but takes a database")
+        item.add_marker(getattr(pytest.mark, tier))
     if (os.environ.get("TEST_DATABASE_URL") or "").startswith("postgresql"):
         return
     skip = pytest.mark.skip(reason="needs PostgreSQL: set TEST_DATABASE_URL")
@@ -122,6 +162,20 @@ def db(engine: Engine) -> Iterator[Session]:
         conn.close()
 
 
+@pytest.fixture()
+def own_db_url(db_url: str, tmp_path: Path) -> Iterator[str]:
+    """A fresh migrated database of the test's own (real commits): SQLite file or PostgreSQL."""
+    if make_url(db_url).get_backend_name() != "postgresql":
+        url = f"sqlite:///{tmp_path / 'own.sqlite3'}"
+        eng = make_engine(url)
+        migrate(eng)
+        eng.dispose()
+        yield url
+        return
+    with scratch_postgres(db_url, "own") as url:
+        yield url
+
+
 @pytest.fixture(scope="session")
 def app() -> FastAPI:
     """One application for the run (building it is not free); tests override its session."""
@@ -140,6 +194,11 @@ def client(app: FastAPI, db: Session) -> Iterator[TestClient]:
         except BaseException:
             db.rollback()
             raise
+        finally:
+            # A real request ends with its session closed, so the next one reads fresh rows.
+            # The shared session keeps its identity map: expire it, or an object loaded before
+            # a bulk UPDATE (a retirement) reads stale until something happens to roll back.
+            db.expire_all()
 
     app.dependency_overrides[get_session] = session_override
     # Jobs that commit on their own (the weekly run) do so in savepoints of the same connection.

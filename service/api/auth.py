@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from contextlib import nullcontext
 from typing import Annotated
 
 from fastapi import Depends, Request
@@ -11,7 +12,7 @@ from sqlalchemy.orm import Session
 from service.api.errors import Forbidden, Unauthorized
 from service.db.session import get_session
 from service.keys import service as keys
-from service.keys.models import ApiKey
+from service.keys.cache import ActiveKey
 
 SessionDep = Annotated[Session, Depends(get_session, scope="function")]
 
@@ -24,11 +25,15 @@ def _bearer(request: Request) -> str:
     return token.strip()
 
 
-def require(scope: str) -> Callable[..., ApiKey]:
-    """Dependency factory: the caller's key must hold `scope` (read < write < admin)."""
+def require(scope: str) -> Callable[..., ActiveKey]:
+    """Dependency factory: the caller's key must hold `scope` (read < write < admin).
 
-    def check(request: Request, session: SessionDep) -> ApiKey:
-        key = keys.find_active(session, _bearer(request))
+    The key comes from the key cache (the gate has just put it there), else from one read
+    in the route's own session: no second connection, no second lookup per request.
+    """
+
+    def check(request: Request, session: SessionDep) -> ActiveKey:
+        key = keys.active_key(lambda: nullcontext(session), _bearer(request))
         if key is None:
             raise Unauthorized("The API key is unknown or revoked.")
         if not keys.scope_allows(key.scope, scope):
@@ -39,6 +44,6 @@ def require(scope: str) -> Callable[..., ApiKey]:
     return check
 
 
-ReadKey = Annotated[ApiKey, Depends(require("read"))]
-WriteKey = Annotated[ApiKey, Depends(require("write"))]
-AdminKey = Annotated[ApiKey, Depends(require("admin"))]
+ReadKey = Annotated[ActiveKey, Depends(require("read"))]
+WriteKey = Annotated[ActiveKey, Depends(require("write"))]
+AdminKey = Annotated[ActiveKey, Depends(require("admin"))]

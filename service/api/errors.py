@@ -193,85 +193,100 @@ def _busy_response(request: Request, exc: Exception) -> JSONResponse:
     return busy_problem(request.url.path, exc)
 
 
+async def _domain(request: Request, exc: DomainError) -> JSONResponse:
+    headers = {"WWW-Authenticate": "Bearer"} if exc.status == 401 else None
+    return problem(
+        exc.status,
+        exc.title,
+        exc.detail,
+        kind=exc.kind,
+        instance=request.url.path,
+        headers=headers,
+        errors=exc.errors,
+        **exc.extra,
+    )
+
+
+async def _validation(request: Request, exc: RequestValidationError) -> JSONResponse:
+    errors = validation_errors(list(exc.errors()))
+    fields = ", ".join(sorted({e["field"] for e in errors}))
+    return problem(
+        422,
+        "Invalid request",
+        f"The request has invalid or missing fields: {fields}.",
+        kind="validation",
+        instance=request.url.path,
+        errors=errors,
+    )
+
+
+async def _http(request: Request, exc: StarletteHTTPException) -> JSONResponse:
+    titles = {404: "Not found", 405: "Method not allowed", 413: "Too large"}
+    return problem(
+        exc.status_code,
+        titles.get(exc.status_code, "Error"),
+        str(exc.detail),
+        kind=getattr(exc, "kind", f"http-{exc.status_code}"),
+        instance=request.url.path,
+        headers=getattr(exc, "headers", None),
+    )
+
+
+async def _integrity(request: Request, exc: IntegrityError) -> JSONResponse:
+    # Services check clashes first; this catches races between two requests.
+    log.info("integrity error on %s: %s", request.url.path, exc.orig)
+    return problem(
+        409,
+        "Conflict",
+        "The change clashes with stored data (a duplicate or a record still in use).",
+        kind="conflict",
+        instance=request.url.path,
+    )
+
+
+async def _busy(request: Request, exc: DBAPIError) -> JSONResponse:
+    # SQLite refuses a write while another connection holds the write lock; PostgreSQL
+    # aborts one side of a deadlock or a serialization clash, cancels a statement past
+    # its timeout, or loses the connection. The request was rolled back: send it again.
+    if not _is_transient(exc):
+        return await _unexpected(request, exc)
+    return _busy_response(request, exc)
+
+
+async def _pool_exhausted(request: Request, exc: PoolTimeout) -> JSONResponse:
+    # Every pooled connection stayed busy for the pool timeout.
+    return _busy_response(request, exc)
+
+
+async def _disconnected(request: Request, exc: DisconnectionError) -> JSONResponse:
+    return _busy_response(request, exc)
+
+
+async def _unexpected(request: Request, exc: Exception) -> JSONResponse:
+    log.exception("unexpected error on %s", request.url.path)
+    return problem(
+        500,
+        "Internal error",
+        "The service failed to handle the request; nothing was saved.",
+        kind="internal",
+        instance=request.url.path,
+    )
+
+
+# Every error type we render, with its handler (FastAPI picks the nearest class in the MRO).
+HANDLERS: tuple[tuple[type[Exception], Any], ...] = (
+    (DomainError, _domain),
+    (RequestValidationError, _validation),
+    (StarletteHTTPException, _http),
+    (IntegrityError, _integrity),
+    (DBAPIError, _busy),
+    (PoolTimeout, _pool_exhausted),
+    (DisconnectionError, _disconnected),
+    (Exception, _unexpected),
+)
+
+
 def install_error_handlers(app: FastAPI) -> None:
     """Register the handlers that render every error as problem+json."""
-
-    @app.exception_handler(DomainError)
-    async def _domain(request: Request, exc: DomainError) -> JSONResponse:
-        headers = {"WWW-Authenticate": "Bearer"} if exc.status == 401 else None
-        return problem(
-            exc.status,
-            exc.title,
-            exc.detail,
-            kind=exc.kind,
-            instance=request.url.path,
-            headers=headers,
-            errors=exc.errors,
-            **exc.extra,
-        )
-
-    @app.exception_handler(RequestValidationError)
-    async def _validation(request: Request, exc: RequestValidationError) -> JSONResponse:
-        errors = validation_errors(list(exc.errors()))
-        fields = ", ".join(sorted({e["field"] for e in errors}))
-        return problem(
-            422,
-            "Invalid request",
-            f"The request has invalid or missing fields: {fields}.",
-            kind="validation",
-            instance=request.url.path,
-            errors=errors,
-        )
-
-    @app.exception_handler(StarletteHTTPException)
-    async def _http(request: Request, exc: StarletteHTTPException) -> JSONResponse:
-        titles = {404: "Not found", 405: "Method not allowed", 413: "Too large"}
-        return problem(
-            exc.status_code,
-            titles.get(exc.status_code, "Error"),
-            str(exc.detail),
-            kind=getattr(exc, "kind", f"http-{exc.status_code}"),
-            instance=request.url.path,
-            headers=getattr(exc, "headers", None),
-        )
-
-    @app.exception_handler(IntegrityError)
-    async def _integrity(request: Request, exc: IntegrityError) -> JSONResponse:
-        # Services check clashes first; this catches races between two requests.
-        log.info("integrity error on %s: %s", request.url.path, exc.orig)
-        return problem(
-            409,
-            "Conflict",
-            "The change clashes with stored data (a duplicate or a record still in use).",
-            kind="conflict",
-            instance=request.url.path,
-        )
-
-    @app.exception_handler(DBAPIError)
-    async def _busy(request: Request, exc: DBAPIError) -> JSONResponse:
-        # SQLite refuses a write while another connection holds the write lock; PostgreSQL
-        # aborts one side of a deadlock or a serialization clash, cancels a statement past
-        # its timeout, or loses the connection. The request was rolled back: send it again.
-        if not _is_transient(exc):
-            return await _unexpected(request, exc)
-        return _busy_response(request, exc)
-
-    @app.exception_handler(PoolTimeout)
-    async def _pool_exhausted(request: Request, exc: PoolTimeout) -> JSONResponse:
-        # Every pooled connection stayed busy for the pool timeout.
-        return _busy_response(request, exc)
-
-    @app.exception_handler(DisconnectionError)
-    async def _disconnected(request: Request, exc: DisconnectionError) -> JSONResponse:
-        return _busy_response(request, exc)
-
-    @app.exception_handler(Exception)
-    async def _unexpected(request: Request, exc: Exception) -> JSONResponse:
-        log.exception("unexpected error on %s", request.url.path)
-        return problem(
-            500,
-            "Internal error",
-            "The service failed to handle the request; nothing was saved.",
-            kind="internal",
-            instance=request.url.path,
-        )
+    for exc_type, handler in HANDLERS:
+        app.add_exception_handler(exc_type, handler)

@@ -68,6 +68,12 @@ def configure_logging(settings: Settings) -> None:
     root.addHandler(handler)
 
 
+# (app, method, path) -> template, for the paths seen lately; matching every route again
+# per request cost as much as a small route's own work. Bounded: ids make paths many.
+_TEMPLATES: dict[tuple[int, str, str], str] = {}
+MAX_TEMPLATES = 4096
+
+
 def route_template(scope: Scope) -> str:
     """The full path template of the route that matches the request (prefix included).
 
@@ -78,6 +84,18 @@ def route_template(scope: Scope) -> str:
     router = getattr(app, "router", None)
     if router is None:
         return UNMATCHED
+    key = (id(app), scope.get("method", "GET"), scope.get("path", ""))
+    found = _TEMPLATES.get(key)
+    if found is None:
+        found = _match_template(router, scope)
+        if len(_TEMPLATES) >= MAX_TEMPLATES:
+            _TEMPLATES.clear()
+        _TEMPLATES[key] = found
+    return found
+
+
+def _match_template(router: Any, scope: Scope) -> str:
+    """Match the routes in order: the first full match, else the first path-only match."""
     probe = {**scope, "method": scope.get("method", "GET")}
     from fastapi import routing
 

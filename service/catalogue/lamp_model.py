@@ -26,8 +26,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass, field
-from typing import Protocol
+from dataclasses import dataclass, field, fields
+from typing import Any, Protocol
 
 import numpy as np
 
@@ -40,6 +40,7 @@ from service.reliability.technologies import (
     BALLAST_VOLTAGE_BAND,
     DEFAULT_SWITCHING_SLOPE,
     TECHNOLOGY_DEFAULTS,
+    TechnologyDefaults,
 )
 from service.reliability.tm21 import TM21Result, tm21_projection
 from service.reliability.weibull import scale_from_rated_life
@@ -169,14 +170,20 @@ def _pick(value: float | None, default: float, name: str, sources: dict[str, str
     return float(value)
 
 
-def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
-    """Resolve a lamp type's model numbers: catalogue value, else a fit, else the default."""
-    tech = lt.technology
-    if tech not in TECHNOLOGY_DEFAULTS:
-        raise ValueError(f"unknown technology {tech!r}")
-    d = TECHNOLOGY_DEFAULTS[tech]
-    src: dict[str, str] = {}
+@dataclass(frozen=True, kw_only=True)
+class _Life:
+    """The survival numbers of a lamp type: rated life, its percentile, shape and scale."""
 
+    rated_percentile: float
+    rated_life_h: float
+    shape: float
+    scale_h: float
+    failure_life_h: float | None
+    mortality_fit: MortalityFit | None
+
+
+def _life(lt: LampTypeLike, d: TechnologyDefaults, src: dict[str, str]) -> _Life:
+    """Rated life and percentile, the Weibull shape (catalogue, fit, default) and scale."""
     pct = float(lt.rated_percentile)
     src["rated_percentile"] = CATALOGUE
     rated_life = float(lt.rated_life_h)
@@ -207,11 +214,18 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
     if failure_life is not None:  # LED: rated life is L70 (light); failures have their own
         scale_h = float(scale_from_rated_life(failure_life, shape, LED_FAILURE_PERCENTILE))
         src["scale_h"] = src["failure_life_h"]
+    return _Life(
+        rated_percentile=pct,
+        rated_life_h=rated_life,
+        shape=shape,
+        scale_h=scale_h,
+        failure_life_h=failure_life,
+        mortality_fit=mfit,
+    )
 
-    life_exp = _pick(lt.life_exponent, d.life_exponent, "life_exponent", src)
-    light_exp = _pick(lt.light_exponent, d.light_exponent, "light_exponent", src)
-    power_exp = _pick(lt.power_exponent, d.power_exponent, "power_exponent", src)
 
+def _ballast(lt: LampTypeLike, d: TechnologyDefaults, src: dict[str, str]) -> str:
+    """The ballast behaviour: the catalogue's, else the technology's default."""
     if lt.ballast_behaviour is None:
         ballast = d.default_ballast
         src["ballast_behaviour"] = DEFAULT
@@ -220,10 +234,23 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
         src["ballast_behaviour"] = CATALOGUE
     if ballast not in BALLAST_POWER_GAIN:
         raise ValueError(f"unknown ballast behaviour {ballast!r}")
-    gain = BALLAST_POWER_GAIN[ballast]
     src["ballast_gain"] = DEFAULT
-    is_filament = d.is_filament
+    return ballast
 
+
+@dataclass(frozen=True, kw_only=True)
+class _Switching:
+    """Rated burn hours per start and the optional second quoted cycle."""
+
+    rated_hours_per_start: float | None
+    second_hours_per_start: float | None
+    second_life_ratio: float | None
+
+
+def _switching(
+    lt: LampTypeLike, d: TechnologyDefaults, rated_life: float, src: dict[str, str]
+) -> _Switching:
+    """Hours per start of the rated life, and the second cycle's life as a ratio of it."""
     if lt.rated_hours_per_start is not None:
         rhps: float | None = float(lt.rated_hours_per_start)
         src["rated_hours_per_start"] = CATALOGUE
@@ -238,11 +265,18 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
         src["second_life_ratio"] = CATALOGUE
     else:
         src["second_life_ratio"] = DEFAULT  # default switching slope applies
+    return _Switching(
+        rated_hours_per_start=rhps,
+        second_hours_per_start=second_hps,
+        second_life_ratio=second_ratio,
+    )
 
-    dmin = None if lt.driver_min_volts is None else float(lt.driver_min_volts)
-    dmax = None if lt.driver_max_volts is None else float(lt.driver_max_volts)
-    src["driver_range"] = CATALOGUE if dmin is not None and dmax is not None else DEFAULT
 
+def _lumen(
+    lt: LampTypeLike, d: TechnologyDefaults, rated_life: float, src: dict[str, str]
+) -> tuple[LumenCurve, TM21Result | None, str | None]:
+    """The light-loss curve (TM-21, catalogue points, default), its TM-21 fit and LED label."""
+    tech = lt.technology
     tm21 = _tm21(lt) if tech == "led" else None
     label: str | None = None
     if tm21 is not None:
@@ -260,29 +294,48 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
         )
         src["lumen_curve"] = CATALOGUE
     else:
-        curve = default_lumen_curve(tech, None if is_filament else rated_life)
+        curve = default_lumen_curve(tech, None if d.is_filament else rated_life)
         src["lumen_curve"] = DEFAULT
     if tech == "led" and label is None:
         label = f"L70 = {rated_life:,.0f} h (catalogue)"
+    return curve, tm21, label
 
+
+def _by_name(part: _Life | _Switching) -> dict[str, Any]:
+    """A resolved part's fields by name (each is a LampModel field of the same name)."""
+    return {f.name: getattr(part, f.name) for f in fields(part)}
+
+
+def resolve_lamp_model(lt: LampTypeLike) -> LampModel:
+    """Resolve a lamp type's model numbers: catalogue value, else a fit, else the default."""
+    tech = lt.technology
+    if tech not in TECHNOLOGY_DEFAULTS:
+        raise ValueError(f"unknown technology {tech!r}")
+    d = TECHNOLOGY_DEFAULTS[tech]
+    src: dict[str, str] = {}
+    life = _life(lt, d, src)
+    life_exp = _pick(lt.life_exponent, d.life_exponent, "life_exponent", src)
+    light_exp = _pick(lt.light_exponent, d.light_exponent, "light_exponent", src)
+    power_exp = _pick(lt.power_exponent, d.power_exponent, "power_exponent", src)
+    ballast = _ballast(lt, d, src)
+    sw = _switching(lt, d, life.rated_life_h, src)
+    dmin = None if lt.driver_min_volts is None else float(lt.driver_min_volts)
+    dmax = None if lt.driver_max_volts is None else float(lt.driver_max_volts)
+    src["driver_range"] = CATALOGUE if dmin is not None and dmax is not None else DEFAULT
+    curve, tm21, label = _lumen(lt, d, life.rated_life_h, src)
     return LampModel(
         lamp_type_id=getattr(lt, "id", None),
         code=lt.code,
         technology=tech,
-        shape=shape,
-        scale_h=scale_h,
-        rated_life_h=rated_life,
-        rated_percentile=pct,
+        **_by_name(life),  # shape, scale, rated life and percentile, failure life, fit
+        **_by_name(sw),  # rated and second hours per start, second life ratio
         rated_volts=float(lt.rated_volts),
         life_exponent=life_exp,
         light_exponent=light_exp,
         power_exponent=power_exp,
         ballast_behaviour=ballast,
-        ballast_gain=gain,
-        is_filament=is_filament,
-        rated_hours_per_start=rhps,
-        second_hours_per_start=second_hps,
-        second_life_ratio=second_ratio,
+        ballast_gain=BALLAST_POWER_GAIN[ballast],
+        is_filament=d.is_filament,
         driver_min_volts=dmin,
         driver_max_volts=dmax,
         lumen_curve=curve,
@@ -297,11 +350,9 @@ def resolve_lamp_model(lt: LampTypeLike) -> LampModel:  # noqa: PLR0915  (exempt
             DEFAULT_SWITCHING_SLOPE if d.switching_slope is None else d.switching_slope
         ),
         sources=src,
-        mortality_fit=mfit,
-        mortality_fit_used=mfit is not None and src["shape"] == FIT,
+        mortality_fit_used=life.mortality_fit is not None and src["shape"] == FIT,
         tm21=tm21,
         lumen_life_label=label,
-        failure_life_h=failure_life,
     )
 
 

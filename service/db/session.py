@@ -2,15 +2,17 @@
 
 from __future__ import annotations
 
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
-from typing import Annotated, Any
+from typing import Annotated, Any, TypeVar
 
 from fastapi import Depends, Request
 from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
+from sqlalchemy.exc import DisconnectionError
 from sqlalchemy.orm import Session, sessionmaker
 from sqlalchemy.pool import QueuePool
 
@@ -32,6 +34,10 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
 # Execution option marking a transaction that will write (see _sqlite_begin, begin_write).
 WRITE_OPTION = "lampkeeper_write"
 READ_ONLY_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+# Endpoint attribute set by writes_in_jobs: the request's own session only reads.
+JOB_WRITES = "lampkeeper_writes_in_jobs"
+
+F = TypeVar("F")
 
 
 def _sqlite_begin(conn: Connection) -> None:
@@ -54,8 +60,6 @@ def make_engine(url: str) -> Engine:
         "pool_size": settings.db_pool_size,
         "max_overflow": settings.db_max_overflow,
         "pool_timeout": settings.db_pool_timeout_s,
-        # Test a connection before use; one the server dropped is replaced, not handed out.
-        "pool_pre_ping": True,
     }
     if parsed.get_backend_name() == "sqlite":
         if parsed.database and parsed.database != ":memory:":
@@ -70,7 +74,38 @@ def make_engine(url: str) -> Engine:
         event.listen(engine, "connect", _sqlite_pragmas)
         event.listen(engine, "begin", _sqlite_begin)
         return engine
-    return create_engine(url, **pool)
+    engine = create_engine(url, **pool)
+    event.listen(engine.pool, "checkin", _note_idle)
+    event.listen(engine.pool, "checkout", _ping_if_idle)
+    return engine
+
+
+# Seconds a pooled connection may sit unused before it is tested at checkout. A test on
+# every checkout (pool_pre_ping) costs a round trip per request; under load connections
+# come back within milliseconds, and one the server dropped while in use invalidates the
+# whole pool (SQLAlchemy's disconnect handling), so only long-idle ones need the test.
+PING_AFTER_IDLE_S = 2.0
+
+
+def _note_idle(_dbapi_connection: Any, record: Any) -> None:
+    record.info["idle_since"] = time.monotonic()
+
+
+def _ping_if_idle(dbapi_connection: Any, record: Any, _proxy: Any) -> None:
+    # A server restart or an idle timeout kills connections nobody is using: test those,
+    # and hand out a fresh one instead (DisconnectionError makes the pool reconnect).
+    since = record.info.get("idle_since")
+    if since is None or time.monotonic() - since < PING_AFTER_IDLE_S:
+        return
+    try:
+        cur = dbapi_connection.cursor()
+        try:
+            cur.execute("SELECT 1")
+        finally:
+            cur.close()
+        dbapi_connection.rollback()  # the driver opened a transaction for the SELECT
+    except Exception as exc:
+        raise DisconnectionError(f"pooled connection lost while idle: {exc}") from exc
 
 
 @lru_cache
@@ -81,7 +116,15 @@ def get_engine() -> Engine:
 
 def session_factory(engine: Engine | None = None) -> sessionmaker[Session]:
     """A session factory bound to an engine (the settings' engine by default)."""
-    return sessionmaker(bind=engine or get_engine(), expire_on_commit=False, autoflush=False)
+    if engine is None:
+        return _default_factory(get_engine())
+    return sessionmaker(bind=engine, expire_on_commit=False, autoflush=False)
+
+
+@lru_cache(maxsize=4)
+def _default_factory(engine: Engine) -> sessionmaker[Session]:
+    # One factory per process engine, not one per request.
+    return sessionmaker(bind=engine, expire_on_commit=False, autoflush=False)
 
 
 def get_job_factory() -> sessionmaker[Session]:
@@ -96,11 +139,28 @@ def get_job_factory() -> sessionmaker[Session]:
 JobFactoryDep = Annotated[sessionmaker[Session], Depends(get_job_factory)]
 
 
+def writes_in_jobs(endpoint: F) -> F:
+    """Mark a route whose writes all happen in a job's own transactions (the weekly run).
+
+    Its request session then begins as a reader even for a POST: on SQLite a writer's
+    BEGIN IMMEDIATE would hold the one write lock the job, on another connection, waits for.
+    """
+    setattr(endpoint, JOB_WRITES, True)
+    return endpoint
+
+
+def request_writes(request: Request) -> bool:
+    """Whether a request's own transaction may write (not a GET, not a writes_in_jobs route)."""
+    if request.method in READ_ONLY_METHODS:
+        return False
+    return not getattr(request.scope.get("endpoint"), JOB_WRITES, False)
+
+
 def get_session(request: Request) -> Iterator[Session]:
     """FastAPI dependency: one transaction per request, committed on success, else rolled back."""
     session = session_factory()()
     try:
-        if request.method not in READ_ONLY_METHODS:
+        if request_writes(request):
             begin_write(session)
         yield session
         session.commit()

@@ -14,6 +14,7 @@ The fallbacks after these (fixture measured volts, site nominal) are in ages.py.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
@@ -31,24 +32,29 @@ FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
 
-def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
-    session: Session,
-    fixture_scope: Any,
-    area_scope: Any,
-    fix_id: IntArray,
-    area_of: IntArray,
-    at: datetime,
-    t_start: FloatArray,
-    t_end: FloatArray,
-    clock: Clock,
-) -> tuple[FloatArray, NDArray[np.str_], ExposureHistory]:
-    """Weighted-mean or latest reading per position (NaN and "" where there is none).
+@dataclass(frozen=True, kw_only=True)
+class Readings:
+    """Voltage readings as arrays, one row a reading (any order)."""
 
-    Also the readings' burn-hour segments per position (rows of fix_id), for exposure.
-    """
-    n = fix_id.size
-    volts = np.full(n, np.nan)
-    source = np.full(n, "", dtype="<U17")
+    key: IntArray  # target key: 2 * fixture id + 1 for a fixture's own, 2 * area id
+    t: FloatArray  # measured at, epoch seconds
+    volts: FloatArray
+    fixture: IntArray  # the reading's fixture id, -1 for an area's reading
+
+
+@dataclass(frozen=True, kw_only=True)
+class Positions:
+    """The lamp positions asked about: their fixture, area, lamp life span and clock."""
+
+    fix_id: IntArray
+    area_of: IntArray
+    t_start: FloatArray  # the lamp went in, epoch seconds
+    t_end: FloatArray  # now (or the removal), epoch seconds
+    clock: Clock  # burn hours per position row
+
+
+def load_readings(session: Session, fixture_scope: Any, area_scope: Any, at: datetime) -> Readings:
+    """Every reading up to `at` of the fixtures and areas in scope (one query)."""
     dialect = session.connection().dialect.name
     m = float_matrix(
         session,
@@ -66,49 +72,67 @@ def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_l
         ),
         4,
     )
+    return Readings(
+        key=m[:, 0].astype(np.int64), t=m[:, 1], volts=m[:, 2], fixture=m[:, 3].astype(np.int64)
+    )
+
+
+def reading_voltages(
+    session: Session,
+    fixture_scope: Any,
+    area_scope: Any,
+    fix_id: IntArray,
+    area_of: IntArray,
+    at: datetime,
+    t_start: FloatArray,
+    t_end: FloatArray,
+    clock: Clock,
+) -> tuple[FloatArray, NDArray[np.str_], ExposureHistory]:
+    """Weighted-mean or latest reading per position (NaN and "" where there is none).
+
+    Also the readings' burn-hour segments per position (rows of fix_id), for exposure.
+    """
+    readings = load_readings(session, fixture_scope, area_scope, at)
+    positions = Positions(fix_id=fix_id, area_of=area_of, t_start=t_start, t_end=t_end, clock=clock)
+    return operating_voltages(readings=readings, positions=positions)
+
+
+def operating_voltages(
+    *, readings: Readings, positions: Positions
+) -> tuple[FloatArray, NDArray[np.str_], ExposureHistory]:
+    """Pure: the burn-hour-weighted mean reading per position, else its latest reading."""
+    p = positions
+    n = p.fix_id.size
+    volts = np.full(n, np.nan)
+    source = np.full(n, "", dtype="<U17")
     history = ExposureHistory.empty()
-    if m.shape[0] == 0:
+    if readings.key.size == 0:
         return volts, source, history
-    rkey = m[:, 0].astype(np.int64)
-    rt = m[:, 1]
-    rv = m[:, 2]
-    rf = m[:, 3].astype(np.int64)
-    order = np.lexsort((rt, rkey))
-    rkey, rt, rv = rkey[order], rt[order], rv[order]
+    order = np.lexsort((readings.t, readings.key))
+    rkey, rt, rv = readings.key[order], readings.t[order], readings.volts[order]
     keys, lo, counts = np.unique(rkey, return_index=True, return_counts=True)
-    own = np.isin(fix_id, rf[rf >= 0])
-    vkey = target_keys(fix_id, area_of, own)
+    own = np.isin(p.fix_id, readings.fixture[readings.fixture >= 0])
+    vkey = target_keys(p.fix_id, p.area_of, own)
     r = np.minimum(np.searchsorted(keys, vkey), keys.size - 1)
     has = keys[r] == vkey
     # Latest reading per position (fallback).
-    last_idx = lo[r] + counts[r] - 1
-    latest = np.where(has, rv[last_idx], np.nan)
-
+    latest = np.where(has, rv[lo[r] + counts[r] - 1], np.nan)
     # One (position, reading) pair per reading of the position's voltage target, computed
     # once per group of positions sharing target, clock and lamp life (then copied back).
     cand = np.nonzero(has)[0]
     sig = np.column_stack(
-        (vkey[cand], clock.key[cand], clock.rate_h[cand], t_start[cand], t_end[cand])
+        (vkey[cand], p.clock.key[cand], p.clock.rate_h[cand], p.t_start[cand], p.t_end[cand])
     )
     _, first_of, inverse = np.unique(sig, axis=0, return_index=True, return_inverse=True)
     pos = cand[first_of]
     if pos.size:
         cnt = counts[r[pos]]
         pair_pos = np.repeat(pos, cnt)
-        first = np.repeat(lo[r[pos]], cnt)
-        offs = np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-        j = first + offs
+        j = np.repeat(lo[r[pos]], cnt) + (
+            np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+        )
         last_of_key = np.repeat(lo[r[pos]] + cnt - 1, cnt)
-        a = np.maximum(rt[j], t_start[pair_pos])
-        nxt = np.where(j < last_of_key, rt[np.minimum(j + 1, rt.size - 1)], np.inf)
-        b = np.minimum(nxt, t_end[pair_pos])
-        live = b > a
-        w = np.zeros(j.size)
-        if live.any():
-            rows_live = pair_pos[live]
-            hb, _ = clock.at(b[live], rows_live)
-            ha, _ = clock.at(a[live], rows_live)
-            w[live] = np.maximum(hb - ha, 0.0)
+        w = _held_hours(p, rt, j, pair_pos, last_of_key)
         wsum = np.bincount(pair_pos, weights=w, minlength=n)
         vsum = np.bincount(pair_pos, weights=w * rv[j], minlength=n)
         rep = pos[np.ravel(inverse)]  # each candidate's group representative
@@ -121,6 +145,23 @@ def reading_voltages(  # noqa: PLR0915  (exempt list: tests/unit/test_function_l
     volts = np.where(fallback, latest, volts)
     source = np.where(fallback, "latest_reading", source).astype("<U17")
     return volts, source, history
+
+
+def _held_hours(
+    p: Positions, rt: FloatArray, j: IntArray, pair_pos: IntArray, last_of_key: IntArray
+) -> FloatArray:
+    """Burn hours each (position, reading) pair held: reading or install to next or end."""
+    a = np.maximum(rt[j], p.t_start[pair_pos])
+    nxt = np.where(j < last_of_key, rt[np.minimum(j + 1, rt.size - 1)], np.inf)
+    b = np.minimum(nxt, p.t_end[pair_pos])
+    live = b > a
+    w = np.zeros(j.size)
+    if live.any():
+        rows_live = pair_pos[live]
+        hb, _ = p.clock.at(b[live], rows_live)
+        ha, _ = p.clock.at(a[live], rows_live)
+        w[live] = np.maximum(hb - ha, 0.0)
+    return w
 
 
 def _segments(

@@ -52,6 +52,7 @@ from service.reliability.technologies import (
     DEFAULT_SWITCHING_SLOPE,
     TECHNOLOGIES,
     TECHNOLOGY_DEFAULTS,
+    TechnologyDefaults,
 )
 
 FloatArray = NDArray[np.float64]
@@ -188,6 +189,84 @@ def supply_fault(
     return np.asarray(discharge & (r < 1.0 - _arr(band) - _BAND_TOL), dtype=bool)
 
 
+def _checked_ballast(technology: str, ballast: str | None) -> tuple[TechnologyDefaults, str]:
+    """The technology's defaults and the ballast (its default if None), both checked."""
+    if technology not in TECHNOLOGY_DEFAULTS:
+        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
+    d = TECHNOLOGY_DEFAULTS[technology]
+    ballast = d.default_ballast if ballast is None else ballast
+    if ballast not in BALLAST_POWER_GAIN:
+        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
+    if d.is_filament != (ballast == "none"):
+        raise ValueError(
+            f"ballast {ballast!r} does not fit {technology}: "
+            "'none' is for filament lamps only, and filament lamps take no ballast"
+        )
+    return d, ballast
+
+
+def _driver_ratios(
+    ballast: str, rated_voltage: float, driver_range: tuple[float, float] | None
+) -> tuple[float, float]:
+    """The driver's input range as fractions of rated voltage (NaN, NaN without one)."""
+    if driver_range is None:
+        return math.nan, math.nan
+    if ballast not in ("led_driver", "electronic"):
+        raise ValueError("driver_range applies only to an LED driver or electronic ballast")
+    vmin, vmax = driver_range
+    if not (0 < vmin < vmax):
+        raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
+    return vmin / rated_voltage, vmax / rated_voltage
+
+
+def _one(v: float) -> FloatArray:
+    # One-element arrays take the same numpy code path as a fleet (numpy special-cases some
+    # scalar exponents), so scalar and vectorised results agree exactly.
+    return np.array([v], dtype=np.float64)
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Case:
+    """One voltage_effect call's resolved inputs, for its warnings."""
+
+    voltage: float
+    ratio: float  # operating / rated voltage
+    ballast: str
+    is_filament: bool
+    gain: float
+    band: float
+    floor: float  # filament life-ratio floor (NaN where none)
+    driver_range: tuple[float, float] | None
+    outside_driver: bool
+
+
+def _voltage_warnings(c: _Case) -> tuple[str, ...]:
+    """Warnings for one case: outside the driver range or the trusted band, supply fault."""
+    warnings: list[str] = []
+    pct = (c.ratio - 1.0) * 100.0
+    if c.driver_range is not None:
+        if c.outside_driver:
+            warnings.append(
+                "outside driver input range; not extrapolated "
+                f"({c.voltage:g} V vs {c.driver_range[0]:g}-{c.driver_range[1]:g} V)"
+            )
+    elif abs(c.ratio - 1.0) > c.band + _BAND_TOL:
+        kind = "filament power laws" if c.is_filament else f"{c.ballast} ballast"
+        warnings.append(
+            f"supply is {pct:+.1f}% from rated voltage, outside the +/-{c.band * 100:g}% band "
+            f"for {kind}; figures are extrapolated"
+        )
+    filament = np.array([c.is_filament])
+    if bool(supply_fault(_one(c.ratio), _one(c.gain), filament, band=_one(c.band))[0]):
+        warnings.append(_fault_text(c.voltage, pct, c.ballast))
+    if c.is_filament and not math.isnan(c.floor) and c.ratio < c.floor:
+        warnings.append(
+            f"below {c.floor * 100:g}% of rated voltage the halogen cycle stops; "
+            f"life gain held at its {c.floor * 100:g}% value"
+        )
+    return tuple(warnings)
+
+
 def voltage_effect(
     voltage: float,
     rated_voltage: float,
@@ -202,30 +281,12 @@ def voltage_effect(
     band: float | None = None,
 ) -> VoltageEffect:
     """Life, light and power factors for one lamp type at one operating voltage (volts)."""
-    if technology not in TECHNOLOGY_DEFAULTS:
-        raise ValueError(f"unknown technology {technology!r}; expected one of {TECHNOLOGIES}")
-    d = TECHNOLOGY_DEFAULTS[technology]
-    ballast = d.default_ballast if ballast is None else ballast
-    if ballast not in BALLAST_POWER_GAIN:
-        raise ValueError(f"unknown ballast {ballast!r}; expected one of {BALLASTS}")
-    if d.is_filament != (ballast == "none"):
-        raise ValueError(
-            f"ballast {ballast!r} does not fit {technology}: "
-            "'none' is for filament lamps only, and filament lamps take no ballast"
-        )
+    d, ballast = _checked_ballast(technology, ballast)
     if not (math.isfinite(voltage) and voltage > 0):
         raise ValueError("operating voltage must be a positive number of volts")
     if not (math.isfinite(rated_voltage) and rated_voltage > 0):
         raise ValueError("rated voltage must be a positive number of volts")
-    dmin = dmax = math.nan
-    if driver_range is not None:
-        if ballast not in ("led_driver", "electronic"):
-            raise ValueError("driver_range applies only to an LED driver or electronic ballast")
-        vmin, vmax = driver_range
-        if not (0 < vmin < vmax):
-            raise ValueError("driver_range must be (vmin, vmax) volts with 0 < vmin < vmax")
-        dmin, dmax = vmin / rated_voltage, vmax / rated_voltage
-
+    dmin, dmax = _driver_ratios(ballast, rated_voltage, driver_range)
     n = d.life_exponent if life_exponent is None else life_exponent
     k = d.light_exponent if light_exponent is None else light_exponent
     m = d.power_exponent if power_exponent is None else power_exponent
@@ -233,47 +294,30 @@ def voltage_effect(
     bnd = BALLAST_VOLTAGE_BAND[ballast] if band is None else band
     floor = d.life_ratio_floor if d.life_ratio_floor is not None else math.nan
     ratio = voltage / rated_voltage
-
-    # One-element arrays take the same numpy code path as a fleet (numpy special-cases some
-    # scalar exponents), so scalar and vectorised results agree exactly.
-    def one(v: float) -> FloatArray:
-        return np.array([v], dtype=np.float64)
-
     life, light, power, out = voltage_factors(
-        one(ratio),
-        one(n),
-        one(k),
-        one(m),
-        one(g),
+        _one(ratio),
+        _one(n),
+        _one(k),
+        _one(m),
+        _one(g),
         np.array([d.is_filament]),
-        band=one(bnd),
-        life_ratio_floor=one(floor),
-        driver_min_ratio=one(dmin),
-        driver_max_ratio=one(dmax),
+        band=_one(bnd),
+        life_ratio_floor=_one(floor),
+        driver_min_ratio=_one(dmin),
+        driver_max_ratio=_one(dmax),
     )
-
-    warnings: list[str] = []
-    pct = (ratio - 1.0) * 100.0
-    if driver_range is not None:
-        if bool(out[0]):
-            warnings.append(
-                "outside driver input range; not extrapolated "
-                f"({voltage:g} V vs {driver_range[0]:g}-{driver_range[1]:g} V)"
-            )
-    elif abs(ratio - 1.0) > bnd + _BAND_TOL:
-        kind = "filament power laws" if d.is_filament else f"{ballast} ballast"
-        warnings.append(
-            f"supply is {pct:+.1f}% from rated voltage, outside the +/-{bnd * 100:g}% band "
-            f"for {kind}; figures are extrapolated"
-        )
-    if bool(supply_fault(one(ratio), one(g), np.array([d.is_filament]), band=one(bnd))[0]):
-        warnings.append(_fault_text(voltage, pct, ballast))
-    if d.is_filament and not math.isnan(floor) and ratio < floor:
-        warnings.append(
-            f"below {floor * 100:g}% of rated voltage the halogen cycle stops; "
-            f"life gain held at its {floor * 100:g}% value"
-        )
-    return VoltageEffect(float(life[0]), float(light[0]), float(power[0]), tuple(warnings))
+    case = _Case(
+        voltage=voltage,
+        ratio=ratio,
+        ballast=ballast,
+        is_filament=d.is_filament,
+        gain=g,
+        band=bnd,
+        floor=floor,
+        driver_range=driver_range,
+        outside_driver=bool(out[0]),
+    )
+    return VoltageEffect(float(life[0]), float(light[0]), float(power[0]), _voltage_warnings(case))
 
 
 def switching_life_factor(

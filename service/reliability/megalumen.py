@@ -52,6 +52,69 @@ class MegalumenCost:
     grid_cost_per_mlmh: FloatArray = field(default_factory=empty_grid)
 
 
+@dataclass(frozen=True, kw_only=True)
+class _Costing:
+    """Cost per megalumen-hour of one lamp type's block replacement, at any interval."""
+
+    curve: RenewalCurve
+    cum_light: FloatArray  # ∫_0^t E[light fraction] on the curve's grid, hours
+    c_group: float
+    c_spot: float
+    energy_rate: float  # money per burn hour
+    initial_lumens: float
+
+    def at(self, x: ArrayLike) -> FloatArray:
+        """(c_group + c_spot·M(x) + energy·x) / megalumen-hours delivered in (0, x]."""
+        xx = np.asarray(x, dtype=np.float64)
+        num = self.c_group + self.c_spot * self.curve.at(xx) + self.energy_rate * xx
+        out: FloatArray = num / (
+            self.initial_lumens * np.interp(xx, self.curve.t, self.cum_light) / 1e6
+        )
+        return out
+
+
+def _cumulative_light(curve: RenewalCurve, g: FloatArray) -> FloatArray:
+    """∫_0^t E[light fraction], with E[light at t] = g(t) + ∫_0^t m(s) g(t-s) ds."""
+    h = curve.step_h
+    dens = curve.density
+    # The renewal convolution by the trapezoid rule on the grid.
+    conv = np.convolve(dens, g)[: curve.t.size]
+    conv = h * (conv - 0.5 * (dens[0] * g + dens * g[0]))
+    conv[0] = 0.0
+    light_frac = g + conv
+    return np.concatenate(([0.0], np.cumsum(0.5 * h * (light_frac[1:] + light_frac[:-1]))))
+
+
+def _spot_only(c: _Costing, s_vals: FloatArray, g: FloatArray) -> tuple[float, float]:
+    """Spot-only cost per megalumen-hour and mean light fraction."""
+    # Stationary age density S(u)/μ, so mean light = ∫ S L / ∫ S (both truncated at the
+    # grid horizon, which should span several mean lives).
+    h = c.curve.step_h
+    int_s = float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1])))
+    int_g = float(np.sum(0.5 * h * (g[1:] + g[:-1])))
+    spot_light = int_g / int_s
+    return (c.c_spot / int_s + c.energy_rate) / (c.initial_lumens * spot_light / 1e6), spot_light
+
+
+def _best_within(
+    c: _Costing, tt: FloatArray, grid_cost: FloatArray, limit: float
+) -> tuple[float, float, bool]:
+    """The cheapest interval in (0, limit]: grid minimum, then a bounded Brent step."""
+    mask = tt < limit
+    cand_t = np.append(tt[mask], limit)
+    cand_c = np.append(grid_cost[mask], float(c.at(limit)))
+    k = int(np.argmin(cand_c))
+    at_limit = k == cand_t.size - 1
+    lim_t, lim_c = float(cand_t[k]), float(cand_c[k])
+    if not at_limit:
+        lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
+        lim_t, lim_c = refine_minimum(
+            lambda v: float(c.at(v)), lo, float(cand_t[k + 1]), lim_t, lim_c
+        )
+        at_limit = lim_t >= limit * (1 - 1e-9)
+    return lim_t, lim_c, at_limit
+
+
 def cost_per_megalumen_hour(
     interval_h: ArrayLike,
     renewal_curve: RenewalCurve,
@@ -74,65 +137,37 @@ def cost_per_megalumen_hour(
     if lamp_watts < 0 or tariff_per_kwh < 0 or not initial_lumens > 0:
         raise ValueError("watts and tariff must be >= 0 and initial lumens > 0")
     t = renewal_curve.t
-    h = renewal_curve.step_h
-    g = np.asarray(survival(t), dtype=np.float64) * np.asarray(lumen_fraction(t), dtype=np.float64)
-    dens = renewal_curve.density
-    # E[light fraction at t] = g(t) + ∫_0^t m(s) g(t-s) ds, trapezoid rule on the grid.
-    conv = np.convolve(dens, g)[: t.size]
-    conv = h * (conv - 0.5 * (dens[0] * g + dens * g[0]))
-    conv[0] = 0.0
-    light_frac = g + conv
-    cum_light = np.concatenate(([0.0], np.cumsum(0.5 * h * (light_frac[1:] + light_frac[:-1]))))
-    energy_rate = tariff_per_kwh * lamp_watts / 1000.0  # money per burn hour
-    tt = t[1:]
-    num = c_group + c_spot * renewal_curve.m[1:] + energy_rate * tt
-    den = initial_lumens * cum_light[1:] / 1e6  # megalumen-hours per cycle
-    grid_cost = num / den
-
-    def at(x: ArrayLike) -> FloatArray:
-        xx = np.asarray(x, dtype=np.float64)
-        num_x = c_group + c_spot * renewal_curve.at(xx) + energy_rate * xx
-        out: FloatArray = num_x / (initial_lumens * np.interp(xx, t, cum_light) / 1e6)
-        return out
-
-    # Spot-only limit: stationary age density S(u)/μ, so mean light = ∫ S L / ∫ S
-    # (both truncated at the grid horizon, which should span several mean lives).
     s_vals = np.asarray(survival(t), dtype=np.float64)
-    int_s = float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1])))
-    int_g = float(np.sum(0.5 * h * (g[1:] + g[:-1])))
-    spot_light = int_g / int_s
-    spot_cost = (c_spot / int_s + energy_rate) / (initial_lumens * spot_light / 1e6)
-
+    g = s_vals * np.asarray(lumen_fraction(t), dtype=np.float64)
+    c = _Costing(
+        curve=renewal_curve,
+        cum_light=_cumulative_light(renewal_curve, g),
+        c_group=c_group,
+        c_spot=c_spot,
+        energy_rate=tariff_per_kwh * lamp_watts / 1000.0,
+        initial_lumens=initial_lumens,
+    )
+    tt = t[1:]
+    num = c_group + c_spot * renewal_curve.m[1:] + c.energy_rate * tt
+    grid_cost = num / (initial_lumens * c.cum_light[1:] / 1e6)  # per megalumen-hour
+    spot_cost, spot_light = _spot_only(c, s_vals, g)
     horizon = float(t[-1])
     limit = horizon if max_interval_h is None else min(float(max_interval_h), horizon)
     if not limit > 0:
         raise ValueError("max_interval_h must be positive hours")
-    mask = tt < limit
-    cand_t = np.append(tt[mask], limit)
-    cand_c = np.append(grid_cost[mask], float(at(limit)))
-    k = int(np.argmin(cand_c))
-    at_limit = k == cand_t.size - 1
-    lim_t, lim_c = float(cand_t[k]), float(cand_c[k])
-    if not at_limit:
-        lo = float(cand_t[k - 1]) if k > 0 else 0.5 * float(cand_t[0])
-        lim_t, lim_c = refine_minimum(
-            lambda v: float(at(v)), lo, float(cand_t[k + 1]), lim_t, lim_c
-        )
-        at_limit = lim_t >= limit * (1 - 1e-9)
-
+    lim_t, lim_c, at_limit = _best_within(c, tt, grid_cost, limit)
     best: float | None = lim_t
     best_cost = lim_c
     no_finite_optimum = at_limit and limit >= horizon * (1 - 1e-12)
     if no_finite_optimum or best_cost >= spot_cost * (1 - MIN_REL_SAVING):
         best, best_cost = None, spot_cost
-
     x = np.asarray(interval_h, dtype=np.float64)
     if np.any(x <= 0) or np.any(x > t[-1]):
         raise ValueError("intervals must lie in (0, renewal curve horizon]")
     return MegalumenCost(
         interval_h=x,
-        cost_per_mlmh=at(x),
-        mean_light_fraction=np.interp(x, t, cum_light) / x,
+        cost_per_mlmh=c.at(x),
+        mean_light_fraction=np.interp(x, t, c.cum_light) / x,
         best_interval_h=best,
         best_cost_per_mlmh=best_cost,
         spot_only_cost_per_mlmh=spot_cost,

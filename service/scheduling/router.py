@@ -5,23 +5,20 @@ from __future__ import annotations
 from typing import Annotated
 
 from fastapi import APIRouter, Query, Request, Response, status
-from sqlalchemy import select
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.pagination import Page, PageDep, page_of, paginate
 from service.db.crud import get_or_404
-from service.db.session import JobFactoryDep
-from service.register.sites import get_site
+from service.db.session import JobFactoryDep, writes_in_jobs
+from service.scheduling import repository as repo
 from service.scheduling.models import RunOutcome, WeeklyRun
 from service.scheduling.runner import run_site_week
 from service.scheduling.schemas import RunRead, RunStart
 from service.scheduling.weeks import parse_week
 
 router = APIRouter(tags=["weekly runs"])
-
-RUN_SORT = {"id": WeeklyRun.id, "started_at": WeeklyRun.started_at, "iso_week": WeeklyRun.iso_week}
 
 
 @router.get("/runs", response_model=Page[RunRead])
@@ -34,14 +31,8 @@ def list_runs(
     outcome: RunOutcome | None = None,
 ) -> Page[RunRead]:
     """Every weekly run (scheduled, caught up, started by hand), newest first by default."""
-    stmt = select(WeeklyRun)
-    if site_id is not None:
-        stmt = stmt.where(WeeklyRun.site_id == site_id)
-    if iso_week is not None:
-        stmt = stmt.where(WeeklyRun.iso_week == iso_week)
-    if outcome is not None:
-        stmt = stmt.where(WeeklyRun.outcome == outcome)
-    rows, total = paginate(session, stmt, page, RUN_SORT, WeeklyRun.id.desc())
+    stmt = repo.run_query(site_id=site_id, iso_week=iso_week, outcome=outcome)
+    rows, total = paginate(session, stmt, page, repo.RUN_SORT, WeeklyRun.id.desc())
     return page_of(RunRead, rows, total, page)
 
 
@@ -52,9 +43,9 @@ def get_run(run_id: IdPath, session: SessionDep, _: ReadKey) -> RunRead:
 
 
 @router.post("/sites/{site_id}/runs", response_model=RunRead, status_code=status.HTTP_201_CREATED)
+@writes_in_jobs  # the run commits in its own transactions; this request's session only reads
 def start_run(
     site_id: IdPath,
-    session: SessionDep,
     jobs: JobFactoryDep,
     _: WriteKey,
     request: Request,
@@ -62,7 +53,6 @@ def start_run(
     body: RunStart | None = None,
 ) -> RunRead:
     """Run a site's weekly issue now (write scope; safe to repeat: a week never gets twice)."""
-    get_site(session, site_id)
     week = body.week if body else None
     if week is not None:
         try:
@@ -71,10 +61,6 @@ def start_run(
             raise Invalid(
                 str(exc), errors=[{"field": "week", "in": "body", "message": str(exc)}]
             ) from exc
-    # The run commits in its own transactions on the same database. End this request's
-    # transaction first (it may hold the key's last-use stamp): on SQLite a read transaction
-    # left open across another connection's commit could no longer write.
-    session.commit()
-    run = run_site_week(jobs, site_id, week=week, trigger="api")
+    run = run_site_week(jobs, site_id, week=week, trigger="api")  # 404 for an unknown site
     response.headers["Location"] = str(request.url_for("get_run", run_id=run.id))
     return RunRead.model_validate(run)

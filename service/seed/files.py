@@ -100,29 +100,26 @@ def _lamp_type_values(raw: dict[str, Any], where: str) -> dict[str, Any]:
     return values
 
 
-def read_scenario(directory: Path | None = None, today: date | None = None) -> Scenario:
-    """Read and validate every data file; timestamps shifted so `as_of` becomes today."""
-    root = directory or seed_dir()
-    if not (root / SCENARIO).is_file():
-        raise Invalid(f"No demo scenario at {root / SCENARIO}; set LAMPKEEPER_SEED_DIR.")
-    doc = json.loads((root / SCENARIO).read_text(encoding="utf-8"))
-    as_of = date.fromisoformat(doc["as_of"])
-    shift = timedelta(days=((today or datetime.now(UTC).date()) - as_of).days)
+Rows = list[dict[str, Any]]
 
-    sites: list[dict[str, Any]] = []
-    areas: list[dict[str, Any]] = []
+
+def _sites_and_areas(doc: dict[str, Any]) -> tuple[Rows, Rows]:
+    """The scenario's sites and their areas (each area names its site), validated."""
+    sites: Rows = []
+    areas: Rows = []
     for i, raw_site in enumerate(doc["sites"]):
         site = {k: v for k, v in raw_site.items() if k != "areas"}
         sites.append(_check(SiteCreate, site, f"{SCENARIO} sites[{i}]").model_dump())
         for j, raw_area in enumerate(raw_site.get("areas", [])):
             area = _check(AreaFields, raw_area, f"{SCENARIO} sites[{i}].areas[{j}]")
             areas.append({"site": site["name"], **area.model_dump()})
+    return sites, areas
 
-    lamp_docs = json.loads((root / LAMP_TYPES).read_text(encoding="utf-8"))
-    lamp_types = [_lamp_type_values(raw, f"{LAMP_TYPES}[{i}]") for i, raw in enumerate(lamp_docs)]
 
+def _fixtures(path: Path, shift: timedelta) -> Rows:
+    """fixtures.csv in the fixture import's columns, validated by FixtureCreate."""
     fixtures = []
-    for n, row in enumerate(_csv(root / FIXTURES), start=2):  # row 1 is the header
+    for n, row in enumerate(_csv(path), start=2):  # row 1 is the header
         body = {
             "area_id": 1,  # placeholder ids (valid, unused): resolved from the names at load
             "lamp_type_id": 1,
@@ -144,63 +141,72 @@ def read_scenario(directory: Path | None = None, today: date | None = None) -> S
         fixtures.append(
             {"site": row["site"], "area": row["area"], "lamp_type_code": row["lamp_type"]} | values
         )
+    return fixtures
 
-    removals = [
-        {
-            "site": r["site"],
-            "tag": r["tag"],
-            "position_no": int(r["position_no"]),
-            "installed_at": _when(r["installed_at"], shift),
-            "removed_at": _when(r["removed_at"], shift),
-            "burn_hours": float(r["burn_hours"]),  # hours
-            "starts": _num(r["starts"]),
-            "failed": r["failed"].strip().lower() == "true",
-            "reason": r["reason"],
-        }
-        for r in _csv(root / REMOVALS)
-    ]
-    burnouts = [
-        {
-            "site": r["site"],
-            "tag": r["tag"],
-            "position_no": int(r["position_no"]),
-            "reported_at": _when(r["reported_at"], shift),
-            "burn_hours": _num(r["burn_hours"]),
-            "note": r["note"] or None,
-        }
-        for r in _csv(root / BURNOUTS)
-    ]
-    burn_hours = [
-        {
-            "site": r["site"],
-            "area": r["area"],
-            "tag": r["tag"] or None,
-            "period_start": _when(r["period_start"], shift),
-            "period_end": _when(r["period_end"], shift),
-            "hours": float(r["hours"]),
-            "starts": _num(r["starts"]),
-        }
-        for r in _csv(root / BURN_HOURS)
-    ]
-    voltages = [
-        {
-            "site": r["site"],
-            "area": r["area"],
-            "tag": r["tag"] or None,
-            "measured_at": _when(r["measured_at"], shift),
-            "volts": float(r["volts"]),
-            "note": r["note"] or None,
-        }
-        for r in _csv(root / VOLTAGES)
-    ]
+
+# How a history file's cells become values: "text", "text?" (empty is None), "int",
+# "float", "float?" (empty is None), "when" (ISO 8601, moved by the shift), "flag" (true).
+REMOVAL_COLUMNS = {
+    "site": "text", "tag": "text", "position_no": "int", "installed_at": "when",
+    "removed_at": "when", "burn_hours": "float", "starts": "float?", "failed": "flag",
+    "reason": "text",
+}  # fmt: skip
+BURNOUT_COLUMNS = {
+    "site": "text", "tag": "text", "position_no": "int", "reported_at": "when",
+    "burn_hours": "float?", "note": "text?",
+}  # fmt: skip
+BURN_HOUR_COLUMNS = {
+    "site": "text", "area": "text", "tag": "text?", "period_start": "when",
+    "period_end": "when", "hours": "float", "starts": "float?",
+}  # fmt: skip
+VOLTAGE_COLUMNS = {
+    "site": "text", "area": "text", "tag": "text?", "measured_at": "when", "volts": "float",
+    "note": "text?",
+}  # fmt: skip
+
+
+def _cell(kind: str, text: str, shift: timedelta) -> Any:
+    """One cell as its column kind says (hours and volts as floats)."""
+    if kind == "text":
+        return text
+    if kind == "text?":
+        return text or None
+    if kind == "int":
+        return int(text)
+    if kind == "float":
+        return float(text)
+    if kind == "float?":
+        return _num(text)
+    if kind == "when":
+        return _when(text, shift)
+    return text.strip().lower() == "true"  # "flag"
+
+
+def _history(path: Path, columns: dict[str, str], shift: timedelta) -> Rows:
+    """A history file's rows with each column converted (an absent file is no rows)."""
+    return [{k: _cell(kind, r[k], shift) for k, kind in columns.items()} for r in _csv(path)]
+
+
+def read_scenario(directory: Path | None = None, today: date | None = None) -> Scenario:
+    """Read and validate every data file; timestamps shifted so `as_of` becomes today."""
+    root = directory or seed_dir()
+    if not (root / SCENARIO).is_file():
+        raise Invalid(f"No demo scenario at {root / SCENARIO}; set LAMPKEEPER_SEED_DIR.")
+    doc = json.loads((root / SCENARIO).read_text(encoding="utf-8"))
+    as_of = date.fromisoformat(doc["as_of"])
+    shift = timedelta(days=((today or datetime.now(UTC).date()) - as_of).days)
+    sites, areas = _sites_and_areas(doc)
+    lamp_docs = json.loads((root / LAMP_TYPES).read_text(encoding="utf-8"))
     return Scenario(
         organisation=doc["organisation"],
         sites=sites,
         areas=areas,
-        lamp_types=lamp_types,
-        fixtures=fixtures,
-        removals=removals,
-        burnouts=burnouts,
-        burn_hours=burn_hours,
-        voltages=voltages,
+        lamp_types=[
+            _lamp_type_values(raw, f"{LAMP_TYPES}[{i}]") for i, raw in enumerate(lamp_docs)
+        ],
+        fixtures=_fixtures(root / FIXTURES, shift),
+        removals=_history(root / REMOVALS, REMOVAL_COLUMNS, shift),
+        burnouts=_history(root / BURNOUTS, BURNOUT_COLUMNS, shift),
+        burn_hours=_history(root / BURN_HOURS, BURN_HOUR_COLUMNS, shift),
+        voltages=_history(root / VOLTAGES, VOLTAGE_COLUMNS, shift),
     )

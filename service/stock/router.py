@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Depends, Query, Request, Response, status
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import export_response
@@ -40,14 +40,35 @@ LevelQ = Annotated[
 FormatQ = Annotated[Literal["json", "csv"], Query(description="Download as JSON or CSV.")]
 
 
+def forecast_options(weeks: WeeksQ = None, service_level: LevelQ = None) -> forecast.Options:
+    """The horizon and service level from the query; the settings fill what is not given."""
+    return forecast.Options.of(weeks, service_level)
+
+
+OptionsDep = Annotated[forecast.Options, Depends(forecast_options)]
+
+
 def balance_read(b: StockBalance) -> BalanceRead:
     """A stock line shaped for a response."""
     return BalanceRead.model_validate(b)
 
 
-def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exempt list: tests/unit/test_function_length.py)
-    """The stock routes, handed the query for completed group relamps (from work orders)."""
-    router = APIRouter(tags=["stock"])
+def budget_answer(rows: list[budget.Row], body: BudgetRequest, name: str) -> Response:
+    """A budget as JSON (with monthly totals when a reporting currency is set) or CSV."""
+    dicts = budget.convert(rows, body.reporting_currency, dict(body.rates))
+    if body.format == "csv":
+        return export_response(list(BudgetRow.model_fields), dicts, "csv", name)
+    totals = budget.totals(dicts, "reporting_amount") if body.reporting_currency else None
+    read = BudgetRead(
+        months=budget.MONTHS,
+        rows=[BudgetRow.model_validate(d) for d in dicts],
+        totals_by_month=totals,
+    )
+    return Response(read.model_dump_json(), media_type="application/json")
+
+
+def _storeroom_routes(router: APIRouter) -> None:
+    """Storerooms and the sites they serve."""
 
     @router.get("/storerooms", response_model=Page[StoreroomRead])
     def list_storerooms(session: SessionDep, _: ReadKey, page: PageDep) -> Page[StoreroomRead]:
@@ -87,6 +108,10 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         service.assign_site(session, storeroom_id, site_id)
         return service.read(session, service.get_storeroom(session, storeroom_id))
 
+
+def _stock_routes(router: APIRouter) -> None:
+    """Stock lines: one per lamp type stocked in a storeroom."""
+
     @router.get("/storerooms/{storeroom_id}/stock", response_model=list[BalanceRead])
     def list_stock(storeroom_id: IdPath, session: SessionDep, _: ReadKey) -> list[BalanceRead]:
         """Every lamp type stocked here: on hand, reserved, available and reorder settings."""
@@ -115,6 +140,10 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
             response.status_code = status.HTTP_201_CREATED
         return balance_read(bal)
 
+
+def _movement_routes(router: APIRouter) -> None:
+    """The storeroom's ledger: list and record movements."""
+
     @router.get("/storerooms/{storeroom_id}/movements", response_model=Page[MovementRead])
     def list_movements(
         storeroom_id: IdPath,
@@ -142,16 +171,18 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         """Record a delivery, a return, lamps taken out or a count (409 below zero)."""
         return MovementRead.model_validate(service.record(session, storeroom_id, body))
 
+
+def _demand_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
+    """Demand, the to-order list and the outlook (they need the last group relamps)."""
+
     @router.get("/storerooms/{storeroom_id}/demand", response_model=DemandRead)
     def get_demand(
         storeroom_id: IdPath,
         session: SessionDep,
         _: ReadKey,
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
+        opt: OptionsDep,
     ) -> DemandRead:
         """Lamps needed per week and lamp type: spot (mean, quantile), group, breakage."""
-        opt = forecast.Options.of(weeks, service_level)
         sd = forecast.storeroom_demand(
             session, storeroom_id, last_relamps=last_relamps, options=opt
         )
@@ -162,25 +193,20 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         storeroom_id: IdPath,
         session: SessionDep,
         _: ReadKey,
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
+        opt: OptionsDep,
     ) -> list[ToOrderLine]:
         """Every stocked lamp type with its reorder point and the quantity to order now."""
-        return show.to_order_lines(
-            session, storeroom_id, last_relamps, forecast.Options.of(weeks, service_level)
-        )
+        return show.to_order_lines(session, storeroom_id, last_relamps, opt)
 
     @router.get("/storerooms/{storeroom_id}/to-order/download", response_class=Response)
     def download_to_order(
         storeroom_id: IdPath,
         session: SessionDep,
         _: ReadKey,
+        opt: OptionsDep,
         format: FormatQ = "csv",
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
     ) -> Response:
         """The to-order list as a CSV or JSON file (lines with a quantity to order only)."""
-        opt = forecast.Options.of(weeks, service_level)
         lines = show.to_order_lines(session, storeroom_id, last_relamps, opt)
         rows = [ln.model_dump() for ln in lines if ln.order_quantity > 0]
         cols = list(ToOrderLine.model_fields)
@@ -194,24 +220,14 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         lamp_type_id: IdPath,
         session: SessionDep,
         _: ReadKey,
-        weeks: WeeksQ = None,
-        service_level: LevelQ = None,
+        opt: OptionsDep,
     ) -> OutlookRead:
         """The available stock week by week, with the suggested order arriving after lead."""
-        opt = forecast.Options.of(weeks, service_level)
         return show.outlook_read(session, storeroom_id, lamp_type_id, last_relamps, opt)
 
-    def budget_answer(rows: list[budget.Row], body: BudgetRequest, name: str) -> Response:
-        dicts = budget.convert(rows, body.reporting_currency, dict(body.rates))
-        if body.format == "csv":
-            return export_response(list(BudgetRow.model_fields), dicts, "csv", name)
-        totals = budget.totals(dicts, "reporting_amount") if body.reporting_currency else None
-        read = BudgetRead(
-            months=budget.MONTHS,
-            rows=[BudgetRow.model_validate(d) for d in dicts],
-            totals_by_month=totals,
-        )
-        return Response(read.model_dump_json(), media_type="application/json")
+
+def _budget_routes(router: APIRouter, last_relamps: LastRelamps) -> None:
+    """A site's and the portfolio's 12-month budgets."""
 
     @router.post(
         "/sites/{site_id}/budget",
@@ -243,4 +259,13 @@ def build_router(last_relamps: LastRelamps) -> APIRouter:  # noqa: PLR0915  (exe
         )
         return budget_answer(rows, body, "budget-portfolio")
 
+
+def build_router(last_relamps: LastRelamps) -> APIRouter:
+    """The stock routes, handed the query for completed group relamps (from work orders)."""
+    router = APIRouter(tags=["stock"])
+    _storeroom_routes(router)
+    _stock_routes(router)
+    _movement_routes(router)
+    _demand_routes(router, last_relamps)
+    _budget_routes(router, last_relamps)
     return router

@@ -7,9 +7,9 @@ from typing import Annotated
 from fastapi import APIRouter, Form, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy import select
-from sqlalchemy.orm import sessionmaker
 
 from service.api.auth import SessionDep
+from service.db.session import JobFactoryDep, writes_in_jobs
 from service.register.models import Site
 from service.scheduling.models import WeeklyRun
 from service.scheduling.runner import run_site_week
@@ -38,9 +38,11 @@ def runs_page(
 
 
 @router.post("/app/runs", response_class=HTMLResponse)
+@writes_in_jobs  # the run commits in its own transactions; this request's session only reads
 def start_run(
     request: Request,
     session: SessionDep,
+    jobs: JobFactoryDep,
     visitor: VisitorDep,
     site_id: Annotated[int, Form(ge=1, le=2**31 - 1)],
     csrf_token: Annotated[str, Form(max_length=1000)] = "",
@@ -52,10 +54,5 @@ def start_run(
             request, "message.html", 404, visitor=visitor, title="No such site",
             message=f"There is no site {site_id}.",
         )  # fmt: skip
-    # The run commits in its own transactions (as the API route does): end this one first.
-    session.commit()
-    factory = sessionmaker(
-        bind=session.get_bind(), expire_on_commit=False, join_transaction_mode="create_savepoint"
-    )
-    run = run_site_week(factory, site_id, trigger="api")
+    run = run_site_week(jobs, site_id, trigger="api")
     return see_other(f"/app/runs?started={run.id}")

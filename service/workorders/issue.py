@@ -15,7 +15,7 @@ has an open group order is covered by that group order from the start.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 from functools import partial
@@ -193,7 +193,6 @@ def issue_orders(
     kinds: Sequence[str] = (GROUP, SPOT),
     whole_area: bool = False,
     cache: PlanCache | None = None,
-    checkpoint: Callable[[str], None] | None = None,
 ) -> IssueResult:
     """Create the group and spot orders a site (or one area) needs now; flushes, no commit."""
     result = IssueResult()
@@ -253,7 +252,7 @@ def issue_orders(
             order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
             built.append((order, ls, [r.id for r in rs]))
     if built:
-        _write(session, built, result, at, checkpoint)
+        _write(session, built, result, at)
         if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
             _reserve(session, site.id, [oid for oid, _, _ in result.created])
     return result
@@ -360,7 +359,6 @@ def _write(
     built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]],
     result: IssueResult,
     at: datetime,
-    checkpoint: Callable[[str], None] | None,
 ) -> None:
     """Insert orders and lines, take the reports, and let group orders cover spot orders."""
     orders = [o for o, _, _ in built]
@@ -371,8 +369,6 @@ def _write(
         .scalars()
         .all()
     )
-    if checkpoint is not None:  # tests inject failures here: orders written, lines not yet
-        checkpoint("orders_inserted")
     flat = []
     for oid, (_, ls, _) in zip(ids, built, strict=True):
         for x in ls:

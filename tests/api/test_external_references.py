@@ -9,14 +9,14 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 # (resource path, how to create one of it from a fresh area; returns its create body)
 Maker = Callable[[Session], tuple[str, dict[str, Any]]]
 
 
 def _site_body(db: Session) -> tuple[str, dict[str, Any]]:
-    n = b.site(db).id  # a number no other test site name uses
+    n = plan_site(db).id  # a number no other test site name uses
     return "sites", {
         "name": f"Lookup Works {n}",
         "time_zone": "Europe/Lisbon",
@@ -28,14 +28,14 @@ def _site_body(db: Session) -> tuple[str, dict[str, Any]]:
 
 
 def _fixture_body(db: Session) -> tuple[str, dict[str, Any]]:
-    area = b.area(db, b.site(db))
-    lt = b.lamp_type(db)
+    area = plan_area(db, plan_site(db))
+    lt = plan_lamp_type(db)
     return "fixtures", {"tag": f"LK-{area.id}", "area_id": area.id, "lamp_type_id": lt.id}
 
 
 def _order_body(db: Session) -> tuple[str, dict[str, Any]]:
-    area = b.area(db, b.site(db))
-    b.fixtures(db, area, b.lamp_type(db), 2)
+    area = plan_area(db, plan_site(db))
+    plan_fixtures(db, area, plan_lamp_type(db), 2)
     return "work-orders", {"area_id": area.id, "kind": "group_relamp"}
 
 

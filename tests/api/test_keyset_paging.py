@@ -8,13 +8,13 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.api.pagination import decode_cursor, encode_cursor
-from tests.planning import builders as b
+from tests.factories import plan_site
 
 PREFIX = "Keyset Yard"
 
 
 def _site(db: Session, name: str) -> int:
-    site = b.site(db, name=f"{PREFIX} {name}")
+    site = plan_site(db, name=f"{PREFIX} {name}")
     db.commit()
     return site.id
 
@@ -89,7 +89,7 @@ def test_ties_in_the_sort_field_are_broken_by_id(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
     # Ten sites sharing one voltage: only the id orders them.
-    ids = [b.site(db, name=f"{PREFIX} tie{i}", nominal_voltage_v=277.0).id for i in range(10)]
+    ids = [plan_site(db, name=f"{PREFIX} tie{i}", nominal_voltage_v=277.0).id for i in range(10)]
     db.commit()
     got: list[int] = []
     after = None

@@ -18,15 +18,17 @@ from service.db import session as session_mod
 from service.db.base import utcnow
 from service.scheduling.runner import run_site_week
 from tests.changes.test_slow_writer import start_cursor
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def test_weekly_run_orders_and_lines_are_in_the_feed(
     live: TestClient, live_admin: dict[str, str], live_factory: sessionmaker[Session]
 ) -> None:
     with live_factory() as s:
-        site = b.site(s, name="Feed Run Site")
-        b.fixtures(s, b.area(s, site), b.lamp_type(s, code="FEED-T8"), 3, hours_at_install=20_000.0)
+        site = plan_site(s, name="Feed Run Site")
+        plan_fixtures(
+            s, plan_area(s, site), plan_lamp_type(s, code="FEED-T8"), 3, hours_at_install=20_000.0
+        )
         s.commit()
         sid = site.id
     after = start_cursor(live, live_admin)

@@ -19,21 +19,21 @@ from service.reliability.renewal import weibull_renewal
 from service.reliability.replacement import block_cost_rate, plan_block_replacement
 from service.reliability.weibull import Weibull
 from service.workorders.models import WorkOrder
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)
 MLM = "cost_per_megalumen_hour"
-HPS = 60.0 / 7.0  # builders' area: 60 burn hours a week, one start a day
+HPS = 60.0 / 7.0  # plan_area: 60 burn hours a week, one start a day
 # Same costs as tests/planning/test_relamp_plan.py: lamp + labour (+ hire share 0) + disposal.
 C_GROUP = 4.0 + 4.0 / 60.0 * 40.0 + 0.5
 C_SPOT = 4.0 + 30.0 / 60.0 * 40.0 + 0.5
 
 
 def _area(db: Session, volts: float = 240.0, **lt_over: Any) -> int:
-    s = b.site(db)
-    lt = b.lamp_type(db, ballast_behaviour="reactor", **lt_over)
-    a = b.area(db, s)
-    b.fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=volts)
+    s = plan_site(db)
+    lt = plan_lamp_type(db, ballast_behaviour="reactor", **lt_over)
+    a = plan_area(db, s)
+    plan_fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=volts)
     db.commit()
     return a.id
 

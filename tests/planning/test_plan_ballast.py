@@ -9,7 +9,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.reliability.conditions import voltage_effect
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)
 VOLTS = 241.5  # 5 % over the 230 V rating
@@ -19,12 +19,12 @@ VOLTS = 241.5  # 5 % over the 230 V rating
 def test_plan_inputs_name_the_dominant_ballast(
     db: Session, client: TestClient, reader: dict[str, str], most: str, few: str
 ) -> None:
-    s = b.site(db)
-    lt = b.lamp_type(db, technology="metal_halide", ballast_behaviour="electronic")
-    a = b.area(db, s)
+    s = plan_site(db)
+    lt = plan_lamp_type(db, technology="metal_halide", ballast_behaviour="electronic")
+    a = plan_area(db, s)
     when = AT - timedelta(weeks=10)
-    b.fixtures(db, a, lt, 3, installed_at=when, volts=VOLTS, ballast_kind=most)
-    b.fixtures(db, a, lt, 1, installed_at=when, volts=VOLTS, ballast_kind=few)
+    plan_fixtures(db, a, lt, 3, installed_at=when, volts=VOLTS, ballast_kind=most)
+    plan_fixtures(db, a, lt, 1, installed_at=when, volts=VOLTS, ballast_kind=few)
     db.commit()
     r = client.post(
         f"/api/v1/areas/{a.id}/relamp-plan", json={"at": AT.isoformat()}, headers=reader

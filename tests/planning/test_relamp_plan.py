@@ -19,16 +19,16 @@ from service.reliability.replacement import plan_block_replacement
 from service.reliability.weibull import Weibull
 from service.workorders.models import WorkOrder
 from tests import factories as fx
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 AT = datetime(2026, 6, 1, 20, 0, tzinfo=UTC)  # 2 June 08:00 in Auckland
 
 
 def _setup(db: Session, **area_over: object) -> tuple[int, int]:
-    s = b.site(db, time_zone="Pacific/Auckland")
-    lt = b.lamp_type(db, ballast_behaviour="reactor")
-    a = b.area(db, s, **area_over)
-    b.fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=240.0)
+    s = plan_site(db, time_zone="Pacific/Auckland")
+    lt = plan_lamp_type(db, ballast_behaviour="reactor")
+    a = plan_area(db, s, **area_over)
+    plan_fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=240.0)
     db.commit()
     return a.id, lt.id
 
@@ -89,12 +89,12 @@ def test_light_floor_binds_at_the_lumen_curve_crossing(
 
 
 def test_rupture_cap_and_spot_only(client: TestClient, db: Session, reader: dict[str, str]) -> None:
-    s = b.site(db)
-    mh = b.lamp_type(
+    s = plan_site(db)
+    mh = plan_lamp_type(
         db, technology="metal_halide", rated_life_h=15_000.0, weibull_shape=4.0, rupture_risk=True
     )
-    a = b.area(db, s)
-    b.fixtures(db, a, mh, 4, lamps=1, volts=230.0)
+    a = plan_area(db, s)
+    plan_fixtures(db, a, mh, 4, lamps=1, volts=230.0)
     db.commit()
     url = f"/api/v1/areas/{a.id}/relamp-plan"
     # Group labour nearly as dear as spot: cost alone would not group, the cap forces it
@@ -106,9 +106,9 @@ def test_rupture_cap_and_spot_only(client: TestClient, db: Session, reader: dict
     assert lt["interval_h"] == pytest.approx(0.7 * 15_000)
     assert lt["safety_premium_rate"] >= 0.0
 
-    fl = b.lamp_type(db)
-    a2 = b.area(db, s)
-    b.fixtures(db, a2, fl, 2)
+    fl = plan_lamp_type(db)
+    a2 = plan_area(db, s)
+    plan_fixtures(db, a2, fl, 2)
     db.commit()
     body = {"group_minutes_per_lamp": 30.0}  # group costs as much as spot: never pays
     plan = client.post(f"/api/v1/areas/{a2.id}/relamp-plan", json=body, headers=reader).json()
@@ -136,12 +136,12 @@ def test_what_if_changes_nothing_stored(
 def test_site_plan_lists_areas_by_due_date(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    young = b.area(db, s)
-    old = b.area(db, s)
-    b.fixtures(db, young, lt, 3)
-    b.fixtures(db, old, lt, 3, hours_at_install=12_000.0)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    young = plan_area(db, s)
+    old = plan_area(db, s)
+    plan_fixtures(db, young, lt, 3)
+    plan_fixtures(db, old, lt, 3, hours_at_install=12_000.0)
     db.commit()
     r = client.get(f"/api/v1/sites/{s.id}/relamp-plan", headers=reader)
     assert r.status_code == 200

@@ -4,13 +4,12 @@ from __future__ import annotations
 
 from fastapi.testclient import TestClient
 
-from tests.register.helpers import make_area
-from tests.register.test_sites import make_site
+from tests.factories import api_area, api_site
 
 
 def test_create_read_update_delete(client: TestClient, writer: dict[str, str]) -> None:
-    site = make_site(client, writer)
-    area = make_area(client, writer, site["id"], hours_per_day=12, days_per_week=5)
+    site = api_site(client, writer)
+    area = api_area(client, writer, site["id"], hours_per_day=12, days_per_week=5)
     assert area["burn_hours_per_week"] == 60 and area["site_id"] == site["id"]
     url = f"/api/v1/areas/{area['id']}"
     assert client.get(url, headers=writer).json()["name"] == "Main Hall"
@@ -24,11 +23,11 @@ def test_create_read_update_delete(client: TestClient, writer: dict[str, str]) -
 
 
 def test_filters_sort_and_pages(client: TestClient, writer: dict[str, str]) -> None:
-    a = make_site(client, writer)
-    b = make_site(client, writer, name="Second Site")
-    make_area(client, writer, a["id"], name="Boiler Room", access_method="ladder")
-    make_area(client, writer, a["id"], name="Atrium", access_method="lift")
-    make_area(client, writer, b["id"], name="Corridor", access_method="floor")
+    a = api_site(client, writer)
+    b = api_site(client, writer, name="Second Site")
+    api_area(client, writer, a["id"], name="Boiler Room", access_method="ladder")
+    api_area(client, writer, a["id"], name="Atrium", access_method="lift")
+    api_area(client, writer, b["id"], name="Corridor", access_method="floor")
     r = client.get(f"/api/v1/areas?site_id={a['id']}&sort=name", headers=writer).json()
     assert r["total"] == 2 and [x["name"] for x in r["items"]] == ["Atrium", "Boiler Room"]
     r = client.get("/api/v1/areas?access_method=floor", headers=writer).json()
@@ -45,19 +44,19 @@ def test_unknown_site_is_404_naming_site_id(client: TestClient, writer: dict[str
 
 
 def test_duplicate_name_within_site_is_409(client: TestClient, writer: dict[str, str]) -> None:
-    a = make_site(client, writer)
-    b = make_site(client, writer, name="Second Site")
-    make_area(client, writer, a["id"])
+    a = api_site(client, writer)
+    b = api_site(client, writer, name="Second Site")
+    api_area(client, writer, a["id"])
     r = client.post("/api/v1/areas", json={"site_id": a["id"], "name": "Main Hall"}, headers=writer)
     assert r.status_code == 409
-    make_area(client, writer, b["id"])  # the same name in another site is fine
-    other = make_area(client, writer, a["id"], name="Other")
+    api_area(client, writer, b["id"])  # the same name in another site is fine
+    other = api_area(client, writer, a["id"], name="Other")
     r = client.patch(f"/api/v1/areas/{other['id']}", json={"name": "Main Hall"}, headers=writer)
     assert r.status_code == 409
 
 
 def test_bad_values_name_the_field(client: TestClient, writer: dict[str, str]) -> None:
-    site = make_site(client, writer)
+    site = api_site(client, writer)
     base = {"site_id": site["id"], "name": "Bad"}
     for over, field in [
         ({"access_method": "rope"}, "access_method"),
@@ -70,7 +69,7 @@ def test_bad_values_name_the_field(client: TestClient, writer: dict[str, str]) -
         assert field in {e["field"] for e in r.json()["errors"]}
     r = client.post("/api/v1/areas", json={"name": "No site"}, headers=writer)
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "site_id"
-    area = make_area(client, writer, site["id"])
+    area = api_area(client, writer, site["id"])
     r = client.patch(f"/api/v1/areas/{area['id']}", json={"hours_per_day": 8}, headers=writer)
     assert r.status_code == 422 and r.json()["errors"][0]["field"] == "days_per_week"
     r = client.patch(f"/api/v1/areas/{area['id']}", json={"name": None}, headers=writer)

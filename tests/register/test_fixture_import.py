@@ -10,7 +10,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy import text
 from sqlalchemy.orm import Session
 
-from tests.register.helpers import make_fixture, world
+from tests.factories import api_fixture, api_world
 
 HEADER = (
     "site,area,tag,location,lamp_type,lamps_per_fixture,ballast_kind,measured_voltage_v,"
@@ -51,7 +51,7 @@ def count(client: TestClient, headers: dict[str, str]) -> tuple[int, int]:
 def test_csv_import_creates_fixtures_and_positions(
     client: TestClient, writer: dict[str, str]
 ) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     r = post(client, writer, csv_of(*GOOD))
     assert r.status_code == 200, r.text
     assert r.json() == {"rows": 3, "created": 3, "updated": 0, "positions_created": 7}
@@ -70,8 +70,8 @@ def test_csv_import_creates_fixtures_and_positions(
 def test_a_bad_row_among_good_ones_saves_nothing(
     client: TestClient, writer: dict[str, str]
 ) -> None:
-    w = world(client, writer)
-    make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="KEEP")
+    w = api_world(client, writer)
+    api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="KEEP")
     before = count(client, writer)
     body = csv_of(
         GOOD[0],
@@ -104,7 +104,7 @@ def test_a_bad_row_among_good_ones_saves_nothing(
 
 
 def test_json_rows_count_from_one(client: TestClient, writer: dict[str, str]) -> None:
-    world(client, writer)
+    api_world(client, writer)
     rows = [
         {
             "site": SITE,
@@ -129,7 +129,7 @@ def test_json_rows_count_from_one(client: TestClient, writer: dict[str, str]) ->
 
 
 def test_existing_tag_is_409_unless_update(client: TestClient, writer: dict[str, str]) -> None:
-    world(client, writer)
+    api_world(client, writer)
     assert post(client, writer, csv_of(*GOOD)).status_code == 200
     r = post(client, writer, csv_of(GOOD[0]))
     assert r.status_code == 409 and r.json()["errors"] == [
@@ -158,9 +158,9 @@ def test_existing_tag_is_409_unless_update(client: TestClient, writer: dict[str,
 
 
 def test_export_round_trips_through_import(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     assert post(client, writer, csv_of(*GOOD)).status_code == 200
-    make_fixture(
+    api_fixture(
         client, writer, w["annex"]["id"], w["t8"]["id"], tag="A-1", location='Shelf "B", top'
     )
     exported = client.get("/api/v1/fixtures/export?format=csv", headers=writer)
@@ -184,7 +184,7 @@ def test_export_round_trips_through_import(client: TestClient, writer: dict[str,
 
 
 def test_upload_shape_errors(client: TestClient, writer: dict[str, str]) -> None:
-    world(client, writer)
+    api_world(client, writer)
     r = post(client, writer, "site,area,tag,colour\nx,y,z,red\n")
     assert r.status_code == 422 and r.json()["errors"][0] == {
         "row": 1,
@@ -201,9 +201,9 @@ def test_upload_shape_errors(client: TestClient, writer: dict[str, str]) -> None
 def test_imported_timestamps_are_stored_like_orm_ones(
     client: TestClient, writer: dict[str, str], db: Session
 ) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     at = "2024-01-05T10:00:00+02:00"
-    make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="ORM", lamps_installed_at=at)
+    api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="ORM", lamps_installed_at=at)
     assert (
         post(client, writer, csv_of(f"{SITE},Main Hall,BULK,,T8-58,1,,,,{at},,")).status_code == 200
     )
@@ -226,7 +226,7 @@ def test_imported_timestamps_are_stored_like_orm_ones(
 def test_missing_required_column_is_one_header_error(
     client: TestClient, writer: dict[str, str]
 ) -> None:
-    world(client, writer)
+    api_world(client, writer)
     r = post(client, writer, "site,area,lamp_type\n" + f"{SITE},Main Hall,T8-58\n" * 50)
     assert r.status_code == 422
     assert r.json()["errors"] == [

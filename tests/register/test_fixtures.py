@@ -8,7 +8,7 @@ from typing import Any
 import pytest
 from fastapi.testclient import TestClient
 
-from tests.register.helpers import make_fixture, world
+from tests.factories import api_fixture, api_world
 
 
 def when(s: str) -> datetime:
@@ -19,8 +19,8 @@ def when(s: str) -> datetime:
 def test_create_makes_positions_from_lamps_installed_at(
     client: TestClient, writer: dict[str, str]
 ) -> None:
-    w = world(client, writer)
-    fx = make_fixture(
+    w = api_world(client, writer)
+    fx = api_fixture(
         client,
         writer,
         w["hall"]["id"],
@@ -39,18 +39,18 @@ def test_create_makes_positions_from_lamps_installed_at(
 
 
 def test_install_time_defaults(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], installed_on="2023-05-04")
+    w = api_world(client, writer)
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], installed_on="2023-05-04")
     assert when(fx["positions"][0]["lamp_installed_at"]) == datetime(2023, 5, 4, tzinfo=UTC)
     before = datetime.now(UTC)
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="F-002")
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="F-002")
     at = when(fx["positions"][0]["lamp_installed_at"])
     assert before - timedelta(seconds=5) <= at <= datetime.now(UTC) + timedelta(seconds=5)
 
 
 def test_read_update_delete(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], lamps_per_fixture=2)
+    w = api_world(client, writer)
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], lamps_per_fixture=2)
     url = f"/api/v1/fixtures/{fx['id']}"
     first_ids = [p["id"] for p in fx["positions"]]
     r = client.patch(url, json={"lamps_per_fixture": 4, "location": "Bay 3"}, headers=writer)
@@ -71,8 +71,8 @@ def test_read_update_delete(client: TestClient, writer: dict[str, str]) -> None:
 
 
 def test_move_to_another_site_is_422(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
+    w = api_world(client, writer)
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
     r = client.patch(
         f"/api/v1/fixtures/{fx['id']}", json={"area_id": w["annex"]["id"]}, headers=writer
     )
@@ -82,14 +82,14 @@ def test_move_to_another_site_is_422(client: TestClient, writer: dict[str, str])
 def test_unknown_area_or_lamp_type_is_404_naming_the_field(
     client: TestClient, writer: dict[str, str]
 ) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     body = {"area_id": 999999, "lamp_type_id": w["t8"]["id"], "tag": "X"}
     r = client.post("/api/v1/fixtures", json=body, headers=writer)
     assert r.status_code == 404 and r.json()["errors"][0]["field"] == "area_id"
     body = {"area_id": w["hall"]["id"], "lamp_type_id": 999999, "tag": "X"}
     r = client.post("/api/v1/fixtures", json=body, headers=writer)
     assert r.status_code == 404 and r.json()["errors"][0]["field"] == "lamp_type_id"
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
     r = client.patch(f"/api/v1/fixtures/{fx['id']}", json={"lamp_type_id": 999999}, headers=writer)
     assert r.status_code == 404 and r.json()["errors"][0]["field"] == "lamp_type_id"
     assert client.get("/api/v1/fixtures/999999", headers=writer).status_code == 404
@@ -97,21 +97,21 @@ def test_unknown_area_or_lamp_type_is_404_naming_the_field(
 
 
 def test_duplicate_tag_within_site_is_409(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
+    w = api_world(client, writer)
+    api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
     body = {"area_id": w["yard"]["id"], "lamp_type_id": w["t8"]["id"], "tag": "F-001"}
     r = client.post("/api/v1/fixtures", json=body, headers=writer)
     assert r.status_code == 409 and r.json()["field"] == "tag"
-    make_fixture(client, writer, w["annex"]["id"], w["t8"]["id"])  # other site: fine
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="F-002")
+    api_fixture(client, writer, w["annex"]["id"], w["t8"]["id"])  # other site: fine
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="F-002")
     r = client.patch(f"/api/v1/fixtures/{fx['id']}", json={"tag": "F-001"}, headers=writer)
     assert r.status_code == 409
 
 
 def test_lamp_type_in_use_cannot_be_deleted(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
-    make_fixture(client, writer, w["yard"]["id"], w["t8"]["id"], tag="F-002")
+    w = api_world(client, writer)
+    api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
+    api_fixture(client, writer, w["yard"]["id"], w["t8"]["id"], tag="F-002")
     r = client.delete(f"/api/v1/lamp-types/{w['t8']['id']}", headers=writer)
     assert r.status_code == 409 and r.json()["fixtures"] == 2 and "2 fixture" in r.json()["detail"]
     assert client.get(f"/api/v1/lamp-types/{w['t8']['id']}", headers=writer).status_code == 200
@@ -136,7 +136,7 @@ BAD: list[tuple[dict[str, Any], str]] = [
 def test_bad_fixture_values_are_422(
     client: TestClient, writer: dict[str, str], over: dict[str, Any], field: str
 ) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     body = {"area_id": w["hall"]["id"], "lamp_type_id": w["t8"]["id"], "tag": "F-9", **over}
     r = client.post("/api/v1/fixtures", json=body, headers=writer)
     assert r.status_code == 422, r.text
@@ -151,11 +151,11 @@ def test_missing_fields_are_422(client: TestClient, writer: dict[str, str]) -> N
 
 
 def test_filters_sort_and_pages(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="HALL-2")
-    make_fixture(client, writer, w["hall"]["id"], w["led"]["id"], tag="HALL-1")
-    make_fixture(client, writer, w["yard"]["id"], w["t8"]["id"], tag="YARD-1")
-    make_fixture(client, writer, w["annex"]["id"], w["t8"]["id"], tag="ANNEX-1")
+    w = api_world(client, writer)
+    api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], tag="HALL-2")
+    api_fixture(client, writer, w["hall"]["id"], w["led"]["id"], tag="HALL-1")
+    api_fixture(client, writer, w["yard"]["id"], w["t8"]["id"], tag="YARD-1")
+    api_fixture(client, writer, w["annex"]["id"], w["t8"]["id"], tag="ANNEX-1")
 
     def tags(q: str) -> list[str]:
         return [
@@ -172,8 +172,8 @@ def test_filters_sort_and_pages(client: TestClient, writer: dict[str, str]) -> N
 
 
 def test_position_correction(client: TestClient, writer: dict[str, str]) -> None:
-    w = world(client, writer)
-    fx = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], lamps_per_fixture=2)
+    w = api_world(client, writer)
+    fx = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"], lamps_per_fixture=2)
     pid = fx["positions"][1]["id"]
     r = client.patch(
         f"/api/v1/positions/{pid}",

@@ -13,8 +13,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from tests.api.test_bad_input_tour import assert_problem, error_fields, table_counts
-from tests.register.helpers import make_fixture, world
-from tests.register.test_sites import SITE
+from tests.factories import SITE, api_fixture, api_world
 
 
 def _raw_post(client: TestClient, path: str, raw: str, headers: dict[str, str]) -> Any:
@@ -47,7 +46,7 @@ def test_site_numbers(
 
 
 def test_fixture_numbers(client: TestClient, db: Session, writer: dict[str, str]) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     base = {"area_id": w["hall"]["id"], "lamp_type_id": w["t8"]["id"], "tag": "F-9"}
     before = table_counts(db)
     for over, field in [
@@ -65,7 +64,7 @@ def test_fixture_numbers(client: TestClient, db: Session, writer: dict[str, str]
             continue
         assert error_fields(assert_problem(r, 422)) == {field}
     assert table_counts(db) == before
-    f = make_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
+    f = api_fixture(client, writer, w["hall"]["id"], w["t8"]["id"])
     pos = f["positions"][0]["id"]
     r = client.patch(f"/api/v1/positions/{pos}", json={"starts_at_install": 1e300}, headers=writer)
     assert error_fields(assert_problem(r, 422)) == {"starts_at_install"}
@@ -74,7 +73,7 @@ def test_fixture_numbers(client: TestClient, db: Session, writer: dict[str, str]
 def test_fixture_csv_volts_and_starts(
     client: TestClient, db: Session, writer: dict[str, str]
 ) -> None:
-    w = world(client, writer)
+    w = api_world(client, writer)
     head = "site,area,tag,lamp_type,measured_voltage_v,lamp_starts_at_install\n"
     row = f"{w['site']['name']},{w['hall']['name']},{{tag}},{w['t8']['code']},{{v}},{{s}}\n"
     csv = (

@@ -2,30 +2,13 @@
 
 from __future__ import annotations
 
-from typing import Any
-
 from fastapi.testclient import TestClient
 
-SITE: dict[str, Any] = {
-    "name": "Harbourside Depot",
-    "time_zone": "Europe/Lisbon",
-    "nominal_voltage_v": 230,
-    "currency": "EUR",
-    "energy_price_per_kwh": 0.21,
-    "labour_rate_per_h": 38.0,
-    "disposal_fee_per_mercury_lamp": 0.6,
-}
-
-
-def make_site(client: TestClient, headers: dict[str, str], **over: Any) -> dict[str, Any]:
-    """Create a site through the API and return its body."""
-    r = client.post("/api/v1/sites", json={**SITE, **over}, headers=headers)
-    assert r.status_code == 201, r.text
-    return r.json()
+from tests.factories import SITE, api_site
 
 
 def test_create_read_update_delete(client: TestClient, writer: dict[str, str]) -> None:
-    site = make_site(client, writer)
+    site = api_site(client, writer)
     assert site["weekly_run_weekday"] == 0 and site["lookahead_weeks"] == 4
     got = client.get(f"/api/v1/sites/{site['id']}", headers=writer).json()
     assert got["name"] == SITE["name"]
@@ -42,7 +25,7 @@ def test_create_read_update_delete(client: TestClient, writer: dict[str, str]) -
 
 def test_list_filters_sorts_and_pages(client: TestClient, writer: dict[str, str]) -> None:
     for name in ("Beta Hall", "Alpha Works", "Gamma Yard"):
-        make_site(client, writer, name=name)
+        api_site(client, writer, name=name)
     r = client.get("/api/v1/sites?sort=-name&limit=2", headers=writer).json()
     assert r["total"] == 3 and [s["name"] for s in r["items"]] == ["Gamma Yard", "Beta Hall"]
     r = client.get("/api/v1/sites?sort=-name&limit=2&offset=2", headers=writer).json()
@@ -64,7 +47,7 @@ def test_bad_input_names_the_field_and_writes_nothing(
 
 
 def test_duplicate_name_is_a_conflict(client: TestClient, writer: dict[str, str]) -> None:
-    make_site(client, writer)
+    api_site(client, writer)
     r = client.post("/api/v1/sites", json=SITE, headers=writer)
     assert r.status_code == 409 and r.json()["status"] == 409
 

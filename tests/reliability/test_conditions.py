@@ -235,7 +235,7 @@ def test_switching_monotone_and_bounded(hps: list[float], ratio: float) -> None:
 
 
 def test_reactor_under_voltage_is_a_supply_fault_without_life_credit() -> None:
-    # Common practice (FIELD_NOTES s.10): HID below its ballast's band is a supply fault
+    # Common practice: HID below its ballast's band is a supply fault
     # (poor starting, electrode wear, colour shift), not extra life. 250 V on a 277 V metal
     # halide reactor circuit: the old model gave life x 1.92, now 1.0 with a warning.
     eff = voltage_effect(250.0, 277.0, "metal_halide", "reactor")

@@ -32,7 +32,7 @@ def records() -> tuple[np.ndarray, np.ndarray]:
 
 
 def test_mle_matches_lifelines(records: tuple[np.ndarray, np.ndarray]) -> None:
-    # lifelines WeibullFitter: S(t) = exp(-(t/lambda_)^rho_), right-censored MLE (field notes §9).
+    # lifelines WeibullFitter: S(t) = exp(-(t/lambda_)^rho_), right-censored MLE.
     from lifelines import WeibullFitter
 
     t, failed = records
@@ -50,7 +50,7 @@ def test_mle_and_bounds_match_reliability(
     records: tuple[np.ndarray, np.ndarray], confidence: float
 ) -> None:
     # reliability Fit_Weibull_2P: alpha = scale, beta = shape; bounds are Wald on the log of each
-    # parameter from the Fisher information (field notes §9).
+    # parameter from the Fisher information.
     from reliability.Fitters import Fit_Weibull_2P
 
     t, failed = records
@@ -102,7 +102,8 @@ def test_mle_is_a_maximum(seed: int, shape: float, n: int) -> None:
 
 
 def test_weibayes_matches_reliability_force_beta(records: tuple[np.ndarray, np.ndarray]) -> None:
-    # reliability Fit_Weibull_2P(force_beta=...) is the WeiBayes scale (field notes §9; Abernethy).
+    # reliability Fit_Weibull_2P(force_beta=...) is the WeiBayes scale (Abernethy,
+    # *The New Weibull Handbook*).
     from reliability.Fitters import Fit_Weibull_2P
 
     t, failed = records
@@ -189,7 +190,7 @@ def _fit_with_bounds(lo: float, hi: float) -> WeibullFit:
 
 
 def test_choose_curve_rule() -> None:
-    # Field notes §3: enough failures -> field MLE; few -> WeiBayes on the catalogue shape;
+    # Common practice (Abernethy, *The New Weibull Handbook*): enough failures -> field MLE; few -> WeiBayes on the catalogue shape;
     # none -> catalogue.
     tight = _fit_with_bounds(2.4, 3.8)
     wide = _fit_with_bounds(1.0, 6.0)

@@ -78,7 +78,7 @@ def _simulated_counts(shape: float, scale: float, t_points: np.ndarray, n: int) 
 
 @pytest.mark.parametrize("shape", [1.5, 3.5, 6.0])
 def test_monte_carlo_agreement(shape: float) -> None:
-    # Independent check (field notes §9): simulate 10^5 renewal processes and compare the mean
+    # Independent check (our own Monte Carlo): simulate 10^5 renewal processes and compare the mean
     # count within 3 standard errors (plus 1e-4 for the solver itself).
     scale = 2000.0
     mu = Weibull(shape, scale).mean()

@@ -30,7 +30,7 @@ def _cycle_costs(arrivals: np.ndarray, T: float) -> np.ndarray:
 
 
 def test_block_plan_matches_monte_carlo_cost() -> None:
-    # Independent check (field notes §9): simulate 10^5 positions over a cycle of length T with
+    # Independent check (our own Monte Carlo): simulate 10^5 positions over a cycle of length T with
     # spot replacements and estimate the cost per hour; Barlow & Proschan's cost rate at the
     # chosen T must agree within 3 standard errors.
     w = Weibull.from_rated_life(12000.0, 3.5)
@@ -64,7 +64,7 @@ def test_grid_cost_is_block_cost_rate() -> None:
 
 def test_exponential_life_is_spot_only() -> None:
     # Cox: exponential life has M(T) = T/mu, so C(T) = c_group/T + c_spot/mu falls for ever:
-    # no finite optimum, spot replacement only (field notes §5).
+    # no finite optimum, spot replacement only (Barlow & Proschan, block replacement).
     w = Weibull(1.0, 9000.0)
     plan = plan_block_replacement(w, C_GROUP, C_SPOT)
     assert plan.interval_h is None
@@ -84,7 +84,7 @@ def test_group_cost_not_below_spot_cost_is_spot_only() -> None:
 
 
 def test_light_floor_binds_below_cost_optimum() -> None:
-    # Field notes §5: the light floor caps the interval; C(T) falls towards the optimum, so the
+    # Common practice: the light floor caps the interval; C(T) falls towards the optimum, so the
     # capped plan sits at the cap.
     w = Weibull.from_rated_life(10000.0, 4.0)
     free = plan_block_replacement(w, C_GROUP, C_SPOT)
@@ -111,7 +111,7 @@ def test_burnout_ceiling_uses_weibull_percentile() -> None:
 
 
 def test_smallest_cap_binds() -> None:
-    # Field notes §5: several caps, the tightest one sets the interval.
+    # Common practice: several caps, the tightest one sets the interval.
     w = Weibull.from_rated_life(10000.0, 4.0)
     plan = plan_block_replacement(
         w, C_GROUP, C_SPOT, light_floor_h=5500.0, burnout_ceiling=0.10, rupture_cap_h=5000.0
@@ -121,7 +121,7 @@ def test_smallest_cap_binds() -> None:
 
 
 def test_rupture_cap_forces_group_relamp_even_when_spot_is_cheaper() -> None:
-    # Field notes §7: lamps that can rupture are group relamped at or before the cap. With
+    # Common practice: lamps that can rupture are group relamped at or before the cap. With
     # exponential life (Cox: M(T) = T/mu) spot only would be cheaper, yet the plan must group
     # relamp at the cap, at cost (c_group + c_spot T/mu)/T.
     mu, cap = 9000.0, 6300.0

@@ -12,7 +12,7 @@ from service.main import create_app
 from service.scheduling import cli as runs_cli
 from service.scheduling import scheduler as scheduler_mod
 from service.scheduling.models import WeeklyRun
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def test_runs_start_and_list(
@@ -21,8 +21,8 @@ def test_runs_start_and_list(
     monkeypatch: pytest.MonkeyPatch,
     capsys: pytest.CaptureFixture[str],
 ) -> None:
-    s = b.site(db)
-    b.fixtures(db, b.area(db, s), b.lamp_type(db), 2, hours_at_install=20_000.0)
+    s = plan_site(db)
+    plan_fixtures(db, plan_area(db, s), plan_lamp_type(db), 2, hours_at_install=20_000.0)
     db.commit()
     monkeypatch.setattr(runs_cli, "session_factory", lambda: factory)
     assert cli.main(["runs", "start", "--site", s.name, "--week", "2026-W49"]) == 0

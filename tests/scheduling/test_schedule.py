@@ -14,7 +14,7 @@ from service.scheduling.models import WeeklyRun
 from service.scheduling.runner import run_site_week
 from service.scheduling.scheduler import WeeklyScheduler, job_id
 from service.scheduling.weeks import iso_week_of, last_fire_time, weekly_trigger
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 from tests.scheduling.faults import fail_before_lines
 
 LISBON = ZoneInfo("Europe/Lisbon")
@@ -64,7 +64,7 @@ def _started(factory: sessionmaker[Session]) -> WeeklyScheduler:
 
 
 def test_site_edits_reschedule_the_job(db: Session, factory: sessionmaker[Session]) -> None:
-    s = b.site(db, weekly_run_weekday=2, weekly_run_time="07:15", time_zone="Asia/Tokyo")
+    s = plan_site(db, weekly_run_weekday=2, weekly_run_time="07:15", time_zone="Asia/Tokyo")
     db.commit()
     sched = _started(factory)
     try:
@@ -94,10 +94,10 @@ def test_missed_runs_are_found_and_caught_up_at_start(
 ) -> None:
     now = datetime.now(UTC)
     long_ago = now - timedelta(days=30)
-    old = b.site(db, created_at=long_ago)
-    lt = b.lamp_type(db)
-    b.fixtures(db, b.area(db, old), lt, 2, hours_at_install=20_000.0)
-    b.site(db)  # created just now: its last scheduled moment predates it, nothing to catch up
+    old = plan_site(db, created_at=long_ago)
+    lt = plan_lamp_type(db)
+    plan_fixtures(db, plan_area(db, old), lt, 2, hours_at_install=20_000.0)
+    plan_site(db)  # created just now: its last scheduled moment predates it, nothing to catch up
     db.commit()
     # The feed jobs would share the test's one connection from their own thread.
     sched = WeeklyScheduler(factory, feed_jobs=False)
@@ -127,12 +127,12 @@ def test_missed_runs_are_found_and_caught_up_at_start(
 
 def test_a_failed_week_is_still_missed(db: Session, factory: sessionmaker[Session]) -> None:
     now = datetime.now(UTC)
-    s = b.site(db, created_at=now - timedelta(days=30))
+    s = plan_site(db, created_at=now - timedelta(days=30))
     db.commit()
     week = iso_week_of(last_fire_time(0, "06:00", "Europe/Lisbon", now).date())
 
-    lt = b.lamp_type(db)
-    b.fixtures(db, b.area(db, s), lt, 1, hours_at_install=20_000.0)
+    lt = plan_lamp_type(db)
+    plan_fixtures(db, plan_area(db, s), lt, 1, hours_at_install=20_000.0)
     db.commit()
     with fail_before_lines(factory, "down"):
         assert run_site_week(factory, s.id, week=week).outcome == "failed"

@@ -19,18 +19,18 @@ from service.scheduling.runner import run_site_week
 from service.scheduling.weeks import iso_week_of
 from service.workorders.models import WorkOrder, WorkOrderLine
 from service.workorders.repository import last_group_relamps
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 from tests.scheduling.faults import fail_before_lines
 
 
 def portfolio(db: Session) -> dict[str, Any]:
     """A site with an overdue area, a young area, and two dark lamps in the young one."""
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    old = b.area(db, s)
-    young = b.area(db, s)
-    b.fixtures(db, old, lt, 4, hours_at_install=20_000.0)
-    fx = b.fixtures(db, young, lt, 3)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    old = plan_area(db, s)
+    young = plan_area(db, s)
+    plan_fixtures(db, old, lt, 4, hours_at_install=20_000.0)
+    fx = plan_fixtures(db, young, lt, 3)
     reports = [
         burnouts.report_burnout(
             db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=3)

@@ -29,7 +29,7 @@ def test_demo_led_reads_its_l70_at_the_tm21_cap(db: Session, tmp_path: Path) -> 
 
 
 def test_demo_ramp_has_a_supply_fault_and_no_life_credit(db: Session, tmp_path: Path) -> None:
-    # Common practice (FIELD_NOTES s.10): HPS on a reactor ballast 9 % under its 277 V rating
+    # Common practice: HPS on a reactor ballast 9 % under its 277 V rating
     # is a supply fault; the far poles are counted per area and get no life credit.
     load_demo(db, key_file=tmp_path / "key.txt")
     db.commit()

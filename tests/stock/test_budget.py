@@ -14,7 +14,7 @@ from service.forecasting.service import forecast
 from service.planning.service import local_today, site_plans
 from service.stock import budget
 from service.workorders.repository import last_group_relamps
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 API = "/api/v1"
 
@@ -23,10 +23,10 @@ def _sites(db: Session) -> dict[str, Any]:
     """Two sites in two currencies, each with one area of old lamps (a group relamp due)."""
     out = {}
     for cur in ("EUR", "USD"):
-        s = b.site(db, currency=cur)
-        lt = b.lamp_type(db, rated_life_h=12_000.0)
-        a = b.area(db, s, equipment_hire_per_visit=80.0, weekly_burn_hours=60.0)
-        b.fixtures(db, a, lt, 10, lamps=2, installed_at=utcnow() - timedelta(weeks=150))
+        s = plan_site(db, currency=cur)
+        lt = plan_lamp_type(db, rated_life_h=12_000.0)
+        a = plan_area(db, s, equipment_hire_per_visit=80.0, weekly_burn_hours=60.0)
+        plan_fixtures(db, a, lt, 10, lamps=2, installed_at=utcnow() - timedelta(weeks=150))
         out[cur] = (s, a, lt)
     db.commit()
     return out

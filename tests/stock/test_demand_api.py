@@ -14,7 +14,7 @@ from service.forecasting.fit import load_fitted_types
 from service.readings.ages import position_ages
 from service.reliability.fleet import evaluate_fleet
 from service.stock.models import Storeroom, StoreroomSite
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 API = "/api/v1"
 WEEKS = 26
@@ -23,8 +23,8 @@ SIMS = 6000
 
 def _fleet(db: Session) -> dict[str, Any]:
     """An area of 120 incandescent positions of spread ages."""
-    s = b.site(db, nominal_voltage_v=120.0)
-    lt = b.lamp_type(
+    s = plan_site(db, nominal_voltage_v=120.0)
+    lt = plan_lamp_type(
         db,
         technology="incandescent",
         rated_volts=120.0,
@@ -33,10 +33,10 @@ def _fleet(db: Session) -> dict[str, Any]:
         contains_mercury=False,
         unit_price=1.5,
     )
-    a = b.area(db, s, weekly_burn_hours=70.0)
+    a = plan_area(db, s, weekly_burn_hours=70.0)
     rng = np.random.default_rng(11)
     for h in rng.uniform(0, 1800, 60):
-        b.fixtures(
+        plan_fixtures(
             db,
             a,
             lt,

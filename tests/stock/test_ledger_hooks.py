@@ -14,17 +14,17 @@ from service.api.errors import Conflict
 from service.db.base import utcnow
 from service.stock import ledger
 from service.stock.models import StockMovement, Storeroom, StoreroomSite
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 API = "/api/v1"
 
 
 def _setup(db: Session, n: int = 3, stock: int = 10) -> dict[str, Any]:
     """A site with one area of n two-lamp fixtures, its storeroom stocking the lamp type."""
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, lt, n, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(db, a, lt, n, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
     room = Storeroom(name=f"Store {s.id}")
     db.add(room)
     db.flush()

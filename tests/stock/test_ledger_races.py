@@ -26,7 +26,7 @@ from service.workorders import service as orders
 from service.workorders.models import WorkOrder
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
 from tests.conftest import migrate, scratch_postgres
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 REPEATS = 10
 
@@ -81,8 +81,8 @@ def _two_started_orders(factory: sessionmaker[Session], stock_after_issue: int) 
     then `stock_after_issue` lamps arrive on the shelf."""
     with factory() as s:
         begin_write(s)
-        site = b.site(s)
-        lt = b.lamp_type(s)
+        site = plan_site(s)
+        lt = plan_lamp_type(s)
         room = Storeroom(name=f"Race store {site.id}")
         s.add(room)
         s.flush()
@@ -91,8 +91,8 @@ def _two_started_orders(factory: sessionmaker[Session], stock_after_issue: int) 
         s.add(bal)
         ids = []
         for _ in range(2):
-            area = b.area(s, site)
-            b.fixtures(s, area, lt, 1, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+            area = plan_area(s, site)
+            plan_fixtures(s, area, lt, 1, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
             s.flush()
             order = orders.create(s, WorkOrderCreate(area_id=area.id, kind="group_relamp"))
             orders.issue(s, order.id)  # nothing on the shelf: nothing reserved

@@ -19,14 +19,7 @@ EXEMPT: dict[str, int] = {
     "readings/ages.py:position_ages": 184,  # was 182; grew with the model-fidelity work, to split
     "reliability/replacement.py:plan_block_replacement": 145,
     "planning/service.py:plan_areas": 142,
-    "catalogue/lamp_model.py:resolve_lamp_model": 134,  # was 119; grew with the model-fidelity work, to split
-    "seed/files.py:read_scenario": 104,
-    "reliability/megalumen.py:cost_per_megalumen_hour": 92,
     "reliability/fleet.py:evaluate_fleet": 87,  # was 86; grew with the model-fidelity work, to split
-    "readings/operating_voltage.py:reading_voltages": 90,  # was 85; grew with the model-fidelity work, to split
-    "reliability/conditions.py:voltage_effect": 86,  # was 84; grew with the model-fidelity work, to split
-    "api/errors.py:install_error_handlers": 82,
-    "stock/router.py:build_router": 199,
 }
 
 

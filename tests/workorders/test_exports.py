@@ -11,14 +11,14 @@ from fastapi.testclient import TestClient
 from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def _order(client: TestClient, db: Session, h: dict[str, str], location: str = "Bay 1") -> dict:
-    s = b.site(db)
-    lt = b.lamp_type(db, code=f"T8-<b>{s.id}")
-    a = b.area(db, s, access_method="lift")
-    b.fixtures(db, a, lt, 3, lamps=2, location=location)
+    s = plan_site(db)
+    lt = plan_lamp_type(db, code=f"T8-<b>{s.id}")
+    a = plan_area(db, s, access_method="lift")
+    plan_fixtures(db, a, lt, 3, lamps=2, location=location)
     db.commit()
     r = client.post(
         "/api/v1/work-orders", json={"area_id": a.id, "kind": "group_relamp"}, headers=h

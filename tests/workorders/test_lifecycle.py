@@ -16,7 +16,7 @@ from service.events.models import BurnoutReport, LampRemoval
 from service.readings.ages import position_ages
 from service.register.models import LampPosition
 from service.workorders.service import TRANSITIONS
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 STATES = ("draft", "issued", "in_progress", "done", "cancelled")
 ACTIONS = {"issue": "issued", "start": "in_progress", "complete": "done", "cancel": "cancelled"}
@@ -30,10 +30,10 @@ PATH = {  # how to reach each state from draft
 
 
 def _area(db: Session, n: int = 3, **over: Any) -> tuple[int, list[Any]]:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s, **over)
-    fx = b.fixtures(db, a, lt, n, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s, **over)
+    fx = plan_fixtures(db, a, lt, n, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
     db.commit()
     return a.id, fx
 

@@ -13,14 +13,16 @@ from sqlalchemy.orm.exc import StaleDataError
 from service.db.base import utcnow
 from service.events import burnouts, reports
 from service.events.models import BurnoutReport
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def _report(db: Session) -> tuple[int, int]:
     """A committed open report on a fresh area; (report id, area id)."""
-    s = b.site(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, b.lamp_type(db), 1, lamps=1, installed_at=utcnow() - timedelta(weeks=8))
+    s = plan_site(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(
+        db, a, plan_lamp_type(db), 1, lamps=1, installed_at=utcnow() - timedelta(weeks=8)
+    )
     report = burnouts.report_burnout(
         db, position_id=fx[0].positions[0].id, reported_at=utcnow() - timedelta(days=1)
     )

@@ -20,7 +20,7 @@ from service.keys import service as keys_service
 from service.main import create_app
 from service.register.models import Site
 from tests.conftest import scratch_postgres
-from tests.planning import builders as b
+from tests.factories import plan_site
 
 REPEATS = 5
 SITE: dict[str, Any] = {
@@ -85,7 +85,7 @@ def served(
     setup = make_engine(scratch_url)
     with Session(setup, expire_on_commit=False) as s:
         _, secret = keys_service.create_key(s, "dropped-writer", "write")
-        site_id = b.site(s).id
+        site_id = plan_site(s).id
         s.commit()
     killer = Killer(get_engine(), setup)
     app = create_app(start_scheduler=False)

@@ -11,7 +11,7 @@ from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
 from service.users import service as users
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 PASSWORD = "correct horse battery"
 
@@ -31,10 +31,10 @@ def _specs(html: str) -> list[dict[str, object]]:
 
 
 def test_area_page_plan_and_charts(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s, name="Hall <script>alert(1)</script>", light_floor=0.7)
-    lt = b.lamp_type(db, code="<b>T8</b>")
-    fx = b.fixtures(db, a, lt, 4, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
+    s = plan_site(db)
+    a = plan_area(db, s, name="Hall <script>alert(1)</script>", light_floor=0.7)
+    lt = plan_lamp_type(db, code="<b>T8</b>")
+    fx = plan_fixtures(db, a, lt, 4, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
     db.commit()
     _sign_in(client, db, "ana")
     r = client.get(f"/app/areas/{a.id}")
@@ -66,10 +66,10 @@ def test_area_page_needs_sign_in_and_a_real_area(client: TestClient, db: Session
 
 
 def test_overview_has_weekly_chart_and_due_areas(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s, burnout_ceiling=0.05)
-    lt = b.lamp_type(db)
-    b.fixtures(db, a, lt, 4, lamps=2, installed_at=utcnow() - timedelta(weeks=400))
+    s = plan_site(db)
+    a = plan_area(db, s, burnout_ceiling=0.05)
+    lt = plan_lamp_type(db)
+    plan_fixtures(db, a, lt, 4, lamps=2, installed_at=utcnow() - timedelta(weeks=400))
     db.commit()
     _sign_in(client, db, "cy")
     r = client.get("/app")
@@ -83,9 +83,11 @@ def test_overview_has_weekly_chart_and_due_areas(client: TestClient, db: Session
 
 
 def test_site_page_lists_areas_with_plans(client: TestClient, db: Session) -> None:
-    s = b.site(db, name="Works <i>North</i>")
-    a = b.area(db, s)
-    b.fixtures(db, a, b.lamp_type(db), 3, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
+    s = plan_site(db, name="Works <i>North</i>")
+    a = plan_area(db, s)
+    plan_fixtures(
+        db, a, plan_lamp_type(db), 3, lamps=2, installed_at=utcnow() - timedelta(weeks=30)
+    )
     db.commit()
     _sign_in(client, db, "di")
     r = client.get(f"/app/sites/{s.id}")

@@ -14,14 +14,14 @@ from service.db.base import utcnow
 from service.scheduling.models import WeeklyRun
 from service.web.fixture_pages import report_path
 from service.workorders.models import WorkOrder
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 from tests.http.web.signin import sign_in_as
-from tests.planning import builders as b
 
 
 def test_label_sheet_encodes_each_fixture_report_url(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    fx1, fx2 = b.fixtures(db, a, b.lamp_type(db), 2, lamps=2)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    fx1, fx2 = plan_fixtures(db, a, plan_lamp_type(db), 2, lamps=2)
     fx2.tag = "B2/07"  # tags may hold a slash
     db.commit()
     sign_in_as(client, db, "viewer")
@@ -54,9 +54,11 @@ def _runs(db: Session, site_id: int) -> int:
 
 
 def test_runs_page_start_now_by_role_and_repeat(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    b.fixtures(db, a, b.lamp_type(db), 3, lamps=2, installed_at=utcnow() - timedelta(weeks=300))
+    s = plan_site(db)
+    a = plan_area(db, s)
+    plan_fixtures(
+        db, a, plan_lamp_type(db), 3, lamps=2, installed_at=utcnow() - timedelta(weeks=300)
+    )
     db.commit()
     for role in ("viewer", "technician"):
         token = sign_in_as(client, db, role)
@@ -88,9 +90,9 @@ def test_runs_page_start_now_by_role_and_repeat(client: TestClient, db: Session)
 
 
 def test_cautions_on_every_page_where_a_person_acts(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    (fx,) = b.fixtures(db, a, b.lamp_type(db), 1, lamps=1)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    (fx,) = plan_fixtures(db, a, plan_lamp_type(db), 1, lamps=1)
     db.commit()
     sign_in_as(client, db, "planner")
     for url in (

@@ -15,7 +15,7 @@ from service.db.base import utcnow
 from service.events.models import LampRemoval
 from service.register.models import LampPosition
 from service.users import service as users
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 PASSWORD = "correct horse battery"
 
@@ -31,10 +31,10 @@ def _sign_in(client: TestClient, db: Session, name: str) -> None:
 
 def _type_with_removals(db: Session, records: list[tuple[float, bool]]) -> int:
     """A lamp type whose only field records are these (normalised hours, failed) removals."""
-    s = b.site(db)
-    a = b.area(db, s)
-    lt = b.lamp_type(db, code="KM-<1>")
-    (fx,) = b.fixtures(db, a, lt, 1, lamps=1)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    lt = plan_lamp_type(db, code="KM-<1>")
+    (fx,) = plan_fixtures(db, a, lt, 1, lamps=1)
     pos = db.scalars(select(LampPosition).where(LampPosition.fixture_id == fx.id)).one()
     now = utcnow()
     pos.burned_out_at = now  # the lamp in it is dark: no live (censored) record from it

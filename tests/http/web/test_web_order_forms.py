@@ -18,7 +18,7 @@ from service.users import service as users
 from service.workorders import service as orders
 from service.workorders.models import WorkOrderLine
 from service.workorders.schemas import WorkOrderCreate
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 PASSWORD = "correct horse battery"
 
@@ -40,9 +40,11 @@ def _sign_in(client: TestClient, db: Session, role: str) -> str:
 
 def _order(db: Session, state: str, n: int = 2) -> tuple[int, list[int]]:
     """A group order of n two-lamp fixtures moved to a state; (order id, fixture ids)."""
-    s = b.site(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, b.lamp_type(db), n, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+    s = plan_site(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(
+        db, a, plan_lamp_type(db), n, lamps=2, installed_at=utcnow() - timedelta(weeks=20)
+    )
     order = orders.create(db, WorkOrderCreate(area_id=a.id, kind="group_relamp"))
     if state in ("issued", "in_progress"):
         orders.issue(db, order.id)
@@ -183,10 +185,10 @@ def test_technician_cancel_refused(client: TestClient, db: Session) -> None:
 
 
 def test_burnout_report_post(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    (fx,) = b.fixtures(
-        db, a, b.lamp_type(db), 1, lamps=2, installed_at=utcnow() - timedelta(weeks=5)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    (fx,) = plan_fixtures(
+        db, a, plan_lamp_type(db), 1, lamps=2, installed_at=utcnow() - timedelta(weeks=5)
     )
     db.commit()
     pos = db.scalars(select(LampPosition).where(LampPosition.fixture_id == fx.id)).first()

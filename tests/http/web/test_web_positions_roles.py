@@ -15,15 +15,17 @@ from service.register.models import LampPosition
 from service.workorders import service as orders
 from service.workorders.models import WorkOrder, WorkOrderLine
 from service.workorders.schemas import WorkOrderCreate
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 from tests.http.web.signin import sign_in_as
-from tests.planning import builders as b
 
 
 def _started_order(db: Session) -> tuple[int, list[list[int]]]:
     """A started group order of two two-lamp fixtures; (order id, position ids per fixture)."""
-    s = b.site(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, b.lamp_type(db), 2, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
+    s = plan_site(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(
+        db, a, plan_lamp_type(db), 2, lamps=2, installed_at=utcnow() - timedelta(weeks=30)
+    )
     oid = orders.create(db, WorkOrderCreate(area_id=a.id, kind="group_relamp")).id
     orders.issue(db, oid)
     orders.start(db, oid)

@@ -11,8 +11,8 @@ from sqlalchemy.orm import Session
 
 from service.db.base import utcnow
 from service.register.models import Fixture, LampPosition
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 from tests.http.web.signin import sign_in_as
-from tests.planning import builders as b
 
 
 def _count(db: Session) -> int:
@@ -20,11 +20,11 @@ def _count(db: Session) -> int:
 
 
 def test_search_filters_and_pages(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a1, a2 = b.area(db, s), b.area(db, s)
-    lt = b.lamp_type(db)
-    first = b.fixtures(db, a1, lt, 55, lamps=1)
-    b.fixtures(db, a2, lt, 3, lamps=1)
+    s = plan_site(db)
+    a1, a2 = plan_area(db, s), plan_area(db, s)
+    lt = plan_lamp_type(db)
+    first = plan_fixtures(db, a1, lt, 55, lamps=1)
+    plan_fixtures(db, a2, lt, 3, lamps=1)
     db.commit()
     sign_in_as(client, db, "viewer")
     html = client.get(f"/app/fixtures?area_id={a1.id}").text
@@ -39,15 +39,15 @@ def test_search_filters_and_pages(client: TestClient, db: Session) -> None:
     assert tags == {f.tag for f in first}  # the two pages hold the area's fixtures once
     one = client.get(f"/app/fixtures?site_id={s.id}&tag={first[0].tag}").text
     assert first[0].tag in one
-    other_type = client.get(f"/app/fixtures?site_id={s.id}&lamp_type_id={b.lamp_type(db).id}")
+    other_type = client.get(f"/app/fixtures?site_id={s.id}&lamp_type_id={plan_lamp_type(db).id}")
     assert "0 fixtures" in other_type.text
     assert client.get("/app/fixtures?site_id=abc&area_id=-1").status_code == 200  # ignored
 
 
 def test_user_text_is_escaped(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    (fx,) = b.fixtures(db, a, b.lamp_type(db), 1, lamps=1)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    (fx,) = plan_fixtures(db, a, plan_lamp_type(db), 1, lamps=1)
     fx.tag = "<script>alert(1)</script>"
     db.commit()
     sign_in_as(client, db, "planner")
@@ -74,9 +74,9 @@ def _form(token: str, area_id: int, lamp_type_id: int, **over: str) -> dict[str,
 
 
 def test_add_fixture_by_planner_and_refusals(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    lt = b.lamp_type(db)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    lt = plan_lamp_type(db)
     db.commit()
     before = _count(db)
     for role in ("viewer", "technician"):
@@ -106,10 +106,10 @@ def test_add_fixture_by_planner_and_refusals(client: TestClient, db: Session) ->
 
 
 def test_edit_with_current_and_stale_version(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    lt = b.lamp_type(db)
-    (fx,) = b.fixtures(db, a, lt, 1, lamps=2, installed_at=utcnow() - timedelta(weeks=3))
+    s = plan_site(db)
+    a = plan_area(db, s)
+    lt = plan_lamp_type(db)
+    (fx,) = plan_fixtures(db, a, lt, 1, lamps=2, installed_at=utcnow() - timedelta(weeks=3))
     db.commit()
     token = sign_in_as(client, db, "planner")
     form = client.get(f"/app/fixtures/{fx.id}/edit").text
@@ -146,9 +146,9 @@ def _csv(site: str, area: str, lamp_type: str, rows: list[str]) -> bytes:
 
 
 def test_import_bad_row_shows_its_error_and_writes_nothing(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    lt = b.lamp_type(db)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    lt = plan_lamp_type(db)
     db.commit()
     before = _count(db)
     token = sign_in_as(client, db, "planner")
@@ -188,9 +188,9 @@ def test_import_bad_row_shows_its_error_and_writes_nothing(client: TestClient, d
 
 
 def test_export_download_is_the_import_format(client: TestClient, db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, b.lamp_type(db), 3, lamps=1)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(db, a, plan_lamp_type(db), 3, lamps=1)
     db.commit()
     sign_in_as(client, db, "viewer")
     r = client.get(f"/app/fixtures/export?area_id={a.id}")

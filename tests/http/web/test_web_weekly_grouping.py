@@ -13,7 +13,7 @@ from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import position_ages
 from service.reliability.fleet import evaluate_fleet
 from service.web import charts
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def _per_position(db: Session, at: object, weeks: int) -> np.ndarray:
@@ -32,11 +32,11 @@ def _per_position(db: Session, at: object, weeks: int) -> np.ndarray:
 
 
 def test_grouped_weekly_chart_matches_per_position_sums(db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s)
-    lt = b.lamp_type(db)
+    s = plan_site(db)
+    a = plan_area(db, s)
+    lt = plan_lamp_type(db)
     for volts, weeks_ago in ((221.3, 80), (229.9, 80), (236.4, 30), (None, 5)):
-        b.fixtures(
+        plan_fixtures(
             db, a, lt, 4, lamps=2, volts=volts, installed_at=utcnow() - timedelta(weeks=weeks_ago)
         )
     db.commit()

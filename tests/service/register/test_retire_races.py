@@ -21,7 +21,7 @@ from service.register.models import Fixture
 from service.retirement import service as retire
 from service.scheduling.runner import run_site_week
 from service.workorders.models import WorkOrder, WorkOrderLine
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 from tests.service.workorders import test_order_races as races
 
 # The race module's own committed database (a SQLite file, or a scratch PostgreSQL one).
@@ -54,10 +54,10 @@ def _both(calls: list[Callable[[], Any]]) -> list[Any]:
 def _fixture(make: sessionmaker[Session], hours: float = 0.0) -> tuple[int, int]:
     """A committed site with one area of 3 fixtures; (site id, first fixture id)."""
     with make() as s:
-        site = b.site(s)
-        lt = b.lamp_type(s)
-        area = b.area(s, site)
-        fx = b.fixtures(s, area, lt, 3, hours_at_install=hours)
+        site = plan_site(s)
+        lt = plan_lamp_type(s)
+        area = plan_area(s, site)
+        fx = plan_fixtures(s, area, lt, 3, hours_at_install=hours)
         s.commit()
         return site.id, fx[0].id
 

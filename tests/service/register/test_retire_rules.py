@@ -17,7 +17,7 @@ from service.register.models import Area, Fixture, LampPosition, Site
 from service.retirement import service as retire
 from service.scheduling.runner import run_site_week
 from service.workorders.models import WorkOrder, WorkOrderLine
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def _open_order(db: Session, fixture: Fixture, state: str = "issued") -> WorkOrder:
@@ -48,10 +48,10 @@ def _open_order(db: Session, fixture: Fixture, state: str = "issued") -> WorkOrd
 
 @pytest.mark.parametrize("state", ["draft", "issued", "in_progress"])
 def test_retire_refused_while_on_an_open_order(db: Session, state: str) -> None:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    f, _other = b.fixtures(db, a, lt, 2)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    f, _other = plan_fixtures(db, a, lt, 2)
     order = _open_order(db, f, state)
     for act, rid in (
         (retire.retire_fixture, f.id),
@@ -71,12 +71,12 @@ def test_retire_refused_while_on_an_open_order(db: Session, state: str) -> None:
 
 
 def test_retire_area_retires_its_fixtures_once(db: Session) -> None:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    keep = b.area(db, s)
-    fx = b.fixtures(db, a, lt, 2)
-    (other,) = b.fixtures(db, keep, lt, 1)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    keep = plan_area(db, s)
+    fx = plan_fixtures(db, a, lt, 2)
+    (other,) = plan_fixtures(db, keep, lt, 1)
     early = retire.retire_fixture(db, fx[0].id).retired_at
     v0 = fx[0].version
     area = retire.retire_area(db, a.id)
@@ -92,12 +92,12 @@ def test_retire_area_retires_its_fixtures_once(db: Session) -> None:
 
 
 def test_weekly_run_gives_a_retired_fixture_no_work(db: Session) -> None:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    old = b.fixtures(db, a, lt, 4, hours_at_install=20_000.0)  # long overdue: a group relamp
-    young = b.area(db, s)
-    dark = b.fixtures(db, young, lt, 2)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    old = plan_fixtures(db, a, lt, 4, hours_at_install=20_000.0)  # long overdue: a group relamp
+    young = plan_area(db, s)
+    dark = plan_fixtures(db, young, lt, 2)
     for f in dark:
         burnouts.report_burnout(
             db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=3)
@@ -123,10 +123,10 @@ def test_weekly_run_gives_a_retired_fixture_no_work(db: Session) -> None:
 
 
 def test_raw_delete_of_a_site_with_history_fails_at_the_database(db: Session) -> None:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    (f,) = b.fixtures(db, a, lt, 1)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    (f,) = plan_fixtures(db, a, lt, 1)
     burnouts.report_burnout(
         db, position_id=f.positions[0].id, reported_at=utcnow() - timedelta(hours=3)
     )
@@ -149,10 +149,10 @@ def test_raw_delete_of_a_site_with_history_fails_at_the_database(db: Session) ->
 def test_hard_delete_without_history_still_works(db: Session) -> None:
     from service.register import sites as register
 
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    b.fixtures(db, a, lt, 2)
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    plan_fixtures(db, a, lt, 2)
     db.commit()
     register.delete_site(db, s.id)
     assert db.scalar(select(func.count()).select_from(Fixture)) == 0

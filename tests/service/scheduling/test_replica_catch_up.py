@@ -16,7 +16,7 @@ from service.scheduling.models import RunOutcome, RunWeek, WeeklyRun
 from service.scheduling.runner import run_due_week
 from service.scheduling.scheduler import WeeklyScheduler
 from service.workorders.models import WorkOrder
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 SITES = 6
 
@@ -26,11 +26,11 @@ def test_two_replicas_catch_up_each_site_once(own_db_url: str) -> None:
     now = datetime.now(UTC)
     setup = make_engine(own_db_url)
     with Session(setup, expire_on_commit=False) as db:
-        lt = b.lamp_type(db)
+        lt = plan_lamp_type(db)
         ids = []
         for _ in range(SITES):
-            s = b.site(db, created_at=now - timedelta(days=30))
-            b.fixtures(db, b.area(db, s), lt, 2, hours_at_install=20_000.0)
+            s = plan_site(db, created_at=now - timedelta(days=30))
+            plan_fixtures(db, plan_area(db, s), lt, 2, hours_at_install=20_000.0)
             ids.append(s.id)
         db.commit()
     barrier = threading.Barrier(2)
@@ -83,7 +83,7 @@ def test_two_replicas_catch_up_each_site_once(own_db_url: str) -> None:
 def test_a_site_held_elsewhere_is_skipped_not_awaited(own_db_url: str) -> None:
     engine = make_engine(own_db_url)
     with Session(engine, expire_on_commit=False) as db:
-        s = b.site(db, created_at=datetime.now(UTC) - timedelta(days=30))
+        s = plan_site(db, created_at=datetime.now(UTC) - timedelta(days=30))
         db.commit()
     holder = Session(engine)  # another replica's run holds the site row
     holder.scalar(select(Site).where(Site.id == s.id).with_for_update(key_share=True))

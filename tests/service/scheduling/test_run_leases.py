@@ -22,7 +22,7 @@ from service.scheduling.runner import (
     run_owner,
     run_site_week,
 )
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def _running(db: Session, site_id: int, *, lease_left_s: float | None) -> WeeklyRun:
@@ -43,7 +43,7 @@ def _running(db: Session, site_id: int, *, lease_left_s: float | None) -> Weekly
 
 
 def test_reaper_fails_expired_and_leaves_fresh(db: Session, factory: sessionmaker[Session]) -> None:
-    s = b.site(db)
+    s = plan_site(db)
     dead = _running(db, s.id, lease_left_s=-1)
     alive = _running(db, s.id, lease_left_s=60)
     legacy = _running(db, s.id, lease_left_s=None)  # started 5 min ago, before leases existed
@@ -60,8 +60,8 @@ def test_reaper_fails_expired_and_leaves_fresh(db: Session, factory: sessionmake
 
 
 def test_finished_runs_are_never_reaped(db: Session, factory: sessionmaker[Session]) -> None:
-    s = b.site(db)
-    b.fixtures(db, b.area(db, s), b.lamp_type(db), 2, hours_at_install=20_000.0)
+    s = plan_site(db)
+    plan_fixtures(db, plan_area(db, s), plan_lamp_type(db), 2, hours_at_install=20_000.0)
     db.commit()
     run = run_site_week(factory, s.id, lease_seconds=30)
     assert run.outcome == RunOutcome.SUCCEEDED
@@ -71,7 +71,7 @@ def test_finished_runs_are_never_reaped(db: Session, factory: sessionmaker[Sessi
 
 
 def test_run_record_carries_owner_and_lease(db: Session, factory: sessionmaker[Session]) -> None:
-    s = b.site(db)
+    s = plan_site(db)
     db.commit()
     before = utcnow()
     run = run_site_week(factory, s.id, lease_seconds=45)
@@ -83,7 +83,7 @@ def test_run_record_carries_owner_and_lease(db: Session, factory: sessionmaker[S
 def test_renew_lease_moves_only_a_running_record(
     db: Session, factory: sessionmaker[Session]
 ) -> None:
-    s = b.site(db)
+    s = plan_site(db)
     live = _running(db, s.id, lease_left_s=1)
     before = utcnow()
     renew_lease(factory, live.id, 90)

@@ -22,7 +22,7 @@ from service.scheduling.models import RunOutcome, WeeklyRun
 from service.scheduling.runner import REAPED_ERROR, run_due_week
 from service.scheduling.scheduler import WeeklyScheduler
 from tests.conftest import migrate
-from tests.planning import builders as b
+from tests.factories import plan_site
 
 
 def migrate_down(engine: Engine, revision: str) -> None:
@@ -57,13 +57,13 @@ def _outcome(db: Session, run_id: int) -> tuple[str, str | None]:
 
 
 def test_sync_tick_reaps(db: Session, factory: sessionmaker[Session]) -> None:
-    dead = _dead_run(db, b.site(db).id)
+    dead = _dead_run(db, plan_site(db).id)
     WeeklyScheduler(factory).sync()  # the tick the scheduler runs every SYNC_SECONDS
     assert _outcome(db, dead.id) == (RunOutcome.FAILED, REAPED_ERROR)
 
 
 def test_start_reaps_before_catching_up(db: Session, factory: sessionmaker[Session]) -> None:
-    dead = _dead_run(db, b.site(db).id)
+    dead = _dead_run(db, plan_site(db).id)
     sched = WeeklyScheduler(factory, feed_jobs=False)  # one shared connection
     sched.catch_up = lambda now=None: None  # type: ignore[method-assign]  # reaping only here
     sched.start()
@@ -89,7 +89,7 @@ def test_cli_reap(
     monkeypatch: pytest.MonkeyPatch,
     capsys: pytest.CaptureFixture[str],
 ) -> None:
-    dead = _dead_run(db, b.site(db).id)
+    dead = _dead_run(db, plan_site(db).id)
     monkeypatch.setattr(runs_cli, "session_factory", lambda: factory)
     assert cli.main(["runs", "reap"]) == 0
     assert "1 expired run(s) marked failed" in capsys.readouterr().out
@@ -103,7 +103,7 @@ def test_due_week_skips_a_site_this_process_is_running(
 ) -> None:
     if db.get_bind().dialect.name == "postgresql":
         pytest.skip("PostgreSQL uses the row lock (test_replica_catch_up)")
-    s = b.site(db, created_at=datetime.now(UTC) - timedelta(days=30))
+    s = plan_site(db, created_at=datetime.now(UTC) - timedelta(days=30))
     db.commit()
     held, release = threading.Event(), threading.Event()
 

@@ -13,19 +13,19 @@ from service.forecasting import service as forecasting
 from service.planning import service as planning
 from service.web import charts
 from service.workorders.repository import last_group_relamps
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def test_weekly_burnouts_exponential_lamps_are_a_poisson_stream(db: Session) -> None:
     """Weibull shape 1: renewals form a Poisson process, M(t) = t/eta (Cox, Renewal Theory,
     section 1.2), so every week expects burn_h_per_week / eta burnouts per position,
     whatever the lamp's age (memorylessness)."""
-    s = b.site(db)
-    a = b.area(db, s)
-    lt = b.lamp_type(db, weibull_shape=1.0, code="EXP-1")
+    s = plan_site(db)
+    a = plan_area(db, s)
+    lt = plan_lamp_type(db, weibull_shape=1.0, code="EXP-1")
     now = utcnow()
-    b.fixtures(db, a, lt, 3, lamps=2, installed_at=now - timedelta(weeks=40))
-    b.fixtures(db, a, lt, 2, lamps=1, installed_at=now - timedelta(weeks=2))
+    plan_fixtures(db, a, lt, 3, lamps=2, installed_at=now - timedelta(weeks=40))
+    plan_fixtures(db, a, lt, 2, lamps=1, installed_at=now - timedelta(weeks=2))
     db.flush()
     today = now.date()
     spec = charts.weekly_burnouts(db, now, [today + timedelta(days=17)], today)
@@ -48,10 +48,10 @@ def test_no_positions_no_chart(db: Session) -> None:
 
 
 def test_cost_chart_marks_the_chosen_interval_on_the_curve(db: Session) -> None:
-    s = b.site(db)
-    a = b.area(db, s, equipment_hire_per_visit=300.0, spot_minutes_per_lamp=45.0)
-    lt = b.lamp_type(db, weibull_shape=4.0)
-    b.fixtures(db, a, lt, 20, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
+    s = plan_site(db)
+    a = plan_area(db, s, equipment_hire_per_visit=300.0, spot_minutes_per_lamp=45.0)
+    lt = plan_lamp_type(db, weibull_shape=4.0)
+    plan_fixtures(db, a, lt, 20, lamps=2, installed_at=utcnow() - timedelta(weeks=30))
     db.flush()
     plan = planning.area_plan(db, a.id, last_relamps=last_group_relamps)
     (g,) = plan.groups

@@ -21,7 +21,7 @@ from service.workorders import service as orders
 from service.workorders.models import WorkOrder, WorkOrderKind, WorkOrderState
 from service.workorders.repository import last_group_relamps
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 GROUP, SPOT = WorkOrderKind.GROUP_RELAMP, WorkOrderKind.SPOT_REPLACEMENT
 OPEN = (WorkOrderState.DRAFT, WorkOrderState.ISSUED, WorkOrderState.IN_PROGRESS)
@@ -68,7 +68,9 @@ def test_weekly_run_on_the_demo_leaves_no_separate_spot_order(
     for s in sites:
         for aid in due[s.id]:
             pos = _first_position(db, aid)
-            burnouts.report_burnout(db, position_id=pos.id, reported_at=utcnow() - timedelta(hours=2))
+            burnouts.report_burnout(
+                db, position_id=pos.id, reported_at=utcnow() - timedelta(hours=2)
+            )
     db.commit()
     first_site = next(s for s in sites if due[s.id])
     early = orders.create(db, WorkOrderCreate(area_id=due[first_site.id][0], kind=SPOT))
@@ -107,10 +109,10 @@ def test_weekly_run_on_the_demo_leaves_no_separate_spot_order(
 
 
 def _area_with_dark_lamp(db: Session) -> tuple[Area, list[Any], BurnoutReport]:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(db, a, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
     rep = burnouts.report_burnout(
         db, position_id=fx[0].positions[0].id, reported_at=utcnow() - timedelta(hours=4)
     )

@@ -29,7 +29,7 @@ from service.workorders import service as orders
 from service.workorders.models import WorkOrder, WorkOrderLine
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
 from tests.conftest import migrate
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 REPEATS = 20
 
@@ -71,10 +71,10 @@ def factory(race_engine: Engine) -> sessionmaker[Session]:
 def _area(factory: sessionmaker[Session], *, reports: int = 0) -> tuple[int, int]:
     """A committed site with one area of 3 two-lamp fixtures; `reports` positions dark."""
     with factory() as s:
-        site = b.site(s)
-        lt = b.lamp_type(s)
-        area = b.area(s, site)
-        fx = b.fixtures(s, area, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+        site = plan_site(s)
+        lt = plan_lamp_type(s)
+        area = plan_area(s, site)
+        fx = plan_fixtures(s, area, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
         positions = [p for f in fx for p in f.positions]
         for p in positions[:reports]:
             burnouts.report_burnout(s, position_id=p.id, reported_at=utcnow() - timedelta(hours=2))

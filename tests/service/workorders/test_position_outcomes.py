@@ -16,14 +16,14 @@ from service.register.models import LampPosition
 from service.workorders import service as orders
 from service.workorders.models import WorkOrder, WorkOrderKind
 from service.workorders.schemas import CompleteBody, WorkOrderCreate
-from tests.planning import builders as b
+from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
 
 
 def _started_group(db: Session) -> tuple[WorkOrder, list[Any]]:
-    s = b.site(db)
-    lt = b.lamp_type(db)
-    a = b.area(db, s)
-    fx = b.fixtures(db, a, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
+    s = plan_site(db)
+    lt = plan_lamp_type(db)
+    a = plan_area(db, s)
+    fx = plan_fixtures(db, a, lt, 3, lamps=2, installed_at=utcnow() - timedelta(weeks=20))
     db.commit()
     o = orders.create(db, WorkOrderCreate(area_id=a.id, kind=WorkOrderKind.GROUP_RELAMP))
     orders.issue(db, o.id)

@@ -1,6 +1,6 @@
 """Cautions fitted to the order: technology, ballast, height and the site's region.
 
-Sources named beside each check: field notes s.7 (common practice) and the rules each region
+Sources named beside each check: common practice for the trade cautions, and the rules each region
 cites as examples (recalled from memory: OSHA 29 CFR 1910.147, 40 CFR 273 and 761; EN 50110-1,
 Directives 2009/104/EC, 2012/19/EU, 96/59/EC).
 """

@@ -1,0 +1,1 @@
+"""Pure steps of the readings package, without a database."""
