@@ -14,7 +14,8 @@ evaluated per type, by grouping positions with numpy indexing):
 - with a history (exposure.ExposureHistory: burn-hour segments at known voltages) the age
   is accumulated instead: rated age a_r = sum dt_j / f(V_j) + uncovered hours / f_now
   (cumulative exposure [published: Nelson, *Accelerated Testing*]), S = exp(-(a_r/eta_k)^beta)
-  and the horizon adds w / f_now; the switching factor of every segment is the position's;
+  and the horizon adds w / f_now; a segment with known starts takes the switching factor of
+  its own hours per start (exposure.py), one without takes the position's;
 - discharge lamps below rated voltage: life factor capped at 1 (conditions.py), and a
   supply-fault flag below the ballast's band (warn_supply_fault);
 - lumen fraction = maintained light (dirt.maintained_light): LLD(a) x luminaire dirt factor
@@ -432,7 +433,31 @@ def _rated_age(
             driver_min_ratio=(types.driver_min_v / types.rated_voltage)[kk],
             driver_max_ratio=(types.driver_max_v / types.rated_voltage)[kk],
         )
-    exposure = accumulated_exposure(row, history.hours, life_seg * switching[row], n)
+    exposure = accumulated_exposure(
+        row, history.hours, life_seg * _segment_switching(types, ks, switching[row], history), n
+    )
     covered = history.covered_hours(n)
     rest = np.maximum(age - covered, 0.0)
     return exposure + rest / life_factor
+
+
+def _segment_switching(
+    types: LampTypeTable, ks: IntArray, position_sw: FloatArray, history: ExposureHistory
+) -> FloatArray:
+    """Switching factor per segment: its own hours per start where known, else the position's."""
+    seg_hps = history.segment_hours_per_start()
+    known = ~np.isnan(seg_hps)
+    if not known.any():
+        return position_sw
+    sel = np.nonzero(known)[0]
+    kk = ks[sel]
+    sw_seg, _ = switching_life_factor(
+        seg_hps[sel],
+        types.rated_hours_per_start[kk],
+        types.second_hours_per_start[kk],
+        types.second_life_ratio[kk],
+        default_slope=types.switching_slope[kk],
+    )
+    out = position_sw.copy()
+    out[sel] = sw_seg
+    return out
