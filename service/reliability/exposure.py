@@ -45,6 +45,7 @@ class ExposureHistory:
     voltage: FloatArray  # volts during the segment (NaN = rated)
     # starts during the segment (NaN = unknown: the position's hours per start); empty = none
     starts: FloatArray = field(default_factory=lambda: np.zeros(0))
+    has_starts: bool = field(init=False, default=False)  # some segment's starts are known
 
     def __post_init__(self) -> None:
         p = np.asarray(self.position).astype(np.intp, copy=False)
@@ -59,6 +60,7 @@ class ExposureHistory:
             )
         if np.any(st < 0) or np.any(np.isinf(st)):
             raise ValueError("history starts must be finite, non-negative counts (NaN = unknown)")
+        st = np.where(st > 0, st, np.nan)  # no starts counted: unknown, not "never switched"
         if np.any(~np.isfinite(h)) or np.any(h < 0):
             raise ValueError("history hours must be finite, non-negative burn hours")
         if np.any(v <= 0):
@@ -69,6 +71,7 @@ class ExposureHistory:
         object.__setattr__(self, "hours", h)
         object.__setattr__(self, "voltage", v)
         object.__setattr__(self, "starts", st)
+        object.__setattr__(self, "has_starts", bool(st.size) and not np.isnan(st).all())
 
     @property
     def size(self) -> int:
@@ -104,10 +107,7 @@ class ExposureHistory:
 
     def segment_hours_per_start(self) -> FloatArray:
         """Burn hours per start of each segment (NaN where its starts are unknown or zero)."""
-        known = self.starts > 0  # NaN compares False
-        out = np.full(self.size, np.nan)
-        np.divide(self.hours, self.starts, out=out, where=known)
-        return out
+        return np.asarray(self.hours / self.starts, dtype=np.float64)  # starts > 0 or NaN
 
     def covered_hours(self, n_rows: int) -> FloatArray:
         """Burn hours covered by segments, per row."""

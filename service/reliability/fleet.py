@@ -39,6 +39,8 @@ from numpy.typing import ArrayLike, NDArray
 
 from service.reliability.conditions import (
     MIN_POWER_RATIO,
+    SWITCHING_MAX_FACTOR,
+    SWITCHING_MIN_FACTOR,
     supply_fault,
     switching_life_factor,
     voltage_factors,
@@ -445,19 +447,27 @@ def _segment_switching(
     types: LampTypeTable, ks: IntArray, position_sw: FloatArray, history: ExposureHistory
 ) -> FloatArray:
     """Switching factor per segment: its own hours per start where known, else the position's."""
-    seg_hps = history.segment_hours_per_start()
-    known = ~np.isnan(seg_hps)
-    if not known.any():
+    if not history.has_starts:
         return position_sw
-    sel = np.nonzero(known)[0]
-    kk = ks[sel]
-    sw_seg, _ = switching_life_factor(
-        seg_hps[sel],
-        types.rated_hours_per_start[kk],
-        types.second_hours_per_start[kk],
-        types.second_life_ratio[kk],
-        default_slope=types.switching_slope[kk],
+    # The formula of conditions.switching_life_factor with its per-type constants computed
+    # once per type (K values): f = clip(1 + slope_k ln(h / h_rated,k), 0.5, 1.5), slope 0
+    # (f = 1) where the type has no switching model.
+    hr = types.rated_hours_per_start
+    no_model = np.isnan(hr)
+    ln_hr = np.log(np.where(no_model, 1.0, hr))
+    h2, q2 = types.second_hours_per_start, types.second_life_ratio
+    has_second = ~np.isnan(h2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope_2 = (q2 - 1.0) / (np.log(np.where(has_second, h2, 2.0)) - ln_hr)
+    slope0 = np.where(
+        np.isnan(types.switching_slope), DEFAULT_SWITCHING_SLOPE, types.switching_slope
     )
-    out = position_sw.copy()
-    out[sel] = sw_seg
-    return out
+    slope = np.where(no_model, 0.0, np.where(has_second, slope_2, slope0))
+    # In place over the segments (NaN hours per start stays NaN through every step).
+    raw = np.log(history.segment_hours_per_start())
+    raw -= ln_hr[ks]
+    raw *= slope[ks]
+    raw += 1.0
+    np.minimum(raw, SWITCHING_MAX_FACTOR, out=raw)
+    np.maximum(raw, SWITCHING_MIN_FACTOR, out=raw)
+    return np.where(np.isnan(raw), position_sw, raw)

@@ -191,3 +191,31 @@ def test_segment_starts_are_kept_by_take_and_drop() -> None:
     assert dropped.starts[1] == 2.0
     with pytest.raises(ValueError, match="starts"):
         ExposureHistory(np.array([0]), np.array([1.0]), np.array([120.0]), np.array([-1.0]))
+
+
+def test_segment_switching_follows_the_scalar_switching_model() -> None:
+    # Internal consistency: each one-segment history gives the wear of the plain model at
+    # that segment's hours per start (conditions.switching_life_factor via evaluate_fleet),
+    # for a type with a second quoted cycle, one on the default slope, one with none.
+    specs = [
+        LampTypeSpec(
+            "linear_fluorescent",
+            24_000.0,
+            277.0,
+            second_hours_per_start=12.0,
+            second_life_ratio=1.3,
+        ),
+        LampTypeSpec("compact_fluorescent", 10_000.0, 120.0),
+        INC,
+    ]
+    table = LampTypeTable.from_specs(specs)
+    rng = np.random.default_rng(7)
+    n = 300
+    k = np.repeat(np.arange(3), n // 3)
+    hps = rng.uniform(0.2, 80.0, n)  # reaches both clip bounds
+    hours = rng.uniform(10.0, 500.0, n)
+    volts = table.rated_voltage[k] * rng.uniform(0.97, 1.03, n)
+    hist = ExposureHistory(np.arange(n), hours, volts, hours / hps)
+    got = evaluate_fleet(table, k, hours, volts, np.nan, 0.0, history=hist).rated_age_h
+    plain = evaluate_fleet(table, k, hours, volts, hps, 0.0).rated_age_h
+    np.testing.assert_allclose(got, plain, rtol=1e-12)
