@@ -463,11 +463,10 @@ def _segment_switching(
         np.isnan(types.switching_slope), DEFAULT_SWITCHING_SLOPE, types.switching_slope
     )
     slope = np.where(no_model, 0.0, np.where(has_second, slope_2, slope0))
-    # In place over the segments (NaN hours per start stays NaN through every step).
+    # In place over the segments (NaN hours per start stays NaN through every step), with
+    # 1 + slope (ln h - ln h_rated) as slope ln h + (1 - slope ln h_rated).
     raw = np.log(history.segment_hours_per_start())
-    raw -= ln_hr[ks]
     raw *= slope[ks]
-    raw += 1.0
-    np.minimum(raw, SWITCHING_MAX_FACTOR, out=raw)
-    np.maximum(raw, SWITCHING_MIN_FACTOR, out=raw)
+    raw += (1.0 - slope * ln_hr)[ks]
+    np.clip(raw, SWITCHING_MIN_FACTOR, SWITCHING_MAX_FACTOR, out=raw)
     return np.where(np.isnan(raw), position_sw, raw)
