@@ -417,7 +417,11 @@ def _rated_age(
     gain_k = np.where(filament_k, 0.0, types.ballast_gain)
     fil = filament_k[ks]
     p_lamp = np.maximum(1.0 + gain_k[ks] * (ratio - 1.0), MIN_POWER_RATIO)
-    life_seg = np.power(np.where(fil, ratio, p_lamp), -types.life_exponent[ks])
+    # x^-n as exp(-n ln x): the same power law, about twice as fast as np.power with an
+    # exponent per element (x > 0: ratios of positive volts, lamp power >= MIN_POWER_RATIO).
+    life_seg = np.log(np.where(fil, ratio, p_lamp))
+    life_seg *= -types.life_exponent[ks]
+    np.exp(life_seg, out=life_seg)
     # under-powered discharge lamps: no life credit (as conditions._life)
     life_seg = np.where(~fil & (ratio < 1.0), np.minimum(life_seg, 1.0), life_seg)
     # Types with a halogen floor or a driver range: the full rule, on their segments only.
