@@ -88,10 +88,13 @@ def parameter_variance(
 ) -> float:
     """Delta-method variance of sum p: per parameter group t, g_t' Sigma_t g_t, summed."""
     g = np.asarray(group, dtype=np.int64)
-    sb = np.broadcast_to(np.asarray(sd_ln_shape, dtype=np.float64), (max(int(g.max()) + 1, 0),))
-    n_g = sb.size if g.size else 0
-    if n_g == 0:
+    if g.size == 0:
         return 0.0
+    sd_b = np.asarray(sd_ln_shape, dtype=np.float64)
+    # Per-group spreads may cover more groups than the selected positions use (an area's
+    # positions of some of the site's types): every group the arrays name, at least.
+    n_g = max(int(g.max()) + 1, int(sd_b.size) if sd_b.ndim else 0)
+    sb = np.broadcast_to(sd_b, (n_g,))
     se = np.broadcast_to(np.asarray(sd_ln_scale, dtype=np.float64), (n_g,))
     rho = np.broadcast_to(np.asarray(corr, dtype=np.float64), (n_g,))
     gb = np.bincount(g, weights=np.asarray(d_ln_shape, dtype=np.float64), minlength=n_g)

@@ -99,3 +99,11 @@ def test_types_add_their_variances_and_bounds_give_the_log_sd() -> None:
     assert var == pytest.approx(0.03**2 + 0.08**2 + 0.12**2)
     z = stats.norm.ppf(0.95)
     assert sd_from_bounds(np.exp(-z * 0.2), np.exp(z * 0.2), 0.90) == pytest.approx(0.2)
+
+
+def test_parameter_variance_of_a_subset_using_only_some_groups() -> None:
+    # Hand-worked delta method (sum over groups of g' Sigma g, correlation 0): positions of
+    # group 0 only, with spreads given for three groups, and no positions at all.
+    var = parameter_variance([0, 0], [0.1, 0.2], [0.3, -0.1], [0.5, 0.7, 0.9], [0.2, 0.4, 0.6])
+    assert var == pytest.approx((0.3 * 0.5) ** 2 + (0.2 * 0.2) ** 2, rel=1e-12)
+    assert parameter_variance([], [], [], [0.5, 0.7], [0.2, 0.4]) == 0.0
