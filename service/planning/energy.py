@@ -10,7 +10,9 @@ Per lamp type in an area, at the area's operating voltage and the site's tariff:
   (lumen.py), labelled "assumed_efficacy". Phi0 multiplies every megalumen figure by the same
   factor, so the interval that minimises cost per megalumen-hour does not depend on it;
 - lumen depreciation L(t): the lamp's curve (hours, or fractions of the voltage-scaled B50 life
-  for rated-life curves, as engine.light_floor_hours);
+  for rated-life curves, as engine.light_floor_hours), times the luminaire dirt factor of the
+  area (planning/maintained.py: the plans' and forecasts' one maintained-light definition,
+  reliability/dirt.maintained_light; under spot replacement only, the long-run mean factor);
 - cost per megalumen-hour, the mean light fraction over a cycle and the spot-only figures:
   replacement.cost_per_megalumen_hour on the plan's renewal grid [Cox, renewal argument; see
   that module], the best interval searched under the same caps as the cost plan (light floor,
@@ -37,6 +39,7 @@ from service.planning.group_plan import (
     GroupPlan,
     weibull_renewal_scaled,
 )
+from service.planning.maintained import luminaire_factor_in_cycle, spot_only_luminaire_factor
 from service.reliability.lumen import DEFAULT_EFFICACY_LM_PER_W
 from service.reliability.megalumen import MegalumenCost, cost_per_megalumen_hour
 from service.reliability.renewal import RenewalCurve
@@ -112,8 +115,14 @@ def _setup(model: LampModel, cond: Conditions, gp: GroupPlan) -> _Setup:
 
 
 def _megalumen(
-    model: LampModel, costs: CostInputs, gp: GroupPlan, st: _Setup, intervals: list[float]
+    model: LampModel,
+    costs: CostInputs,
+    cond: Conditions,
+    gp: GroupPlan,
+    st: _Setup,
+    intervals: list[float],
 ) -> MegalumenCost:
+    dirt, weekly_h = cond.dirt, cond.weekly_burn_hours
     life_h = gp.life.scale * _LN2 ** (1.0 / gp.life.shape)  # effective B50, hours
     curve_life = None if model.lumen_curve.basis == "hours" else life_h
     horizon = float(st.curve.t[-1])
@@ -128,6 +137,8 @@ def _megalumen(
         lumen_fraction=lambda u: model.lumen_curve.at(u, curve_life),
         survival=gp.life.sf,
         max_interval_h=st.limit_h,
+        luminaire_factor=lambda t: luminaire_factor_in_cycle(dirt, t, weekly_h),
+        spot_luminaire_factor=spot_only_luminaire_factor(dirt, weekly_h),
     )
 
 
@@ -148,7 +159,7 @@ def energy_view(model: LampModel, costs: CostInputs, cond: Conditions, gp: Group
     cost_plan = gp.cost_plan or gp.plan
     chosen, cost_t = gp.plan.interval_h, cost_plan.interval_h
     probe = [v for v in (chosen, cost_t) if v is not None] or [float(st.curve.t[1])]
-    mc = _megalumen(model, costs, gp, st, probe)
+    mc = _megalumen(model, costs, cond, gp, st, probe)
     best_t, binding, best_c = _best(mc, st, gp.rupture_cap_h is not None)
     at = dict(zip(probe, range(len(probe)), strict=False))
 
@@ -197,7 +208,7 @@ def megalumen_plan(
 ) -> GroupPlan:
     """The group plan with its interval chosen by cost per megalumen-hour (caps still hold)."""
     st = _setup(model, cond, gp)
-    mc = _megalumen(model, costs, gp, st, [float(st.curve.t[1])])
+    mc = _megalumen(model, costs, cond, gp, st, [float(st.curve.t[1])])
     best_t, binding, _ = _best(mc, st, gp.rupture_cap_h is not None)
     base = gp.plan
     notes = [f"objective: cost per megalumen-hour (the cost objective gives {_fmt(base)})"]

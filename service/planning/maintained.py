@@ -11,6 +11,10 @@ every cleaning interval restart it in between (DirtRegime.factor_after_relamp).
 Cleaning labour per position of a group visit that includes cleaning = cleaning minutes
 per fixture / 60 x labour rate x fixtures / positions of the area (added to c_group).
 
+Energy view (planning/energy.py): the cost per megalumen-hour counts the same dirt, through
+luminaire_factor_in_cycle under group relamping and spot_only_luminaire_factor under spot
+replacement alone.
+
 Cleaning-only option: a visit at mid-interval that cleans every luminaire without
 relamping. Its light gain per position is LLD(T/2) x VLF x (1 - LMF(T/2)) (the dirt taken
 away); its cost is the cleaning labour of all the area's fixtures plus one equipment hire.
@@ -25,7 +29,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from service.catalogue.lamp_model import LampModel
-from service.reliability.dirt import DirtRegime, maintained_light
+from service.reliability.dirt import DirtRegime, luminaire_maintenance_factor, maintained_light
 from service.reliability.weibull import Weibull
 
 FloatArray = NDArray[np.float64]
@@ -68,8 +72,33 @@ def maintained_in_cycle(
     """Maintained light t burn hours after a group relamp (fraction of rated initial light)."""
     life_h = life.scale * _LN2 ** (1.0 / life.shape)  # effective B50, for rated-life curves
     lld = model.lumen_curve.at(t_h, life_h if model.lumen_curve.basis != "hours" else None)
-    lmf = 1.0 if dirt is None else dirt.factor_after_relamp(_years(t_h, weekly_h))
-    return maintained_light(lld, light_factor, lmf)
+    return maintained_light(lld, light_factor, luminaire_factor_in_cycle(dirt, t_h, weekly_h))
+
+
+def luminaire_factor_in_cycle(
+    dirt: DirtRegime | None, t_h: FloatArray, weekly_h: float
+) -> FloatArray:
+    """Luminaire maintenance factor t burn hours after a group visit (1 for clean luminaires)."""
+    if dirt is None:
+        return np.ones_like(np.asarray(t_h, dtype=np.float64))
+    return dirt.factor_after_relamp(_years(np.asarray(t_h, dtype=np.float64), weekly_h))
+
+
+def spot_only_luminaire_factor(dirt: DirtRegime | None, weekly_h: float) -> float:
+    """Long-run mean luminaire factor without group visits (spot replacement only).
+
+    With a cleaning schedule: the time average of the LMF over one cleaning interval. Without
+    one, or without burn hours to turn into calendar time: ASSUMPTION, the same point the
+    regime takes when a visit does not clean (the table's end, 3 years, or no dirt at all).
+    """
+    if dirt is None or weekly_h <= 0:
+        return 1.0
+    regime = DirtRegime(dirt.luminaire_type, dirt.environment, dirt.cleaning_interval_years, False)
+    if dirt.cleaning_interval_years is None:
+        return float(regime.factor_after_relamp(np.zeros(1))[0])
+    years = np.linspace(0.0, dirt.cleaning_interval_years, _GRID)
+    lmf = luminaire_maintenance_factor(dirt.luminaire_type, dirt.environment, years)
+    return float(np.trapezoid(lmf, years) / dirt.cleaning_interval_years)
 
 
 def first_below(t: FloatArray, light: FloatArray, floor: float) -> float:

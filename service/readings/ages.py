@@ -403,6 +403,7 @@ def _with_rest(history: ExposureHistory, age_h: FloatArray, rest_v: FloatArray) 
         np.concatenate((history.position, rows)),
         np.concatenate((history.hours, rest[rows])),
         np.concatenate((history.voltage, rest_v[rows])),
+        np.concatenate((history.starts, np.full(rows.size, np.nan))),  # unknown: lamp's mean
     )
 
 

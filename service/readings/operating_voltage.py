@@ -8,7 +8,9 @@ of a reading is the burn hours (service.readings.timeline.Clock) it held for; th
 
 The same (reading, burn hours) pairs are returned as an exposure history (one segment per
 reading that held for some of the lamp's burn hours): the numeric core accumulates wear
-over them (service.reliability.exposure) instead of using the mean voltage.
+over them (service.reliability.exposure) instead of using the mean voltage. Each segment
+carries the starts its clock counted over the same span (records, else the schedule; NaN
+where the clock has none), so its switching factor is that interval's, not the lamp's mean.
 The fallbacks after these (fixture measured volts, site nominal) are in ages.py.
 """
 
@@ -132,7 +134,7 @@ def operating_voltages(
             np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt)
         )
         last_of_key = np.repeat(lo[r[pos]] + cnt - 1, cnt)
-        w = _held_hours(p, rt, j, pair_pos, last_of_key)
+        w, w_starts = _held_hours(p, rt, j, pair_pos, last_of_key)
         wsum = np.bincount(pair_pos, weights=w, minlength=n)
         vsum = np.bincount(pair_pos, weights=w * rv[j], minlength=n)
         rep = pos[np.ravel(inverse)]  # each candidate's group representative
@@ -140,7 +142,7 @@ def operating_voltages(
         with np.errstate(divide="ignore", invalid="ignore"):
             volts[cand] = np.where(weighted, vsum[rep] / wsum[rep], np.nan)
         source[cand] = np.where(weighted, "readings_weighted", "")
-        history = _segments(cand, cnt, np.ravel(inverse), w, rv[j])
+        history = _segments(cand, cnt, np.ravel(inverse), w, rv[j], w_starts)
     fallback = has & np.isnan(volts)
     volts = np.where(fallback, latest, volts)
     source = np.where(fallback, "latest_reading", source).astype("<U17")
@@ -149,23 +151,31 @@ def operating_voltages(
 
 def _held_hours(
     p: Positions, rt: FloatArray, j: IntArray, pair_pos: IntArray, last_of_key: IntArray
-) -> FloatArray:
-    """Burn hours each (position, reading) pair held: reading or install to next or end."""
+) -> tuple[FloatArray, FloatArray]:
+    """Burn hours and starts each (position, reading) pair held: reading or install to next or end."""
     a = np.maximum(rt[j], p.t_start[pair_pos])
     nxt = np.where(j < last_of_key, rt[np.minimum(j + 1, rt.size - 1)], np.inf)
     b = np.minimum(nxt, p.t_end[pair_pos])
     live = b > a
     w = np.zeros(j.size)
+    starts = np.zeros(j.size)
     if live.any():
         rows_live = pair_pos[live]
-        hb, _ = p.clock.at(b[live], rows_live)
-        ha, _ = p.clock.at(a[live], rows_live)
+        hb, sb = p.clock.at(b[live], rows_live)
+        ha, sa = p.clock.at(a[live], rows_live)
         w[live] = np.maximum(hb - ha, 0.0)
-    return w
+        starts[live] = np.maximum(sb - sa, 0.0)
+    # No starts on the clock (neither records nor schedule give any): unknown, not zero.
+    return w, np.where(starts > 0, starts, np.nan)
 
 
 def _segments(
-    cand: IntArray, cnt: IntArray, inv: IntArray, w: FloatArray, volts: FloatArray
+    cand: IntArray,
+    cnt: IntArray,
+    inv: IntArray,
+    w: FloatArray,
+    volts: FloatArray,
+    starts: FloatArray,
 ) -> ExposureHistory:
     """Every candidate's segments: its group's pairs (contiguous per group, in group order)."""
     g_start = np.cumsum(cnt) - cnt
@@ -175,4 +185,4 @@ def _segments(
     )
     seg_row = np.repeat(cand, c_cnt)
     live = w[seg] > 0
-    return ExposureHistory(seg_row[live], w[seg][live], volts[seg][live])
+    return ExposureHistory(seg_row[live], w[seg][live], volts[seg][live], starts[seg][live])

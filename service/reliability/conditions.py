@@ -397,14 +397,19 @@ def voltage_effect(
     return VoltageEffect(float(life[0]), float(light[0]), float(power[0]), _voltage_warnings(case))
 
 
+# Default bounds of the switching factor (switching_life_factor's max_factor / min_factor).
+SWITCHING_MAX_FACTOR = 1.5
+SWITCHING_MIN_FACTOR = 0.5
+
+
 def switching_life_factor(
     hours_per_start: ArrayLike,
     rated_hours_per_start: ArrayLike | None,
     second_hours_per_start: ArrayLike | None = None,
     second_life_ratio: ArrayLike | None = None,
     *,
-    max_factor: float = 1.5,
-    min_factor: float = 0.5,
+    max_factor: float = SWITCHING_MAX_FACTOR,
+    min_factor: float = SWITCHING_MIN_FACTOR,
     default_slope: ArrayLike = DEFAULT_SWITCHING_SLOPE,
 ) -> tuple[FloatArray, BoolArray]:
     """Life multiplier vs the rated switching cycle, and a flag where it was bounded.

@@ -17,14 +17,17 @@ present condition is a_rated · f_now (the age that, at today's supply, has done
 wear). Only life is accumulated: lamp lumen depreciation in hours follows burn hours, and
 the curves in fractions of rated life follow a_rated.
 
-A history is a list of segments (position row, burn hours, volts); hours of a position not
-covered by its segments are taken at its present condition. Hours are burn hours, volts
-volts.
+A history is a list of segments (position row, burn hours, volts, and starts where they
+are known); hours of a position not covered by its segments are taken at its present
+condition. A segment's switching factor comes from its own burn hours per start (hours /
+starts) where its starts are known, so the life factor of segment i is
+f_i = f_V(V_i) · f_sw(Δt_i / starts_i); a segment without known starts (NaN) takes the
+position's hours per start over the lamp's life. Hours are burn hours, volts volts.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -40,13 +43,24 @@ class ExposureHistory:
     position: IntArray  # row of the position in the fleet arrays
     hours: FloatArray  # burn hours of the segment
     voltage: FloatArray  # volts during the segment (NaN = rated)
+    # starts during the segment (NaN = unknown: the position's hours per start); empty = none
+    starts: FloatArray = field(default_factory=lambda: np.zeros(0))
+    has_starts: bool = field(init=False, default=False)  # some segment's starts are known
 
     def __post_init__(self) -> None:
         p = np.asarray(self.position).astype(np.intp, copy=False)
         h = np.asarray(self.hours, dtype=np.float64)
         v = np.asarray(self.voltage, dtype=np.float64)
-        if p.ndim != 1 or p.shape != h.shape or p.shape != v.shape:
-            raise ValueError("history position, hours and voltage must be 1-D of one length")
+        st = np.asarray(self.starts, dtype=np.float64)
+        if st.size == 0:
+            st = np.full(p.shape, np.nan)
+        if p.ndim != 1 or p.shape != h.shape or p.shape != v.shape or st.shape != p.shape:
+            raise ValueError(
+                "history position, hours, voltage and starts must be 1-D of one length"
+            )
+        if np.any(st < 0) or np.any(np.isinf(st)):
+            raise ValueError("history starts must be finite, non-negative counts (NaN = unknown)")
+        st = np.where(st > 0, st, np.nan)  # no starts counted: unknown, not "never switched"
         if np.any(~np.isfinite(h)) or np.any(h < 0):
             raise ValueError("history hours must be finite, non-negative burn hours")
         if np.any(v <= 0):
@@ -56,6 +70,8 @@ class ExposureHistory:
         object.__setattr__(self, "position", p)
         object.__setattr__(self, "hours", h)
         object.__setattr__(self, "voltage", v)
+        object.__setattr__(self, "starts", st)
+        object.__setattr__(self, "has_starts", bool(st.size) and not np.isnan(st).all())
 
     @property
     def size(self) -> int:
@@ -75,7 +91,9 @@ class ExposureHistory:
         new = np.full(n_rows, -1, dtype=np.intp)
         new[sel] = np.arange(sel.size)
         keep = (self.position < n_rows) & (new[np.minimum(self.position, n_rows - 1)] >= 0)
-        return ExposureHistory(new[self.position[keep]], self.hours[keep], self.voltage[keep])
+        return ExposureHistory(
+            new[self.position[keep]], self.hours[keep], self.voltage[keep], self.starts[keep]
+        )
 
     def drop_rows(self, rows_mask: ArrayLike) -> ExposureHistory:
         """The same history without the segments of the masked rows (row numbers kept)."""
@@ -83,7 +101,13 @@ class ExposureHistory:
         if self.size == 0:
             return self
         keep = ~mask[self.position]
-        return ExposureHistory(self.position[keep], self.hours[keep], self.voltage[keep])
+        return ExposureHistory(
+            self.position[keep], self.hours[keep], self.voltage[keep], self.starts[keep]
+        )
+
+    def segment_hours_per_start(self) -> FloatArray:
+        """Burn hours per start of each segment (NaN where its starts are unknown or zero)."""
+        return np.asarray(self.hours / self.starts, dtype=np.float64)  # starts > 0 or NaN
 
     def covered_hours(self, n_rows: int) -> FloatArray:
         """Burn hours covered by segments, per row."""

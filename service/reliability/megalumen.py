@@ -8,13 +8,18 @@ renewal argument [Cox, ch. 4]: the lamp burning there is either the original one
 
     E[light fraction at t] = S(t)·L(t) + ∫_0^t m(s) S(t-s) L(t-s) ds,
 
-which is exactly 1 when L ≡ 1 (a lamp is always burning). Delivered light over
+which is exactly 1 when L ≡ 1 (a lamp is always burning). Luminaire dirt multiplies it by
+the luminaire maintenance factor at the cycle's calendar time (a group visit cleans every
+luminaire at once, whatever the age of the lamp in it): maintained light =
+dirt.maintained_light(E[lamp light], 1, LMF(t)), the one definition of maintained light
+(the voltage light factor is in Φ0) [published: CIE 97:2005 maintenance factor method]. Delivered light over
 the cycle is Φ0 ∫_0^T E[...] dt (Φ0 initial lumens at the actual voltage). The
 only approximation is the numerical convolution on the renewal grid (trapezoid
 rule); lamp power is taken as constant over life. Spot replacement alone is the
 stationary limit: each position holds a lamp of age u with density S(u)/μ
 (renewal-reward, equilibrium age), so the mean light is ∫S·L/∫S and the cost per
-megalumen-hour (c_spot/μ + energy rate) / (Φ0 ∫S·L/∫S). The best interval is the
+megalumen-hour (c_spot/μ + energy rate) / (Φ0 · LMF_spot · ∫S·L/∫S), LMF_spot the caller's
+long-run luminaire factor without group visits (1 = clean luminaires). The best interval is the
 minimiser over (0, cap] (the caps as above); "spot only" when it does not beat the
 spot-only figure or when the cost per megalumen-hour still falls at the horizon.
 """
@@ -27,6 +32,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from service.reliability.dirt import maintained_light
 from service.reliability.renewal import RenewalCurve
 from service.reliability.replacement import MIN_REL_SAVING, empty_grid, refine_minimum
 
@@ -73,26 +79,28 @@ class _Costing:
         return out
 
 
-def _cumulative_light(curve: RenewalCurve, g: FloatArray) -> FloatArray:
-    """∫_0^t E[light fraction], with E[light at t] = g(t) + ∫_0^t m(s) g(t-s) ds."""
+def _cumulative_light(curve: RenewalCurve, g: FloatArray, lmf: FloatArray) -> FloatArray:
+    """∫_0^t E[light], E[light at t] = LMF(t)·(g(t) + ∫_0^t m(s) g(t-s) ds)."""
     h = curve.step_h
     dens = curve.density
     # The renewal convolution by the trapezoid rule on the grid.
     conv = np.convolve(dens, g)[: curve.t.size]
     conv = h * (conv - 0.5 * (dens[0] * g + dens * g[0]))
     conv[0] = 0.0
-    light_frac = g + conv
+    light_frac = maintained_light(g + conv, 1.0, lmf)
     return np.concatenate(([0.0], np.cumsum(0.5 * h * (light_frac[1:] + light_frac[:-1]))))
 
 
-def _spot_only(c: _Costing, s_vals: FloatArray, g: FloatArray) -> tuple[float, float]:
+def _spot_only(
+    c: _Costing, s_vals: FloatArray, g: FloatArray, lmf_spot: float
+) -> tuple[float, float]:
     """Spot-only cost per megalumen-hour and mean light fraction."""
     # Stationary age density S(u)/μ, so mean light = ∫ S L / ∫ S (both truncated at the
     # grid horizon, which should span several mean lives).
     h = c.curve.step_h
     int_s = float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1])))
     int_g = float(np.sum(0.5 * h * (g[1:] + g[:-1])))
-    spot_light = int_g / int_s
+    spot_light = float(maintained_light(int_g / int_s, 1.0, lmf_spot))
     return (c.c_spot / int_s + c.energy_rate) / (c.initial_lumens * spot_light / 1e6), spot_light
 
 
@@ -127,6 +135,8 @@ def cost_per_megalumen_hour(
     lumen_fraction: Callable[[FloatArray], FloatArray],
     survival: Callable[[FloatArray], FloatArray],
     max_interval_h: float | None = None,
+    luminaire_factor: Callable[[FloatArray], FloatArray] | None = None,
+    spot_luminaire_factor: float = 1.0,
 ) -> MegalumenCost:
     """Cost per delivered megalumen-hour of block replacement (lamp, labour and energy)."""
     # `survival` (age hours -> S) must be the life law the renewal curve was built
@@ -134,14 +144,21 @@ def cost_per_megalumen_hour(
     # lumen depreciation at the actual voltage. Intervals must lie on the curve.
     # The best interval is searched in (0, max_interval_h] (a cap: light floor, burnout
     # ceiling, rupture cap), on the grid then by a bounded Brent step around the grid minimum.
+    # `luminaire_factor` (burn hours since the group visit -> LMF) is the dirt; None = clean.
     if lamp_watts < 0 or tariff_per_kwh < 0 or not initial_lumens > 0:
         raise ValueError("watts and tariff must be >= 0 and initial lumens > 0")
+    if not 0 < spot_luminaire_factor <= 1:
+        raise ValueError("spot_luminaire_factor must be in (0, 1]")
     t = renewal_curve.t
     s_vals = np.asarray(survival(t), dtype=np.float64)
     g = s_vals * np.asarray(lumen_fraction(t), dtype=np.float64)
     c = _Costing(
         curve=renewal_curve,
-        cum_light=_cumulative_light(renewal_curve, g),
+        cum_light=_cumulative_light(
+            renewal_curve,
+            g,
+            np.ones_like(t) if luminaire_factor is None else np.asarray(luminaire_factor(t), float),
+        ),
         c_group=c_group,
         c_spot=c_spot,
         energy_rate=tariff_per_kwh * lamp_watts / 1000.0,
@@ -150,7 +167,7 @@ def cost_per_megalumen_hour(
     tt = t[1:]
     num = c_group + c_spot * renewal_curve.m[1:] + c.energy_rate * tt
     grid_cost = num / (initial_lumens * c.cum_light[1:] / 1e6)  # per megalumen-hour
-    spot_cost, spot_light = _spot_only(c, s_vals, g)
+    spot_cost, spot_light = _spot_only(c, s_vals, g, spot_luminaire_factor)
     horizon = float(t[-1])
     limit = horizon if max_interval_h is None else min(float(max_interval_h), horizon)
     if not limit > 0:

@@ -6,13 +6,16 @@ import math
 from datetime import UTC, datetime, timedelta
 from typing import Any
 
+import numpy as np
 import pytest
 from fastapi.testclient import TestClient
+from scipy import integrate
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.reliability.conditions import switching_life_factor, voltage_effect
+from service.reliability.dirt import luminaire_maintenance_factor
 from service.reliability.lumen import DEFAULT_EFFICACY_LM_PER_W, default_lumen_curve
 from service.reliability.megalumen import cost_per_megalumen_hour
 from service.reliability.renewal import weibull_renewal
@@ -35,13 +38,15 @@ NEAR_CLEAN: dict[str, Any] = {
 }
 
 
-def _area(db: Session, volts: float = 240.0, **lt_over: Any) -> int:
+def _area(
+    db: Session, volts: float = 240.0, dirt: dict[str, Any] | None = None, **lt_over: Any
+) -> int:
     s = plan_site(db)
     lt = plan_lamp_type(db, ballast_behaviour="reactor", **lt_over)
     # Near-clean luminaires and no cleaning labour, so the lamp alone sets these figures:
     # dustproof in a very clean room, cleaned every half month (CIE 97:2005 LMF >= 0.998,
     # recalled from memory); the dirt itself is tested in tests/planning/test_maintained_light.py.
-    a = plan_area(db, s, **NEAR_CLEAN)
+    a = plan_area(db, s, **(NEAR_CLEAN if dirt is None else dirt))
     plan_fixtures(db, a, lt, 10, lamps=2, installed_at=AT - timedelta(weeks=10), volts=volts)
     db.commit()
     return a.id
@@ -67,12 +72,34 @@ def _core(initial_lumens: float) -> tuple[Weibull, Any, float, float]:
     return life, fv, 32.0 * fv.power_factor, initial_lumens * fv.light_factor
 
 
+def _dirt(environment: str, interval_months: float) -> tuple[Any, float]:
+    """The area's dirt as the megalumen core takes it, worked out here from the LMF table.
+
+    Dustproof luminaires (CIE 97:2005 type E, table values recalled from memory) cleaned
+    every interval_months and at each group relamp: the time since cleaning is t mod I
+    (calendar years from 60 burn hours a week); under spot replacement only, the time
+    average of the LMF over one cleaning interval (scipy.integrate.quad).
+    """
+    years_i = interval_months / 12.0
+    per_year = 60.0 * 365.25 / 7.0
+
+    def lmf(t_h: Any) -> Any:
+        years = np.asarray(t_h, dtype=float) / per_year
+        return luminaire_maintenance_factor("dustproof", environment, np.mod(years, years_i))
+
+    mean, _ = integrate.quad(
+        lambda y: float(luminaire_maintenance_factor("dustproof", environment, y)), 0.0, years_i
+    )
+    return lmf, mean / years_i
+
+
 def test_energy_view_equals_the_core_for_the_same_inputs(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
     lt = _plan(client, reader, _area(db, initial_lumens=2_800.0))
     ev = lt["energy_view"]
     life, _, watts, lumens = _core(2_800.0)
+    lmf, lmf_spot = _dirt("very_clean", 0.5)
     # Reactor ballast: lamp watts x (1 + 2 (V/V_rated - 1)) (conditions module, [practice]).
     assert ev["lamp_watts"] == pytest.approx(32.0 * (1 + 2 * (240 / 230 - 1)), rel=1e-12)
     assert ev["lamp_watts"] == pytest.approx(watts, rel=1e-12)
@@ -98,6 +125,10 @@ def test_energy_view_equals_the_core_for_the_same_inputs(
         initial_lumens=lumens,
         lumen_fraction=lumen.at,
         survival=life.sf,
+        # The energy view counts luminaire dirt (maintained light, as plans and forecasts do):
+        # near-clean here, so this moves the figures by about 0.1 % only.
+        luminaire_factor=lmf,
+        spot_luminaire_factor=lmf_spot,
     )
     assert ev["interval_h"] == ev["cost_optimum_interval_h"] == lt["interval_h"]
     # The plan solves the renewal curve on a unit scale and rescales it (equal to rounding).
@@ -198,3 +229,40 @@ def test_without_catalogue_lumens_the_assumed_efficacy_is_used_and_labelled(
     )
     assert not math.isnan(assumed["mean_light_fraction"])
     assert assumed["mean_light_fraction"] == pytest.approx(given["mean_light_fraction"])
+
+
+def test_dirt_lowers_the_delivered_light_as_the_core_counts_it(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    # A dustproof luminaire in a normal environment cleaned yearly (and at each relamp): the
+    # energy view must count the dirt (maintained light), not the lamp's light alone.
+    dirty = {**NEAR_CLEAN, "dirt_environment": "normal", "cleaning_interval_months": 12.0}
+    lt = _plan(client, reader, _area(db, dirt=dirty, initial_lumens=2_800.0))
+    clean = _plan(client, reader, _area(db, initial_lumens=2_800.0))
+    ev, ev_clean = lt["energy_view"], clean["energy_view"]
+    life, _, watts, lumens = _core(2_800.0)
+    lmf, lmf_spot = _dirt("normal", 12.0)
+    curve = weibull_renewal(5.0, life.scale, 3.0 * life.mean())
+    core = cost_per_megalumen_hour(
+        [lt["interval_h"]],
+        curve,
+        C_GROUP,
+        C_SPOT,
+        lamp_watts=watts,
+        tariff_per_kwh=0.2,
+        initial_lumens=lumens,
+        lumen_fraction=default_lumen_curve("linear_fluorescent", 24_000.0).at,
+        survival=life.sf,
+        luminaire_factor=lmf,
+        spot_luminaire_factor=lmf_spot,
+    )
+    assert ev["mean_light_fraction"] == pytest.approx(core.mean_light_fraction[0], rel=1e-7)
+    assert ev["spot_only_mean_light_fraction"] == pytest.approx(
+        core.spot_only_mean_light_fraction, rel=1e-7
+    )
+    # Spot only: the lamp's stationary light times the mean LMF of a cleaning interval.
+    assert ev["spot_only_mean_light_fraction"] == pytest.approx(
+        ev_clean["spot_only_mean_light_fraction"] / _dirt("very_clean", 0.5)[1] * lmf_spot,
+        rel=1e-9,
+    )
+    assert lmf_spot < 0.97 and ev["cost_per_megalumen_hour"] > ev_clean["cost_per_megalumen_hour"]

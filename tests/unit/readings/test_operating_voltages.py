@@ -91,3 +91,39 @@ def test_positions_without_readings_get_nan_and_no_source() -> None:
     empty = _readings([])
     volts, source, _ = operating_voltages(readings=empty, positions=_positions([3], [7], 0.0, 10.0))
     assert np.isnan(volts[0]) and source[0] == ""
+
+
+def test_segments_carry_the_starts_their_interval_counted() -> None:
+    # Hand-worked from the rule (a segment's starts are the clock's starts over the span the
+    # reading held): metered records 0-40 h with 10 starts and 40-100 h with 60 starts
+    # (20 and 30 burn hours at 0.5 h/h); readings at hour 0 and hour 40 split the life
+    # there, so the segments hold 20 h / 10 starts and 30 h / 60 starts.
+    key = np.array([14, 14], dtype=np.int64)  # area 7's records
+    tl = Timeline.build(
+        key,
+        np.array([0.0, 40.0]) * H,
+        np.array([40.0, 100.0]) * H,
+        np.array([20.0, 30.0]),
+        np.array([10.0, 60.0]),
+        base=-10.0 * H,
+    )
+    clock = Clock.for_keys(tl, np.array([14]), np.zeros(1), np.zeros(1))
+    pos = Positions(
+        fix_id=np.array([3]),
+        area_of=np.array([7]),
+        t_start=np.zeros(1),
+        t_end=np.full(1, 100.0 * H),
+        clock=clock,
+    )
+    readings = _readings([(None, 7, 0.0, 220.0), (None, 7, 40.0, 240.0)])
+    _, _, history = operating_voltages(readings=readings, positions=pos)
+    assert history.hours.tolist() == pytest.approx([20.0, 30.0])
+    assert history.starts.tolist() == pytest.approx([10.0, 60.0])
+    assert history.segment_hours_per_start().tolist() == pytest.approx([2.0, 0.5])
+
+
+def test_segments_without_starts_on_the_clock_are_unknown() -> None:
+    # A schedule clock with no starts: the segment's starts are NaN (the lamp's mean applies).
+    readings = _readings([(None, 7, -10.0, 220.0)])
+    _, _, history = operating_voltages(readings=readings, positions=_positions([3], [7], 0, 10))
+    assert np.isnan(history.starts).all()

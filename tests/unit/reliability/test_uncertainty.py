@@ -114,3 +114,11 @@ def test_parameter_groups_without_positions_add_nothing() -> None:
     d_b, d_e = np.full(4, 0.1), np.full(4, -0.2)
     var = parameter_variance(g, d_b, d_e, np.array([0.1, 0.5, 0.5]), np.array([0.2, 0.5, 0.5]))
     assert var == pytest.approx((0.4 * 0.1) ** 2 + (0.8 * 0.2) ** 2)
+
+
+def test_parameter_variance_of_a_subset_using_only_some_groups() -> None:
+    # Hand-worked delta method (sum over groups of g' Sigma g, correlation 0): positions of
+    # group 0 only, with spreads given for three groups, and no positions at all.
+    var = parameter_variance([0, 0], [0.1, 0.2], [0.3, -0.1], [0.5, 0.7, 0.9], [0.2, 0.4, 0.6])
+    assert var == pytest.approx((0.3 * 0.5) ** 2 + (0.2 * 0.2) ** 2, rel=1e-12)
+    assert parameter_variance([], [], [], [0.5, 0.7], [0.2, 0.4]) == 0.0
