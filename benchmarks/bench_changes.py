@@ -208,7 +208,7 @@ def main() -> int:
             med[False],
             repeats,
             "<= 1.2x",
-            f"{run_changes:,} changes written by the run",
+            f"{run_changes:,} changes written by the run, {run_changes / med[True]:,.0f}/s",
         )
     )
     extra = max(upd[True] - upd[False], 1e-9)

@@ -2,9 +2,11 @@
 
 The figure: stock.forecast's arithmetic on a synthetic fleet (3 lamp types, ages spread
 over a life, a group relamp planned for a third of the positions): cumulative expected spot
-replacements at 27 week boundaries (per-position delayed renewal, forecasting.spot_replacements), the
-new-lamp curves after the group relamp, and the weekly Poisson-binomial mean, variance and
-95 % quantile per lamp type (normal path). The anchor, in the same run: a plain numpy
+replacements at 27 week boundaries in one pass (stock.demand.weekly_cumulative: per-position
+delayed renewal as one FFT convolution over all weeks), the new-lamp curves after the group
+relamp, and the weekly Poisson-binomial mean, variance and 95 % quantile per lamp type
+(normal path). D0 is the old path (one forecasting.spot_replacements sum per week
+boundary), timed at 10,000 positions only (at 100,000 it took 27.8 s). The anchor, in the same run: a plain numpy
 computation over the same grid, the conditional Weibull failure probabilities
 1 - S(a + t)/S(a) with their weekly sums and variances (no renewal), as fast as numpy goes.
 
@@ -42,14 +44,26 @@ def fleet(n: int, seed: int = 1) -> dict[str, np.ndarray]:
     return {"k": k, "shape": shape, "scale": scale, "age": age, "rate": rate, "gw": gw}
 
 
-def figure(f: dict[str, np.ndarray]) -> object:
-    """The service's demand arithmetic for the fleet."""
+def before_old(f: dict[str, np.ndarray]) -> np.ndarray:
+    """The old path: one delayed-renewal sum per (position, week boundary)."""
     n, h1 = f["age"].size, WEEKS + 1
     win = (f["rate"][:, None] * np.arange(h1)[None, :]).ravel()
     rep = np.repeat
-    before = expected_replacements(
+    return expected_replacements(
         f["shape"], rep(f["k"], h1), rep(f["scale"], h1), rep(f["age"], h1), win
     ).reshape(n, h1)
+
+
+def before_new(f: dict[str, np.ndarray]) -> np.ndarray:
+    """The one-pass path (stock.demand.weekly_cumulative)."""
+    return demand.weekly_cumulative(f["shape"], f["k"], f["scale"], f["age"], f["rate"], WEEKS)
+
+
+def figure(f: dict[str, np.ndarray], old: bool = False) -> object:
+    """The service's demand arithmetic for the fleet."""
+    n, h1 = f["age"].size, WEEKS + 1
+    win = (f["rate"][:, None] * np.arange(h1)[None, :]).ravel()
+    before = before_old(f) if old else before_new(f)
     after = np.zeros((n, h1))
     u = win.reshape(n, h1) / f["scale"][:, None]
     for kk in range(3):
@@ -85,6 +99,15 @@ def main() -> int:
     args = parser(__doc__, default_repeats=5).parse_args()
     repeats = 1 if args.quick else args.repeats
     table = Table("bench_demand", args.quick)
+    f10 = fleet(10_000)
+    table.timed(
+        "D0",
+        f"weekly demand, old path (a sum per week), 10,000 positions x {WEEKS} weeks",
+        lambda: figure(f10, old=True),
+        anchor="plain numpy conditional Weibull, same grid",
+        anchor_fn=lambda: anchor(f10),
+        repeats=repeats,
+    )
     for n in (10_000,) if args.quick else (10_000, 100_000):
         f = fleet(n)
         table.timed(
@@ -103,8 +126,11 @@ def main() -> int:
     got = figure(f)[0].spot_mean[0]  # type: ignore[index]
     ref = anchor(f)[0][0][0]  # type: ignore[index]
     print(f"week-1 mean, type 0: figure {got:.4f}, anchor {ref:.4f}")
+    # The one pass against the old path on the same fleet (per-position cumulative curves).
+    gap = float(np.abs(before_new(f) - before_old(f)).max())
+    print(f"one pass vs old path: largest difference in cumulative replacements {gap:.2e}")
     table.finish(args.json)
-    return 0 if abs(got - ref) <= 0.01 * ref + 1e-3 else 1
+    return 0 if abs(got - ref) <= 0.01 * ref + 1e-3 and gap < 0.01 else 1
 
 
 if __name__ == "__main__":

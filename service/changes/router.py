@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Any
 
 from fastapi import APIRouter, Query
 
@@ -35,7 +35,16 @@ def parse_types(types: str | None) -> list[str] | None:
     return wanted
 
 
-@router.get("/changes", response_model=ChangePage)
+# Documented with the shared problem schema by service.api.openapi (a route's own status).
+GONE: dict[int | str, dict[str, Any]] = {
+    410: {
+        "description": "The cursor is older than the feed's retention: reconcile by "
+        "listing the resources, then start again without `after`."
+    }
+}
+
+
+@router.get("/changes", response_model=ChangePage, responses=GONE)
 def list_changes(
     session: SessionDep,
     _: ReadKey,

@@ -2,10 +2,19 @@
 
 from __future__ import annotations
 
+import math
+
 from service.planning.energy import EnergyView
 from service.planning.light_bodies import bounds_read, maintained_read
-from service.planning.schemas import AreaPlanRead, EnergyViewRead, LampTypePlan, PlanInputs
+from service.planning.schemas import (
+    AreaPlanRead,
+    CatchUpRead,
+    EnergyViewRead,
+    LampTypePlan,
+    PlanInputs,
+)
 from service.planning.service import WEEKS_PER_YEAR, AreaPlan, TypeGroup
+from service.planning.site_schedule import SiteSchedule
 
 
 def _energy(g: TypeGroup, per_year_h: float) -> EnergyViewRead | None:
@@ -125,4 +134,22 @@ def area_plan_read(plan: AreaPlan) -> AreaPlanRead:
         yearly_saving=sum(t.yearly_saving for t in types),
         age_source=plan.age_source,
         lamp_types=types,
+    )
+
+
+def catch_up_read(area_id: int, sched: SiteSchedule) -> CatchUpRead | None:
+    """An area's catch-up slot as a body part (None when it is not due)."""
+    slot, job, start = sched.slots.get(area_id), sched.jobs.get(area_id), sched.week_start(area_id)
+    if slot is None or job is None or start is None:
+        return None
+    return CatchUpRead(
+        week=slot.week,
+        week_starts_on=start,
+        risk_order=slot.order,
+        risk_weeks=job.risk_weeks if math.isfinite(job.risk_weeks) else None,
+        labour_h=job.labour_h,
+        cost=job.cost,
+        hire_charged=slot.hire_charged,
+        shares_visit_with_area_id=slot.shares_visit_with,
+        over_capacity=slot.over_capacity,
     )

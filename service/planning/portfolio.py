@@ -58,6 +58,7 @@ def _site_positions(pos: PositionArrays, mask: np.ndarray) -> PositionArrays:
         burned_out=pos.burned_out[mask],
         burn_h_per_week=pos.burn_h_per_week[mask],
         source=pos.source,
+        installed_at_s=pos.installed_at_s[mask] if pos.installed_at_s.size else pos.installed_at_s,
     )
 
 

@@ -7,7 +7,7 @@ nominal), keeping only what planning and the weekly run use.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 
 import numpy as np
@@ -36,6 +36,8 @@ class PositionArrays:
     burned_out: NDArray[np.bool_]
     burn_h_per_week: FloatArray  # the area's burn rate (schedule, else measured), hours/week
     source: str  # where ages came from
+    # When each lamp went in, epoch seconds (UTC): planning.group_age reads clusters of them.
+    installed_at_s: FloatArray = field(default_factory=lambda: np.zeros(0))
 
     @property
     def size(self) -> int:
@@ -71,4 +73,5 @@ def from_ages(pa: PositionAges) -> PositionArrays:
         burned_out=np.asarray(pa.burned_out, dtype=bool),
         burn_h_per_week=np.asarray(pa.burn_h_per_week, dtype=np.float64),
         source="readings and schedules",
+        installed_at_s=np.asarray(pa.installed_at_s, dtype=np.float64),
     )

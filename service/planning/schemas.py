@@ -199,6 +199,22 @@ class LampTypePlan(BaseModel):
     fit_bounds: FitBoundsRead | None = None
 
 
+class CatchUpRead(BaseModel):
+    """An area's place in its site's catch-up schedule (planning.catch_up)."""
+
+    week: int = Field(description="Weeks from this week (0: this week).")
+    week_starts_on: date
+    risk_order: int = Field(description="0 for the riskiest due area of the site.")
+    risk_weeks: float | None = Field(
+        description="Weeks until a safety limit is reached (negative: past it); null: none set."
+    )
+    labour_h: float
+    cost: float = Field(description="Lamps, group labour and disposal, without the hire.")
+    hire_charged: float = Field(description="Equipment hire it adds (0 when sharing a visit).")
+    shares_visit_with_area_id: int | None
+    over_capacity: bool = Field(description="Bigger than a week's capacity on its own.")
+
+
 class AreaPlanRead(BaseModel):
     """An area's relamp plan: when, why, and at what cost."""
 
@@ -211,7 +227,10 @@ class AreaPlanRead(BaseModel):
     positions: int
     weekly_burn_hours: float
     group_age_h: float | None
-    group_age_basis: str
+    group_age_basis: str = Field(
+        description="override | last_group_relamp | installation_dates (a cluster of the "
+        "lamps' installation dates: a group relamp before the service) | mean_position_age"
+    )
     last_group_relamp_at: datetime | None
     due_on: date | None
     overdue: bool
@@ -220,6 +239,9 @@ class AreaPlanRead(BaseModel):
     yearly_saving: float
     age_source: str
     lamp_types: list[LampTypePlan]
+    catch_up: CatchUpRead | None = Field(
+        default=None, description="Its week in the site's catch-up schedule (site plans only)."
+    )
     # Set by the area plan route (planning.choice_bodies.plan_briefs): null when no lamp type
     # has an alternative (family, retrofit option) or a withdrawal date.
     lamp_choice: list[LampChoiceBrief] | None = Field(
@@ -233,4 +255,6 @@ class SitePlanRead(BaseModel):
     site_id: int
     time_zone: str
     as_of: datetime
+    weekly_labour_h_capacity: float | None = None
+    weekly_budget_capacity: float | None = None
     areas: list[AreaPlanRead]

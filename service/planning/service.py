@@ -7,7 +7,9 @@ type: the kind most of the group's positions run on (catalogue.resolved decides 
 the fixture's kind for discharge lamps, "none" for filament, "led_driver" for LED; a tie goes
 to the alphabetically first kind). The plan's inputs name it (PlanInputs.ballast_kind). Group age: burn hours since the area's last
 completed group relamp (scheduled weekly burn hours x weeks since, when the area has a
-schedule), else the mean age of the group's positions. The calendar date divides the
+schedule); else, where the area's installation dates cluster (a group relamp before the
+service: planning.group_age states the rule), the median age of the lamps put in then;
+else the mean age of the group's positions. The calendar date divides the
 remaining hours by the area's weekly burn hours, counted from today in the site's zone.
 What-if objective "cost_per_megalumen_hour" re-chooses each group's interval by cost per
 delivered megalumen-hour (energy.megalumen_plan); each group's energy view (energy.py) is
@@ -34,7 +36,9 @@ from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
+from service.planning.catch_up import Slot
 from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
+from service.planning.group_age import group_ages
 from service.planning.group_plan import (
     DEFAULT_RUPTURE_FRACTION,
     Conditions,
@@ -97,6 +101,7 @@ class AreaPlan:
     last_group_relamp_at: datetime | None
     age_source: str
     groups: list[TypeGroup]
+    catch_up: Slot | None = None  # its week in the site's catch-up schedule, where one ran
 
     @property
     def first(self) -> TypeGroup | None:
@@ -176,6 +181,8 @@ class GroupSums:
     volt_sum: FloatArray
     rate_sum: FloatArray  # sum of weekly burn hours (NaN as 0)
     dominant: NDArray[np.str_]  # the ballast kind most of the group's positions run on
+    # Age from the area's clustered installation dates (planning.group_age; NaN: none).
+    cluster_age: FloatArray
 
     def by_area(self) -> dict[int, list[int]]:
         """Group indices of each area, in lamp type order."""
@@ -214,6 +221,7 @@ def group_sums(pos: PositionArrays, ballast: NDArray[np.str_]) -> GroupSums:
         volt_sum=total(pos.voltage_v),
         rate_sum=total(np.nan_to_num(pos.burn_h_per_week)),
         dominant=kinds[per_kind.argmax(axis=1)] if kinds.size else kinds,
+        cluster_age=group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng),
     )
 
 
@@ -222,7 +230,7 @@ class AreaBasis:
     """An area's burn rate and how its group age is found."""
 
     weekly: float  # burn hours per week
-    basis: str  # "override" | "last_group_relamp" | "mean_position_age"
+    basis: str  # "override" | "last_group_relamp" | "installation_dates" | "mean_position_age"
     last_at: datetime | None
     positions: int
     fixtures: int = 0  # distinct fixtures among the area's positions (for cleaning labour)
@@ -247,6 +255,8 @@ def area_basis(
         basis = "override"
     elif last_at is not None and weekly > 0:
         basis = "last_group_relamp"
+    elif any(math.isfinite(float(sums.cluster_age[g])) for g in gidx):
+        basis = "installation_dates"
     else:
         basis = "mean_position_age"
     return AreaBasis(
@@ -318,11 +328,14 @@ def group_inputs(
 
 
 def group_age(ab: AreaBasis, g: int, sums: GroupSums, over: PlanOverrides, at: datetime) -> float:
-    """Burn hours of the group's lamps: override, since the last group relamp, or the mean."""
+    """Burn hours of the group's lamps: override, since the last group relamp, from clustered
+    installation dates, or the mean."""
     if ab.basis == "override":
         return float(over.group_age_h or 0.0)
     if ab.basis == "last_group_relamp" and ab.last_at is not None:
         return ab.weekly * max((at - ab.last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
+    if ab.basis == "installation_dates" and math.isfinite(float(sums.cluster_age[g])):
+        return float(sums.cluster_age[g])
     return float(sums.hours[g] / sums.count[g])
 
 

@@ -13,6 +13,7 @@ from sqlalchemy import (
     Integer,
     String,
     UniqueConstraint,
+    false,
     true,
 )
 from sqlalchemy.orm import Mapped, mapped_column, relationship
@@ -51,6 +52,12 @@ class Site(TimestampMixin, Base):
     weekly_run_weekday: Mapped[int] = mapped_column(Integer, default=0)
     weekly_run_time: Mapped[str] = mapped_column(String(5), default="06:00")  # HH:MM local
     lookahead_weeks: Mapped[int] = mapped_column(Integer, default=4)
+    # Catch-up capacity per week for group relamps (planning.catch_up; None: no limit):
+    # labour hours, and money in the site's currency (lamps, labour, hire, disposal).
+    weekly_labour_h_capacity: Mapped[float | None] = mapped_column(Float, default=None)
+    weekly_budget_capacity: Mapped[float | None] = mapped_column(Float, default=None)
+    # The weekly run makes draft orders for a planner to issue, instead of issued ones.
+    weekly_run_drafts: Mapped[bool] = mapped_column(Boolean, default=False, server_default=false())
     notes: Mapped[str | None] = mapped_column(String(2000), default=None)
     # The id a client's own system keeps for the site; unique when set (service.api.lookups).
     external_reference: Mapped[str | None] = mapped_column(String(200), default=None)

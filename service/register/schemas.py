@@ -90,6 +90,23 @@ class SiteFields(BaseModel):
     weekly_run_weekday: int = Field(default=0, ge=0, le=6, description="0 = Monday.")
     weekly_run_time: ClockTime = "06:00"
     lookahead_weeks: int = Field(default=4, ge=1, le=52)
+    weekly_labour_h_capacity: float | None = Field(
+        default=None,
+        gt=0,
+        le=100_000,
+        description="Labour hours a week for group relamps; the catch-up schedule keeps to "
+        "it (none: no limit).",
+    )
+    weekly_budget_capacity: float | None = Field(
+        default=None,
+        gt=0,
+        le=1_000_000_000,
+        description="Money a week for group relamps, in the site's currency (none: no limit).",
+    )
+    weekly_run_drafts: bool = Field(
+        default=False,
+        description="The weekly run makes draft orders for a planner to issue.",
+    )
     notes: str | None = Field(default=None, max_length=2000)
     external_reference: str | None = Field(
         default=None,
@@ -122,11 +139,15 @@ class SiteCreate(SiteFields):
 
 
 # Site fields a PATCH may change but not empty (every one but notes).
-SITE_REQUIRED = tuple(
-    name
-    for name in SiteFields.model_fields
-    if name not in ("notes", "external_reference", "emission_factor_kg_per_kwh", "market")
+SITE_OPTIONAL = (
+    "notes",
+    "external_reference",
+    "emission_factor_kg_per_kwh",
+    "market",
+    "weekly_labour_h_capacity",
+    "weekly_budget_capacity",
 )
+SITE_REQUIRED = tuple(name for name in SiteFields.model_fields if name not in SITE_OPTIONAL)
 
 
 class SiteUpdate(BaseModel):
@@ -148,6 +169,9 @@ class SiteUpdate(BaseModel):
     weekly_run_weekday: int | None = Field(default=None, ge=0, le=6)
     weekly_run_time: ClockTime | None = None
     lookahead_weeks: int | None = Field(default=None, ge=1, le=52)
+    weekly_labour_h_capacity: float | None = Field(default=None, gt=0, le=100_000)
+    weekly_budget_capacity: float | None = Field(default=None, gt=0, le=1_000_000_000)
+    weekly_run_drafts: bool | None = None
     notes: str | None = Field(default=None, max_length=2000)
     external_reference: str | None = Field(default=None, min_length=1, max_length=200)
 

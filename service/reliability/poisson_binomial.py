@@ -24,6 +24,7 @@ from numpy.typing import NDArray
 from scipy.special import ndtri
 
 FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
 
 EXACT_MAX = 400  # positions up to which the quantile is exact (DFT: O(n^2) work)
 
@@ -63,3 +64,29 @@ def quantile(p: FloatArray, level: float) -> tuple[int, str]:
     if p.size <= EXACT_MAX:
         return quantile_exact(p, level), "exact"
     return quantile_normal(float(p.sum()), float((p * (1 - p)).sum()), level, p.size), "normal"
+
+
+def pmf_weeks(p: FloatArray) -> FloatArray:
+    """Poisson-binomial pmf of every week at once (H, n+1) from p (n, H), by convolution.
+
+    Adds one position at a time to every week's pmf: P_j(k) = P_{j-1}(k)(1 - p_j) +
+    P_{j-1}(k - 1) p_j, the pmf of a sum of independent Bernoullis (textbook recursion);
+    n steps over an (H, n+1) array instead of one O(n^2) transform per week.
+    """
+    p = np.clip(np.asarray(p, dtype=float), 0.0, 1.0)
+    n, h = p.shape
+    out = np.zeros((h, n + 1))
+    out[:, 0] = 1.0
+    for j in range(n):
+        pj = p[j][:, None]
+        head = out[:, : j + 1].copy()
+        out[:, : j + 1] *= 1.0 - pj
+        out[:, 1 : j + 2] += head * pj
+    return out
+
+
+def quantiles_exact(p: FloatArray, level: float) -> IntArray:
+    """Each week's smallest k with P(K <= k) >= level, exact (p: (n, H))."""
+    cdf = np.cumsum(pmf_weeks(p), axis=1)
+    k = np.sum(cdf < level - 1e-12, axis=1)
+    return np.minimum(k, p.shape[0]).astype(np.int64)

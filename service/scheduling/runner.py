@@ -164,7 +164,8 @@ def _work(
             at=when,
             iso_week=week,
             run_id=run_id,
-            state="issued",
+            # A site set to drafts gets orders a planner issues (which reserves their stock).
+            state="draft" if site.weekly_run_drafts else "issued",
             lookahead_weeks=site.lookahead_weeks,
         )
         finished = utcnow()

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
 import numpy as np
+from numpy.typing import NDArray
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -96,6 +97,23 @@ def spot_cost(c: CostInputs, lamps: float) -> dict[str, float]:
     }
 
 
+def _spot_per_group(
+    area_id: NDArray[np.int64],
+    lamp_type_id: NDArray[np.int64],
+    inc: NDArray[np.float64],
+    dark: NDArray[np.bool_],
+) -> list[tuple[tuple[int, int], NDArray[np.float64]]]:
+    """Weekly spot lamps per (area, lamp type), dark lamps in week one; one pass, no masks."""
+    pairs = np.stack([area_id, lamp_type_id], axis=1)
+    uniq, inv = np.unique(pairs, axis=0, return_inverse=True)
+    inv = np.asarray(inv).ravel()
+    sums_w = np.zeros((len(uniq), inc.shape[1]))
+    np.add.at(sums_w, inv, inc)
+    if inc.shape[1]:
+        sums_w[:, 0] += np.bincount(inv, weights=dark.astype(float), minlength=len(uniq))
+    return [((int(a), int(t)), sums_w[i]) for i, (a, t) in enumerate(uniq.tolist())]
+
+
 def site_budget(
     session: Session,
     site: Site,
@@ -142,15 +160,10 @@ def site_budget(
     # Spot: weekly expected replacements per (area, lamp type), binned by week start.
     inc = np.diff(sc.cum, axis=1)
     week_month = [month_of(at.date() + timedelta(weeks=w), starts) for w in range(WEEKS)]
-    keys = sorted(set(zip(sc.area_id.tolist(), sc.lamp_type_id.tolist(), strict=True)))
-    for area_id, lt in keys:
+    for (area_id, lt), per_week in _spot_per_group(sc.area_id, sc.lamp_type_id, inc, sc.dark):
         if (area_id, lt) not in costs:
             continue
-        _, g = costs[(area_id, lt)]
-        c = g.costs
-        sel = (sc.area_id == area_id) & (sc.lamp_type_id == lt)
-        per_week = inc[sel].sum(axis=0)
-        per_week[0] += float(sc.dark[sel].sum())
+        c = costs[(area_id, lt)][1].costs
         for w, wm in enumerate(week_month):
             if wm is None:
                 continue

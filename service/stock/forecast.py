@@ -21,7 +21,6 @@ from service.config import get_settings
 from service.db.base import utcnow
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.service import evaluate_positions
-from service.forecasting.spot_replacements import expected_replacements
 from service.planning.service import AreaPlan, LastRelamps, local_today, site_plans
 from service.readings.ages import position_ages
 from service.register.models import Site
@@ -89,6 +88,25 @@ class SiteCurves:
     plans: list[AreaPlan]
 
 
+def group_weeks(
+    area_id: IntArray, lamp_type_id: IntArray, due_week: dict[tuple[int, int], int], weeks: int
+) -> IntArray:
+    """Each position's group relamp week from (area, lamp type) -> week (weeks: none)."""
+    out = np.full(area_id.size, weeks, dtype=np.int64)
+    if not due_week or area_id.size == 0:
+        return out
+    # Ids are below 2**31 (service.api.ids), so area * 2**31 + type is one int64 key.
+    pos_key = area_id.astype(np.int64) * 2**31 + lamp_type_id.astype(np.int64)
+    keys = np.array([a * 2**31 + t for a, t in due_week], dtype=np.int64)
+    vals = np.array(list(due_week.values()), dtype=np.int64)
+    order = np.argsort(keys)
+    keys, vals = keys[order], vals[order]
+    at = np.minimum(np.searchsorted(keys, pos_key), keys.size - 1)
+    hit = keys[at] == pos_key
+    out[hit] = vals[at[hit]]
+    return out
+
+
 def position_cumulative(
     session: Session,
     site: Site,
@@ -124,30 +142,24 @@ def position_cumulative(
                 due_week[(plan.area.id, g.lamp_type_id)] = wk
                 arr = group_by_type.setdefault(g.lamp_type_id, np.zeros(weeks, dtype=np.int64))
                 arr[wk] += g.positions
-    gw = np.array(
-        [
-            due_week.get((int(a), int(t)), weeks)
-            for a, t in zip(ages.area_id.tolist(), ages.lamp_type_id.tolist(), strict=True)
-        ],
-        dtype=np.int64,
-    )
+    gw = group_weeks(ages.area_id, ages.lamp_type_id, due_week, weeks)
     n, h1 = ages.size, weeks + 1
-    t = np.arange(h1, dtype=float)
-    win = (rate[:, None] * t[None, :]).ravel()  # burn hours to each week boundary
-    rep = np.repeat
-    before = expected_replacements(shape, rep(k, h1), rep(scale, h1), rep(age, h1), win).reshape(
-        n, h1
-    )
+    # Every week boundary in one pass (stock.demand.weekly_cumulative: one convolution per
+    # position), not one delayed-renewal sum per boundary.
+    before = demand.weekly_cumulative(shape, k, scale, age, rate, weeks)
+    win = rate[:, None] * np.arange(h1, dtype=float)[None, :]  # burn hours to each boundary
     # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
     # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
     after = np.zeros((n, h1))
-    u = win.reshape(n, h1) / scale[:, None]
+    u = win / scale[:, None]
     for kk in np.unique(k[gw < weeks]).tolist():
         sel = (k == kk) & (gw < weeks)
         curve = weibull_renewal(float(shape[kk]), 1.0, float(u[sel].max()) * 1.0001 + 1e-9, 1000)
         after[sel] = curve.at(u[sel])
     cum = demand.cumulative_with_group(before, after, gw)
-    dark = ages.burned_out.copy()
+    # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
+    # the group order (its report goes onto it): counting it as spot demand too doubled it.
+    dark = demand.dark_spot_lamps(ages.burned_out, gw)
     return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
 
 

@@ -339,7 +339,12 @@ def _order_page(
 
 # (next state, button label, page action the role needs); completing and cancelling
 # have their own forms (outcomes per fixture, a reason) below.
-_BUTTONS = [("issued", "Issue", "issue_order"), ("in_progress", "Start work", "work_order")]
+# A draft (the weekly run of a site set to drafts, or made by hand) waits for a planner's
+# approval: issuing it reserves its stocked lamps.
+_BUTTONS = [
+    ("issued", "Approve and issue", "issue_order"),
+    ("in_progress", "Start work", "work_order"),
+]
 Ids = Annotated[list[int], Form(max_length=100_000)]
 Texts = Annotated[list[str], Form(max_length=100_000)]
 

@@ -11,12 +11,16 @@ reported fixture of a lamp type not due gets a line of its reported positions on
 any spot order still open in the area is covered by the group order (covered_by_order_id),
 which settles it when done and releases it when cancelled. A spot order made while the area
 has an open group order is covered by that group order from the start.
+
+Catch-up: on a site with a weekly capacity (labour hours or money), the weekly run orders
+only the due areas that the catch-up schedule (planning.site_schedule, planning.catch_up)
+puts in this week; the others wait for their week's run. Each order's plan names its place.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import date, datetime, timedelta
 from functools import partial
 from typing import Any
@@ -28,8 +32,9 @@ from service.catalogue.models import LampType
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
 from service.planning.group_plan import PlanCache
-from service.planning.positions import load_positions
+from service.planning.positions import PositionArrays, load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
+from service.planning.site_schedule import capacity_of, site_schedule
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.uploads.write import write_rows
 from service.workorders import choice_hooks, stock_hooks
@@ -209,9 +214,9 @@ def issue_orders(
         done = {a for a in areas if (a, GROUP) in existing}  # this week has it already
         result.already_there += len(done)
         todo = [a for a in areas.values() if a.id not in busy and a.id not in done]
-        horizon = today + timedelta(weeks=lookahead_weeks)
+        ordered = [areas[a] for a in sorted(done)]  # scheduled with the rest (catch-up)
         group_types = _due_types(
-            session, site, todo, area_id, at, today, horizon, whole_area, cache
+            session, site, todo, area_id, at, today, lookahead_weeks, whole_area, cache, ordered
         )
     # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
     # order a new group order will cover) only flag their positions on the group order.
@@ -275,11 +280,16 @@ def _due_types(
     area_id: int | None,
     at: datetime,
     today: date,
-    horizon: date,
+    lookahead_weeks: int,
     whole_area: bool,
     cache: PlanCache | None,
+    ordered: list[Area],
 ) -> dict[int, tuple[set[int], date, AreaPlan]]:
-    """Which lamp types of which areas get a group relamp, with the due date and the plan."""
+    """Which lamp types of which areas get a group relamp, with the due date and the plan.
+
+    On a site with a weekly capacity the weekly run keeps those its catch-up puts in this week.
+    """
+    horizon = today + timedelta(weeks=lookahead_weeks)
     out: dict[int, tuple[set[int], date, AreaPlan]] = {}
     if not todo:
         return out
@@ -292,6 +302,36 @@ def _due_types(
         if due_groups:
             soonest = min((g.due_on for g in due_groups if g.due_on), default=today)
             out[plan.area.id] = ({g.lamp_type_id for g in due_groups}, max(soonest, today), plan)
+    if area_id is None and capacity_of(site).limited:
+        return _this_week(session, site, out, ordered, pos, at, today, horizon)
+    return out
+
+
+def _this_week(
+    session: Session,
+    site: Site,
+    due: dict[int, tuple[set[int], date, AreaPlan]],
+    ordered: list[Area],
+    pos: PositionArrays,
+    at: datetime,
+    today: date,
+    horizon: date,
+) -> dict[int, tuple[set[int], date, AreaPlan]]:
+    """Of the due areas, those the catch-up schedule puts in this week (capacity per site).
+
+    The areas already ordered this week are scheduled with them, as in the week's first run,
+    so a second run of the same week cannot fill the week's capacity twice.
+    """
+    plans = [p for _, _, p in due.values()]
+    if ordered:
+        last = last_group_relamps(session, [a.id for a in ordered])
+        plans += plan_areas(session, site, ordered, pos, at, None, None, last_relamps=last)
+    sched = site_schedule(site, plans, today, horizon)
+    out: dict[int, tuple[set[int], date, AreaPlan]] = {}
+    for aid, (types, due_on, plan) in due.items():
+        slot = sched.slots.get(aid)
+        if slot is not None and slot.week == 0:
+            out[aid] = (types, due_on, replace(plan, catch_up=slot))
     return out
 
 
@@ -304,8 +344,17 @@ def _plan_info(plan: AreaPlan, types: set[int], session: Session) -> dict[str, A
         "interval_h": p.interval_h,
         "binding": p.binding,
         "group_age_h": first.group_age_h,
+        "group_age_basis": plan.group_age_basis,
         "lamp_types": sorted(types),
     }
+    if plan.catch_up is not None:  # placed by the catch-up schedule (planning.catch_up)
+        c = plan.catch_up
+        info["catch_up"] = {
+            "risk_order": c.order,
+            "shares_visit_with_area_id": c.shares_visit_with,
+            "hire_charged": c.hire_charged,
+            "over_capacity": c.over_capacity,
+        }
     chosen = choice_hooks.order_choice(session, plan, types)
     if chosen is not None:
         info["lamp_choice"] = chosen  # the best option per lamp type (choice_hooks)

@@ -23,9 +23,16 @@ BENCH = ROOT / "benchmarks"
 SCRIPTS = sorted(p.stem for p in BENCH.glob("bench_*.py"))
 
 # Scripts that need the local PostgreSQL server (scratch databases of their own names).
-NEEDS_PG = {"bench_weekly_run", "bench_burn_upload", "bench_changes", "bench_web_pages"}
+NEEDS_PG = {
+    "bench_weekly_run",
+    "bench_burn_upload",
+    "bench_changes",
+    "bench_web_pages",
+    "bench_demand_db",
+}
 PG_ARGS = {
     "bench_weekly_run": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_weekly"],
+    "bench_demand_db": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_demand_db"],
     "bench_changes": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_changes"],
     "bench_web_pages": ["postgresql+psycopg://postgres@127.0.0.1:5432/bench_quick_web"],
     "bench_burn_upload": ["--scratch", "bench_quick_burn"],

@@ -1,8 +1,9 @@
 """A real server and a headless system Chromium for the browser tests.
 
-The server is `uvicorn` in a subprocess on a free port, on a temporary SQLite file built by
+The server is `uvicorn` in a subprocess on a free port, on a temporary database built by
 `lampkeeper migrate` and `lampkeeper demo load` (the demo people are added as `make run`
-does). Chromium and chromedriver come from the operating system (.ci/run installs them);
+does): a SQLite file, or a scratch PostgreSQL database beside TEST_DATABASE_URL's when the
+suite runs on PostgreSQL (dropped afterwards). Chromium and chromedriver come from the operating system (.ci/run installs them);
 without them the tests are skipped, and nothing downloads a browser build.
 """
 
@@ -17,11 +18,14 @@ import tempfile
 import time
 import urllib.request
 from collections.abc import Iterator
+from contextlib import ExitStack
 from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
 from sqlalchemy.orm import Session
+
+from tests.conftest import scratch_postgres
 
 CHROMIUM = os.environ.get("LAMPKEEPER_CHROMIUM", "/usr/bin/chromium")
 CHROMEDRIVER = os.environ.get("LAMPKEEPER_CHROMEDRIVER", "/usr/bin/chromedriver")
@@ -34,7 +38,7 @@ STARTUP_S = 60.0  # how long the server may take to answer /healthz (a loaded CI
 
 @dataclass(frozen=True)
 class Server:
-    """The running app: its base URL and the SQLite URL behind it."""
+    """The running app: its base URL and the database URL behind it."""
 
     base: str
     db_url: str
@@ -97,6 +101,21 @@ def _wait_healthy(base: str, proc: subprocess.Popen[bytes]) -> None:
     raise RuntimeError("the server did not answer /healthz")
 
 
+def _database(stack: ExitStack, tmp: Path) -> str:
+    """The server's database: a scratch PostgreSQL one on a PostgreSQL run, else SQLite."""
+    base = os.environ.get("TEST_DATABASE_URL") or ""
+    if base.startswith("postgresql"):
+        return stack.enter_context(scratch_postgres(base, "browser"))
+    return f"sqlite:///{tmp / 'browser.sqlite3'}"
+
+
+def _serve(port: int, env: dict[str, str]) -> subprocess.Popen[bytes]:
+    args = ["service.main:create_app", "--factory", "--host", "127.0.0.1", "--port", str(port)]
+    return subprocess.Popen(
+        [str(BIN / "python"), "-m", "uvicorn", *args, "--log-level", "warning"], env=env
+    )
+
+
 @pytest.fixture(scope="session")
 def server() -> Iterator[Server]:
     """uvicorn on a free port against a fresh demo database (scheduler off)."""
@@ -105,44 +124,30 @@ def server() -> Iterator[Server]:
             f"needs {CHROMIUM} and {CHROMEDRIVER} (apt-get install chromium chromium-driver)"
         )
     tmp = Path(tempfile.mkdtemp(prefix="lk-browser-"))
-    db_url = f"sqlite:///{tmp / 'browser.sqlite3'}"
-    env = {
-        **os.environ,
-        "LAMPKEEPER_DATABASE_URL": db_url,
-        "LAMPKEEPER_SCHEDULER_ENABLED": "false",
-        "LAMPKEEPER_LOG_LEVEL": "warning",
-    }
-    _run([str(BIN / "lampkeeper"), "migrate"], env)
-    _run([str(BIN / "lampkeeper"), "demo", "load", "--key-file", str(tmp / "key.txt")], env)
-    order_id, second_order_id = _prepare_demo(db_url)
-    port = _free_port()
-    base = f"http://127.0.0.1:{port}"
-    proc = subprocess.Popen(
-        [
-            str(BIN / "python"),
-            "-m",
-            "uvicorn",
-            "service.main:create_app",
-            "--factory",
-            "--host",
-            "127.0.0.1",
-            "--port",
-            str(port),
-            "--log-level",
-            "warning",
-        ],
-        env=env,
-    )
-    try:
-        _wait_healthy(base, proc)
-        yield Server(base=base, db_url=db_url, order_id=order_id, second_order_id=second_order_id)
-    finally:
-        proc.terminate()
+    with ExitStack() as stack:
+        stack.callback(shutil.rmtree, tmp, ignore_errors=True)
+        db_url = _database(stack, tmp)
+        env = {
+            **os.environ,
+            "LAMPKEEPER_DATABASE_URL": db_url,
+            "LAMPKEEPER_SCHEDULER_ENABLED": "false",
+            "LAMPKEEPER_LOG_LEVEL": "warning",
+        }
+        _run([str(BIN / "lampkeeper"), "migrate"], env)
+        _run([str(BIN / "lampkeeper"), "demo", "load", "--key-file", str(tmp / "key.txt")], env)
+        order_id, second_order_id = _prepare_demo(db_url)
+        port = _free_port()
+        base = f"http://127.0.0.1:{port}"
+        proc = _serve(port, env)
         try:
-            proc.wait(timeout=20)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-        shutil.rmtree(tmp, ignore_errors=True)
+            _wait_healthy(base, proc)
+            yield Server(base, db_url, order_id, second_order_id)
+        finally:
+            proc.terminate()
+            try:
+                proc.wait(timeout=20)
+            except subprocess.TimeoutExpired:
+                proc.kill()
 
 
 @pytest.fixture(scope="session")

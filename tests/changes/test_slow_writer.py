@@ -117,7 +117,9 @@ def test_slow_writer_is_not_skipped(
         assert slow.step() == f"wrote slow-2-{tag}"
         second, after = read_all(live, live_admin, after)
         assert slow.step() == "committed"
-        third, after = read_all(live, live_admin, after)
+        # Poll for the rest: a transaction of another database of the cluster may hold the
+        # horizon between the two commits for a while (shown later, never skipped).
+        third, after = read_all(live, live_admin, after, at_least=3 - len(first + second))
     finally:
         slow.close()
         fast.close()

@@ -17,6 +17,7 @@ from service.catalogue.lamp_model import LampModel
 from service.catalogue.resolved import CurveInUse
 from service.planning import service as svc
 from service.planning.energy import MEGALUMEN, megalumen_plan
+from service.planning.group_age import group_ages
 from service.planning.group_plan import DEFAULT_RUPTURE_FRACTION, Conditions, CostInputs, PlanCache
 from service.planning.maintained import fixtures_by_area, regime_of
 from service.planning.positions import PositionArrays
@@ -60,6 +61,9 @@ def legacy_plan_areas(  # noqa: PLR0915  (the pre-split code, kept as the test o
     volt_sum = np.bincount(inv, weights=pos.voltage_v, minlength=ng)
     area_count = np.bincount(inv, minlength=ng)
     rate_sum = np.bincount(inv, weights=np.nan_to_num(pos.burn_h_per_week), minlength=ng)
+    # The group-age rule from installation dates (planning.group_age) came after the bulk
+    # planner; the oracle applies it the same way so the comparison stays on the search.
+    cluster_age = group_ages(pos.area_id, inv, pos.installed_at_s, pos.age_h, ng)
     # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
     kinds, kind_of = np.unique(ballast, return_inverse=True)
     per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
@@ -82,6 +86,8 @@ def legacy_plan_areas(  # noqa: PLR0915  (the pre-split code, kept as the test o
             basis = "override"
         elif last_at is not None and weekly > 0:
             basis = "last_group_relamp"
+        elif any(np.isfinite(cluster_age[g]) for g in gidx):
+            basis = "installation_dates"
         else:
             basis = "mean_position_age"
         groups: list[svc.TypeGroup] = []
@@ -153,6 +159,8 @@ def legacy_plan_areas(  # noqa: PLR0915  (the pre-split code, kept as the test o
                 age = float(over.group_age_h or 0.0)
             elif basis == "last_group_relamp" and last_at is not None:
                 age = weekly * max((at - last_at).total_seconds(), 0.0) / (168.0 * 3600.0)
+            elif basis == "installation_dates" and np.isfinite(cluster_age[g]):
+                age = float(cluster_age[g])
             else:
                 age = float(hours[g] / count[g])
             due, overdue = svc.due_date(today, gp.plan.interval_h, age, weekly)

@@ -14,6 +14,7 @@ from service.db.base import utcnow
 from service.events import burnouts
 from service.events.models import BurnoutReport, LampRemoval
 from service.planning.service import local_today, site_plans
+from service.planning.site_schedule import capacity_of, site_schedule
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.scheduling.runner import run_site_week
 from service.seed.loader import load_demo
@@ -36,12 +37,15 @@ def factory(db: Session) -> sessionmaker[Session]:
 
 
 def _due_areas(db: Session, site: Site) -> list[int]:
-    horizon = local_today(site, utcnow()) + timedelta(weeks=site.lookahead_weeks)
-    return [
-        p.area.id
-        for p in site_plans(db, site, last_relamps=last_group_relamps)
-        if p.due_on is not None and p.due_on <= horizon
-    ]
+    """Areas the run orders: due in the look-ahead and, with a capacity, in this week's slots."""
+    today = local_today(site, utcnow())
+    horizon = today + timedelta(weeks=site.lookahead_weeks)
+    plans = site_plans(db, site, last_relamps=last_group_relamps)
+    due = [p.area.id for p in plans if p.due_on is not None and p.due_on <= horizon]
+    if not capacity_of(site).limited:
+        return due
+    slots = site_schedule(site, plans, today, horizon).slots
+    return [a for a in due if a in slots and slots[a].week == 0]
 
 
 def _first_position(db: Session, area_id: int) -> LampPosition:

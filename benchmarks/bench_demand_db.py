@@ -1,0 +1,107 @@
+"""Time demand, reorder and budget for the 100,000-fixture portfolio on PostgreSQL (issue 13).
+
+Builds the weekly-run benchmark's invented portfolio (bench_weekly_run.load: 10 sites, 100,000
+fixtures, 300,000 lamp positions) in a scratch database (default bench_demand_db), gives each
+site a storeroom stocking every lamp type, then times D2: every storeroom's weekly demand
+(26 weeks) and to-order list plus every site's 12-month budget, as the API computes them.
+The anchor, in the same run: loading the same positions' ages (readings.ages), the database
+read every one of those answers starts from.
+
+Run: python benchmarks/bench_demand_db.py [URL] [--quick] [--repeats N]
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import numpy as np
+from sqlalchemy import insert
+from sqlalchemy.orm import Session, sessionmaker
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+import bench_weekly_run as portfolio
+from _table import Table, parser
+
+from service.db.session import make_engine
+from service.readings.ages import position_ages
+from service.register.models import Site
+from service.stock import budget
+from service.stock.forecast import storeroom_demand, to_order
+from service.stock.models import StockBalance, Storeroom, StoreroomSite
+from service.stock.service import balances
+from service.workorders.repository import last_group_relamps
+
+URL = "postgresql+psycopg://postgres@127.0.0.1:5432/bench_demand_db"
+
+
+def stock(url: str, sites: list[int]) -> list[int]:
+    """One storeroom per site stocking every lamp type; the storeroom ids."""
+    engine = make_engine(url)
+    with engine.begin() as c:
+        rooms = [{"id": s, "name": f"Bench store {s}"} for s in sites]
+        c.execute(insert(Storeroom), rooms)
+        c.execute(insert(StoreroomSite), [{"site_id": s, "storeroom_id": s} for s in sites])
+        c.execute(
+            insert(StockBalance),
+            [
+                {"storeroom_id": s, "lamp_type_id": t + 1, "on_hand": 20, "reserved": 0}
+                for s in sites
+                for t in range(len(portfolio.TYPES))
+            ],
+        )
+    engine.dispose()
+    return sites
+
+
+def figure(factory: sessionmaker[Session], rooms: list[int]) -> object:
+    """Every storeroom's demand and to-order list, every site's budget."""
+    with factory() as s:
+        out: list[object] = []
+        for r in rooms:
+            sd = storeroom_demand(s, r, last_relamps=last_group_relamps)
+            out.append(to_order(sd, balances(s, r), s))
+        for site in s.query(Site).order_by(Site.id).all():
+            out.append(budget.site_budget(s, site, last_relamps=last_group_relamps))
+        return out
+
+
+def anchor(factory: sessionmaker[Session], sites: list[int]) -> object:
+    """Every site's position ages: the read the figures start from."""
+    with factory() as s:
+        return [position_ages(s, site_id=i, active_only=True).size for i in sites]
+
+
+def main() -> int:
+    """Build, load, time."""
+    ap = parser(__doc__, default_repeats=3)
+    ap.add_argument("url", nargs="?", default=URL)
+    args = ap.parse_args()
+    if args.quick:
+        portfolio.FIXTURES_PER_AREA = 10  # 10,000 fixtures
+    portfolio.rebuild(args.url)
+    sites = portfolio.load(args.url, np.random.default_rng(7))
+    rooms = stock(args.url, sites)
+    engine = make_engine(args.url)
+    factory = sessionmaker(bind=engine, expire_on_commit=False)
+    n = len(sites) * portfolio.AREAS_PER_SITE * portfolio.FIXTURES_PER_AREA
+    table = Table("bench_demand_db", args.quick)
+    table.timed(
+        "D2",
+        f"demand + to-order + budget, {n:,} fixtures on PostgreSQL",
+        lambda: figure(factory, rooms),
+        anchor="position ages of the same sites",
+        anchor_fn=lambda: anchor(factory, sites),
+        repeats=1 if args.quick else args.repeats,
+        warmup=0,
+        target="" if args.quick else "<= 3 s (issue 13)",
+    )
+    engine.dispose()
+    table.finish(args.json)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

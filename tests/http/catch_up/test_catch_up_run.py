@@ -1,0 +1,75 @@
+"""The catch-up schedule in the site plan and the weekly run: capacity, risk order, one lift visit."""
+
+from __future__ import annotations
+
+from datetime import timedelta
+from typing import Any
+
+from fastapi.testclient import TestClient
+from sqlalchemy.orm import Session
+
+from service.db.base import utcnow
+from tests import factories as fx
+
+API = "/api/v1"
+
+
+def _site(db: Session) -> dict[str, Any]:
+    """Three areas long due: two on the lift (oldest lamps), one on ladders; 10 h a week."""
+    s = fx.site(db, name="Catch-up Yard", weekly_labour_h_capacity=10.0)
+    lt = fx.lamp_type(db, code="INC-CU")
+    ids = {}
+    for name, access, weeks in (("L1", "lift", 24), ("L2", "lift", 22), ("Stair", "ladder", 16)):
+        a = fx.area(
+            db,
+            s,
+            name=name,
+            access_method=access,
+            group_minutes_per_lamp=12.0,  # 25 lamps: 5 labour hours an area
+            equipment_hire_per_visit=400.0 if access == "lift" else 0.0,
+            burnout_ceiling=0.2,
+        )
+        fx.fixtures(db, a, lt, 25, installed_at=utcnow() - timedelta(weeks=weeks), tag=name)
+        ids[name] = a.id
+    db.commit()
+    return {"site": s.id, **ids}
+
+
+def test_site_plan_spreads_due_areas_riskiest_first_sharing_the_lift(
+    client: TestClient, db: Session, reader: dict[str, str]
+) -> None:
+    k = _site(db)
+    r = client.get(f"{API}/sites/{k['site']}/relamp-plan", headers=reader)
+    assert r.status_code == 200, r.text
+    body = r.json()
+    assert body["weekly_labour_h_capacity"] == 10.0
+    cu = {a["area_id"]: a["catch_up"] for a in body["areas"]}
+    assert all(a["overdue"] for a in body["areas"])  # all due at once
+    # The oldest lamps are nearest (past) their burnout ceiling: riskiest first.
+    assert cu[k["L1"]]["risk_order"] == 0 and cu[k["L1"]]["week"] == 0
+    assert cu[k["L1"]]["risk_weeks"] < cu[k["L2"]]["risk_weeks"] < cu[k["Stair"]]["risk_weeks"]
+    # 5 h each at 10 h a week: the two lift levels this week on one visit, one hire.
+    assert cu[k["L2"]]["week"] == 0 and cu[k["L2"]]["shares_visit_with_area_id"] == k["L1"]
+    assert (cu[k["L1"]]["hire_charged"], cu[k["L2"]]["hire_charged"]) == (400.0, 0.0)
+    assert cu[k["Stair"]]["week"] == 1
+    for week in (0, 1):  # the capacity holds in every week
+        assert sum(c["labour_h"] for c in cu.values() if c["week"] == week) <= 10.0
+
+
+def test_weekly_run_orders_only_this_weeks_areas_and_a_rerun_adds_none(
+    client: TestClient, db: Session, writer: dict[str, str], reader: dict[str, str]
+) -> None:
+    k = _site(db)
+    url = f"{API}/sites/{k['site']}/runs"
+    r = client.post(url, json={"week": "2026-W49"}, headers=writer)
+    assert r.status_code == 201, r.text
+    assert r.json()["group_orders"] == 2
+    orders = client.get(f"{API}/work-orders?site_id={k['site']}", headers=reader).json()["items"]
+    assert sorted(o["area_id"] for o in orders) == sorted([k["L1"], k["L2"]])
+    by_area = {o["area_id"]: o for o in orders}
+    assert by_area[k["L2"]]["plan"]["catch_up"]["shares_visit_with_area_id"] == k["L1"]
+    assert sum(o["estimated_labour_h"] for o in orders) <= 10.0
+    # Run the same week again: the week's capacity is taken by the orders it already has.
+    again = client.post(url, json={"week": "2026-W49"}, headers=writer)
+    assert again.status_code == 201, again.text
+    assert again.json()["group_orders"] == 0
