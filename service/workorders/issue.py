@@ -25,6 +25,7 @@ from datetime import date, datetime, timedelta
 from functools import partial
 from typing import Any
 
+import numpy as np
 from sqlalchemy import Table, case, select, update
 from sqlalchemy.orm import Session
 
@@ -35,6 +36,7 @@ from service.planning.group_plan import PlanCache
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
 from service.planning.site_schedule import capacity_of, site_schedule
+from service.readings.repository import float_matrix
 from service.register.models import Area, Fixture, LampPosition, Site
 from service.uploads.write import write_rows
 from service.workorders import choice_hooks, stock_hooks
@@ -102,20 +104,28 @@ def _fixtures(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[i
 
 
 def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, list[Any]]:
-    """fixture id -> [(position id, position no)]."""
-    out: dict[int, list[Any]] = {}
+    """fixture id -> [(position id, position no)] by position no, from one numeric query.
+
+    Plain columns into numpy (readings.repository.float_matrix), sorted there: no ORM rows
+    and no server sort; a 100,000-fixture run reads a few hundred thousand positions here.
+    """
     if not area_ids:
-        return out
+        return {}
     stmt = (
-        select(LampPosition.fixture_id, LampPosition.id, LampPosition.position_no)
+        select(LampPosition.fixture_id, LampPosition.position_no, LampPosition.id)
         .join(Fixture, Fixture.id == LampPosition.fixture_id)
         .where(Fixture.site_id == site_id, Fixture.area_id.in_(list(area_ids)))
         .where(Fixture.retired_at.is_(None))
-        .order_by(LampPosition.fixture_id, LampPosition.position_no)
     )
-    for fid, pid, no in session.execute(stmt).all():
-        out.setdefault(fid, []).append((pid, no))
-    return out
+    m = float_matrix(session, stmt, 3).astype(np.int64)  # ids and numbers: exact in a float
+    m = m[np.lexsort((m[:, 1], m[:, 0]))]  # by fixture, then position no
+    fids, starts = np.unique(m[:, 0], return_index=True)
+    bounds = [*starts.tolist(), len(m)]
+    ids, nos = m[:, 2].tolist(), m[:, 1].tolist()
+    return {
+        f: list(zip(ids[a:b], nos[a:b], strict=True))
+        for f, a, b in zip(fids.tolist(), bounds[:-1], bounds[1:], strict=True)
+    }
 
 
 def _open_reports(
