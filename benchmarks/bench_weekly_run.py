@@ -5,6 +5,7 @@ the schema with the migrations, bulk-loads invented data with Core inserts, then
 site's weekly issue once (orders created) and once more (the repeat creates nothing).
 
 Run: python benchmarks/bench_weekly_run.py [URL] [--sizes 10,100] [--quick] [--repeats N]
+(--profile FILE: cProfile the first run of each size into FILE.<size>, top 25 printed).
 P5: 100,000 fixtures (target <= 5 s), anchor column: the repeat run that creates nothing;
 P8: the same at 10,000 fixtures (growth).
 """
