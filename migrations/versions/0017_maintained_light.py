@@ -64,7 +64,7 @@ def upgrade() -> None:
     add(
         "areas",
         sa.Column(
-            "relamp_includes_cleaning", sa.Boolean(), nullable=False, server_default=sa.true()
+            "relamp_includes_cleaning", sa.Boolean(), nullable=False, server_default=sa.false()
         ),
     )
     add(

@@ -41,7 +41,7 @@ def regime_of(area: object) -> DirtRegime:
         str(getattr(area, "luminaire_type", "enclosed")),
         str(getattr(area, "dirt_environment", "clean")),
         None if months is None else float(months) / 12.0,
-        bool(getattr(area, "relamp_includes_cleaning", True)),
+        bool(getattr(area, "relamp_includes_cleaning", False)),
     )
 
 

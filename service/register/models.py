@@ -14,7 +14,6 @@ from sqlalchemy import (
     String,
     UniqueConstraint,
     false,
-    true,
 )
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
@@ -108,8 +107,10 @@ class Area(TimestampMixin, Base):
     cleaning_interval_months: Mapped[float | None] = mapped_column(
         Float, default=12.0, server_default="12"
     )
+    # off by default: a yearly cleaning round already keeps the dirt; when on, the group
+    # visit cleans too (its labour is a group cost and the dirt restarts at each relamp)
     relamp_includes_cleaning: Mapped[bool] = mapped_column(
-        Boolean, default=True, server_default=true()
+        Boolean, default=False, server_default=false()
     )
     cleaning_minutes_per_fixture: Mapped[float] = mapped_column(
         Float, default=10.0, server_default="10"

@@ -221,7 +221,7 @@ class AreaFields(BaseModel):
     )
     dirt_environment: DirtEnvironment = "clean"
     cleaning_interval_months: CleaningMonths | None = 12.0
-    relamp_includes_cleaning: bool = True
+    relamp_includes_cleaning: bool = False
     cleaning_minutes_per_fixture: float = Field(default=10.0, ge=0, le=600)
     last_cleaned_at: Timestamp | None = Field(
         default=None, description="When the luminaires were last cleaned (without an offset: UTC)."

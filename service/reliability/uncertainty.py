@@ -88,10 +88,12 @@ def parameter_variance(
 ) -> float:
     """Delta-method variance of sum p: per parameter group t, g_t' Sigma_t g_t, summed."""
     g = np.asarray(group, dtype=np.int64)
-    sb = np.broadcast_to(np.asarray(sd_ln_shape, dtype=np.float64), (max(int(g.max()) + 1, 0),))
-    n_g = sb.size if g.size else 0
-    if n_g == 0:
+    if g.size == 0:  # no positions (an empty site): no parameter spread to carry
         return 0.0
+    # groups: as many as the parameter arrays hold, or as the positions name if more
+    sizes = [np.size(sd_ln_shape), np.size(sd_ln_scale), np.size(corr), int(g.max()) + 1]
+    n_g = max(sizes)
+    sb = np.broadcast_to(np.asarray(sd_ln_shape, dtype=np.float64), (n_g,))
     se = np.broadcast_to(np.asarray(sd_ln_scale, dtype=np.float64), (n_g,))
     rho = np.broadcast_to(np.asarray(corr, dtype=np.float64), (n_g,))
     gb = np.bincount(g, weights=np.asarray(d_ln_shape, dtype=np.float64), minlength=n_g)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import time
 from datetime import timedelta
 from typing import Any
 
@@ -13,6 +14,7 @@ from service.changes.cursors import Cursor, encode
 from service.changes.models import Change
 from service.changes.service import prune
 from service.db.base import utcnow
+from tests import factories as fx
 from tests.changes.slow_writer import site
 from tests.changes.test_slow_writer import read_all, start_cursor
 
@@ -59,6 +61,40 @@ def test_site_lifecycle_appears_in_order(live: TestClient, live_admin: dict[str,
     assert {c["resource_type"] for c in items} == {"site"}
 
 
+def test_fixture_and_position_retirement_and_delete_appear(
+    live: TestClient, live_admin: dict[str, str]
+) -> None:
+    s = fx.api_site(live, live_admin, name="Feed C")
+    a = fx.api_area(live, live_admin, s["id"])
+    lt = fx.api_lamp_type(live, live_admin, code="FEED-LT")
+    after = start_cursor(live, live_admin)
+    kept = fx.api_fixture(live, live_admin, a["id"], lt["id"], tag="FEED-1")
+    gone = fx.api_fixture(live, live_admin, a["id"], lt["id"], tag="FEED-2")
+    r = live.post(f"/api/v1/fixtures/{kept['id']}/retire", headers=live_admin)
+    assert r.status_code == 200, r.text
+    assert live.delete(f"/api/v1/fixtures/{gone['id']}", headers=live_admin).status_code == 204
+
+    items: list[Any] = []
+    cursor, deadline = after, time.monotonic() + 60
+    while time.monotonic() < deadline:  # PostgreSQL shows a commit once older ones finish
+        page = changes(live, live_admin, after=cursor, types="fixture,lamp_position", limit=50)
+        items += page["items"]
+        cursor = page["next_cursor"]
+        if sum(c["resource_type"] == "fixture" for c in items) >= 4:
+            break
+        time.sleep(0.2)
+    fixtures = [(c["resource_id"], c["kind"]) for c in items if c["resource_type"] == "fixture"]
+    assert (kept["id"], "created") in fixtures and (kept["id"], "retired") in fixtures
+    assert fixtures.index((kept["id"], "created")) < fixtures.index((kept["id"], "retired"))
+    assert (gone["id"], "deleted") in fixtures
+    tomb = next(c for c in items if (c["resource_id"], c["kind"]) == (gone["id"], "deleted"))
+    assert tomb["body"] is None
+    # The deleted fixture's lamp positions go with it, and the feed says so.
+    positions = [c for c in items if c["resource_type"] == "lamp_position"]
+    assert any(c["kind"] == "created" for c in positions)
+    assert any(c["kind"] == "deleted" and c["body"] is None for c in positions)
+
+
 def test_paging_one_by_one_repeats_and_skips_nothing(
     live: TestClient, live_admin: dict[str, str]
 ) -> None:
@@ -69,13 +105,16 @@ def test_paging_one_by_one_repeats_and_skips_nothing(
     read_all(live, live_admin, after, at_least=5)  # all visible
     seen, cursor = [], after
     for _ in range(10):
-        page = changes(live, live_admin, limit=1, **({"after": cursor} if cursor else {}))
+        # sites only: another test's late-visible commits (PostgreSQL) are not this one's
+        page = changes(
+            live, live_admin, limit=1, types="site", **({"after": cursor} if cursor else {})
+        )
         seen += [c["body"]["name"] for c in page["items"]]
         cursor = page["next_cursor"]
         if not page["has_more"]:
             break
     assert seen == [f"Page {i}" for i in range(5)]
-    again = changes(live, live_admin, after=cursor)
+    again = changes(live, live_admin, after=cursor, types="site")
     assert again["items"] == [] and again["next_cursor"] == cursor
 
 

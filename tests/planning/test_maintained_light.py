@@ -61,6 +61,7 @@ def test_dirt_makes_the_light_floor_bind_at_the_cie_97_crossing(
         dirt_environment="clean",
         cleaning_interval_months=null(),  # the ORM needs NULL spelt out
         cleaning_minutes_per_fixture=0.0,
+        relamp_includes_cleaning=True,
     )
     lt = _plan(client, reader, area_id)
     assert lt["binding"] == "light_floor"
@@ -84,7 +85,11 @@ def test_dirt_makes_the_light_floor_bind_at_the_cie_97_crossing(
 def test_cleaning_labour_is_part_of_the_group_visit_only_when_it_cleans(
     client: TestClient, db: Session, reader: dict[str, str]
 ) -> None:
-    with_clean = _plan(client, reader, _area(db, cleaning_minutes_per_fixture=12.0))
+    with_clean = _plan(
+        client,
+        reader,
+        _area(db, cleaning_minutes_per_fixture=12.0, relamp_includes_cleaning=True),
+    )
     without = _plan(
         client,
         reader,

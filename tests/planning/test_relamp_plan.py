@@ -57,9 +57,9 @@ def test_interval_matches_the_numeric_core(
     fv = voltage_effect(240.0, 230.0, "linear_fluorescent", "reactor").life_factor
     fs = float(switching_life_factor(hps, 3.0)[0])
     life = Weibull(5.0, base.scale * fv * fs)
-    # lamp + group labour + hire share + disposal + cleaning (the area's default: 10 minutes
-    # per fixture, 10 fixtures over 20 positions, the relamp includes cleaning)
-    c_group = 4.0 + 4.0 / 60.0 * 40.0 + 0.0 + 0.5 + 10.0 / 60.0 * 40.0 * 10 / 20
+    # lamp + group labour + hire share + disposal (by default the relamp does not clean:
+    # the area's own cleaning round does, so no cleaning labour on the group visit)
+    c_group = 4.0 + 4.0 / 60.0 * 40.0 + 0.0 + 0.5
     c_spot = 4.0 + 30.0 / 60.0 * 40.0 + 0.0 + 0.5
     core = plan_block_replacement(life, c_group, c_spot)
     assert inp["c_group"] == pytest.approx(c_group) and inp["c_spot"] == pytest.approx(c_spot)
@@ -91,6 +91,7 @@ def test_light_floor_binds_at_the_lumen_curve_crossing(
         dirt_environment="very_clean",
         cleaning_interval_months=0.5,
         cleaning_minutes_per_fixture=0.0,
+        relamp_includes_cleaning=True,  # the dirt cycle restarts at the relamp
     )
     # Dearer group labour pushes the cost optimum past the floor.
     body = {"group_minutes_per_lamp": 12.0, "voltage_v": 230.0}

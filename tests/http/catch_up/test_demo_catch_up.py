@@ -5,11 +5,12 @@ from __future__ import annotations
 from collections import defaultdict
 from pathlib import Path
 
+import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.register.models import Site
+from service.register.models import Area, Site
 from service.seed.loader import load_demo
 
 API = "/api/v1"
@@ -30,13 +31,18 @@ def test_demo_parking_levels_share_one_lift_visit_a_week(
     weeks: dict[int, list[dict]] = defaultdict(list)
     for a in body["areas"]:
         if a["catch_up"] is not None:
-            weeks[a["catch_up"]["week"]].append(a["catch_up"])
+            weeks[a["catch_up"]["week"]].append({**a["catch_up"], "area_id": a["area_id"]})
+    hire = dict(db.execute(select(Area.id, Area.equipment_hire_per_visit)).tuples().all())
     assert len(weeks) >= 2  # more due than a week's labour: spread over the coming weeks
     for slots in weeks.values():
         assert sum(s["labour_h"] for s in slots) <= cap  # the capacity holds
         paying = [s for s in slots if s["shares_visit_with_area_id"] is None]
-        assert len(paying) == 1  # one lift visit (and hire) a week, however many levels
-        assert len(slots) >= 2 and all(s["hire_charged"] == 0 for s in slots if s not in paying)
+        assert len(paying) == 1  # one lift visit a week, however many levels
+        # One hire a week: the visit costs its dearest job's hire (a joining level with a
+        # dearer lift pays only the difference), never one hire per level.
+        assert len(slots) >= 2
+        charged = sum(s["hire_charged"] for s in slots)
+        assert charged == pytest.approx(max(hire[s["area_id"]] for s in slots))
     # The weekly run orders this week's levels; one order pays the lift, the rest share it.
     r = client.post(f"{API}/sites/{sid}/runs", headers=writer)
     assert r.status_code == 201, r.text

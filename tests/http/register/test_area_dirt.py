@@ -21,7 +21,7 @@ def test_area_dirt_fields_round_trip_with_defaults(
     assert r.status_code == 201, r.text
     body = r.json()
     assert body["luminaire_type"] == "enclosed" and body["dirt_environment"] == "clean"
-    assert body["cleaning_interval_months"] == 12.0 and body["relamp_includes_cleaning"] is True
+    assert body["cleaning_interval_months"] == 12.0 and body["relamp_includes_cleaning"] is False
     assert body["cleaning_minutes_per_fixture"] == 10.0 and body["last_cleaned_at"] is None
     new = {
         "luminaire_type": "indirect_uplighter",

@@ -99,3 +99,18 @@ def test_types_add_their_variances_and_bounds_give_the_log_sd() -> None:
     assert var == pytest.approx(0.03**2 + 0.08**2 + 0.12**2)
     z = stats.norm.ppf(0.95)
     assert sd_from_bounds(np.exp(-z * 0.2), np.exp(z * 0.2), 0.90) == pytest.approx(0.2)
+
+
+def test_no_positions_carry_no_parameter_variance() -> None:
+    # A site with no lamp positions yet: the sum of no terms is 0 (and must not raise).
+    empty = np.array([], dtype=np.int64)
+    assert parameter_variance(empty, empty, empty, 0.1, 0.2) == 0.0
+
+
+def test_parameter_groups_without_positions_add_nothing() -> None:
+    # Three fitted lamp types, positions of the first only: the other two groups' gradient
+    # sums are 0, so the variance is the first group's g' Sigma g alone (delta method).
+    g = np.zeros(4, dtype=np.int64)
+    d_b, d_e = np.full(4, 0.1), np.full(4, -0.2)
+    var = parameter_variance(g, d_b, d_e, np.array([0.1, 0.5, 0.5]), np.array([0.2, 0.5, 0.5]))
+    assert var == pytest.approx((0.4 * 0.1) ** 2 + (0.8 * 0.2) ** 2)
