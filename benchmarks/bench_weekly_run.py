@@ -5,6 +5,7 @@ the schema with the migrations, bulk-loads invented data with Core inserts, then
 site's weekly issue once (orders created) and once more (the repeat creates nothing).
 
 Run: python benchmarks/bench_weekly_run.py [URL] [--sizes 10,100] [--quick] [--repeats N]
+(--profile FILE: cProfile the first run of each size into FILE.<size>, top 25 printed).
 P5: 100,000 fixtures (target <= 5 s), anchor column: the repeat run that creates nothing;
 P8: the same at 10,000 fixtures (growth).
 """
@@ -235,6 +236,7 @@ def main() -> int:
     ap = parser(__doc__, default_repeats=3)
     ap.add_argument("url", nargs="?", default=URL, help="scratch PostgreSQL database")
     ap.add_argument("--sizes", default="10,100", help="fixtures per area (100 areas x 10 sites)")
+    ap.add_argument("--profile", help="cProfile the first run into this file (prints the top)")
     args = ap.parse_args()
     quick = args.quick
     sizes = [1] if quick else [int(x) for x in args.sizes.split(",")]
@@ -254,9 +256,12 @@ def main() -> int:
         )
         firsts: list[float] = []
         runs: list[Any] = []
-        for _ in range(repeats):
+        for i in range(repeats):
             clear(args.url)
-            dt, runs = run_all(args.url, sites)
+            if args.profile and i == 0:
+                dt, runs = profiled(args.url, sites, f"{args.profile}.{per_area}")
+            else:
+                dt, runs = run_all(args.url, sites)
             bad = [r for r in runs if r.outcome != "succeeded"]
             assert not bad, bad[0].error
             firsts.append(dt)
@@ -279,6 +284,18 @@ def main() -> int:
         )
     table.finish(args.json)
     return 0
+
+
+def profiled(url: str, sites: list[int], out: str) -> tuple[float, list[Any]]:
+    """run_all under cProfile: the stats go to `out`, the top 25 by cumulative time printed."""
+    import cProfile
+    import pstats
+
+    prof = cProfile.Profile()
+    result = prof.runcall(run_all, url, sites)
+    prof.dump_stats(out)
+    pstats.Stats(out).sort_stats("cumulative").print_stats(25)
+    return result
 
 
 def clear(url: str) -> None:
