@@ -35,6 +35,7 @@ NEAR_CLEAN: dict[str, Any] = {
     "dirt_environment": "very_clean",
     "cleaning_interval_months": 0.5,
     "cleaning_minutes_per_fixture": 0.0,
+    "relamp_includes_cleaning": True,  # the dirt cycle restarts at each group relamp too
 }
 
 
