@@ -71,6 +71,29 @@ def scratch_postgres(base_url: str, label: str) -> Iterator[str]:
         admin.dispose()
 
 
+LOCAL_POSTGRES = "postgresql+psycopg://postgres@127.0.0.1:5432/test"
+
+
+def local_postgres_url() -> str:
+    """The local PostgreSQL server the suite needs (what `.ci/run` starts), whatever pass runs.
+
+    A few tests are about PostgreSQL itself (killed backends, replica processes, the
+    benchmarks' scratch databases): they run against this server on every pass and fail,
+    naming it, when it does not answer, instead of being skipped.
+    """
+    url = os.environ.get("TEST_DATABASE_URL") or os.environ.get("TEST_POSTGRES_URL") or ""
+    url = url if url.startswith("postgresql") else LOCAL_POSTGRES
+    engine = make_engine(make_url(url).set(database="postgres").render_as_string(False))
+    try:
+        with engine.connect():
+            pass
+    except Exception as exc:
+        pytest.fail(f"these tests need PostgreSQL at {url} (bash .ci/run starts it): {exc}")
+    finally:
+        engine.dispose()
+    return url
+
+
 TESTS = Path(__file__).resolve().parent
 # Test tiers, one marker each (`pytest -m unit`): by folder for tests/unit, tests/service,
 # tests/http and tests/browser; in a domain folder by the fixtures a test takes.

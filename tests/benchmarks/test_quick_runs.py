@@ -56,8 +56,7 @@ def test_every_script_is_listed() -> None:
 @pytest.mark.parametrize("name", SCRIPTS)
 def test_quick_run_writes_rows(name: str, tmp_path: Path) -> None:
     pg = _pg_up()
-    if name in NEEDS_PG and not pg:
-        pytest.skip("needs the local PostgreSQL server")
+    assert pg or name not in NEEDS_PG, f"{name} needs PostgreSQL on 127.0.0.1:5432 (.ci/run)"
     out = tmp_path / f"{name}.json"
     args = [sys.executable, str(BENCH / f"{name}.py"), "--quick", "--json", str(out)]
     args += PG_ARGS.get(name, []) if pg else []

@@ -120,8 +120,9 @@ def _serve(port: int, env: dict[str, str]) -> subprocess.Popen[bytes]:
 def server() -> Iterator[Server]:
     """uvicorn on a free port against a fresh demo database (scheduler off)."""
     if not (os.access(CHROMIUM, os.X_OK) and os.access(CHROMEDRIVER, os.X_OK)):
-        pytest.skip(
-            f"needs {CHROMIUM} and {CHROMEDRIVER} (apt-get install chromium chromium-driver)"
+        pytest.fail(
+            f"needs {CHROMIUM} and {CHROMEDRIVER} (apt-get install chromium chromium-driver;"
+            " bash .ci/run does it)"
         )
     tmp = Path(tempfile.mkdtemp(prefix="lk-browser-"))
     with ExitStack() as stack:

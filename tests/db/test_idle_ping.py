@@ -3,14 +3,15 @@
 from __future__ import annotations
 
 import time
+from collections.abc import Iterator
 
 import pytest
 from sqlalchemy import Engine, create_engine, text
-from sqlalchemy.engine import make_url
 from sqlalchemy.exc import DBAPIError
 
 from service.db import session as db_session
 from service.db.session import make_engine
+from tests.conftest import local_postgres_url, scratch_postgres
 
 
 def _pid(conn: object) -> int:
@@ -28,16 +29,21 @@ def _kill(killer: Engine, pid: int) -> None:
             time.sleep(0.01)
 
 
+@pytest.fixture()
+def pg_url() -> Iterator[str]:
+    """A scratch database on the local PostgreSQL server (pg_terminate_backend), every pass."""
+    with scratch_postgres(local_postgres_url(), "idle_ping") as url:
+        yield url
+
+
 def test_a_connection_killed_while_idle_is_replaced_at_checkout(
-    db_url: str, monkeypatch: pytest.MonkeyPatch
+    pg_url: str, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     # The case pool_pre_ping covered: the server dropped a connection nobody was using
     # (restart, idle timeout). It must never reach a request.
-    if make_url(db_url).get_backend_name() != "postgresql":
-        pytest.skip("pg_terminate_backend needs PostgreSQL")
     monkeypatch.setattr(db_session, "PING_AFTER_IDLE_S", 0.05)
-    engine = make_engine(db_url)
-    killer = create_engine(db_url, isolation_level="AUTOCOMMIT")
+    engine = make_engine(pg_url)
+    killer = create_engine(pg_url, isolation_level="AUTOCOMMIT")
     try:
         with engine.connect() as conn:
             first = _pid(conn)
@@ -52,16 +58,14 @@ def test_a_connection_killed_while_idle_is_replaced_at_checkout(
 
 
 def test_a_connection_back_within_the_idle_bound_is_not_tested(
-    db_url: str, monkeypatch: pytest.MonkeyPatch
+    pg_url: str, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     # Under load connections come back within milliseconds: no round trip to test them. So
     # one killed in that window is handed out, fails (a request answers 503), and the
     # disconnect empties the pool, so the next checkout gets a live connection.
-    if make_url(db_url).get_backend_name() != "postgresql":
-        pytest.skip("pg_terminate_backend needs PostgreSQL")
     monkeypatch.setattr(db_session, "PING_AFTER_IDLE_S", 60.0)
-    engine = make_engine(db_url)
-    killer = create_engine(db_url, isolation_level="AUTOCOMMIT")
+    engine = make_engine(pg_url)
+    killer = create_engine(pg_url, isolation_level="AUTOCOMMIT")
     try:
         with engine.connect() as conn:
             first = _pid(conn)
