@@ -7,73 +7,28 @@ released together by a barrier, repeated REPEATS times on fresh records.
 
 from __future__ import annotations
 
-import os
-import threading
-from collections.abc import Callable, Iterator
 from datetime import timedelta
-from pathlib import Path
-from typing import Any
 
 import pytest
 from sqlalchemy.orm import Session, sessionmaker
 
-from service.api.errors import DomainError
 from service.db.base import utcnow
-from service.db.session import begin_write, make_engine, session_factory
+from service.db.session import begin_write
 from service.stock import ledger
 from service.stock.models import StockBalance, Storeroom, StoreroomSite
 from service.workorders import service as orders
 from service.workorders.models import WorkOrder
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
-from tests.conftest import migrate, scratch_postgres
+from tests import races
 from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
+from tests.races import in_transactions
 
 REPEATS = 10
 
 
-@pytest.fixture(scope="module")
-def factory(tmp_path_factory: pytest.TempPathFactory) -> Iterator[sessionmaker[Session]]:
-    """Sessions on a migrated database of this module's own: the threads commit for real."""
-    base_url = os.environ.get("TEST_DATABASE_URL") or ""
-    if not base_url.startswith("postgresql"):
-        path: Path = tmp_path_factory.mktemp("stockraces") / "stock.sqlite3"
-        eng = make_engine(f"sqlite:///{path}")
-        migrate(eng)
-        yield session_factory(eng)
-        eng.dispose()
-        return
-    with scratch_postgres(base_url, "stockraces") as url:
-        eng = make_engine(url)
-        try:
-            yield session_factory(eng)
-        finally:
-            eng.dispose()
-
-
-def _race(factory: sessionmaker[Session], *calls: Callable[[Session], Any]) -> list[str]:
-    """Run each call in its own thread and transaction, released together; their outcomes."""
-    barrier = threading.Barrier(len(calls))
-    out: list[str] = [""] * len(calls)
-
-    def work(i: int, call: Callable[[Session], Any]) -> None:
-        barrier.wait()
-        with factory() as s:
-            try:
-                begin_write(s)
-                call(s)
-                s.commit()
-                out[i] = "ok"
-            except DomainError as exc:
-                s.rollback()
-                out[i] = str(exc.status)
-
-    threads = [threading.Thread(target=work, args=(i, c)) for i, c in enumerate(calls)]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join(timeout=120)
-    assert all(not t.is_alive() for t in threads)
-    return out
+# The race module's own committed database (a SQLite file, or a scratch PostgreSQL one).
+race_engine = races.race_engine
+factory = races.factory
 
 
 def _two_started_orders(factory: sessionmaker[Session], stock_after_issue: int) -> dict[str, int]:
@@ -111,7 +66,7 @@ ALL_REPLACED = CompleteBody(others="replaced")
 @pytest.mark.parametrize("rep", range(REPEATS))
 def test_two_completions_draw_the_last_lamps(factory: sessionmaker[Session], rep: int) -> None:
     k = _two_started_orders(factory, stock_after_issue=2)  # enough for one order only
-    got = _race(
+    got = in_transactions(
         factory,
         lambda s: orders.complete(s, k["a"], ALL_REPLACED),
         lambda s: orders.complete(s, k["b"], ALL_REPLACED),
@@ -131,7 +86,7 @@ def test_completion_and_cancel_of_another_order_keep_sums(
     factory: sessionmaker[Session], rep: int
 ) -> None:
     k = _two_started_orders(factory, stock_after_issue=4)  # both can be served
-    got = _race(
+    got = in_transactions(
         factory,
         lambda s: orders.complete(s, k["a"], ALL_REPLACED),
         lambda s: orders.cancel(s, k["b"], CancelBody(reason="rain")),

@@ -6,11 +6,8 @@ on a database of the module's own; repeated REPEATS times on fresh records.
 
 from __future__ import annotations
 
-import threading
-from collections.abc import Callable
 from datetime import datetime
 from functools import partial
-from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
@@ -21,34 +18,15 @@ from service.register.models import Fixture
 from service.retirement import service as retire
 from service.scheduling.runner import run_site_week
 from service.workorders.models import WorkOrder, WorkOrderLine
+from tests import races
 from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
-from tests.service.workorders import test_order_races as races
+from tests.races import all_at_once
 
 # The race module's own committed database (a SQLite file, or a scratch PostgreSQL one).
 race_engine = races.race_engine
 factory = races.factory
 
 REPEATS = 20
-
-
-def _both(calls: list[Callable[[], Any]]) -> list[Any]:
-    """Run the calls in threads released together; results or the exceptions raised."""
-    barrier = threading.Barrier(len(calls))
-    out: list[Any] = [None] * len(calls)
-
-    def run(i: int) -> None:
-        barrier.wait()
-        try:
-            out[i] = calls[i]()
-        except Exception as exc:  # the test inspects what each got
-            out[i] = exc
-
-    threads = [threading.Thread(target=run, args=(i,)) for i in range(len(calls))]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join()
-    return out
 
 
 def _fixture(make: sessionmaker[Session], hours: float = 0.0) -> tuple[int, int]:
@@ -75,7 +53,7 @@ def test_two_retires_at_once_both_answer_the_same_record(
 ) -> None:
     for _ in range(REPEATS):
         _, fid = _fixture(factory)
-        got = _both([partial(_retire, factory, fid), partial(_retire, factory, fid)])
+        got = all_at_once([partial(_retire, factory, fid), partial(_retire, factory, fid)])
         assert all(isinstance(g, datetime) for g in got), got
         assert got[0] == got[1]
 
@@ -85,7 +63,9 @@ def test_retire_against_weekly_run_never_leaves_a_retired_fixture_on_an_open_ord
 ) -> None:
     for _ in range(REPEATS):
         site_id, fid = _fixture(factory, hours=20_000.0)  # overdue: the run issues a group order
-        got = _both([partial(_retire, factory, fid), partial(run_site_week, factory, site_id)])
+        got = all_at_once(
+            [partial(_retire, factory, fid), partial(run_site_week, factory, site_id)]
+        )
         with factory() as s:
             fixture = s.get(Fixture, fid)
             assert fixture is not None

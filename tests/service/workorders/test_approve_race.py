@@ -7,11 +7,8 @@ order's row lock decides), released together by a barrier, repeated on fresh ord
 
 from __future__ import annotations
 
-import os
 import threading
-from collections.abc import Iterator
 from datetime import timedelta
-from pathlib import Path
 
 import pytest
 from sqlalchemy import func, select
@@ -19,35 +16,21 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import DomainError
 from service.db.base import utcnow
-from service.db.session import begin_write, make_engine, session_factory
+from service.db.session import begin_write
 from service.stock import ledger
 from service.stock.models import StockBalance, StockMovement, Storeroom, StoreroomSite
 from service.workorders import service as orders
 from service.workorders.models import WorkOrder
 from service.workorders.schemas import WorkOrderCreate
 from tests import factories as fx
-from tests.conftest import migrate, scratch_postgres
+from tests import races
 
 REPEATS = 6
 
 
-@pytest.fixture(scope="module")
-def factory(tmp_path_factory: pytest.TempPathFactory) -> Iterator[sessionmaker[Session]]:
-    """Sessions on a migrated database of this module's own: the threads commit for real."""
-    base_url = os.environ.get("TEST_DATABASE_URL") or ""
-    if not base_url.startswith("postgresql"):
-        path: Path = tmp_path_factory.mktemp("approve") / "approve.sqlite3"
-        eng = make_engine(f"sqlite:///{path}")
-        migrate(eng)
-        yield session_factory(eng)
-        eng.dispose()
-        return
-    with scratch_postgres(base_url, "approverace") as url:
-        eng = make_engine(url)
-        try:
-            yield session_factory(eng)
-        finally:
-            eng.dispose()
+# The race module's own committed database (a SQLite file, or a scratch PostgreSQL one).
+race_engine = races.race_engine
+factory = races.factory
 
 
 def _draft(factory: sessionmaker[Session], rep: int) -> dict[str, int]:

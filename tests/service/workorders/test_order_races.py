@@ -7,65 +7,33 @@ or a scratch PostgreSQL database), and is repeated REPEATS times on fresh record
 
 from __future__ import annotations
 
-import os
 import threading
-from collections.abc import Callable, Iterator
 from datetime import timedelta
-from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import Engine, func, select, text
-from sqlalchemy.engine import make_url
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session, sessionmaker
 
 from service.api.errors import DomainError
 from service.db.base import utcnow
-from service.db.session import begin_write, make_engine, session_factory
+from service.db.session import begin_write
 from service.events import burnouts
 from service.events.models import BurnoutReport, LampRemoval
 from service.scheduling.runner import run_site_week
 from service.workorders import service as orders
 from service.workorders.models import WorkOrder, WorkOrderLine
 from service.workorders.schemas import CancelBody, CompleteBody, WorkOrderCreate
-from tests.conftest import migrate
+from tests import races
 from tests.factories import plan_area, plan_fixtures, plan_lamp_type, plan_site
+from tests.races import in_transactions
 
 REPEATS = 20
 
 
-@pytest.fixture(scope="module")
-def race_engine(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Engine]:
-    """A migrated database of this module's own: the threads commit for real."""
-    base_url = os.environ.get("TEST_DATABASE_URL") or ""
-    if not base_url.startswith("postgresql"):
-        path: Path = tmp_path_factory.mktemp("races") / "races.sqlite3"
-        eng = make_engine(f"sqlite:///{path}")
-        migrate(eng)
-        yield eng
-        eng.dispose()
-        return
-    base = make_url(base_url)
-    name = f"scratch_races_{os.getpid()}"
-    admin = make_engine(base.set(database="postgres").render_as_string(hide_password=False))
-    with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
-        conn.execute(text(f'CREATE DATABASE "{name}"'))
-    eng = make_engine(base.set(database=name).render_as_string(hide_password=False))
-    migrate(eng)
-    try:
-        yield eng
-    finally:
-        eng.dispose()
-        with admin.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
-            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
-        admin.dispose()
-
-
-@pytest.fixture(scope="module")
-def factory(race_engine: Engine) -> sessionmaker[Session]:
-    """Sessions on the module's database."""
-    return session_factory(race_engine)
+# The race module's own committed database (a SQLite file, or a scratch PostgreSQL one).
+race_engine = races.race_engine
+factory = races.factory
 
 
 def _area(factory: sessionmaker[Session], *, reports: int = 0) -> tuple[int, int]:
@@ -94,32 +62,6 @@ def _order(factory: sessionmaker[Session], area_id: int, *, started: bool) -> in
         return order.id
 
 
-def _race(factory: sessionmaker[Session], *calls: Callable[[Session], Any]) -> list[str]:
-    """Run each call in its own thread and transaction, released together; their outcomes."""
-    barrier = threading.Barrier(len(calls))
-    out: list[str] = [""] * len(calls)
-
-    def work(i: int, call: Callable[[Session], Any]) -> None:
-        barrier.wait()
-        with factory() as s:
-            try:
-                begin_write(s)
-                call(s)
-                s.commit()
-                out[i] = "ok"
-            except DomainError as exc:
-                s.rollback()
-                out[i] = str(exc.status)
-
-    threads = [threading.Thread(target=work, args=(i, c)) for i, c in enumerate(calls)]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join(timeout=120)
-    assert all(not t.is_alive() for t in threads)
-    return out
-
-
 def _count(factory: sessionmaker[Session], stmt: Any) -> int:
     with factory() as s:
         return int(s.scalar(stmt) or 0)
@@ -132,7 +74,7 @@ ALL_REPLACED = CompleteBody(others="replaced")
 def test_two_completes_record_removals_once(factory: sessionmaker[Session], rep: int) -> None:
     _, area_id = _area(factory)
     oid = _order(factory, area_id, started=True)
-    got = _race(
+    got = in_transactions(
         factory,
         lambda s: orders.complete(s, oid, ALL_REPLACED),
         lambda s: orders.complete(s, oid, ALL_REPLACED),
@@ -151,7 +93,7 @@ def test_two_completes_record_removals_once(factory: sessionmaker[Session], rep:
 def test_complete_against_cancel_has_one_winner(factory: sessionmaker[Session], rep: int) -> None:
     _, area_id = _area(factory)
     oid = _order(factory, area_id, started=True)
-    got = _race(
+    got = in_transactions(
         factory,
         lambda s: orders.complete(s, oid, ALL_REPLACED),
         lambda s: orders.cancel(s, oid, CancelBody(reason="lift not available")),
@@ -169,7 +111,9 @@ def test_complete_against_cancel_has_one_winner(factory: sessionmaker[Session], 
 def test_two_group_creates_for_one_area(factory: sessionmaker[Session], rep: int) -> None:
     _, area_id = _area(factory)
     body = WorkOrderCreate(area_id=area_id, kind="group_relamp")
-    got = _race(factory, lambda s: orders.create(s, body), lambda s: orders.create(s, body))
+    got = in_transactions(
+        factory, lambda s: orders.create(s, body), lambda s: orders.create(s, body)
+    )
     assert sorted(got) == ["409", "ok"]
     n = select(func.count()).select_from(WorkOrder).where(WorkOrder.area_id == area_id)
     assert _count(factory, n) == 1
@@ -208,7 +152,9 @@ def _reports_single_homed(factory: sessionmaker[Session], area_id: int) -> None:
 def test_two_spot_creates_over_the_same_reports(factory: sessionmaker[Session], rep: int) -> None:
     _, area_id = _area(factory, reports=2)
     body = WorkOrderCreate(area_id=area_id, kind="spot_replacement")
-    got = _race(factory, lambda s: orders.create(s, body), lambda s: orders.create(s, body))
+    got = in_transactions(
+        factory, lambda s: orders.create(s, body), lambda s: orders.create(s, body)
+    )
     assert sorted(got) == ["409", "ok"]
     spot = select(func.count()).select_from(WorkOrder).where(WorkOrder.area_id == area_id)
     assert _count(factory, spot) == 1
@@ -266,7 +212,7 @@ def test_group_completion_against_its_covered_spot_order(
         s.commit()
         spot_id = spot.id
     gid = _order(factory, area_id, started=True)
-    got = _race(
+    got = in_transactions(
         factory,
         lambda s: orders.complete(s, gid, ALL_REPLACED),
         lambda s: orders.complete(s, spot_id, ALL_REPLACED),
