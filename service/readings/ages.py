@@ -117,6 +117,27 @@ def _scope(
     return cond
 
 
+def _fixture_scope(fixture_cond: list[ColumnElement[bool]], position_ids: list[int] | None) -> Any:
+    """Fixtures that may hold positions in scope (a superset: fixture conditions only).
+
+    None for every fixture. The records and readings of its fixtures without positions in
+    scope are loaded too and never looked up: results are as for the exact scope, and the
+    query is a plain scan of the fixtures instead of their join with the positions, which
+    the old subquery repeated in every query (about 0.5 s each at 100,000 positions).
+    """
+    cond = list(fixture_cond)
+    if position_ids is not None:
+        some = select(LampPosition.fixture_id).where(LampPosition.id.in_(position_ids))
+        cond.append(Fixture.id.in_(some))
+    return select(Fixture.id).where(*cond) if cond else None
+
+
+def in_scope(column: Any, scope: Any) -> ColumnElement[bool]:
+    """column IN (scope), or NOT NULL when the scope is every fixture."""
+    out: ColumnElement[bool] = column.is_not(None) if scope is None else column.in_(scope)
+    return out
+
+
 def empty_ages(at: datetime) -> PositionAges:
     """Ages of no positions."""
     i = np.zeros(0, dtype=np.int64)
@@ -201,18 +222,25 @@ def _load_areas(session: Session, area_ids: IntArray) -> AreaRates:
 
 
 def _load_records(
-    session: Session, fixture_scope: Any, area_scope: Any, since: datetime, at: datetime
+    session: Session, fixture_scope: Any, area_ids: list[int], since: datetime, at: datetime
 ) -> tuple[IntArray, FloatArray]:
-    """Fixtures in scope that carry their own burn-hour records, and the records themselves."""
+    """Fixtures in scope that carry their own burn-hour records, and the records themselves.
+
+    fixture_scope may be a superset (_fixture_scope): extra fixtures are never looked up.
+    """
     dialect = session.connection().dialect.name
     own_fixtures = np.array(
         session.scalars(
             select(BurnHourRecord.fixture_id)
-            .where(BurnHourRecord.fixture_id.in_(fixture_scope))
+            .where(in_scope(BurnHourRecord.fixture_id, fixture_scope))
             .distinct()
         ).all(),
         dtype=np.int64,
     )
+    # Only fixtures with records of their own can have any (none: the area records only).
+    target: ColumnElement[bool] = BurnHourRecord.area_id.in_(area_ids)
+    if own_fixtures.size:
+        target = or_(target, in_scope(BurnHourRecord.fixture_id, fixture_scope))
     rec = float_matrix(
         session,
         select(
@@ -221,14 +249,7 @@ def _load_records(
             epoch(BurnHourRecord.period_end, dialect),
             BurnHourRecord.hours,
             BurnHourRecord.starts,
-        ).where(
-            or_(
-                BurnHourRecord.fixture_id.in_(fixture_scope),
-                BurnHourRecord.area_id.in_(area_scope),
-            ),
-            BurnHourRecord.period_end > since,
-            BurnHourRecord.period_start < at,
-        ),
+        ).where(target, BurnHourRecord.period_end > since, BurnHourRecord.period_start < at),
         5,
     )
     return own_fixtures, rec
@@ -362,17 +383,18 @@ def position_ages(
     the positions, their areas, the burn-hour records and the voltage readings, each once.
     """
     at = utcnow() if at is None else at
-    cond = _scope(site_id, area_id, fixture_id, lamp_type_id, position_ids)
+    fixture_cond = _scope(site_id, area_id, fixture_id, lamp_type_id, None)
     if active_only:
-        cond.append(Fixture.retired_at.is_(None))
+        fixture_cond.append(Fixture.retired_at.is_(None))
+    cond = [*fixture_cond, *_scope(None, None, None, None, position_ids)]
     matrix = _load_positions(session, cond, session.connection().dialect.name)
     if matrix.shape[0] == 0:
         return empty_ages(at)
-    fixture_scope = select(Fixture.id).join(LampPosition, LampPosition.fixture_id == Fixture.id)
-    fixture_scope = fixture_scope.where(*cond) if cond else fixture_scope
-    area_scope = select(Fixture.area_id).where(Fixture.id.in_(fixture_scope))
-    areas = _load_areas(session, matrix[:, 2].astype(np.int64))
-    own, rec = _load_records(session, fixture_scope, area_scope, records_since(matrix, at), at)
+    fixture_scope = _fixture_scope(fixture_cond, position_ids)
+    area_ids = np.unique(matrix[:, 2]).astype(np.int64)
+    areas = _load_areas(session, area_ids)
+    area_list = area_ids.tolist()
+    own, rec = _load_records(session, fixture_scope, area_list, records_since(matrix, at), at)
     aged = compute_ages(
         AgeInputs(positions=matrix, areas=areas, own_fixtures=own, records=rec, at=at)
     )
@@ -380,7 +402,7 @@ def position_ages(
     volts, source, history = reading_voltages(
         session,
         fixture_scope,
-        area_scope,
+        area_list,
         a.fixture_id,
         a.area_id,
         at,
