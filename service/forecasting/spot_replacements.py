@@ -11,6 +11,10 @@ M the ordinary renewal function of a new lamp (service.reliability.renewal). For
 is the renewal equation itself, N_0(w) = M(w). The Stieltjes integral is a midpoint sum over
 NODES cells of [0, w]. Weibull scaling: with u = t/eta, M_eta(t) = M_1(t/eta), so one renewal
 curve per shape (lamp type) serves every position whatever its voltage-scaled eta.
+
+Positions of one type with the same (age, window) in scale units (lamps put in together in
+one area) have the same N_a(w): it is computed once per distinct pair and copied back,
+the same arithmetic per pair, so the values are those of the per-position sum.
 """
 
 from __future__ import annotations
@@ -18,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from service.reliability.renewal import weibull_renewal
+from service.reliability.renewal import RenewalCurve, weibull_renewal
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -44,19 +48,41 @@ def expected_replacements(
         idx = np.nonzero((type_index == k) & (u_win > 0))[0]
         if idx.size == 0:
             continue
+        first, inverse = _distinct_pairs(u_age[idx], u_win[idx])
+        rep = idx[first]
         beta = float(shape[k])
-        umax = float(u_win[idx].max())
+        umax = float(u_win[rep].max())
         curve = weibull_renewal(beta, 1.0, umax * 1.0001, GRID)
-        frac = np.linspace(0.0, 1.0, NODES + 1)
-        mid = 0.5 * (frac[1:] + frac[:-1])
-        for lo in range(0, idx.size, CHUNK):
-            sel = idx[lo : lo + CHUNK]
-            a = u_age[sel][:, None]
-            w = u_win[sel][:, None]
-            x = w * frac[None, :]
-            # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
-            f_a = -np.expm1(-(np.power(a + x, beta) - np.power(a, beta)))
-            d_f = np.diff(f_a, axis=1)
-            m_mid = curve.at(w * (1.0 - mid[None, :]))
-            out[sel] = f_a[:, -1] + np.sum(d_f * m_mid, axis=1)
+        vals = _delayed_renewal(curve, beta, u_age[rep], u_win[rep])
+        out[idx] = vals[inverse]
     return out
+
+
+def _delayed_renewal(
+    curve: RenewalCurve, beta: float, u_age: FloatArray, u_win: FloatArray
+) -> FloatArray:
+    """N_a(w) in scale units by the midpoint Stieltjes sum, CHUNK rows at a time."""
+    out = np.empty(u_age.size)
+    frac = np.linspace(0.0, 1.0, NODES + 1)
+    mid = 0.5 * (frac[1:] + frac[:-1])
+    for lo in range(0, u_age.size, CHUNK):
+        a = u_age[lo : lo + CHUNK][:, None]
+        w = u_win[lo : lo + CHUNK][:, None]
+        x = w * frac[None, :]
+        # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
+        f_a = -np.expm1(-(np.power(a + x, beta) - np.power(a, beta)))
+        d_f = np.diff(f_a, axis=1)
+        m_mid = curve.at(w * (1.0 - mid[None, :]))
+        out[lo : lo + CHUNK] = f_a[:, -1] + np.sum(d_f * m_mid, axis=1)
+    return out
+
+
+def _distinct_pairs(a: FloatArray, b: FloatArray) -> tuple[IntArray, IntArray]:
+    """First index of each distinct (a, b) pair and each element's pair number (NaN: unique)."""
+    order = np.lexsort((b, a))
+    sa, sb = a[order], b[order]
+    new = np.ones(a.size, dtype=bool)
+    new[1:] = (sa[1:] != sa[:-1]) | (sb[1:] != sb[:-1])
+    inverse = np.empty(a.size, dtype=np.int64)
+    inverse[order] = np.cumsum(new) - 1
+    return order[new], inverse
