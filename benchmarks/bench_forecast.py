@@ -7,7 +7,14 @@ the position ages, fleet evaluation, per-position renewal and crossing dates. Sc
 databases only (bench_forecast), never the test database.
 
 Run: python benchmarks/bench_forecast.py [sqlite|postgresql|both] [--sizes 5000,50000] [--quick]
-P6: 100,000 positions (target <= 1 s); P8: the same at the other sizes (growth).
+P6: 100,000 positions (target <= 1 s); P8: the same at the other sizes (growth). Beside it,
+the ages phase (readings.ages.position_ages of the site: its queries and arithmetic) against
+a bare fetch of its main rows in the same run (the positions query, driver tuples into
+numpy, as every float matrix was read before); peak memory of one forecast request
+(tracemalloc, numpy's arrays included) and the process's peak RSS are printed after.
+PostgreSQL tables are ANALYZEd after the load, as autovacuum would do after a bulk insert
+(the test server runs with autovacuum off; without statistics the planner takes nested
+loops over 50,000 fixtures).
 """
 
 from __future__ import annotations
@@ -188,6 +195,8 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
     t = time.perf_counter()
     prepare(url)
     site_id, key = load(url)
+    if url.startswith("postgresql"):
+        analyze(url)
     print(f"[{label}] load: {time.perf_counter() - t:.1f} s ({N_FIXTURES * LAMPS:,} positions)")
     os.environ["LAMPKEEPER_DATABASE_URL"] = url
     from fastapi.testclient import TestClient
@@ -220,6 +229,8 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
         repeats=repeats,
         target=target if positions == 100_000 else "linear growth",
     )
+    ages_phase(label, table, site_id, repeats)
+    peak_memory(label, call)
     body = answers[-1].json()
     s = body["summary"]
     print(
@@ -228,6 +239,54 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
     )
     get_engine().dispose()
     get_engine.cache_clear()
+
+
+def analyze(url: str) -> None:
+    """Planner statistics, as autovacuum gathers them after a bulk load."""
+    from sqlalchemy import create_engine, text
+
+    eng = create_engine(url, isolation_level="AUTOCOMMIT")
+    with eng.connect() as c:
+        c.execute(text("ANALYZE"))
+    eng.dispose()
+
+
+def ages_phase(label: str, table: Table, site_id: int, repeats: int) -> None:
+    """position_ages of the site beside a bare fetch of its positions rows (same session)."""
+    from sqlalchemy.orm import Session
+
+    from service.db.session import get_engine
+    from service.readings.ages import position_ages, positions_select
+    from service.readings.repository import rows_matrix
+    from service.register.models import Fixture
+
+    at = datetime(2026, 1, 1, tzinfo=UTC)
+    with Session(get_engine()) as s:
+        dialect = s.connection().dialect.name
+        cond = [Fixture.site_id == site_id, Fixture.retired_at.is_(None)]
+        table.timed(
+            "P6a" if N_FIXTURES * LAMPS == 100_000 else "P8a",
+            f"ages phase, {N_FIXTURES * LAMPS:,} positions, {label}",
+            lambda: position_ages(s, site_id=site_id, at=at, active_only=True),
+            anchor="bare fetch of the positions rows",
+            anchor_fn=lambda: rows_matrix(s, positions_select(cond, dialect), 11),
+            repeats=repeats,
+        )
+
+
+def peak_memory(label: str, call: Any) -> None:
+    """Peak traced memory of one forecast request, and the process's peak RSS so far."""
+    import resource
+    import tracemalloc
+
+    tracemalloc.start()
+    call()
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(
+        f"[{label}] peak memory of one request: {peak / 2**20:.0f} MB traced, process peak RSS {rss_mb:.0f} MB"
+    )
 
 
 def main() -> int:

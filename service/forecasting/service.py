@@ -175,9 +175,9 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         return float(x.mean()) if x.size else 0.0
 
     p_fail = pf.p_fail[sel]
-    live = np.zeros(pf.ages.size, dtype=bool)
-    live[sel] = True
-    live &= ~pf.ages.burned_out
+    # The burning positions as ascending indices: the same elements in the same order as
+    # a full-length mask would select, without a pass over every position per area.
+    live = np.arange(pf.ages.size)[sel][burning]
     rng = pf.spread.count(pf.p_fail, live)
     return Summary(
         positions=n,
@@ -335,6 +335,7 @@ def forecast(
     ceil_h = _crossings(pf, types, group, n_g, ceiling, rate, "burnout") if n_g else ceiling
 
     areas: list[AreaForecast] = []
+    members = _positions_by_row(group)  # each area's positions, ascending (one sort)
     for g, a in enumerate(area_ids.tolist()):
         zone = ZoneInfo(info[a][4])
         areas.append(
@@ -346,7 +347,7 @@ def forecast(
                 burnout_ceiling=info[a][3],
                 light_floor_date=_to_date(at, float(floor_h[g]), float(rate[g]), zone),
                 burnout_ceiling_date=_to_date(at, float(ceil_h[g]), float(rate[g]), zone),
-                summary=_summary(pf, group == g),
+                summary=_summary(pf, members[g][1]),
             )
         )
     return Forecast(

@@ -148,10 +148,9 @@ def empty_ages(at: datetime) -> PositionAges:
     )
 
 
-def _load_positions(session: Session, cond: list[ColumnElement[bool]], dialect: str) -> FloatArray:
-    """One row per position in scope (the columns _Positions names), in position id order."""
-    matrix = float_matrix(
-        session,
+def positions_select(cond: list[ColumnElement[bool]], dialect: str) -> Any:
+    """The numeric query of the positions in scope (one row each, the columns compute_ages reads)."""
+    return (
         select(
             LampPosition.id,
             LampPosition.fixture_id,
@@ -166,9 +165,13 @@ def _load_positions(session: Session, cond: list[ColumnElement[bool]], dialect: 
             case(_BALLAST_CODE, value=Fixture.ballast_kind, else_=-1),
         )
         .join(Fixture, Fixture.id == LampPosition.fixture_id)
-        .where(*cond),
-        11,
+        .where(*cond)
     )
+
+
+def _load_positions(session: Session, cond: list[ColumnElement[bool]], dialect: str) -> FloatArray:
+    """One row per position in scope (positions_select), in position id order."""
+    matrix = float_matrix(session, positions_select(cond, dialect), 11)
     # Sorted here rather than by the database: ids are unique, and numpy's sort of a few
     # hundred thousand floats is quicker than the server's (which may spill to disk).
     out: FloatArray = matrix[np.argsort(matrix[:, 0], kind="stable")]
