@@ -163,6 +163,8 @@ def fixtures_by_area(area_id: NDArray[np.int64], fixture_id: NDArray[np.int64]) 
     """Number of distinct fixtures per area among the positions."""
     if area_id.size == 0:
         return {}
-    pairs = np.unique(np.stack([area_id, fixture_id], axis=1), axis=0)
-    areas, counts = np.unique(pairs[:, 0], return_counts=True)
+    # One int64 key per (area, fixture): ids are below 2**31 (service.api.ids), and a 1-D
+    # unique is far quicker than np.unique(axis=0) on the pairs.
+    keys = np.unique(area_id.astype(np.int64) * 2**31 + fixture_id.astype(np.int64))
+    areas, counts = np.unique(keys // 2**31, return_counts=True)
     return dict(zip(areas.tolist(), counts.tolist(), strict=True))

@@ -31,7 +31,7 @@ from service.db.base import utcnow
 from service.planning.group_plan import CostInputs
 from service.planning.service import LastRelamps, local_today
 from service.register.models import Site
-from service.stock.forecast import position_cumulative
+from service.stock.forecast import Portfolio, load_portfolio, position_cumulative
 
 MONTHS = 12
 WEEKS = 54  # weeks of spot curves: enough to reach the end of the twelfth month
@@ -121,13 +121,17 @@ def site_budget(
     last_relamps: LastRelamps,
     at: datetime | None = None,
     cleaning_minutes_per_lamp: float = 0.0,
+    loaded: Portfolio | None = None,
 ) -> list[Row]:
-    """A site's twelve months of relamping and energy costs, by split and category."""
-    at = at or utcnow()
+    """A site's twelve months of relamping and energy costs, by split and category.
+
+    loaded: a portfolio load shared with other answers (its moment is then `at`).
+    """
+    at = loaded.at if loaded is not None else (at or utcnow())
     today = local_today(site, at)
     starts = month_starts(today)
     sums: dict[tuple[int, str, str], float] = defaultdict(float)
-    sc = position_cumulative(session, site, at, WEEKS, last_relamps)
+    sc = position_cumulative(session, site, at, WEEKS, last_relamps, loaded=loaded)
     costs = {(p.area.id, g.lamp_type_id): (p, g) for p in sc.plans for g in p.groups}
     visits: set[tuple[int, date]] = set()
     for plan in sc.plans:
@@ -211,17 +215,23 @@ def portfolio(
     last_relamps: LastRelamps,
     at: datetime | None = None,
     cleaning_minutes_per_lamp: float = 0.0,
+    loaded: Portfolio | None = None,
 ) -> list[Row]:
-    """Every active site's budget rows, site by site."""
+    """Every active site's budget rows, site by site, from one load of the portfolio.
+
+    loaded: a load shared with other answers (demand, the to-order list), else made here.
+    """
     sites = session.scalars(select(Site).where(Site.retired_at.is_(None)).order_by(Site.id)).all()
+    if loaded is None:
+        loaded = load_portfolio(session, sites, at or utcnow(), last_relamps)
     rows: list[Row] = []
     for s in sites:
         rows += site_budget(
             session,
             s,
             last_relamps=last_relamps,
-            at=at,
             cleaning_minutes_per_lamp=cleaning_minutes_per_lamp,
+            loaded=loaded,
         )
     return rows
 
