@@ -31,7 +31,7 @@ from service.db.base import utcnow
 from service.planning.group_plan import CostInputs
 from service.planning.service import LastRelamps, local_today
 from service.register.models import Site
-from service.stock.forecast import Portfolio, load_portfolio, position_cumulative
+from service.stock.forecast import Portfolio, SiteCurves, load_portfolio, position_cumulative
 
 MONTHS = 12
 WEEKS = 54  # weeks of spot curves: enough to reach the end of the twelfth month
@@ -102,16 +102,50 @@ def _spot_per_group(
     lamp_type_id: NDArray[np.int64],
     inc: NDArray[np.float64],
     dark: NDArray[np.bool_],
-) -> list[tuple[tuple[int, int], NDArray[np.float64]]]:
+) -> tuple[list[tuple[int, int]], NDArray[np.float64]]:
     """Weekly spot lamps per (area, lamp type), dark lamps in week one; one pass, no masks."""
-    pairs = np.stack([area_id, lamp_type_id], axis=1)
-    uniq, inv = np.unique(pairs, axis=0, return_inverse=True)
+    # One int64 key per pair (ids are below 2**31, service.api.ids), sorting as the pairs do.
+    key = area_id.astype(np.int64) * 2**31 + lamp_type_id.astype(np.int64)
+    uniq, inv = np.unique(key, return_inverse=True)
     inv = np.asarray(inv).ravel()
     sums_w = np.zeros((len(uniq), inc.shape[1]))
-    np.add.at(sums_w, inv, inc)
+    if inv.size and inc.shape[1]:  # rows of each pair summed in order (np.add.at, faster)
+        order = np.argsort(inv, kind="stable")
+        first = np.searchsorted(inv[order], np.arange(len(uniq)))
+        sums_w = np.add.reduceat(inc[order], first, axis=0)
     if inc.shape[1]:
         sums_w[:, 0] += np.bincount(inv, weights=dark.astype(float), minlength=len(uniq))
-    return [((int(a), int(t)), sums_w[i]) for i, (a, t) in enumerate(uniq.tolist())]
+    pairs = [(int(k // 2**31), int(k % 2**31)) for k in uniq.tolist()]
+    return pairs, sums_w
+
+
+def _spot_rows(
+    sc: SiteCurves,
+    costs: dict[tuple[int, int], CostInputs],
+    at: datetime,
+    starts: list[date],
+    sums: dict[tuple[int, str, str], float],
+) -> None:
+    """Add the spot split: weekly expected replacements per (area, lamp type) by week start,
+    priced as spot_cost prices them (every group and month in one array step)."""
+    inc = np.diff(sc.cum, axis=1)
+    pairs, per_week = _spot_per_group(sc.area_id, sc.lamp_type_id, inc, sc.dark)
+    week_month = [month_of(at.date() + timedelta(weeks=w), starts) for w in range(WEEKS)]
+    to_month = np.zeros((WEEKS, MONTHS))  # which budget month each week falls in
+    for w, wm in enumerate(week_month):
+        if wm is not None:
+            to_month[w, wm] = 1.0
+    keep = [i for i, pr in enumerate(pairs) if pr in costs]
+    if not keep:
+        return
+    lamps = per_week[keep] @ to_month  # groups x months: expected spot lamps
+    cs = [costs[pairs[i]] for i in keep]
+    unit = {  # per lamp, by category, as spot_cost prices one lamp
+        cat: np.array([spot_cost(c, 1.0)[cat] for c in cs]) for cat in spot_cost(cs[0], 1.0)
+    }
+    for cat, price in unit.items():
+        for m, amount in enumerate((price @ lamps).tolist()):
+            sums[(m, "spot", cat)] += amount
 
 
 def site_budget(
@@ -134,10 +168,10 @@ def site_budget(
     sc = position_cumulative(session, site, at, WEEKS, last_relamps, loaded=loaded)
     costs = {(p.area.id, g.lamp_type_id): (p, g) for p in sc.plans for g in p.groups}
     visits: set[tuple[int, date]] = set()
+    days_in_month = [(starts[i + 1] - starts[i]).days for i in range(MONTHS)]
     for plan in sc.plans:
         for g in plan.groups:
             c = g.costs
-            days_in_month = [(starts[i + 1] - starts[i]).days for i in range(MONTHS)]
             for i, days in enumerate(days_in_month):  # energy: watts x hours x tariff
                 hours = plan.weekly_burn_hours * days / 7.0
                 kwh = g.positions * c.lamp_watts * g.group.power_factor * hours / 1000.0
@@ -161,18 +195,7 @@ def site_budget(
                 if step.days < 1:
                     break
                 day = day + step
-    # Spot: weekly expected replacements per (area, lamp type), binned by week start.
-    inc = np.diff(sc.cum, axis=1)
-    week_month = [month_of(at.date() + timedelta(weeks=w), starts) for w in range(WEEKS)]
-    for (area_id, lt), per_week in _spot_per_group(sc.area_id, sc.lamp_type_id, inc, sc.dark):
-        if (area_id, lt) not in costs:
-            continue
-        c = costs[(area_id, lt)][1].costs
-        for w, wm in enumerate(week_month):
-            if wm is None:
-                continue
-            for cat, amount in spot_cost(c, float(per_week[w])).items():
-                sums[(wm, "spot", cat)] += amount
+    _spot_rows(sc, {k: v[1].costs for k, v in costs.items()}, at, starts, sums)
     rows: list[Row] = []
     for i in range(MONTHS):
         label = starts[i].strftime("%Y-%m")
