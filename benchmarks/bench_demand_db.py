@@ -3,11 +3,13 @@
 Builds the weekly-run benchmark's invented portfolio (bench_weekly_run.load: 10 sites, 100,000
 fixtures, 300,000 lamp positions) in a scratch database (default bench_demand_db), gives each
 site a storeroom stocking every lamp type, then times D2: every storeroom's weekly demand
-(26 weeks) and to-order list plus every site's 12-month budget, as the API computes them.
+(26 weeks) and to-order list plus every site's 12-month budget, all from one portfolio load
+and plan (stock.forecast.load_portfolio, as the portfolio budget computes it).
 The anchor, in the same run: loading the same positions' ages (readings.ages), the database
 read every one of those answers starts from.
 
-Run: python benchmarks/bench_demand_db.py [URL] [--quick] [--repeats N]
+Run: python benchmarks/bench_demand_db.py [URL] [--quick] [--repeats N] [--reuse]
+(--reuse: time an earlier run's database again without rebuilding it)
 """
 
 from __future__ import annotations
@@ -16,7 +18,7 @@ import sys
 from pathlib import Path
 
 import numpy as np
-from sqlalchemy import insert
+from sqlalchemy import insert, select
 from sqlalchemy.orm import Session, sessionmaker
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
@@ -25,11 +27,12 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import bench_weekly_run as portfolio
 from _table import Table, parser
 
+from service.db.base import utcnow
 from service.db.session import make_engine
 from service.readings.ages import position_ages
 from service.register.models import Site
 from service.stock import budget
-from service.stock.forecast import storeroom_demand, to_order
+from service.stock.forecast import load_portfolio, storeroom_demand, to_order
 from service.stock.models import StockBalance, Storeroom, StoreroomSite
 from service.stock.service import balances
 from service.workorders.repository import last_group_relamps
@@ -57,14 +60,15 @@ def stock(url: str, sites: list[int]) -> list[int]:
 
 
 def figure(factory: sessionmaker[Session], rooms: list[int]) -> object:
-    """Every storeroom's demand and to-order list, every site's budget."""
+    """Every storeroom's demand and to-order list, every site's budget, from one load."""
     with factory() as s:
+        sites = s.scalars(select(Site).where(Site.retired_at.is_(None)).order_by(Site.id)).all()
+        loaded = load_portfolio(s, sites, utcnow(), last_group_relamps)
         out: list[object] = []
         for r in rooms:
-            sd = storeroom_demand(s, r, last_relamps=last_group_relamps)
+            sd = storeroom_demand(s, r, last_relamps=last_group_relamps, loaded=loaded)
             out.append(to_order(sd, balances(s, r), s))
-        for site in s.query(Site).order_by(Site.id).all():
-            out.append(budget.site_budget(s, site, last_relamps=last_group_relamps))
+        out.append(budget.portfolio(s, last_relamps=last_group_relamps, loaded=loaded))
         return out
 
 
@@ -78,12 +82,16 @@ def main() -> int:
     """Build, load, time."""
     ap = parser(__doc__, default_repeats=3)
     ap.add_argument("url", nargs="?", default=URL)
+    ap.add_argument("--reuse", action="store_true", help="time an earlier run's database")
     args = ap.parse_args()
     if args.quick:
         portfolio.FIXTURES_PER_AREA = 10  # 10,000 fixtures
-    portfolio.rebuild(args.url)
-    sites = portfolio.load(args.url, np.random.default_rng(7))
-    rooms = stock(args.url, sites)
+    if args.reuse:  # the database of an earlier run, as it was left
+        sites = rooms = list(range(1, portfolio.N_SITES + 1))
+    else:
+        portfolio.rebuild(args.url)
+        sites = portfolio.load(args.url, np.random.default_rng(7))
+        rooms = stock(args.url, sites)
     engine = make_engine(args.url)
     factory = sessionmaker(bind=engine, expire_on_commit=False)
     n = len(sites) * portfolio.AREAS_PER_SITE * portfolio.FIXTURES_PER_AREA

@@ -7,7 +7,9 @@ through the ASGI app: server time without a network). Anchors measured in the sa
 the API calls that compute the same plans and forecast (every site's relamp plan; the
 area's relamp plan and forecast) and a bare SQL count of the fixtures.
 
-Rows G1 (overview) and G2 (area page), target at most 1 s each.
+Rows G1 (overview) and G2 (area page), target at most 1 s each; G3a-d the overview's phases
+(position ages, the rest of the portfolio plans, the weekly burnout chart, this year's
+spend), each beside the whole overview's server-side work measured in the same loop.
 Run: python benchmarks/bench_web_pages.py [postgresql+psycopg://postgres@127.0.0.1:5432/bench_web]
 [--repeats N] [--quick] [--json PATH]. Add --profile to print the top of a cProfile of one
 overview (--profile-only: just that), --reuse to time an earlier run's database again
@@ -110,6 +112,7 @@ def main() -> int:
             profile(get(client, "/app"))
             return 0
         time_pages(table, client, api, sites, area_id, n_fix, median_s(sql_count, repeats), repeats)
+        time_phases(table, engine, repeats)
         if args.profile:
             profile(get(client, "/app"))
     engine.dispose()
@@ -174,6 +177,55 @@ def time_pages(
             "<= 1 s",
         )
     )
+
+
+def time_phases(table: Table, engine: Any, repeats: int) -> None:
+    """G3a-d: the overview's phases on one session, each repeat timing every phase once."""
+    from service.db.base import utcnow
+    from service.planning import portfolio
+    from service.readings.ages import position_ages
+    from service.web import charts, queries
+    from service.workorders.repository import last_group_relamps
+    from service.workorders.spend import spend_this_year
+
+    laps: dict[str, list[float]] = {"ages": [], "plans": [], "chart": [], "spend": []}
+    for i in range(repeats + 1):  # the first is a warm-up
+        with Session(engine) as s:
+            now = utcnow()
+            sites = queries.sites(s)
+            t0 = time.perf_counter()
+            position_ages(s, at=now, active_only=True)
+            t1 = time.perf_counter()
+            pf = portfolio.portfolio_plans(s, sites, now, last_relamps=last_group_relamps)
+            t2 = time.perf_counter()
+            due = [p.due_on for p in pf.plans if p.due_on]
+            charts.weekly_burnouts(s, now, due, now.date(), loaded=(pf.ages, pf.types))
+            t3 = time.perf_counter()
+            spend_this_year(s, sites, pf.plans, now)
+            t4 = time.perf_counter()
+        if i:
+            laps["ages"].append(t1 - t0)
+            laps["plans"].append((t2 - t1) - (t1 - t0))  # portfolio_plans loads ages itself
+            laps["chart"].append(t3 - t2)
+            laps["spend"].append(t4 - t3)
+    whole = statistics.median([sum(v[i] for v in laps.values()) for i in range(repeats)])
+    names = {
+        "ages": "G3a phase: position ages (readings.ages)",
+        "plans": "G3b phase: portfolio plans without the ages",
+        "chart": "G3c phase: weekly burnout chart",
+        "spend": "G3d phase: this year's spend",
+    }
+    for key, label in names.items():
+        table.add(
+            Row(
+                label.split()[0],
+                label.split(" ", 1)[1],
+                statistics.median(laps[key]),
+                "the four phases together",
+                whole,
+                repeats,
+            )
+        )
 
 
 def profile(call: Callable[[], None]) -> None:

@@ -86,11 +86,19 @@ def group_ages(
         return out
     order = np.argsort(area_of, kind="stable")
     cuts = np.nonzero(np.diff(area_of[order]))[0] + 1
+    inside = np.zeros(area_of.size, dtype=bool)
     for idx in np.split(order, cuts) if order.size else []:  # positions of one area at a time
         cl = installation_cluster(installed_s[idx])
-        if cl is None:
-            continue
-        members = idx[cl.inside]
-        for g in np.unique(group_of[members]).tolist():
-            out[g] = float(np.median(age_h[members[group_of[members] == g]]))
+        if cl is not None:
+            inside[idx[cl.inside]] = True
+    members = np.nonzero(inside)[0]
+    if members.size == 0:
+        return out
+    # Every group's median at once: members sorted by (group, age), the middle one (or the
+    # mean of the middle two) of each group's run, as np.median takes it.
+    g, a = group_of[members], age_h[members]
+    by = np.lexsort((a, g))
+    g, a = g[by], a[by]
+    groups, first, count = np.unique(g, return_index=True, return_counts=True)
+    out[groups] = (a[first + (count - 1) // 2] + a[first + count // 2]) / 2.0
     return out

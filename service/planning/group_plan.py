@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 
 from service.catalogue.lamp_model import LampModel
-from service.planning.maintained import floor_hours
+from service.planning.maintained import FloorCase, floor_hours, floor_hours_many
 from service.reliability.block_batch import ScaledProblems, plan_block_replacement_scaled
 from service.reliability.conditions import (
     VoltageEffect,
@@ -231,11 +231,14 @@ def _prepared(
     ve: VoltageEffect,
     swf: float,
     warnings: list[str],
+    floor_known: float | None = None,
 ) -> _Prepared:
     mean_h = life.mean()
     horizon = HORIZON_MEANS * mean_h
     floor_h = None
-    if cond.light_floor is not None:
+    if cond.light_floor is not None and floor_known is not None:  # found for many at once
+        floor_h = floor_known if math.isfinite(floor_known) else None
+    elif cond.light_floor is not None:
         h = light_floor_hours(
             model,
             life,
@@ -290,17 +293,33 @@ def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepar
         model.second_life_ratio,
         default_slope=model.switching_slope,
     )
-    result = []
+    result: list[_Prepared | None] = [None] * len(conds)
+    lives: dict[int, tuple[Weibull, VoltageEffect, float, list[str]]] = {}
     for i, cond in enumerate(conds):
         if scalar[i]:
-            result.append(_prepare(model, cond))
+            result[i] = _prepare(model, cond)
             continue
         ve = VoltageEffect(float(life[i]), float(light[i]), float(power[i]), ())
         swf = float(sw[i])
         words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warn[i])
-        scaled = Weibull(model.shape, model.scale_h * ve.life_factor * swf)
-        result.append(_prepared(model, cond, scaled, ve, swf, words))
-    return result
+        lives[i] = (Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve, swf, words)
+    # Every light floor of this model in one pass (maintained.floor_hours_many).
+    floored = [i for i in lives if conds[i].light_floor is not None]
+    cases = [
+        FloorCase(
+            life=lives[i][0],
+            floor=float(conds[i].light_floor),  # type: ignore[arg-type]
+            horizon_h=HORIZON_MEANS * lives[i][0].mean(),
+            light_factor=lives[i][1].light_factor,
+            dirt=conds[i].dirt,
+            weekly_h=conds[i].weekly_burn_hours,
+        )
+        for i in floored
+    ]
+    floors = dict(zip(floored, floor_hours_many(model, cases), strict=True))
+    for i, (scaled, ve, swf, words) in lives.items():
+        result[i] = _prepared(model, conds[i], scaled, ve, swf, words, floors.get(i))
+    return [r for r in result if r is not None]
 
 
 def _on_unit_curve(p: _Prepared) -> bool:

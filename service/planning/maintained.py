@@ -128,6 +128,44 @@ def floor_hours(
     return first_below(t, maintained_in_cycle(model, life, t, light_factor, dirt, weekly_h), floor)
 
 
+@dataclass(frozen=True, kw_only=True)
+class FloorCase:
+    """One group's light-floor question (floor_hours' arguments but the model)."""
+
+    life: Weibull
+    floor: float
+    horizon_h: float
+    light_factor: float
+    dirt: DirtRegime | None
+    weekly_h: float
+
+
+def floor_hours_many(model: LampModel, cases: list[FloorCase]) -> list[float]:
+    """floor_hours for many groups of one lamp model: one lumen-curve read for all of them
+    and one dirt read per regime, element by element the same numbers."""
+    if not cases:
+        return []
+    t = np.stack([np.linspace(0.0, c.horizon_h, _GRID) for c in cases])
+    rated = model.lumen_curve.basis != "hours"
+    life_h = np.array([c.life.scale * _LN2 ** (1.0 / c.life.shape) for c in cases])
+    lld = model.lumen_curve.at(t, life_h[:, None] if rated else None)
+    lmf = np.ones_like(t)
+    by_regime: dict[DirtRegime, list[int]] = {}
+    for i, c in enumerate(cases):
+        if c.dirt is not None:
+            by_regime.setdefault(c.dirt, []).append(i)
+    for regime, idx in by_regime.items():
+        weekly = np.array([cases[i].weekly_h for i in idx])
+        years = np.where(
+            (weekly > 0)[:, None],
+            t[idx] / (np.where(weekly > 0, weekly, 1.0) * WEEKS_PER_YEAR)[:, None],
+            0.0,
+        )
+        lmf[idx] = regime.factor_after_relamp(years)
+    light = maintained_light(lld, np.array([c.light_factor for c in cases])[:, None], lmf)
+    return [first_below(t[i], light[i], c.floor) for i, c in enumerate(cases)]
+
+
 @dataclass(frozen=True)
 class CleaningOnly:
     """A cleaning visit without relamping at mid-interval: light before, after, gain, cost."""
@@ -163,6 +201,8 @@ def fixtures_by_area(area_id: NDArray[np.int64], fixture_id: NDArray[np.int64]) 
     """Number of distinct fixtures per area among the positions."""
     if area_id.size == 0:
         return {}
-    pairs = np.unique(np.stack([area_id, fixture_id], axis=1), axis=0)
-    areas, counts = np.unique(pairs[:, 0], return_counts=True)
+    # One int64 key per (area, fixture): ids are below 2**31 (service.api.ids), and a 1-D
+    # unique is far quicker than np.unique(axis=0) on the pairs.
+    keys = np.unique(area_id.astype(np.int64) * 2**31 + fixture_id.astype(np.int64))
+    areas, counts = np.unique(keys // 2**31, return_counts=True)
     return dict(zip(areas.tolist(), counts.tolist(), strict=True))

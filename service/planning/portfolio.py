@@ -63,10 +63,22 @@ def _site_positions(pos: PositionArrays, mask: np.ndarray) -> PositionArrays:
 
 
 def portfolio_plans(
-    session: Session, sites: Sequence[Site], at: datetime, *, last_relamps: LastRelamps
+    session: Session,
+    sites: Sequence[Site],
+    at: datetime,
+    *,
+    last_relamps: LastRelamps,
+    scoped: bool = False,
 ) -> PortfolioPlans:
-    """site_plans for every site, computed from one load of the portfolio."""
-    ages = position_ages(session, at=at, active_only=True)
+    """site_plans for every site, computed from one load of the portfolio.
+
+    scoped: load the positions of these sites only (one site's plans without the rest);
+    else every active position, so the chart sees the whole portfolio.
+    """
+    if scoped and len(sites) == 1:
+        ages = position_ages(session, site_id=sites[0].id, at=at, active_only=True)
+    else:
+        ages = position_ages(session, at=at, active_only=True)
     types = load_fitted_types(session, ages.lamp_type_id, ballast_kinds=ages.ballast_kind)
     pos = from_ages(ages)
     models, curves, ballast = models_of(types, pos) if pos.size else ({}, {}, pos.ballast_kind)

@@ -127,7 +127,8 @@ def luminaire_maintenance_factor(
     """LMF after t years since cleaning: the table interpolated from 1 at t = 0 (vectorised)."""
     t = np.asarray(years_since_cleaning, dtype=np.float64)
     col = _column(luminaire_type, environment)
-    return lmf_interp(np.broadcast_to(col, (*t.shape, col.size)), t)
+    # One table row picked for every t (rows), not the row copied out to t's shape.
+    return lmf_interp(col[None, :], t, np.zeros(t.shape, dtype=np.intp))
 
 
 def lmf_columns(luminaire_types: list[str], environments: list[str]) -> FloatArray:

@@ -8,6 +8,7 @@ arithmetic is the pure modules' (stock.demand, stock.reorder, stock.outlook).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
@@ -17,13 +18,14 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
+from service.catalogue.resolved import TypeTable
 from service.config import get_settings
 from service.db.base import utcnow
-from service.forecasting.fit import load_fitted_types
-from service.forecasting.service import evaluate_positions
-from service.planning.service import AreaPlan, LastRelamps, local_today, site_plans
-from service.readings.ages import position_ages
+from service.planning.portfolio import portfolio_plans
+from service.planning.service import AreaPlan, LastRelamps, local_today
+from service.readings.ages import PositionAges
 from service.register.models import Site
+from service.reliability.fleet import evaluate_fleet
 from service.reliability.renewal import weibull_renewal
 from service.stock import demand, outlook, reorder
 from service.stock.models import StockBalance
@@ -107,32 +109,104 @@ def group_weeks(
     return out
 
 
+@dataclass(frozen=True)
+class SiteLoad:
+    """A site's active positions, their life curves, effective scales and area plans."""
+
+    ages: PositionAges
+    types: TypeTable | None  # None when the site has no positions
+    scale_h: FloatArray  # each position's Weibull scale at its voltage and switching, hours
+    plans: list[AreaPlan]
+
+
+@dataclass(frozen=True)
+class Portfolio:
+    """Every served site's load from one portfolio load (planning.portfolio): demand, the
+    to-order list and the budget share it instead of each planning every site again."""
+
+    at: datetime
+    sites: dict[int, SiteLoad]
+
+
+def effective_scales(ages: PositionAges, types: TypeTable) -> FloatArray:
+    """Each position's Weibull scale at its voltage and switching cycle (hours)."""
+    k = types.index(ages.lamp_type_id, ages.ballast_kind)
+    age = np.where(ages.burned_out, 0.0, ages.age_h)
+    # The scale is the type's times the voltage and switching life factors: no horizon or
+    # supply history enters it (reliability.fleet.evaluate_fleet).
+    scale: FloatArray = evaluate_fleet(
+        types.table, k, age, ages.voltage_v, ages.hours_per_start, 0.0
+    ).scale_h
+    return scale
+
+
+def load_site(session: Session, site: Site, at: datetime, last_relamps: LastRelamps) -> SiteLoad:
+    """One site's load (its positions, curves and plans) for demand and the budget."""
+    return load_portfolio(session, [site], at, last_relamps, scoped=True).sites[site.id]
+
+
+def load_portfolio(
+    session: Session,
+    sites: Sequence[Site],
+    at: datetime,
+    last_relamps: LastRelamps,
+    *,
+    scoped: bool = False,
+) -> Portfolio:
+    """Every given site's load from one load of the positions and one plan of them all.
+
+    scoped: load only these sites' positions (else the whole portfolio's, masked per site).
+    """
+    pf = portfolio_plans(session, sites, at, last_relamps=last_relamps, scoped=scoped)
+    scale = effective_scales(pf.ages, pf.types) if pf.ages.size else np.zeros(0)
+    plans: dict[int, list[AreaPlan]] = {s.id: [] for s in sites}
+    for p in pf.plans:
+        plans[p.site.id].append(p)
+    out: dict[int, SiteLoad] = {}
+    for site in sites:
+        mask = pf.ages.site_id == site.id
+        ages = pf.ages.take(mask)
+        if ages.size == 0:
+            out[site.id] = SiteLoad(ages, None, np.zeros(0), [])
+            continue
+        out[site.id] = SiteLoad(ages, pf.types, scale[mask], plans[site.id])
+    return Portfolio(at, out)
+
+
 def position_cumulative(
     session: Session,
     site: Site,
     at: datetime,
     weeks: int,
     last_relamps: LastRelamps,
+    *,
+    loaded: Portfolio | None = None,
 ) -> SiteCurves:
-    """A site's per-position cumulative spot replacements, with its planned group relamps."""
-    ages = position_ages(session, site_id=site.id, at=at, active_only=True)
+    """A site's per-position cumulative spot replacements, with its planned group relamps.
+
+    loaded: the portfolio's load when the caller has one (else the site is loaded here).
+    """
+    if loaded is not None and site.id in loaded.sites:
+        return site_curves(loaded.sites[site.id], site, at, weeks)
+    return site_curves(load_site(session, site, at, last_relamps), site, at, weeks)
+
+
+def site_curves(sl: SiteLoad, site: Site, at: datetime, weeks: int) -> SiteCurves:
+    """position_cumulative from a site's load (pure)."""
+    ages, types = sl.ages, sl.types
     group_by_type: dict[int, IntArray] = {}
-    if ages.size == 0:
+    if ages.size == 0 or types is None:
         empty = np.zeros((0, weeks + 1))
         return SiteCurves(ages.lamp_type_id, ages.area_id, empty, ages.burned_out, {}, [])
-    types = load_fitted_types(
-        session, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind
-    )
-    pf = evaluate_positions(ages, types, float(weeks))
     k = types.index(ages.lamp_type_id, ages.ballast_kind)
     shape = types.table.shape
-    scale = pf.fleet.scale_h
+    scale = sl.scale_h
     age = np.where(ages.burned_out, 0.0, ages.age_h)
     rate = ages.burn_h_per_week  # burn hours per week
     # Planned group relamps: the week each (area, lamp type) is due, and its lamps.
     today = local_today(site, at)
     due_week: dict[tuple[int, int], int] = {}
-    plans = site_plans(session, site, at, last_relamps=last_relamps)
+    plans = sl.plans
     for plan in plans:
         for g in plan.groups:
             if g.due_on is None:
@@ -143,24 +217,63 @@ def position_cumulative(
                 arr = group_by_type.setdefault(g.lamp_type_id, np.zeros(weeks, dtype=np.int64))
                 arr[wk] += g.positions
     gw = group_weeks(ages.area_id, ages.lamp_type_id, due_week, weeks)
-    n, h1 = ages.size, weeks + 1
-    # Every week boundary in one pass (stock.demand.weekly_cumulative: one convolution per
-    # position), not one delayed-renewal sum per boundary.
-    before = demand.weekly_cumulative(shape, k, scale, age, rate, weeks)
-    win = rate[:, None] * np.arange(h1, dtype=float)[None, :]  # burn hours to each boundary
-    # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
-    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
-    after = np.zeros((n, h1))
-    u = win / scale[:, None]
-    for kk in np.unique(k[gw < weeks]).tolist():
-        sel = (k == kk) & (gw < weeks)
-        curve = weibull_renewal(float(shape[kk]), 1.0, float(u[sel].max()) * 1.0001 + 1e-9, 1000)
-        after[sel] = curve.at(u[sel])
+    before, after = alike_curves(shape, k, scale, age, rate, weeks, gw < weeks)
     cum = demand.cumulative_with_group(before, after, gw)
     # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
     # the group order (its report goes onto it): counting it as spot demand too doubled it.
     dark = demand.dark_spot_lamps(ages.burned_out, gw)
     return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
+
+
+def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """np.unique(keys, axis=0, return_inverse=True) by one lexsort: same rows, same order.
+
+    Rows sort column by column (the first column first), as np.unique's structured view
+    compares them, at a fraction of its cost for a few hundred thousand rows.
+    """
+    n = keys.shape[0]
+    order = np.lexsort(keys.T[::-1])
+    ordered = keys[order]
+    new = np.ones(n, dtype=bool)
+    new[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
+    member = np.empty(n, dtype=np.intp)
+    member[order] = np.cumsum(new) - 1
+    return ordered[new], member
+
+
+def alike_curves(
+    shape: FloatArray,
+    k: IntArray,
+    scale: FloatArray,
+    age: FloatArray,
+    rate: FloatArray,
+    weeks: int,
+    relamped: NDArray[np.bool_],
+) -> tuple[FloatArray, FloatArray]:
+    """(N_a of the lamp in place, M of a new lamp) at week boundaries 0..weeks per position.
+
+    Positions exactly alike in type row, scale, age and burn rate get the same curves, so
+    each distinct set is computed once and handed to its positions (a portfolio's 300,000
+    positions are often a few tens of thousands of such sets): the same numbers as one row
+    per position. relamped: positions a planned group relamp gives a new lamp in the horizon.
+    """
+    n, h1 = age.size, weeks + 1
+    rows, member = unique_rows(np.column_stack([k, scale, age, rate]).astype(np.float64))
+    g_k = rows[:, 0].astype(np.int64)
+    # Every week boundary in one pass (stock.demand.weekly_cumulative: one convolution per
+    # row), not one delayed-renewal sum per boundary.
+    before = demand.weekly_cumulative(shape, g_k, rows[:, 1], rows[:, 2], rows[:, 3], weeks)
+    # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
+    # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
+    after = np.zeros((n, h1))
+    steps = np.arange(h1, dtype=float)[None, :]
+    for kk in np.unique(k[relamped]).tolist():
+        sel = np.nonzero((k == kk) & relamped)[0]
+        pairs, inv = unique_rows(np.column_stack([scale[sel], rate[sel]]))
+        u = pairs[:, 1][:, None] * steps / pairs[:, 0][:, None]  # scales to each boundary
+        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
+        after[sel] = curve.at(u)[inv]
+    return before[member], after
 
 
 def storeroom_demand(
@@ -170,11 +283,15 @@ def storeroom_demand(
     last_relamps: LastRelamps,
     options: Options | None = None,
     at: datetime | None = None,
+    loaded: Portfolio | None = None,
 ) -> StoreDemand:
-    """Weekly demand per lamp type over the horizon for every site the storeroom serves."""
+    """Weekly demand per lamp type over the horizon for every site the storeroom serves.
+
+    loaded: a portfolio load shared with other answers (its moment is then the as-of).
+    """
     get_storeroom(session, storeroom_id)
     opt = options or Options.of()
-    at = at or utcnow()
+    at = loaded.at if loaded is not None else (at or utcnow())
     sites = site_ids_of(session, [storeroom_id])[storeroom_id]
     parts: list[tuple[IntArray, FloatArray, NDArray[np.bool_]]] = []
     groups: dict[int, IntArray] = {}
@@ -182,7 +299,7 @@ def storeroom_demand(
         site = session.get(Site, sid)
         if site is None or site.retired_at is not None:
             continue
-        sc = position_cumulative(session, site, at, opt.weeks, last_relamps)
+        sc = position_cumulative(session, site, at, opt.weeks, last_relamps, loaded=loaded)
         parts.append((sc.lamp_type_id, sc.cum, sc.dark))
         for t, arr in sc.group_by_type.items():
             groups[t] = groups.get(t, np.zeros(opt.weeks, dtype=np.int64)) + arr

@@ -22,12 +22,13 @@ from service.api.errors import NotFound
 from service.catalogue.models import LampType
 from service.catalogue.resolved import CurveInUse, TypeTable, catalogue_models
 from service.forecasting.fit import FieldFit, fit_field, load_fitted_types
-from service.forecasting.spot_replacements import expected_replacements
 from service.forecasting.whatif import CurveResult, lamp_curve
 from service.planning.service import AreaPlan, TypeGroup
 from service.readings.ages import PositionAges, position_ages
 from service.reliability.fleet import evaluate_fleet
 from service.reliability.weibull import Weibull
+from service.stock.demand import weekly_cumulative
+from service.stock.forecast import unique_rows
 
 FloatArray = NDArray[np.float64]
 Chart = dict[str, Any]
@@ -206,22 +207,6 @@ def area_charts(session: Session, plan: AreaPlan) -> list[list[Chart]]:
     return out
 
 
-def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
-    """np.unique(keys, axis=0, return_inverse=True) by one lexsort: same rows, same order.
-
-    Rows sort column by column (the first column first), as np.unique's structured view
-    compares them, at a fraction of its cost for a few hundred thousand rows.
-    """
-    n = keys.shape[0]
-    order = np.lexsort(keys.T[::-1])
-    ordered = keys[order]
-    new = np.ones(n, dtype=bool)
-    new[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
-    member = np.empty(n, dtype=np.intp)
-    member[order] = np.cumsum(new) - 1
-    return ordered[new], member
-
-
 def weekly_burnouts(
     session: Session,
     at: datetime,
@@ -233,8 +218,9 @@ def weekly_burnouts(
 ) -> Chart | None:
     """Expected burnouts per week for the next weeks by lamp type, group relamps marked.
 
-    Cumulative expected spot replacements N_a(w) (service.forecasting.spot_replacements) at the end of
-    each week, differenced into weekly counts; `due` are the planned group relamp dates.
+    Cumulative expected spot replacements N_a(w) (the delayed-renewal sum of
+    service.forecasting.spot_replacements, every week boundary at once by
+    stock.demand.weekly_cumulative) at the end of each week, differenced into weekly counts; `due` are the planned group relamp dates.
     loaded: the active positions' ages and their type table, when the caller has them
     (the overview's plans load the same ones); else they are loaded here.
     """
@@ -260,20 +246,13 @@ def weekly_burnouts(
     weight = np.bincount(member, minlength=len(groups)).astype(float)
     g_type, g_k = groups[:, 0].astype(np.int64), groups[:, 1].astype(np.int64)
     type_ids, per_type = np.unique(g_type, return_inverse=True)
-    # One call for every week's window (groups tiled week by week), so each lamp type's
-    # renewal curve is solved once rather than once per week.
-    n_g = len(groups)
-    week_no = np.repeat(np.arange(1, weeks + 1, dtype=float), n_g)
-    n = expected_replacements(
-        types.table.shape,
-        np.tile(g_k, weeks),
-        np.tile(groups[:, 2], weeks),
-        np.tile(groups[:, 3], weeks),
-        week_no * np.tile(groups[:, 4], weeks),
-    ).reshape(weeks, n_g)
+    # Every week boundary of every group in one pass (stock.demand.weekly_cumulative: one
+    # convolution per group on quarter-week cells), not one renewal sum per week.
+    n = weekly_cumulative(
+        types.table.shape, g_k, groups[:, 2], groups[:, 3], groups[:, 4], weeks
+    )  # groups x (weeks + 1)
     cumulative = np.zeros((weeks + 1, type_ids.size))
-    for w in range(weeks):
-        cumulative[w + 1] = np.bincount(per_type, weights=n[w] * weight, minlength=type_ids.size)
+    np.add.at(cumulative.T, per_type, n * weight[:, None])
     per_week = np.diff(cumulative, axis=0)  # weeks x lamp types
     codes = type_codes(session, type_ids.tolist())
     series = [

@@ -72,7 +72,7 @@ def test_site_budget_sums_match_plan_and_forecast(
     days = (starts[-1] - today).days
     energy = 20 * 32 * g.group.power_factor / 1000 * 60 * days / 7 * 0.2
     assert abs(_by(rows, category="energy") - energy) < 0.02 * energy
-    assert _by(rows, split="retrofit") == 0.0  # no retrofit options priced yet
+    assert _by(rows, split="retrofit") == 0.0  # no retrofit option offered here
     # Spot without a group relamp in the way would be the forecast's expected burnouts;
     # here the group relamp comes first, so the budget's spot lamps stay at or below it.
     f = forecast(db, site_id=s.id, horizon_weeks=52)
