@@ -22,7 +22,8 @@ count's spread is about 0.74 of its mean, and a normal interval undercovers).
    refined normal approximation (RNA) G(x) = Phi(x) + gamma (1 - x^2) phi(x) / 6 at
    x = (k + 0.5 - mu) / sd, gamma = sum p(1-p)(1-2p) / sd^3 [published: Volkova 1996,
    "A refinement of the central limit theorem for sums of independent random indicators",
-   Theory Probab. Appl. 40(4); Hong 2013, Comput. Stat. Data Anal. 59, sec. 3.3].
+   Theory Probab. Appl. 40(4); Hong 2013, Comput. Stat. Data Anal. 59, sec. 3.3]; where
+   the mean is below POISSON_BELOW from many small chances, the Poisson CDF (Le Cam).
 4. The quantile is the smallest integer k with the mixture CDF >= level, by bisection.
 
 Only what the callers know is mixed: the scale always; the shape where a field fit gives
@@ -40,7 +41,7 @@ import numpy as np
 from numpy.polynomial.hermite_e import hermegauss
 from numpy.typing import NDArray
 from scipy.signal import fftconvolve
-from scipy.special import ndtr
+from scipy.special import ndtr, pdtr
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -48,8 +49,9 @@ IntArray = NDArray[np.int64]
 NODES = 9  # Gauss-Hermite nodes where per-position probabilities are evaluated
 SHAPE_NODES = 5  # outer nodes over ln beta, where the shape is uncertain too
 FINE = 121  # uniform z points (between the outer nodes) for the mixture CDF
-EXACT_BUDGET = 2.0e7  # recursion cells (positions x columns x support) below which exact
+EXACT_BUDGET = 1.0e8  # recursion cells (positions x columns x support) below which exact
 TAIL = 1e-12
+POISSON_BELOW = 30.0  # mean below which many small chances count as Poisson
 _P_MIN = 1e-300
 
 
@@ -141,6 +143,10 @@ def rna_cdf(k: FloatArray, m: Moments) -> FloatArray:
     gamma = m.third / sd**3
     g = ndtr(x) + gamma * (1.0 - x * x) * np.exp(-0.5 * x * x) / (6.0 * math.sqrt(2 * math.pi))
     out = np.clip(g, 0.0, 1.0)
+    # Few expected events from many small chances (sum p^2 = mean - var small): the Poisson
+    # limit is the better refinement there [Le Cam 1960: total variation <= sum p^2].
+    poisson = (m.mean < POISSON_BELOW) & (m.mean - m.var <= 0.1 * m.mean)
+    out = np.where(poisson, pdtr(np.maximum(k, 0.0), np.maximum(m.mean, 1e-300)) * (k >= 0), out)
     return np.where(m.var > 1e-12, out, (k + 1e-9 >= m.mean).astype(np.float64))
 
 
