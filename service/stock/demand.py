@@ -242,15 +242,40 @@ class NodeDemand:
 
 
 def _after_new(
-    shape: FloatArray, k: IntArray, u: FloatArray, gw: IntArray, weeks: int
+    shape: FloatArray, k: IntArray, rate_over_scale: FloatArray, weeks: int
 ) -> FloatArray:
-    """M(u) of a new lamp put in by a group relamp, per position (u: boundaries / scale)."""
-    after = np.zeros(u.shape)
-    for kk in np.unique(k[gw < weeks]).tolist():
-        sel = (k == kk) & (gw < weeks)
-        curve = weibull_renewal(float(shape[kk]), 1.0, float(u[sel].max()) * 1.0001 + 1e-9, 1000)
-        after[sel] = curve.at(u[sel])
-    return after
+    """M(t / eta) at the week boundaries of a new lamp, per position (n, weeks + 1).
+
+    Alike positions (one lamp-type row, one burn rate over scale) share the curve: each
+    distinct one is read once.
+    """
+    out = np.zeros((k.size, weeks + 1))
+    steps = np.arange(weeks + 1, dtype=float)[None, :]
+    for kk in np.unique(k).tolist():
+        sel = np.nonzero(k == kk)[0]
+        rates, inv = np.unique(rate_over_scale[sel], return_inverse=True)
+        u = rates[:, None] * steps
+        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
+        out[sel] = curve.at(u)[inv.ravel()]
+    return out
+
+
+def _node_cumulative(
+    shape: FloatArray,
+    k: IntArray,
+    scale_h: FloatArray,
+    age_h: FloatArray,
+    rate_h_per_week: FloatArray,
+    weeks: int,
+    group_week: IntArray,
+) -> FloatArray:
+    """Cumulative spot replacements (n, weeks + 1) with the group relamps, at one scale."""
+    cum = weekly_cumulative(shape, k, scale_h, age_h, rate_h_per_week, weeks)
+    g = np.nonzero(group_week < weeks)[0]
+    if g.size:
+        after = _after_new(shape, k[g], rate_h_per_week[g] / scale_h[g], weeks)
+        cum[g] = cumulative_with_group(cum[g], after, group_week[g])
+    return cum
 
 
 def node_demand(
@@ -271,28 +296,25 @@ def node_demand(
     evaluated there: NODES passes.
     """
     r = mx.rule()
-    labels, inv = np.unique(label, return_inverse=True)
-    inv = inv.ravel()
-    win = rate_h_per_week[:, None] * np.arange(weeks + 1, dtype=float)[None, :]
+    order = np.argsort(label, kind="stable")  # each label's positions one slice
+    k, scale_h, age_h = k[order], scale_h[order], age_h[order]
+    rate_h_per_week, group_week, sd = rate_h_per_week[order], group_week[order], sd_ln_scale[order]
+    labels, starts, counts = np.unique(label[order], return_index=True, return_counts=True)
     per: list[list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]]] = [
         [] for _ in labels
     ]
     for z in r.z.tolist():
-        sc = scale_h * np.exp(sd_ln_scale * z)
-        before = weekly_cumulative(shape, k, sc, age_h, rate_h_per_week, weeks)
-        cum = cumulative_with_group(
-            before, _after_new(shape, k, win / sc[:, None], group_week, weeks), group_week
-        )
+        sc = scale_h * np.exp(sd * z)
+        cum = _node_cumulative(shape, k, sc, age_h, rate_h_per_week, weeks, group_week)
         p_w = weekly_increments(cum)
-        p_l = np.clip(cum - cum[:, :1], 0.0, 1.0)
+        np.clip(cum, 0.0, 1.0, out=cum)  # from now (cum[:, 0] = 0) to each boundary
         for g in range(labels.size):
-            j = np.nonzero(inv == g)[0]
-            small = j.size * r.z.size * (weeks + 1) < SMALL
-            pw, pl = p_w[j], p_l[j]
+            j = slice(int(starts[g]), int(starts[g] + counts[g]))
+            small = int(counts[g]) * r.z.size * (weeks + 1) < SMALL
+            pw, pl = p_w[j], cum[j]
             per[g].append(
                 (mx.Moments.of(pw), mx.Moments.of(pl), pw if small else None, pl if small else None)
             )
-    counts = np.bincount(inv, minlength=labels.size)
     return {int(labels[g]): _stack(int(counts[g]), per[g]) for g in range(labels.size)}
 
 
