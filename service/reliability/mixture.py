@@ -51,6 +51,7 @@ SHAPE_NODES = 5  # outer nodes over ln beta, where the shape is uncertain too
 FINE = 121  # uniform z points (between the outer nodes) for the mixture CDF
 EXACT_BUDGET = 1.0e8  # recursion cells (positions x columns x support) below which exact
 TAIL = 1e-12
+MAX_BINS = 4096  # a type's count pmf is binned beyond this many values (convolution)
 POISSON_BELOW = 30.0  # mean below which many small chances count as Poisson
 _P_MIN = 1e-300
 
@@ -176,9 +177,9 @@ def pmf_truncated(p: FloatArray, kmax: int) -> FloatArray:
     return out
 
 
-def exact_is_cheap(n: int, columns: int, kmax: int) -> bool:
-    """Whether the truncated recursion over these columns stays within EXACT_BUDGET."""
-    return n * columns * (kmax + 1) <= EXACT_BUDGET
+def exact_is_cheap(n: int, columns: int, kmax: int, budget: float = EXACT_BUDGET) -> bool:
+    """Whether the truncated recursion over these columns stays within the budget."""
+    return n * columns * (kmax + 1) <= budget
 
 
 @dataclass(frozen=True)
@@ -226,22 +227,31 @@ class Mixture:
             lo = np.where(ok, lo, mid)
         return hi
 
-    def window(self, col: int = 0) -> tuple[int, FloatArray]:
-        """(offset, pmf) of one column on the counts that carry its mass."""
+    def span(self, col: int = 0) -> tuple[int, int]:
+        """(lo, hi): the counts carrying one column's mass (tails below ~1e-12 left out)."""
         if self.pmf is not None:
-            return 0, self.pmf[col]
+            return 0, self.pmf.shape[1] - 1
         assert self.fine is not None
         mu, sd = self.fine.mean[:, col], np.sqrt(self.fine.var[:, col])
         lo = int(max(0, math.floor(float(np.min(mu - 12 * sd)) - 12)))
         hi = int(min(self.n, math.ceil(float(np.max(mu + 12 * sd)) + 12)))
-        ks = np.arange(lo - 1, hi + 1, dtype=np.float64)
-        cdf = self.cdf(np.broadcast_to(ks, (self.mean.size, ks.size)))[col]
-        cdf[0] = 0.0 if lo == 0 else cdf[0]
-        cdf[-1] = 1.0 if hi == self.n else cdf[-1]
-        return lo, np.maximum(np.diff(np.maximum.accumulate(cdf)), 0.0)
+        return lo, hi
+
+    def binned(self, lo: int, width: int, bins: int, col: int = 0) -> FloatArray:
+        """P(lo + i width <= K < lo + (i + 1) width) for i < bins (width 1: the pmf)."""
+        edges = lo - 1 + width * np.arange(bins + 1, dtype=np.float64)
+        cdf = self.cdf(np.broadcast_to(edges, (self.mean.size, edges.size)))[col]
+        cdf[-1] = max(cdf[-1], 1.0) if edges[-1] >= self.span(col)[1] else cdf[-1]
+        return np.maximum(np.diff(np.maximum.accumulate(cdf)), 0.0)
 
 
-def mixture(node_moments: Moments, n: int, r: Rule, p_nodes: FloatArray | None = None) -> Mixture:
+def mixture(
+    node_moments: Moments,
+    n: int,
+    r: Rule,
+    p_nodes: FloatArray | None = None,
+    budget: float = EXACT_BUDGET,
+) -> Mixture:
     """The mixture over the nodes' uncertain scale of a Poisson-binomial count per column.
 
     node_moments: (K, C) sums at the rule's nodes; p_nodes (K, n, C): the per-position
@@ -252,7 +262,7 @@ def mixture(node_moments: Moments, n: int, r: Rule, p_nodes: FloatArray | None =
     if p_nodes is not None:
         kmax = support_max(fine, n)
         cols = r.z_fine.size * node_moments.mean.shape[1]
-        if exact_is_cheap(n, cols, kmax):
+        if exact_is_cheap(n, cols, kmax, budget):
             pf = to_fine_p(p_nodes, r) if r.z.size > 1 else p_nodes
             f, _, c = pf.shape
             flat = np.moveaxis(pf, 0, 1).reshape(n, f * c)  # columns (fine point, column)
@@ -274,7 +284,12 @@ def convolve(parts: list[tuple[int, FloatArray]]) -> tuple[int, FloatArray]:
     return off, pmf / total if total > 0 else pmf
 
 
-def quantile_of(offset: int, pmf: FloatArray, level: float) -> int:
-    """Smallest k with P(K <= k) >= level for a pmf starting at `offset`."""
+def quantile_of(offset: int, pmf: FloatArray, level: float, width: int = 1, parts: int = 1) -> int:
+    """Smallest k with P(K <= k) >= level for a pmf starting at `offset` in bins of `width`.
+
+    Binned (width > 1, a sum of `parts` binned counts): the bin's middle, within
+    width x parts / 2 of the count.
+    """
     cdf = np.cumsum(pmf)
-    return offset + min(int(np.searchsorted(cdf, level - 1e-12)), pmf.size - 1)
+    i = min(int(np.searchsorted(cdf, level - 1e-12)), pmf.size - 1)
+    return offset + i * width + ((width - 1) * parts) // 2

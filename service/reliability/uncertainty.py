@@ -157,34 +157,54 @@ MIXTURE_METHOD = (
 )
 
 
-def _type_distribution(
-    g: GroupCurve, r: mx.Rule
-) -> tuple[tuple[int, FloatArray], float, float, float]:
-    """(offset, pmf), E[S], E[S^2] and E[sum p(1-p)] of one type's count over its spread."""
+FORECAST_EXACT_BUDGET = 3.0e6  # exact recursion cells per range (a summary per area)
+
+
+def window_p(
+    age_h: ArrayLike, horizon_h: ArrayLike, shape: ArrayLike, scale_h: ArrayLike
+) -> FloatArray:
+    """P(burn out within the horizon) = 1 - exp(-(H(a + w) - H(a))), broadcast."""
+    a = np.asarray(age_h, dtype=np.float64)
+    b = np.asarray(shape, dtype=np.float64)
+    e = np.asarray(scale_h, dtype=np.float64)
+    h = np.power((a + np.asarray(horizon_h, dtype=np.float64)) / e, b) - np.power(a / e, b)
+    return np.asarray(-np.expm1(-h), dtype=np.float64)
+
+
+def _type_mixtures(g: GroupCurve, r: mx.Rule) -> tuple[list[tuple[float, mx.Mixture]], FloatArray]:
+    """One type's count mixed over its scale, per outer shape node (weight, mixture), and
+    (E[S], E[S^2], E[sum p(1-p)]) with S = sum p."""
     zb, wb = mx.gauss_hermite(mx.SHAPE_NODES) if g.sd_ln_shape > 0 else (np.zeros(1), np.ones(1))
     rs = r if g.sd_ln_scale > 0 else mx.rule(1)
-    parts: list[tuple[int, FloatArray]] = []
-    e_s = e_s2 = e_v = 0.0
+    out: list[tuple[float, mx.Mixture]] = []
+    stats = np.zeros(3)
     for zs, ws in zip(zb.tolist(), wb.tolist(), strict=True):
         beta = g.shape * math.exp(g.sd_ln_shape * zs)
         mult = mx.lognormal_multipliers(g.sd_ln_scale, rs.z)
-        p_nodes = np.stack(
-            [window_gradients(g.age_h, g.horizon_h, beta, g.scale_h * m)[0] for m in mult]
-        )[:, :, None]
+        p_nodes = window_p(g.age_h, g.horizon_h, beta, g.scale_h[None, :] * mult[:, None])
+        p_nodes = p_nodes[:, :, None]
         mom = mx.Moments.of(p_nodes)
-        mix = mx.mixture(mom, int(g.age_h.size), rs, p_nodes)
-        off, pmf = mix.window(0)
-        parts.append((off, ws * pmf))
+        out.append((ws, mx.mixture(mom, int(g.age_h.size), rs, p_nodes, FORECAST_EXACT_BUDGET)))
         s_k = mom.mean[:, 0]
-        e_s += ws * float(rs.w @ s_k)
-        e_s2 += ws * float(rs.w @ (s_k * s_k))
-        e_v += ws * float(rs.w @ mom.var[:, 0])
-    lo = min(o for o, _ in parts)
-    hi = max(o + q.size for o, q in parts)
-    pmf_all = np.zeros(hi - lo)
-    for o, q in parts:
-        pmf_all[o - lo : o - lo + q.size] += q
-    return (lo, pmf_all), e_s, e_s2, e_v
+        stats += ws * np.array([rs.w @ s_k, rs.w @ (s_k * s_k), rs.w @ mom.var[:, 0]])
+    return out, stats
+
+
+def _binned_total(types: list[list[tuple[float, mx.Mixture]]]) -> tuple[int, FloatArray, int]:
+    """(offset, pmf, bin width) of the sum of independent types, each a weighted mixture."""
+    spans = [[m.span() for _, m in t] for t in types]
+    widest = max(max(h for _, h in sp) - min(lo for lo, _ in sp) + 1 for sp in spans)
+    width = max(1, math.ceil(widest / mx.MAX_BINS))
+    parts: list[tuple[int, FloatArray]] = []
+    for t, sp in zip(types, spans, strict=True):
+        lo, hi = min(a for a, _ in sp), max(b for _, b in sp)
+        bins = (hi - lo) // width + 1
+        pmf = sum(w * m.binned(lo, width, bins) for w, m in t)
+        parts.append((lo, np.asarray(pmf, dtype=np.float64)))
+    # offsets in counts, bins of `width`: convolve on the bin lattice from each type's lo
+    off = sum(o for o, _ in parts)
+    _, pmf = mx.convolve([(0, q) for _, q in parts])
+    return off, pmf, width
 
 
 def count_mixture(groups: list[GroupCurve], level: float = 0.90) -> CountRange:
@@ -192,25 +212,30 @@ def count_mixture(groups: list[GroupCurve], level: float = 0.90) -> CountRange:
     if not 0 < level < 1:
         raise ValueError("level must be in (0, 1)")
     r = mx.rule()
-    dists: list[tuple[int, FloatArray]] = []
-    mean = var_e = var_p = 0.0
+    types: list[list[tuple[float, mx.Mixture]]] = []
+    stats = np.zeros(3)
     for g in groups:
-        if g.age_h.size == 0:
-            continue
-        d, e_s, e_s2, e_v = _type_distribution(g, r)
-        dists.append(d)
-        mean += e_s
-        var_e += e_v
-        var_p += max(e_s2 - e_s * e_s, 0.0)
-    off, pmf = mx.convolve(dists)
+        if g.age_h.size:
+            t, st = _type_mixtures(g, r)
+            types.append(t)
+            stats += np.array([st[0], st[1] - st[0] ** 2, st[2]])
     tail = (1.0 - level) / 2.0
     n = sum(int(g.age_h.size) for g in groups)
-    low = min(mx.quantile_of(off, pmf, tail), n)
-    high = min(mx.quantile_of(off, pmf, 1.0 - tail), n)
+    if not types:
+        low = high = 0
+    elif len(types) == 1 and len(types[0]) == 1:  # one mixture: its quantiles by bisection
+        mix = types[0][0][1]
+        low, high = int(mix.quantile(tail)[0]), int(mix.quantile(1.0 - tail)[0])
+    else:
+        off, pmf, width = _binned_total(types)
+        low = min(mx.quantile_of(off, pmf, tail, width, len(types)), n)
+        high = min(mx.quantile_of(off, pmf, 1.0 - tail, width, len(types)), n)
     shape = ", and its shape where the field shape is used as it is (correlation 0)"
     method = MIXTURE_METHOD.format(
         shape=shape if any(g.sd_ln_shape > 0 for g in groups) else "",
         nodes=mx.NODES,
         fine=mx.FINE,
     )
-    return CountRange(mean, low, high, level, var_e, var_p, method)
+    return CountRange(
+        float(stats[0]), low, high, level, float(stats[2]), max(float(stats[1]), 0.0), method
+    )
