@@ -129,3 +129,10 @@ def param_spread(
         sd_shape,
         sd_scale,
     )
+
+
+def position_sd_ln_scale(types: TypeTable, lamp_type_id: IntArray) -> FloatArray:
+    """Each position's sd of ln eta (its lamp type's curve in use), for stock demand's
+    mixture (stock.demand.node_demand); demand mixes the scale only (see there)."""
+    ids, inv = np.unique(lamp_type_id, return_inverse=True)
+    return type_spreads(types, ids)[1][np.asarray(inv).ravel()]
