@@ -130,7 +130,7 @@ class Moments:
         """Node moment sums (K, C) -> fine grid (F, C): log mean and variance, raw skewness."""
         lm = np.log(np.maximum(self.mean, _P_MIN))
         lv = np.log(np.maximum(self.var, _P_MIN))
-        skew = self.third / np.maximum(self.var, _P_MIN) ** 1.5
+        skew = self.third / np.maximum(self.var, 1e-200) ** 1.5
         mean = np.exp(r.lagrange @ lm)
         var = np.exp(r.lagrange @ lv)
         third = (r.lagrange @ skew) * var**1.5
