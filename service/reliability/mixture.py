@@ -35,13 +35,17 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
 from numpy.polynomial.hermite_e import hermegauss
 from numpy.typing import NDArray
 from scipy.signal import fftconvolve
-from scipy.special import ndtr, pdtr
+
+# Small contractions by einsum, not BLAS (@, tensordot): on a loaded machine the BLAS
+# threads made a 121 x 171 weighted sum cost tens of milliseconds.
+from scipy.special import gammaln, ndtr, pdtr
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -67,6 +71,7 @@ class Rule:
     lagrange: FloatArray  # (F, K): values at z -> values at z_fine
 
 
+@lru_cache(maxsize=8)
 def gauss_hermite(n: int = NODES) -> tuple[FloatArray, FloatArray]:
     """Nodes and weights of E[f(Z)], Z ~ N(0, 1): sum_k w_k f(z_k) (weights sum to 1)."""
     z, w = hermegauss(n)
@@ -83,8 +88,10 @@ def lagrange_matrix(z: FloatArray, x: FloatArray) -> FloatArray:
     return out
 
 
+@lru_cache(maxsize=8)
 def rule(n: int = NODES, fine: int = FINE) -> Rule:
-    """The quadrature rule, its fine grid over the nodes' span and the interpolation matrix."""
+    """The quadrature rule, its fine grid over the nodes' span and the interpolation matrix
+    (cached: its arrays are never written to)."""
     z, w = gauss_hermite(n)
     if n == 1:
         return Rule(z, w, z.copy(), w.copy(), np.ones((1, 1)))
@@ -107,7 +114,7 @@ def to_fine_p(p_nodes: FloatArray, r: Rule) -> FloatArray:
     """
     p = np.clip(p_nodes, _P_MIN, 1.0 - 1e-15)
     g = np.log(-np.log1p(-p))
-    gf = np.tensordot(r.lagrange, g, axes=(1, 0))
+    gf = np.einsum("fk,k...->f...", r.lagrange, g)
     return -np.expm1(-np.exp(np.minimum(gf, 50.0)))
 
 
@@ -131,24 +138,33 @@ class Moments:
         lm = np.log(np.maximum(self.mean, _P_MIN))
         lv = np.log(np.maximum(self.var, _P_MIN))
         skew = self.third / np.maximum(self.var, 1e-200) ** 1.5
-        mean = np.exp(r.lagrange @ lm)
-        var = np.exp(r.lagrange @ lv)
-        third = (r.lagrange @ skew) * var**1.5
+        mean = np.exp(np.einsum("fk,k...->f...", r.lagrange, lm))
+        var = np.exp(np.einsum("fk,k...->f...", r.lagrange, lv))
+        third = np.einsum("fk,k...->f...", r.lagrange, skew) * var**1.5
         return Moments(mean, var, third)
 
 
-def rna_cdf(k: FloatArray, m: Moments) -> FloatArray:
+def poisson_regime(mean: FloatArray, var: FloatArray) -> NDArray[np.bool_]:
+    """Few expected events from many small chances (sum p^2 = mean - var small)."""
+    return np.asarray((mean < POISSON_BELOW) & (mean - var <= 0.1 * mean) & (mean > 0))
+
+
+def rna_cdf(k: FloatArray, m: Moments, poisson: bool = True) -> FloatArray:
     """Refined normal approximation of P(K <= k), broadcast over m's columns."""
-    sd = np.sqrt(np.maximum(m.var, 1e-300))
-    x = (k + 0.5 - m.mean) / sd
-    gamma = m.third / sd**3
+    shape = np.broadcast_shapes(np.shape(k), m.mean.shape)
+    kk, mu, var = (np.broadcast_to(x, shape) for x in (k, m.mean, m.var))
+    sd = np.sqrt(np.maximum(var, 1e-300))
+    x = (kk + 0.5 - mu) / sd
+    gamma = np.broadcast_to(m.third, shape) / sd**3
     g = ndtr(x) + gamma * (1.0 - x * x) * np.exp(-0.5 * x * x) / (6.0 * math.sqrt(2 * math.pi))
     out = np.clip(g, 0.0, 1.0)
     # Few expected events from many small chances (sum p^2 = mean - var small): the Poisson
     # limit is the better refinement there [Le Cam 1960: total variation <= sum p^2].
-    poisson = (m.mean < POISSON_BELOW) & (m.mean - m.var <= 0.1 * m.mean)
-    out = np.where(poisson, pdtr(np.maximum(k, 0.0), np.maximum(m.mean, 1e-300)) * (k >= 0), out)
-    return np.where(m.var > 1e-12, out, (k + 1e-9 >= m.mean).astype(np.float64))
+    regime = poisson_regime(mu, var) if poisson else np.zeros(shape, dtype=bool)
+    if regime.any():
+        kp = kk[regime]
+        out[regime] = np.where(kp >= 0, pdtr(np.maximum(kp, 0.0), mu[regime]), 0.0)
+    return np.where(var > 1e-12, out, (kk + 1e-9 >= mu).astype(np.float64))
 
 
 def support_max(m: Moments, n: int) -> int:
@@ -213,7 +229,7 @@ class Mixture:
             *(x.reshape(x.shape + extra) for x in (f.mean, f.var, f.third))
         )  # (F, C, ...)
         g = rna_cdf(kk[None, ...], shaped)
-        return np.asarray(np.tensordot(self.w_fine, g, axes=(0, 0)), dtype=np.float64)
+        return np.asarray(np.einsum("f,f...->...", self.w_fine, g), dtype=np.float64)
 
     def quantile(self, level: float) -> IntArray:
         """Per column the smallest integer k with P(K <= k) >= level (bisection)."""
@@ -240,9 +256,32 @@ class Mixture:
     def binned(self, lo: int, width: int, bins: int, col: int = 0) -> FloatArray:
         """P(lo + i width <= K < lo + (i + 1) width) for i < bins (width 1: the pmf)."""
         edges = lo - 1 + width * np.arange(bins + 1, dtype=np.float64)
-        cdf = self.cdf(np.broadcast_to(edges, (self.mean.size, edges.size)))[col]
+        if self.pmf is not None:
+            cdf = self.cdf(np.broadcast_to(edges, (self.mean.size, edges.size)))[col]
+        else:
+            cdf = self._fine_cdf_at(edges, col)
         cdf[-1] = max(cdf[-1], 1.0) if edges[-1] >= self.span(col)[1] else cdf[-1]
         return np.maximum(np.diff(np.maximum.accumulate(cdf)), 0.0)
+
+    def _fine_cdf_at(self, edges: FloatArray, col: int) -> FloatArray:
+        """The mixture CDF of one column at many counts: RNA at each fine point, and where
+        the Poisson limit applies its CDF by a running sum of the pmf (no incomplete gamma
+        per count)."""
+        assert self.fine is not None and self.w_fine is not None
+        mu, var, third = (
+            x[:, col][:, None] for x in (self.fine.mean, self.fine.var, self.fine.third)
+        )
+        g = rna_cdf(edges[None, :], Moments(mu, var, third), poisson=False)
+        regime = poisson_regime(mu[:, 0], var[:, 0]) & (var[:, 0] > 1e-12)
+        if regime.any() and edges[-1] >= 0:
+            top = int(edges[-1])
+            ks = np.arange(top + 1, dtype=np.float64)
+            lm = mu[regime, 0][:, None]
+            log_pmf = ks[None, :] * np.log(lm) - lm - gammaln(ks + 1.0)[None, :]
+            cdf_p = np.cumsum(np.exp(log_pmf), axis=1)
+            idx = edges.astype(np.int64)
+            g[regime] = np.where(idx[None, :] >= 0, cdf_p[:, np.maximum(idx, 0)], 0.0)
+        return np.asarray(np.einsum("f,fm->m", self.w_fine, g), dtype=np.float64)
 
 
 def mixture(
@@ -257,7 +296,7 @@ def mixture(
     node_moments: (K, C) sums at the rule's nodes; p_nodes (K, n, C): the per-position
     probabilities, given when the group is small enough to try the exact recursion.
     """
-    mean = r.w @ node_moments.mean
+    mean = np.einsum("k,k...->...", r.w, node_moments.mean)
     fine = node_moments.to_fine(r) if r.z.size > 1 else node_moments
     if p_nodes is not None:
         kmax = support_max(fine, n)
@@ -267,7 +306,7 @@ def mixture(
             f, _, c = pf.shape
             flat = np.moveaxis(pf, 0, 1).reshape(n, f * c)  # columns (fine point, column)
             pmf = pmf_truncated(flat, kmax).reshape(f, c, kmax + 1)
-            mixed = np.tensordot(r.w_fine, pmf, axes=(0, 0))
+            mixed = np.einsum("f,f...->...", r.w_fine, pmf)
             return Mixture(mean, n, "exact", pmf=mixed)
     return Mixture(mean, n, "rna", fine=fine, w_fine=r.w_fine)
 

@@ -157,7 +157,7 @@ MIXTURE_METHOD = (
 )
 
 
-FORECAST_EXACT_BUDGET = 3.0e6  # exact recursion cells per range (a summary per area)
+FORECAST_EXACT_BUDGET = 2.0e5  # exact recursion cells per type per range (one per area summary)
 
 
 def window_p(
