@@ -103,9 +103,11 @@ def test_demo_demand_mixture_against_an_independent_monte_carlo(
             shape[k[sel]], scale[sel], age[sel], rate[sel], float(sd_scale[sel][0]), 8000, int(t)
         )
         mc_mean = sims.mean(axis=0)
-        se = sims.std(axis=0) / np.sqrt(sims.shape[0])
-        # mean within 2 % (plus the Monte Carlo's own 3 standard errors)
-        assert np.all(np.abs(got.spot_mean - mc_mean) <= 0.02 * mc_mean + 3 * se + 1e-9), t
+        # mean within 2 % plus the Monte Carlo's own 4 standard errors (for weeks of a few
+        # thousandths of a lamp the sample sd is unreliable: at least the Poisson one, 130
+        # comparisons over the demo's types and weeks)
+        se = np.maximum(sims.std(axis=0), np.sqrt(got.spot_mean)) / np.sqrt(sims.shape[0])
+        assert np.all(np.abs(got.spot_mean - mc_mean) <= 0.02 * mc_mean + 4 * se), t
         mc_q = np.quantile(sims, LEVEL, axis=0, method="inverted_cdf")
         tol = np.maximum(1.0, 0.03 * mc_q)
         assert np.all(np.abs(got.spot_quantile - mc_q) <= tol), (t, got.spot_quantile, mc_q)
@@ -182,7 +184,7 @@ def _model(sigma: float) -> tuple[demand.WeekDemand, np.ndarray]:
 def _close(mean: np.ndarray, q: np.ndarray, sims: np.ndarray) -> None:
     mc_mean = sims.mean(axis=0)
     se = sims.std(axis=0) / np.sqrt(sims.shape[0])
-    assert np.all(np.abs(mean - mc_mean) <= 0.02 * mc_mean + 3 * se), (mean, mc_mean)
+    assert np.all(np.abs(mean - mc_mean) <= 0.02 * mc_mean + 4 * se), (mean, mc_mean)
     mc_q = np.quantile(sims, LEVEL, axis=0, method="inverted_cdf")
     assert np.all(np.abs(q - mc_q) <= np.maximum(1.0, 0.03 * mc_q)), (q, mc_q)
 
