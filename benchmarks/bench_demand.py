@@ -10,6 +10,12 @@ boundary), timed at 10,000 positions only (at 100,000 it took 27.8 s). The ancho
 computation over the same grid, the conditional Weibull failure probabilities
 1 - S(a + t)/S(a) with their weekly sums and variances (no renewal), as fast as numpy goes.
 
+D2 is the demand mixed over each lamp type's uncertain scale (stock.demand.node_demand: the
+one pass at each of the 9 Gauss-Hermite nodes, alike positions grouped on an age grid, then
+the mixture's weekly mean and quantile, sd of ln eta 0.246, the catalogue prior), beside
+TODAY's figure in the same run as its anchor (D1's arithmetic with the one pass ungrouped, as
+before this change): the brief keeps D2 within 2x of it.
+
 Run: python benchmarks/bench_demand.py [--quick] [--repeats N]
 """
 
@@ -81,6 +87,27 @@ def figure(f: dict[str, np.ndarray], old: bool = False) -> object:
     return out
 
 
+def figure_today(f: dict[str, np.ndarray]) -> object:
+    """The figure as it was before the mixture: the one pass without grouping alike positions."""
+    saved = demand.GROUP_MIN
+    demand.GROUP_MIN = 1 << 62
+    try:
+        return figure(f)
+    finally:
+        demand.GROUP_MIN = saved
+
+
+def figure_mixed(f: dict[str, np.ndarray]) -> object:
+    """Weekly demand mixed over each lamp type's lognormal scale (sd ln eta 0.246)."""
+    sd = np.full(f["age"].size, 0.246)
+    nodes = demand.node_demand(
+        f["shape"], f["k"], f["scale"], f["age"], f["rate"], WEEKS, f["gw"], sd, f["k"]
+    )
+    p0 = np.zeros((0, WEEKS))
+    grp = np.zeros(WEEKS, dtype=np.int64)
+    return [demand.week_demand(p0, grp, 0.95, 0.02, spread=nd) for nd in nodes.values()]
+
+
 def anchor(f: dict[str, np.ndarray]) -> object:
     """Plain numpy: conditional Weibull failure probabilities per week, summed per type."""
     t = f["rate"][:, None] * np.arange(WEEKS + 1)[None, :]
@@ -119,6 +146,17 @@ def main() -> int:
             repeats=repeats,
             target="" if args.quick or n < 100_000 else "<= 3 s (issue 13, with the database)",
         )
+    n_mix = 10_000 if args.quick else 100_000
+    fm = fleet(n_mix)
+    table.timed(
+        "D2",
+        f"weekly demand mixed over the scale (9 nodes), {n_mix:,} positions x {WEEKS} weeks",
+        lambda: figure_mixed(fm),
+        anchor="today's D1 arithmetic (one pass ungrouped, no mixture), same fleet",
+        anchor_fn=lambda: figure_today(fm),
+        repeats=repeats,
+        target="" if args.quick else "<= 2x its anchor (brief)",
+    )
     # Sanity: with no group relamp and no renewal inside a week, the figure's week-1 mean is
     # the anchor's (a lamp rarely fails twice in a week).
     f = fleet(2000, seed=3)

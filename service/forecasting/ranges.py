@@ -1,9 +1,12 @@
 """Burnout ranges for forecasts: which positions fail, and how sure the life curves are.
 
-Per lamp type, the parameters' uncertainty (reliability/uncertainty.py, delta method):
+The range is the central 90 % of the count's MIXTURE over each lamp type's uncertain curve
+(reliability/uncertainty.count_mixture, reliability/mixture.py): the scale always, the shape
+where the field fit's shape is used as it is; the earlier delta-method normal interval
+undercovered at the catalogue prior's spread. Per lamp type, the parameters' uncertainty:
 - ln eta: its standard deviation from the curve in use's scale bounds (the field fit's
   Fisher-information bounds, or the credibility blend's posterior); a catalogue curve
-  with no field record takes the credibility prior, sigma = ln 1.5 / 1.645 (the stated
+  with no field record takes the credibility prior, sigma = ln 1.5 / 1.645 = 0.246 (the stated
   assumption that the catalogue is within x1.5 of the field at 90 %,
   reliability/credibility.py);
 - ln beta: from the field fit's shape bounds when the field shape is used as it is; held
@@ -24,8 +27,8 @@ from service.catalogue.resolved import CurveInUse, TypeTable
 from service.reliability.credibility import SIGMA_LN_SCALE
 from service.reliability.uncertainty import (
     CountRange,
-    count_range,
-    parameter_variance,
+    GroupCurve,
+    count_mixture,
     sd_from_bounds,
     window_gradients,
 )
@@ -43,24 +46,45 @@ METHOD_NOTE = (
 
 @dataclass(frozen=True)
 class ParamSpread:
-    """Per-position gradients of P(burn out in the horizon) and per-type parameter spreads."""
+    """Per-position windows and curves, and per-type parameter spreads, for burnout ranges."""
 
     group: IntArray  # each position's lamp type group
-    d_ln_shape: FloatArray
-    d_ln_scale: FloatArray
+    age_h: FloatArray  # wear-equivalent age at today's supply
+    horizon_h: FloatArray
+    shape: FloatArray  # per position
+    scale_h: FloatArray  # per position (the life factor applied)
     sd_ln_shape: FloatArray  # per group
     sd_ln_scale: FloatArray  # per group
 
-    def count(self, p: FloatArray, sel: Any = slice(None)) -> CountRange:
-        """The range of the count of events p over the selected positions."""
-        var_p = parameter_variance(
-            self.group[sel],
-            self.d_ln_shape[sel],
-            self.d_ln_scale[sel],
-            self.sd_ln_shape,
-            self.sd_ln_scale,
-        )
-        return count_range(p[sel], var_p, LEVEL)
+    @property
+    def d_ln_shape(self) -> FloatArray:
+        """dp/d ln beta per position (the delta method's gradient, for comparison)."""
+        return window_gradients(self.age_h, self.horizon_h, self.shape, self.scale_h)[1]
+
+    @property
+    def d_ln_scale(self) -> FloatArray:
+        """dp/d ln eta per position."""
+        return window_gradients(self.age_h, self.horizon_h, self.shape, self.scale_h)[2]
+
+    def count(self, p: FloatArray | None = None, sel: Any = slice(None)) -> CountRange:
+        """The range of the count of burnouts over the selected positions (p: unused, kept
+        for the callers; the mixture re-evaluates each position's window at its nodes)."""
+        idx = np.arange(self.group.size)[sel]
+        grp = self.group[idx]
+        groups = []
+        for g in np.unique(grp).tolist():
+            j = idx[grp == g]
+            groups.append(
+                GroupCurve(
+                    self.age_h[j],
+                    self.horizon_h[j],
+                    self.shape[j],
+                    self.scale_h[j],
+                    float(self.sd_ln_shape[g]),
+                    float(self.sd_ln_scale[g]),
+                )
+            )
+        return count_mixture(groups, LEVEL)
 
 
 def _sds(curve: CurveInUse) -> tuple[float, float]:
@@ -75,6 +99,15 @@ def _sds(curve: CurveInUse) -> tuple[float, float]:
     return sd_shape, sd_scale
 
 
+def type_spreads(types: TypeTable, lamp_type_ids: IntArray) -> tuple[FloatArray, FloatArray]:
+    """(sd ln beta, sd ln eta) of each listed lamp type's curve in use."""
+    sds = [_sds(types.curve(int(i))) for i in np.asarray(lamp_type_ids).tolist()]
+    return (
+        np.array([s[0] for s in sds], dtype=np.float64),
+        np.array([s[1] for s in sds], dtype=np.float64),
+    )
+
+
 def param_spread(
     types: TypeTable,
     lamp_type_id: IntArray,
@@ -83,15 +116,23 @@ def param_spread(
     horizon_h: FloatArray,
     scale_h: FloatArray,
 ) -> ParamSpread:
-    """Gradients per position and the spread of each lamp type's curve parameters."""
+    """Windows per position and the spread of each lamp type's curve parameters."""
     ids, group = np.unique(lamp_type_id, return_inverse=True)
-    beta = types.table.shape[type_row]
-    _, d_shape, d_scale = window_gradients(effective_age_h, horizon_h, beta, scale_h)
-    sds = [_sds(types.curve(int(i))) for i in ids.tolist()]
+    n = np.size(lamp_type_id)
+    sd_shape, sd_scale = type_spreads(types, ids)
     return ParamSpread(
         np.asarray(group, dtype=np.int64).ravel(),
-        d_shape,
-        d_scale,
-        np.array([s[0] for s in sds], dtype=np.float64),
-        np.array([s[1] for s in sds], dtype=np.float64),
+        np.broadcast_to(np.asarray(effective_age_h, dtype=np.float64), (n,)),
+        np.broadcast_to(np.asarray(horizon_h, dtype=np.float64), (n,)),
+        np.asarray(types.table.shape[type_row], dtype=np.float64),
+        np.broadcast_to(np.asarray(scale_h, dtype=np.float64), (n,)),
+        sd_shape,
+        sd_scale,
     )
+
+
+def position_sd_ln_scale(types: TypeTable, lamp_type_id: IntArray) -> FloatArray:
+    """Each position's sd of ln eta (its lamp type's curve in use), for stock demand's
+    mixture (stock.demand.node_demand); demand mixes the scale only (see there)."""
+    ids, inv = np.unique(lamp_type_id, return_inverse=True)
+    return type_spreads(types, ids)[1][np.asarray(inv).ravel()]

@@ -51,10 +51,11 @@ METHOD = (
     "falls below the floor; burnout ceiling date: share of current lamps burned out (none "
     "replaced) reaches the ceiling. Dates in the site's time zone. burnouts_low/high: "
     "central 90 % range of expected_failures_no_replacement (lamps now burning that burn "
-    "out within the horizon): variance = Poisson-binomial sum p(1-p) over positions + "
-    "delta-method variance of sum p from each lamp type's life-curve parameter uncertainty "
-    "(scale from the curve's bounds, or the catalogue prior ln 1.5/1.645; shape only where "
-    "the field shape is used as it is; correlation 0), continuity-corrected normal interval."
+    "out within the horizon): quantiles of the count's mixture over each lamp type's "
+    "uncertain life curve (scale lognormal from the curve's bounds, or the catalogue prior "
+    "ln 1.5/1.645; shape only where the field shape is used as it is; correlation 0): "
+    "Gauss-Hermite nodes, mixture CDF on a fine grid, Poisson-binomial exact or "
+    "refined-normal at each point, lamp types independent (forecasting/ranges.py)."
 )
 
 

@@ -39,6 +39,7 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy.fft import next_fast_len
 
+from service.reliability import mixture as mx
 from service.reliability.poisson_binomial import (
     EXACT_MAX,
     pmf_dft,
@@ -48,7 +49,14 @@ from service.reliability.poisson_binomial import (
     quantiles_exact,
 )
 
-__all__ = ["EXACT_MAX", "pmf_dft", "quantile", "quantile_exact", "quantile_normal", "quantiles_exact"]
+__all__ = [
+    "EXACT_MAX",
+    "pmf_dft",
+    "quantile",
+    "quantile_exact",
+    "quantile_normal",
+    "quantiles_exact",
+]
 
 from service.reliability.renewal import weibull_renewal
 
@@ -62,6 +70,10 @@ RENEWAL_GRID = 1000  # renewal grid steps per lamp type (as forecasting.spot_rep
 # several times cheaper than the cubic at every (position, lag).
 TABLE_STEPS = 16_384
 CHUNK = 20_000  # positions per block (memory: CHUNK x 2 x cells floats per array)
+# Alike positions (one lamp-type row, one cell width: the same burn rate over the same scale)
+# at least GROUP_MIN strong are evaluated on AGE_GRID ages and read linearly in age.
+AGE_GRID = 1025
+GROUP_MIN = 2 * AGE_GRID
 
 
 def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
@@ -69,6 +81,64 @@ def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
     i = np.minimum(x.astype(np.int64), table.size - 2)
     frac = x - i
     out: FloatArray = table[i] * (1.0 - frac) + table[i + 1] * frac
+    return out
+
+
+def _one_pass(
+    beta: float, table: FloatArray, step: float, u_age: FloatArray, delta: FloatArray, weeks: int
+) -> FloatArray:
+    """N_a at week boundaries 1..weeks (m, weeks) of positions in scale units, one FFT each."""
+    m = CELLS_PER_WEEK
+    k_cells = weeks * m
+    edges = np.arange(k_cells + 1, dtype=np.float64)
+    lags = edges[:-1] + 0.5
+    ends = np.arange(1, weeks + 1) * m  # cells up to each boundary
+    out = np.empty((u_age.size, weeks))
+    # A linear (not circular) convolution of two length-K rows needs 2K - 1 points,
+    # rounded up to a length the FFT factors quickly (2, 3 and 5 only).
+    size = next_fast_len(2 * k_cells - 1, real=True)
+    for lo in range(0, u_age.size, CHUNK):
+        a = u_age[lo : lo + CHUNK][:, None]
+        d = delta[lo : lo + CHUNK][:, None]
+        # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
+        f_a = -np.expm1(-(np.power(a + d * edges[None, :], beta) - np.power(a, beta)))
+        d_f = np.diff(f_a, axis=1)
+        m_lag = _read_linear(table, d * lags[None, :] / step)
+        conv = np.fft.irfft(
+            np.fft.rfft(d_f, size, axis=1) * np.fft.rfft(m_lag, size, axis=1), size, axis=1
+        )
+        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(conv[:, ends - 1], 0.0)
+    return out
+
+
+def _grouped_pass(
+    beta: float, table: FloatArray, step: float, u_age: FloatArray, delta: FloatArray, weeks: int
+) -> FloatArray:
+    """As _one_pass, alike positions grouped: per burn rate (cell width) with many
+    positions, the pass runs on AGE_GRID ages spanning theirs and each position reads its
+    curve linearly between the two grid ages around its own (N_a is smooth in a)."""
+    out = np.empty((u_age.size, weeks))
+    widths, cls = np.unique(delta, return_inverse=True)
+    cls = cls.ravel()
+    direct = np.zeros(u_age.size, dtype=bool)
+    for c in range(widths.size):
+        idx = np.nonzero(cls == c)[0]
+        if idx.size < GROUP_MIN:
+            direct[idx] = True
+            continue
+        a = u_age[idx]
+        lo, hi = float(a.min()), float(a.max())
+        if hi <= lo:
+            out[idx] = _one_pass(beta, table, step, a[:1], delta[idx[:1]], weeks)
+            continue
+        grid = np.linspace(lo, hi, AGE_GRID)
+        at = _one_pass(beta, table, step, grid, np.full(AGE_GRID, widths[c]), weeks)
+        x = (a - lo) / (hi - lo) * (AGE_GRID - 1)
+        i = np.minimum(x.astype(np.int64), AGE_GRID - 2)
+        frac = (x - i)[:, None]
+        out[idx] = at[i] * (1.0 - frac) + at[i + 1] * frac
+    if direct.any():
+        out[direct] = _one_pass(beta, table, step, u_age[direct], delta[direct], weeks)
     return out
 
 
@@ -92,9 +162,6 @@ def weekly_cumulative(
         return out
     delta = rate_h_per_week / (m * scale_h)  # cell width in units of the scale (eta = 1)
     u_age = age_h / scale_h
-    edges = np.arange(k_cells + 1, dtype=np.float64)
-    lags = edges[:-1] + 0.5
-    ends = np.arange(1, weeks + 1) * m  # cells up to each boundary
     for k in np.unique(type_index).tolist():
         idx = np.nonzero((type_index == k) & (delta > 0))[0]
         if idx.size == 0:
@@ -104,23 +171,8 @@ def weekly_cumulative(
         curve = weibull_renewal(beta, 1.0, umax * 1.0001, RENEWAL_GRID)
         step = umax * 1.0001 / TABLE_STEPS
         table = curve.at(np.arange(TABLE_STEPS + 2) * step)
-        for lo in range(0, idx.size, CHUNK):
-            sel = idx[lo : lo + CHUNK]
-            a = u_age[sel][:, None]
-            d = delta[sel][:, None]
-            # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
-            f_a = -np.expm1(-(np.power(a + d * edges[None, :], beta) - np.power(a, beta)))
-            d_f = np.diff(f_a, axis=1)
-            m_lag = _read_linear(table, d * lags[None, :] / step)
-            # A linear (not circular) convolution of two length-K rows needs 2K - 1 points,
-            # rounded up to a length the FFT factors quickly (2, 3 and 5 only).
-            size = next_fast_len(2 * k_cells - 1, real=True)
-            conv = np.fft.irfft(
-                np.fft.rfft(d_f, size, axis=1) * np.fft.rfft(m_lag, size, axis=1), size, axis=1
-            )
-            out[sel, 1:] = f_a[:, ends] + np.maximum(conv[:, ends - 1], 0.0)
+        out[idx, 1:] = _grouped_pass(beta, table, step, u_age[idx], delta[idx], weeks)
     return out
-
 
 
 def weekly_increments(cum: FloatArray) -> FloatArray:
@@ -152,6 +204,152 @@ def dark_spot_lamps(dark: NDArray[np.bool_], group_week: IntArray) -> NDArray[np
     return np.asarray(dark, dtype=bool) & (np.asarray(group_week) != 0)
 
 
+SMALL = 2_000_000  # keep per-position node probabilities while K x n x columns is below
+
+
+@dataclass(frozen=True)
+class NodeDemand:
+    """One lamp type's spot demand at the Gauss-Hermite nodes of its uncertain scale.
+
+    weekly: moment sums (K, H) of the weekly probabilities; lead: of the clipped cumulative
+    from now to each week boundary (K, H + 1); the per-position probabilities of both are
+    kept for small groups (the exact mixture), None otherwise.
+    """
+
+    n: int
+    weekly: mx.Moments
+    lead: mx.Moments
+    p_weekly: FloatArray | None
+    p_lead: FloatArray | None
+
+    def merge(self, other: NodeDemand) -> NodeDemand:
+        """The same lamp type's positions from another site (the scale error is shared)."""
+
+        def add(a: mx.Moments, b: mx.Moments) -> mx.Moments:
+            return mx.Moments(a.mean + b.mean, a.var + b.var, a.third + b.third)
+
+        def cat(a: FloatArray | None, b: FloatArray | None) -> FloatArray | None:
+            ok = a is not None and b is not None and a[0].size + b[0].size < SMALL
+            return np.concatenate([a, b], axis=1) if ok else None
+
+        return NodeDemand(
+            self.n + other.n,
+            add(self.weekly, other.weekly),
+            add(self.lead, other.lead),
+            cat(self.p_weekly, other.p_weekly),
+            cat(self.p_lead, other.p_lead),
+        )
+
+
+def _after_new(
+    shape: FloatArray, k: IntArray, rate_over_scale: FloatArray, weeks: int
+) -> FloatArray:
+    """M(t / eta) at the week boundaries of a new lamp, per position (n, weeks + 1).
+
+    Alike positions (one lamp-type row, one burn rate over scale) share the curve: each
+    distinct one is read once.
+    """
+    out = np.zeros((k.size, weeks + 1))
+    steps = np.arange(weeks + 1, dtype=float)[None, :]
+    for kk in np.unique(k).tolist():
+        sel = np.nonzero(k == kk)[0]
+        rates, inv = np.unique(rate_over_scale[sel], return_inverse=True)
+        u = rates[:, None] * steps
+        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
+        out[sel] = curve.at(u)[inv.ravel()]
+    return out
+
+
+def _node_cumulative(
+    shape: FloatArray,
+    k: IntArray,
+    scale_h: FloatArray,
+    age_h: FloatArray,
+    rate_h_per_week: FloatArray,
+    weeks: int,
+    group_week: IntArray,
+) -> FloatArray:
+    """Cumulative spot replacements (n, weeks + 1) with the group relamps, at one scale."""
+    cum = weekly_cumulative(shape, k, scale_h, age_h, rate_h_per_week, weeks)
+    g = np.nonzero(group_week < weeks)[0]
+    if g.size:
+        after = _after_new(shape, k[g], rate_h_per_week[g] / scale_h[g], weeks)
+        cum[g] = cumulative_with_group(cum[g], after, group_week[g])
+    return cum
+
+
+def node_demand(
+    shape: FloatArray,
+    k: IntArray,
+    scale_h: FloatArray,
+    age_h: FloatArray,
+    rate_h_per_week: FloatArray,
+    weeks: int,
+    group_week: IntArray,
+    sd_ln_scale: FloatArray,
+    label: IntArray,
+) -> dict[int, NodeDemand]:
+    """Per label (lamp type) the spot demand at each node of the lognormal scale.
+
+    sd_ln_scale per position (its lamp type's); at node z every scale is eta e^{sd z}, and
+    the one pass (weekly_cumulative) and the new-lamp curves after a group relamp are
+    evaluated there: NODES passes.
+    """
+    r = mx.rule()
+    order = np.argsort(label, kind="stable")  # each label's positions one slice
+    k, scale_h, age_h = k[order], scale_h[order], age_h[order]
+    rate_h_per_week, group_week, sd = rate_h_per_week[order], group_week[order], sd_ln_scale[order]
+    labels, starts, counts = np.unique(label[order], return_index=True, return_counts=True)
+    per: list[list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]]] = [
+        [] for _ in labels
+    ]
+    for z in r.z.tolist():
+        sc = scale_h * np.exp(sd * z)
+        cum = _node_cumulative(shape, k, sc, age_h, rate_h_per_week, weeks, group_week)
+        p_w = weekly_increments(cum)
+        np.clip(cum, 0.0, 1.0, out=cum)  # from now (cum[:, 0] = 0) to each boundary
+        for g in range(labels.size):
+            j = slice(int(starts[g]), int(starts[g] + counts[g]))
+            small = int(counts[g]) * r.z.size * (weeks + 1) < SMALL
+            pw, pl = p_w[j], cum[j]
+            per[g].append(
+                (mx.Moments.of(pw), mx.Moments.of(pl), pw if small else None, pl if small else None)
+            )
+    return {int(labels[g]): _stack(int(counts[g]), per[g]) for g in range(labels.size)}
+
+
+def _stack(
+    n: int,
+    rows: list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]],
+) -> NodeDemand:
+    """Node rows -> one NodeDemand (moments (K, columns), probabilities (K, n, columns))."""
+
+    def mom(i: int) -> mx.Moments:
+        ms = [row[i] for row in rows]
+        return mx.Moments(
+            *(np.stack([getattr(m, f) for m in ms]) for f in ("mean", "var", "third"))
+        )
+
+    pw = [row[2] for row in rows]
+    pl = [row[3] for row in rows]
+    keep_w = np.stack(pw) if all(x is not None for x in pw) else None  # type: ignore[arg-type]
+    keep_l = np.stack(pl) if all(x is not None for x in pl) else None  # type: ignore[arg-type]
+    return NodeDemand(n, mom(0), mom(1), keep_w, keep_l)
+
+
+def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:
+    """Level quantile of spot lamps from now to week boundary `lead`, mixed over the scale."""
+    if lead <= 0:
+        return 0
+    p = nd.p_lead[:, :, lead : lead + 1] if nd.p_lead is not None else None
+    col = mx.Moments(
+        nd.lead.mean[:, lead : lead + 1],
+        nd.lead.var[:, lead : lead + 1],
+        nd.lead.third[:, lead : lead + 1],
+    )
+    return int(mx.mixture(col, nd.n, mx.rule(), p).quantile(level)[0])
+
+
 @dataclass(frozen=True)
 class WeekDemand:
     """One group of positions' weekly demand (arrays over weeks)."""
@@ -175,6 +373,7 @@ def week_demand(
     level: float,
     breakage_fraction: float,
     dark_now: int = 0,
+    spread: NodeDemand | None = None,
 ) -> WeekDemand:
     """A group's weekly demand from its positions' weekly probabilities p (n, H).
 
@@ -185,7 +384,14 @@ def week_demand(
     mean = p.sum(axis=0)
     var = (p * (1.0 - p)).sum(axis=0)
     method = "exact" if p.shape[0] <= EXACT_MAX else "normal"
-    if method == "exact":  # every week in one pass (pmf_weeks)
+    if spread is not None and h:  # the mixture over the lamp type's uncertain scale
+        mix = mx.mixture(spread.weekly, spread.n, mx.rule(), spread.p_weekly)
+        r = mx.rule()
+        mean = mix.mean.copy()
+        var = r.w @ spread.weekly.var + r.w @ (spread.weekly.mean**2) - mean**2
+        q = mix.quantile(level)
+        method = f"mixture ({mix.method})"
+    elif method == "exact":  # every week in one pass (pmf_weeks)
         q = quantiles_exact(p, level) if p.shape[0] else np.zeros(h, dtype=np.int64)
     else:
         q = np.array(
