@@ -26,12 +26,13 @@ from functools import partial
 from typing import Any
 
 import numpy as np
-from sqlalchemy import Table, case, select, update
+from sqlalchemy import Table, case, func, or_, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
+from service.planning.catch_up import Committed
 from service.planning.group_plan import PlanCache
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
@@ -226,7 +227,17 @@ def issue_orders(
         todo = [a for a in areas.values() if a.id not in busy and a.id not in done]
         ordered = [areas[a] for a in sorted(done)]  # scheduled with the rest (catch-up)
         group_types = _due_types(
-            session, site, todo, area_id, at, today, lookahead_weeks, whole_area, cache, ordered
+            session,
+            site,
+            todo,
+            area_id,
+            at,
+            today,
+            lookahead_weeks,
+            whole_area,
+            cache,
+            ordered,
+            iso_week,
         )
     # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
     # order a new group order will cover) only flag their positions on the group order.
@@ -294,6 +305,7 @@ def _due_types(
     whole_area: bool,
     cache: PlanCache | None,
     ordered: list[Area],
+    iso_week: str | None,
 ) -> dict[int, tuple[set[int], date, AreaPlan]]:
     """Which lamp types of which areas get a group relamp, with the due date and the plan.
 
@@ -313,8 +325,52 @@ def _due_types(
             soonest = min((g.due_on for g in due_groups if g.due_on), default=today)
             out[plan.area.id] = ({g.lamp_type_id for g in due_groups}, max(soonest, today), plan)
     if area_id is None and capacity_of(site).limited:
-        return _this_week(session, site, out, ordered, pos, at, today, horizon)
+        return _this_week(session, site, out, ordered, pos, at, today, horizon, iso_week)
     return out
+
+
+def committed_orders(session: Session, site: Site, iso_week: str | None) -> list[Committed]:
+    """The site's group orders still open from other weeks (or made by hand), as load.
+
+    Labour: the order's estimated hours. Money: its lamps at their unit price, those hours
+    at the site's labour rate, the disposal fee per mercury lamp, and the area's hire.
+    """
+    rows = session.execute(
+        select(
+            WorkOrder.id,
+            WorkOrder.area_id,
+            WorkOrder.access_method,
+            WorkOrder.estimated_labour_h,
+            Area.equipment_hire_per_visit,
+        )
+        .join(Area, Area.id == WorkOrder.area_id)
+        .where(WorkOrder.site_id == site.id, WorkOrder.kind == GROUP)
+        .where(WorkOrder.state.in_(OPEN_STATES))
+        .where(or_(WorkOrder.iso_week.is_(None), WorkOrder.iso_week != (iso_week or "")))
+        .order_by(WorkOrder.id)
+    ).all()
+    if not rows:
+        return []
+    mercury = case((LampType.contains_mercury, WorkOrderLine.quantity), else_=0)
+    money = dict(
+        session.execute(
+            select(
+                WorkOrderLine.work_order_id,
+                func.sum(WorkOrderLine.quantity * LampType.unit_price)
+                + func.sum(mercury) * float(site.disposal_fee_per_mercury_lamp or 0.0),
+            )
+            .join(LampType, LampType.id == WorkOrderLine.lamp_type_id)
+            .where(WorkOrderLine.work_order_id.in_([r[0] for r in rows]))
+            .group_by(WorkOrderLine.work_order_id)
+        ).all()
+    )
+    rate = float(site.labour_rate_per_h)
+    return [
+        Committed(
+            aid, access, float(h), float(money.get(oid) or 0.0) + float(h) * rate, float(hire)
+        )
+        for oid, aid, access, h, hire in rows
+    ]
 
 
 def _this_week(
@@ -326,17 +382,20 @@ def _this_week(
     at: datetime,
     today: date,
     horizon: date,
+    iso_week: str | None,
 ) -> dict[int, tuple[set[int], date, AreaPlan]]:
     """Of the due areas, those the catch-up schedule puts in this week (capacity per site).
 
     The areas already ordered this week are scheduled with them, as in the week's first run,
-    so a second run of the same week cannot fill the week's capacity twice.
+    so a second run of the same week cannot fill the week's capacity twice; group orders
+    still open from earlier weeks take their hours and money off this week first.
     """
     plans = [p for _, _, p in due.values()]
     if ordered:
         last = last_group_relamps(session, [a.id for a in ordered])
         plans += plan_areas(session, site, ordered, pos, at, None, None, last_relamps=last)
-    sched = site_schedule(site, plans, today, horizon)
+    committed = committed_orders(session, site, iso_week)
+    sched = site_schedule(site, plans, today, horizon, committed)
     out: dict[int, tuple[set[int], date, AreaPlan]] = {}
     for aid, (types, due_on, plan) in due.items():
         slot = sched.slots.get(aid)
