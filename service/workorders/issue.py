@@ -104,8 +104,11 @@ def _fixtures(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[i
     return out
 
 
-def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, list[Any]]:
-    """fixture id -> [(position id, position no)] by position no, from one numeric query.
+Slots = tuple[list[int], list[int]]  # a fixture's position ids and their numbers, by number
+
+
+def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, Slots]:
+    """fixture id -> (position ids, position nos) by position no, from one numeric query.
 
     Plain columns into numpy (readings.repository.float_matrix), sorted there: no ORM rows
     and no server sort; a 100,000-fixture run reads a few hundred thousand positions here.
@@ -123,8 +126,8 @@ def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[
     fids, starts = np.unique(m[:, 0], return_index=True)
     bounds = [*starts.tolist(), len(m)]
     ids, nos = m[:, 2].tolist(), m[:, 1].tolist()
-    return {
-        f: list(zip(ids[a:b], nos[a:b], strict=True))
+    return {  # list slices: no tuple per position (a few hundred thousand of them)
+        f: (ids[a:b], nos[a:b])
         for f, a, b in zip(fids.tolist(), bounds[:-1], bounds[1:], strict=True)
     }
 
@@ -256,34 +259,85 @@ def issue_orders(
     mk = partial(
         _order, site, state=state, iso_week=iso_week, run_id=run_id, contents=contents, now=at
     )
-    built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]] = []
+    built: list[Built] = []
     for aid in sorted(group_types):
-        types, due, plan = group_types[aid]
-        ls = _group_lines(
-            fixtures.get(aid, []), types, positions, per_area.get(aid, []), pos_no, contents
-        )
-        if ls:
-            taken = [r.id for r in per_area.get(aid, []) if r.status == BurnoutReportState.OPEN]
-            minutes = areas[aid].group_minutes_per_lamp
-            info = _plan_info(plan, types, session)
-            order = mk(areas[aid], GROUP, due, ls, minutes, info)
-            built.append((order, ls, taken))
-    grouped = {o["area_id"] for o, _, _ in built}
+        lines = _group_lines(
+            fixtures.get(aid, []), group_types[aid][0], positions, per_area.get(aid, []), pos_no,
+            contents,
+        )  # fmt: skip
+        if lines:
+            built.append(
+                _group_order(session, site, areas[aid], group_types[aid], lines, per_area, mk)
+            )
     if SPOT in kinds:
         result.already_there += sum(1 for a, k in existing if k == SPOT and a in areas)
-        for aid in sorted(per_area):
-            rs = [r for r in per_area[aid] if r.status == BurnoutReportState.OPEN]
-            if not rs or aid in grouped or (aid, SPOT) in existing:
-                continue
-            ls = _spot_lines(rs, fixtures.get(aid, []), pos_no, contents)
-            order = mk(areas[aid], SPOT, today, ls, areas[aid].spot_minutes_per_lamp, None)
-            order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
-            built.append((order, ls, [r.id for r in rs]))
+        skip = {o["area_id"] for o, _, _ in built} | {a for a, k in existing if k == SPOT}
+        built += _spot_orders(areas, per_area, skip, fixtures, pos_no, busy, today, mk)
     if built:
         _write(session, built, result, at)
         if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
             _reserve(session, site.id, [oid for oid, _, _ in result.created])
     return result
+
+
+Built = tuple[dict[str, Any], list[dict[str, Any]], list[int]]  # order, lines, reports taken
+
+
+def _group_order(
+    session: Session,
+    site: Site,
+    area: Area,
+    due: tuple[set[int], date, AreaPlan],
+    lines: list[dict[str, Any]],
+    per_area: dict[int, list[Any]],
+    mk: Any,
+) -> Built:
+    """One area's group order: its plan figures, the chosen lamp on its lines, the reports."""
+    types, due_on, plan = due
+    taken = [r.id for r in per_area.get(area.id, []) if r.status == BurnoutReportState.OPEN]
+    info = _plan_info(plan, types, session)
+    _switch_lines(session, site, info, lines, mk.keywords["contents"])
+    order = mk(area, GROUP, due_on, lines, area.group_minutes_per_lamp, info)
+    return order, lines, taken
+
+
+def _spot_orders(
+    areas: dict[int, Area],
+    per_area: dict[int, list[Any]],
+    skip: set[int],
+    fixtures: dict[int, list[Any]],
+    pos_no: dict[int, int],
+    busy: dict[int, int],
+    today: date,
+    mk: Any,
+) -> list[Built]:
+    """A spot order per area with open reports, unless grouped or already ordered this week."""
+    out: list[Built] = []
+    for aid in sorted(per_area):
+        rs = [r for r in per_area[aid] if r.status == BurnoutReportState.OPEN]
+        if not rs or aid in skip:
+            continue
+        ls = _spot_lines(rs, fixtures.get(aid, []), pos_no, mk.keywords["contents"])
+        order = mk(areas[aid], SPOT, today, ls, areas[aid].spot_minutes_per_lamp, None)
+        order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
+        out.append((order, ls, [r.id for r in rs]))
+    return out
+
+
+def _switch_lines(
+    session: Session,
+    site: Site,
+    info: dict[str, Any] | None,
+    lines: list[dict[str, Any]],
+    contents: dict[int, LampContent],
+) -> None:
+    """The chosen lamp onto a group order's lines (choice_hooks: switched lines)."""
+    sw = choice_hooks.switches(session, site, info)
+    if sw:
+        choice_hooks.apply_switches(lines, sw)
+        fit = {x["lamp_type_id"] for x in lines} - contents.keys()
+        if fit:
+            contents.update(_contents(session, fit))
 
 
 def _reserve(session: Session, site_id: int, order_ids: list[int]) -> None:
@@ -433,7 +487,7 @@ def _plan_info(plan: AreaPlan, types: set[int], session: Session) -> dict[str, A
 def _group_lines(
     fixtures: list[Any],
     types: set[int],
-    positions: dict[int, list[Any]],
+    positions: dict[int, Slots],
     reports: list[Any],
     pos_no: dict[int, int],
     contents: dict[int, LampContent],
@@ -446,16 +500,16 @@ def _group_lines(
     for fid, tag, loc, lt in fixtures:
         rs = by_fixture.get(fid, [])
         if lt in types:
-            ps = positions.get(fid, [])
-            on_line = {p[0] for p in ps}
-            rids = [r.id for r in rs if r.position_id in on_line] or None
+            pids, nos = positions.get(fid, ([], []))
+            rids = [r.id for r in rs if r.position_id in pids] or None  # a few lamps a fixture
         else:  # not due: only its dark lamps, so no spot order is needed beside
             ps = sorted(
                 {(r.position_id, pos_no.get(r.position_id, 0)) for r in rs}, key=lambda x: x[1]
             )
+            pids, nos = [p[0] for p in ps], [p[1] for p in ps]
             rids = [r.id for r in rs] or None
-        if ps:
-            ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, rids))
+        if pids:
+            ls.append(_line(fid, tag, loc, lt, contents[lt].code, (pids, nos), rids))
     return ls
 
 
@@ -474,7 +528,8 @@ def _spot_lines(
     for fid, rs in per_fixture.items():
         _, tag, loc, lt = fix_index[fid]
         ps = sorted({(r.position_id, pos_no.get(r.position_id, 0)) for r in rs}, key=lambda x: x[1])
-        ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, [r.id for r in rs]))
+        slots = ([p[0] for p in ps], [p[1] for p in ps])
+        ls.append(_line(fid, tag, loc, lt, contents[lt].code, slots, [r.id for r in rs]))
     return ls
 
 
@@ -534,18 +589,19 @@ def _line(
     loc: str | None,
     lt: int,
     code: str,
-    ps: list[Any],
+    slots: Slots,
     reports: list[int] | None,
 ) -> dict[str, Any]:
+    pids, nos = slots
     return {
         "fixture_id": fid,
         "fixture_tag": tag,
         "location": loc,
         "lamp_type_id": lt,
         "lamp_type_code": code,
-        "quantity": len(ps),
-        "position_ids": [p[0] for p in ps],
-        "position_nos": [p[1] for p in ps],
+        "quantity": len(pids),
+        "position_ids": list(pids),
+        "position_nos": list(nos),
         "report_ids": reports,
         "outcome": None,
         "skip_reason": None,
@@ -570,7 +626,11 @@ def _order(
 ) -> dict[str, Any]:
     """The row of one new order (lamp count, labour and cautions from its lines)."""
     qty = sum(x["quantity"] for x in lines)
-    lamps = [contents[lt] for lt in sorted({x["lamp_type_id"] for x in lines})]
+    fitted = {x["lamp_type_id"] for x in lines}
+    removed = {
+        int(v) for x in lines if (v := (x["extra"] or {}).get("replaces_lamp_type_id")) is not None
+    }
+    lamps = [contents[lt] for lt in sorted(fitted | removed)]  # cautions and disposal of both
     return {
         "site_id": site.id,
         "area_id": area.id,
