@@ -85,7 +85,18 @@ def _pg_kind(table: str, alias_new: str, alias_old: str) -> str:
     return "CASE " + " ".join(parts) + " ELSE 'updated' END"
 
 
-def _pg_create(table: str) -> None:
+# The PostgreSQL function form. "json" (since migration 0019): the body is row_to_json(n),
+# the column's own type (to_jsonb(n) cast back to json cost about three times as much per
+# row), and the function runs with a work_mem that keeps the sort of a bulk insert's rows
+# (tens of thousands of order lines in a weekly run) in memory. "jsonb": the form this
+# migration first made (0019's downgrade restores it). Same rows, ids, kinds and bodies as
+# JSON values in both; the update trigger still compares jsonb (json has no equality).
+PG_FORM = "json"
+PG_WORK_MEM = "64MB"
+
+
+def _pg_create(table: str, form: str | None = None) -> None:
+    form = form or PG_FORM
     rtype = TRACKED[table][0]
     cols = {name for name, _ in _columns(op.get_bind(), table)}
     ver_n = "n.version" if "version" in cols else "NULL::integer"
@@ -95,11 +106,12 @@ def _pg_create(table: str) -> None:
         "INSERT INTO changes (xact_id, changed_at, resource_type, resource_id, kind, version, body)"
     )
     xact = "pg_current_xact_id()::text::bigint"
+    body = "row_to_json(n)" if form == "json" else "to_jsonb(n)"
     bodies = {
         "insert": f"{head} SELECT {xact}, now(), '{rtype}', n.id, 'created', {ver_n}, "
-        "to_jsonb(n) FROM new_rows n ORDER BY n.id",
+        f"{body} FROM new_rows n ORDER BY n.id",
         "update": f"{head} SELECT {xact}, now(), '{rtype}', n.id, {_pg_kind(table, 'n', 'o')}, "
-        f"{ver_n}, to_jsonb(n) FROM new_rows n JOIN old_rows o ON o.id = n.id "
+        f"{ver_n}, {body} FROM new_rows n JOIN old_rows o ON o.id = n.id "
         f"WHERE (to_jsonb(n){minus}) IS DISTINCT FROM (to_jsonb(o){minus}) ORDER BY n.id",
         "delete": f"{head} SELECT {xact}, now(), '{rtype}', o.id, 'deleted', {ver_o}, NULL "
         "FROM old_rows o ORDER BY o.id",
@@ -109,13 +121,14 @@ def _pg_create(table: str) -> None:
         "update": "REFERENCING OLD TABLE AS old_rows NEW TABLE AS new_rows",
         "delete": "REFERENCING OLD TABLE AS old_rows",
     }
+    settings = f"SET work_mem = '{PG_WORK_MEM}' " if form == "json" else ""
     for operation in OPS:
         name = trigger_name(table, operation)
+        op.execute(f"DROP FUNCTION IF EXISTS {name}() CASCADE")  # a SET clause is not replaced
         op.execute(
-            f"CREATE OR REPLACE FUNCTION {name}() RETURNS trigger LANGUAGE plpgsql AS $$ "
+            f"CREATE FUNCTION {name}() RETURNS trigger LANGUAGE plpgsql {settings}AS $$ "
             f"BEGIN {bodies[operation]}; RETURN NULL; END $$"
         )
-        op.execute(f"DROP TRIGGER IF EXISTS {name} ON {table}")
         op.execute(
             f"CREATE TRIGGER {name} AFTER {operation.upper()} ON {table} "
             f"{refs[operation]} FOR EACH STATEMENT EXECUTE FUNCTION {name}()"
@@ -161,16 +174,18 @@ def _sqlite_create(table: str) -> None:
         op.execute(f"CREATE TRIGGER {name} {statements[operation]}")
 
 
-def create_triggers(operations: Any = None, tables: Sequence[str] | None = None) -> None:
+def create_triggers(
+    operations: Any = None, tables: Sequence[str] | None = None, pg_form: str | None = None
+) -> None:
     """(Re-)create the change triggers of the tracked tables (all by default).
 
     Takes `op` for symmetry with migration code; later migrations call it after a SQLite
-    batch rebuild or a new column on a tracked table.
+    batch rebuild or a new column on a tracked table. pg_form: see PG_FORM.
     """
     dialect = op.get_bind().dialect.name
     for table in tables or TRACKED:
         if dialect == "postgresql":
-            _pg_create(table)
+            _pg_create(table, pg_form)
         else:
             _sqlite_create(table)
 

@@ -13,6 +13,11 @@ of its jobs, so a job joining it pays only what its own hire adds, usually nothi
 that alone exceeds a week's capacity gets an empty week of its own and is flagged
 (over_capacity): it needs splitting or more capacity, and nothing else joins that week.
 Capacity None means no limit on that measure.
+
+Work already committed: group orders still open from earlier weeks (or made by hand) are
+due now and are done by the same crew, so their labour hours and money (their hire
+included) are loaded into this week (week 0) before any job is placed, and each opens its
+access method's visit there (a job on the same access method this week shares that hire).
 """
 
 from __future__ import annotations
@@ -35,6 +40,17 @@ class Job:
     hire: float  # equipment hire for one visit (site currency)
     earliest_week: int  # its due week: 0 = this week
     risk_weeks: float = math.inf  # weeks to its first safety limit (negative: past it)
+
+
+@dataclass(frozen=True)
+class Committed:
+    """An open group order of an earlier week: load this week carries before any job."""
+
+    area_id: int
+    access_method: str
+    labour_h: float  # hours
+    cost: float  # lamps, labour, disposal (site currency)
+    hire: float  # the area's equipment hire for one visit (site currency)
 
 
 @dataclass(frozen=True)
@@ -90,9 +106,23 @@ def _alone_too_big(cap: Capacity, job: Job) -> bool:
     return over_labour or over_money
 
 
-def schedule(jobs: Sequence[Job], cap: Capacity) -> list[Slot]:
+def _preload(committed: Sequence[Committed]) -> _Week:
+    """This week with the committed orders in it: their hours, money and visits."""
+    wk = _Week(visits={})
+    visits: dict[str, tuple[int, float]] = {}
+    for c in sorted(committed, key=lambda c: c.area_id):
+        opener, paid = visits.get(c.access_method, (c.area_id, 0.0))
+        hire = max(c.hire - paid, 0.0)
+        wk.labour_h += c.labour_h
+        wk.money += c.cost + hire
+        visits[c.access_method] = (opener, paid + hire)
+    wk.visits = visits
+    return wk
+
+
+def schedule(jobs: Sequence[Job], cap: Capacity, committed: Sequence[Committed] = ()) -> list[Slot]:
     """Each job's week, riskiest first, within the capacity (see the module docstring)."""
-    weeks: dict[int, _Week] = {}
+    weeks: dict[int, _Week] = {0: _preload(committed)} if committed else {}
     out: list[Slot] = []
     for rank, job in enumerate(risk_order(jobs)):
         w = max(job.earliest_week, 0)
@@ -124,10 +154,15 @@ def schedule(jobs: Sequence[Job], cap: Capacity) -> list[Slot]:
     return out
 
 
-def week_loads(jobs: Sequence[Job], slots: Sequence[Slot]) -> dict[int, tuple[float, float]]:
-    """Labour hours and money per scheduled week (hire as charged), for checks and display."""
+def week_loads(
+    jobs: Sequence[Job], slots: Sequence[Slot], committed: Sequence[Committed] = ()
+) -> dict[int, tuple[float, float]]:
+    """Labour hours and money per scheduled week (hire as charged, committed orders in week 0)."""
     by_area = {j.area_id: j for j in jobs}
     out: dict[int, tuple[float, float]] = {}
+    if committed:
+        pre = _preload(committed)
+        out[0] = (pre.labour_h, pre.money)
     for s in slots:
         j = by_area[s.area_id]
         h, m = out.get(s.week, (0.0, 0.0))

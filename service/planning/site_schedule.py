@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, timedelta
 
-from service.planning.catch_up import Capacity, Job, Slot, schedule
+from service.planning.catch_up import Capacity, Committed, Job, Slot, schedule
 from service.planning.service import AreaPlan, TypeGroup
 from service.register.models import Site
 
@@ -69,6 +69,7 @@ class SiteSchedule:
     jobs: dict[int, Job]
     slots: dict[int, Slot]
     today: date
+    committed: tuple[Committed, ...] = ()  # open group orders of earlier weeks, in week 0
 
     def week_start(self, area_id: int) -> date | None:
         """The first day of the area's scheduled week (today for week 0)."""
@@ -82,10 +83,19 @@ def capacity_of(site: Site) -> Capacity:
 
 
 def site_schedule(
-    site: Site, plans: Sequence[AreaPlan], today: date, horizon: date
+    site: Site,
+    plans: Sequence[AreaPlan],
+    today: date,
+    horizon: date,
+    committed: Sequence[Committed] = (),
 ) -> SiteSchedule:
-    """The catch-up schedule of every area due by the horizon, at the site's capacity."""
+    """The catch-up schedule of every area due by the horizon, at the site's capacity.
+
+    committed: the site's group orders still open from earlier weeks (workorders.issue
+    reads them), whose hours and money this week already carries.
+    """
     cap = capacity_of(site)
     jobs = {j.area_id: j for p in plans if (j := job_of(p, today, horizon)) is not None}
-    slots = {s.area_id: s for s in schedule(list(jobs.values()), cap)}
-    return SiteSchedule(cap, jobs, slots, today)
+    jobs = {a: j for a, j in jobs.items() if a not in {c.area_id for c in committed}}
+    slots = {s.area_id: s for s in schedule(list(jobs.values()), cap, committed)}
+    return SiteSchedule(cap, jobs, slots, today, tuple(committed))

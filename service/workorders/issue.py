@@ -26,12 +26,13 @@ from functools import partial
 from typing import Any
 
 import numpy as np
-from sqlalchemy import Table, case, select, update
+from sqlalchemy import Table, case, func, or_, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
+from service.planning.catch_up import Committed
 from service.planning.group_plan import PlanCache
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.service import AreaPlan, local_today, plan_areas
@@ -103,8 +104,11 @@ def _fixtures(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[i
     return out
 
 
-def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, list[Any]]:
-    """fixture id -> [(position id, position no)] by position no, from one numeric query.
+Slots = tuple[list[int], list[int]]  # a fixture's position ids and their numbers, by number
+
+
+def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, Slots]:
+    """fixture id -> (position ids, position nos) by position no, from one numeric query.
 
     Plain columns into numpy (readings.repository.float_matrix), sorted there: no ORM rows
     and no server sort; a 100,000-fixture run reads a few hundred thousand positions here.
@@ -122,8 +126,8 @@ def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[
     fids, starts = np.unique(m[:, 0], return_index=True)
     bounds = [*starts.tolist(), len(m)]
     ids, nos = m[:, 2].tolist(), m[:, 1].tolist()
-    return {
-        f: list(zip(ids[a:b], nos[a:b], strict=True))
+    return {  # list slices: no tuple per position (a few hundred thousand of them)
+        f: (ids[a:b], nos[a:b])
         for f, a, b in zip(fids.tolist(), bounds[:-1], bounds[1:], strict=True)
     }
 
@@ -226,7 +230,17 @@ def issue_orders(
         todo = [a for a in areas.values() if a.id not in busy and a.id not in done]
         ordered = [areas[a] for a in sorted(done)]  # scheduled with the rest (catch-up)
         group_types = _due_types(
-            session, site, todo, area_id, at, today, lookahead_weeks, whole_area, cache, ordered
+            session,
+            site,
+            todo,
+            area_id,
+            at,
+            today,
+            lookahead_weeks,
+            whole_area,
+            cache,
+            ordered,
+            iso_week,
         )
     # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
     # order a new group order will cover) only flag their positions on the group order.
@@ -245,34 +259,85 @@ def issue_orders(
     mk = partial(
         _order, site, state=state, iso_week=iso_week, run_id=run_id, contents=contents, now=at
     )
-    built: list[tuple[dict[str, Any], list[dict[str, Any]], list[int]]] = []
+    built: list[Built] = []
     for aid in sorted(group_types):
-        types, due, plan = group_types[aid]
-        ls = _group_lines(
-            fixtures.get(aid, []), types, positions, per_area.get(aid, []), pos_no, contents
-        )
-        if ls:
-            taken = [r.id for r in per_area.get(aid, []) if r.status == BurnoutReportState.OPEN]
-            minutes = areas[aid].group_minutes_per_lamp
-            info = _plan_info(plan, types, session)
-            order = mk(areas[aid], GROUP, due, ls, minutes, info)
-            built.append((order, ls, taken))
-    grouped = {o["area_id"] for o, _, _ in built}
+        lines = _group_lines(
+            fixtures.get(aid, []), group_types[aid][0], positions, per_area.get(aid, []), pos_no,
+            contents,
+        )  # fmt: skip
+        if lines:
+            built.append(
+                _group_order(session, site, areas[aid], group_types[aid], lines, per_area, mk)
+            )
     if SPOT in kinds:
         result.already_there += sum(1 for a, k in existing if k == SPOT and a in areas)
-        for aid in sorted(per_area):
-            rs = [r for r in per_area[aid] if r.status == BurnoutReportState.OPEN]
-            if not rs or aid in grouped or (aid, SPOT) in existing:
-                continue
-            ls = _spot_lines(rs, fixtures.get(aid, []), pos_no, contents)
-            order = mk(areas[aid], SPOT, today, ls, areas[aid].spot_minutes_per_lamp, None)
-            order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
-            built.append((order, ls, [r.id for r in rs]))
+        skip = {o["area_id"] for o, _, _ in built} | {a for a, k in existing if k == SPOT}
+        built += _spot_orders(areas, per_area, skip, fixtures, pos_no, busy, today, mk)
     if built:
         _write(session, built, result, at)
         if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
             _reserve(session, site.id, [oid for oid, _, _ in result.created])
     return result
+
+
+Built = tuple[dict[str, Any], list[dict[str, Any]], list[int]]  # order, lines, reports taken
+
+
+def _group_order(
+    session: Session,
+    site: Site,
+    area: Area,
+    due: tuple[set[int], date, AreaPlan],
+    lines: list[dict[str, Any]],
+    per_area: dict[int, list[Any]],
+    mk: Any,
+) -> Built:
+    """One area's group order: its plan figures, the chosen lamp on its lines, the reports."""
+    types, due_on, plan = due
+    taken = [r.id for r in per_area.get(area.id, []) if r.status == BurnoutReportState.OPEN]
+    info = _plan_info(plan, types, session)
+    _switch_lines(session, site, info, lines, mk.keywords["contents"])
+    order = mk(area, GROUP, due_on, lines, area.group_minutes_per_lamp, info)
+    return order, lines, taken
+
+
+def _spot_orders(
+    areas: dict[int, Area],
+    per_area: dict[int, list[Any]],
+    skip: set[int],
+    fixtures: dict[int, list[Any]],
+    pos_no: dict[int, int],
+    busy: dict[int, int],
+    today: date,
+    mk: Any,
+) -> list[Built]:
+    """A spot order per area with open reports, unless grouped or already ordered this week."""
+    out: list[Built] = []
+    for aid in sorted(per_area):
+        rs = [r for r in per_area[aid] if r.status == BurnoutReportState.OPEN]
+        if not rs or aid in skip:
+            continue
+        ls = _spot_lines(rs, fixtures.get(aid, []), pos_no, mk.keywords["contents"])
+        order = mk(areas[aid], SPOT, today, ls, areas[aid].spot_minutes_per_lamp, None)
+        order["covered_by_order_id"] = busy.get(aid)  # the open group order takes it over
+        out.append((order, ls, [r.id for r in rs]))
+    return out
+
+
+def _switch_lines(
+    session: Session,
+    site: Site,
+    info: dict[str, Any] | None,
+    lines: list[dict[str, Any]],
+    contents: dict[int, LampContent],
+) -> None:
+    """The chosen lamp onto a group order's lines (choice_hooks: switched lines)."""
+    sw = choice_hooks.switches(session, site, info)
+    if sw:
+        choice_hooks.apply_switches(lines, sw)
+        fit = {x["lamp_type_id"] for x in lines} - contents.keys()
+        if fit:
+            contents.update(_contents(session, fit))
 
 
 def _reserve(session: Session, site_id: int, order_ids: list[int]) -> None:
@@ -294,6 +359,7 @@ def _due_types(
     whole_area: bool,
     cache: PlanCache | None,
     ordered: list[Area],
+    iso_week: str | None,
 ) -> dict[int, tuple[set[int], date, AreaPlan]]:
     """Which lamp types of which areas get a group relamp, with the due date and the plan.
 
@@ -313,8 +379,52 @@ def _due_types(
             soonest = min((g.due_on for g in due_groups if g.due_on), default=today)
             out[plan.area.id] = ({g.lamp_type_id for g in due_groups}, max(soonest, today), plan)
     if area_id is None and capacity_of(site).limited:
-        return _this_week(session, site, out, ordered, pos, at, today, horizon)
+        return _this_week(session, site, out, ordered, pos, at, today, horizon, iso_week)
     return out
+
+
+def committed_orders(session: Session, site: Site, iso_week: str | None) -> list[Committed]:
+    """The site's group orders still open from other weeks (or made by hand), as load.
+
+    Labour: the order's estimated hours. Money: its lamps at their unit price, those hours
+    at the site's labour rate, the disposal fee per mercury lamp, and the area's hire.
+    """
+    rows = session.execute(
+        select(
+            WorkOrder.id,
+            WorkOrder.area_id,
+            WorkOrder.access_method,
+            WorkOrder.estimated_labour_h,
+            Area.equipment_hire_per_visit,
+        )
+        .join(Area, Area.id == WorkOrder.area_id)
+        .where(WorkOrder.site_id == site.id, WorkOrder.kind == GROUP)
+        .where(WorkOrder.state.in_(OPEN_STATES))
+        .where(or_(WorkOrder.iso_week.is_(None), WorkOrder.iso_week != (iso_week or "")))
+        .order_by(WorkOrder.id)
+    ).all()
+    if not rows:
+        return []
+    mercury = case((LampType.contains_mercury, WorkOrderLine.quantity), else_=0)
+    money = dict(
+        session.execute(
+            select(
+                WorkOrderLine.work_order_id,
+                func.sum(WorkOrderLine.quantity * LampType.unit_price)
+                + func.sum(mercury) * float(site.disposal_fee_per_mercury_lamp or 0.0),
+            )
+            .join(LampType, LampType.id == WorkOrderLine.lamp_type_id)
+            .where(WorkOrderLine.work_order_id.in_([r[0] for r in rows]))
+            .group_by(WorkOrderLine.work_order_id)
+        ).all()
+    )
+    rate = float(site.labour_rate_per_h)
+    return [
+        Committed(
+            aid, access, float(h), float(money.get(oid) or 0.0) + float(h) * rate, float(hire)
+        )
+        for oid, aid, access, h, hire in rows
+    ]
 
 
 def _this_week(
@@ -326,17 +436,20 @@ def _this_week(
     at: datetime,
     today: date,
     horizon: date,
+    iso_week: str | None,
 ) -> dict[int, tuple[set[int], date, AreaPlan]]:
     """Of the due areas, those the catch-up schedule puts in this week (capacity per site).
 
     The areas already ordered this week are scheduled with them, as in the week's first run,
-    so a second run of the same week cannot fill the week's capacity twice.
+    so a second run of the same week cannot fill the week's capacity twice; group orders
+    still open from earlier weeks take their hours and money off this week first.
     """
     plans = [p for _, _, p in due.values()]
     if ordered:
         last = last_group_relamps(session, [a.id for a in ordered])
         plans += plan_areas(session, site, ordered, pos, at, None, None, last_relamps=last)
-    sched = site_schedule(site, plans, today, horizon)
+    committed = committed_orders(session, site, iso_week)
+    sched = site_schedule(site, plans, today, horizon, committed)
     out: dict[int, tuple[set[int], date, AreaPlan]] = {}
     for aid, (types, due_on, plan) in due.items():
         slot = sched.slots.get(aid)
@@ -374,7 +487,7 @@ def _plan_info(plan: AreaPlan, types: set[int], session: Session) -> dict[str, A
 def _group_lines(
     fixtures: list[Any],
     types: set[int],
-    positions: dict[int, list[Any]],
+    positions: dict[int, Slots],
     reports: list[Any],
     pos_no: dict[int, int],
     contents: dict[int, LampContent],
@@ -387,16 +500,16 @@ def _group_lines(
     for fid, tag, loc, lt in fixtures:
         rs = by_fixture.get(fid, [])
         if lt in types:
-            ps = positions.get(fid, [])
-            on_line = {p[0] for p in ps}
-            rids = [r.id for r in rs if r.position_id in on_line] or None
+            pids, nos = positions.get(fid, ([], []))
+            rids = [r.id for r in rs if r.position_id in pids] or None  # a few lamps a fixture
         else:  # not due: only its dark lamps, so no spot order is needed beside
             ps = sorted(
                 {(r.position_id, pos_no.get(r.position_id, 0)) for r in rs}, key=lambda x: x[1]
             )
+            pids, nos = [p[0] for p in ps], [p[1] for p in ps]
             rids = [r.id for r in rs] or None
-        if ps:
-            ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, rids))
+        if pids:
+            ls.append(_line(fid, tag, loc, lt, contents[lt].code, (pids, nos), rids))
     return ls
 
 
@@ -415,7 +528,8 @@ def _spot_lines(
     for fid, rs in per_fixture.items():
         _, tag, loc, lt = fix_index[fid]
         ps = sorted({(r.position_id, pos_no.get(r.position_id, 0)) for r in rs}, key=lambda x: x[1])
-        ls.append(_line(fid, tag, loc, lt, contents[lt].code, ps, [r.id for r in rs]))
+        slots = ([p[0] for p in ps], [p[1] for p in ps])
+        ls.append(_line(fid, tag, loc, lt, contents[lt].code, slots, [r.id for r in rs]))
     return ls
 
 
@@ -475,18 +589,19 @@ def _line(
     loc: str | None,
     lt: int,
     code: str,
-    ps: list[Any],
+    slots: Slots,
     reports: list[int] | None,
 ) -> dict[str, Any]:
+    pids, nos = slots
     return {
         "fixture_id": fid,
         "fixture_tag": tag,
         "location": loc,
         "lamp_type_id": lt,
         "lamp_type_code": code,
-        "quantity": len(ps),
-        "position_ids": [p[0] for p in ps],
-        "position_nos": [p[1] for p in ps],
+        "quantity": len(pids),
+        "position_ids": list(pids),
+        "position_nos": list(nos),
         "report_ids": reports,
         "outcome": None,
         "skip_reason": None,
@@ -511,7 +626,11 @@ def _order(
 ) -> dict[str, Any]:
     """The row of one new order (lamp count, labour and cautions from its lines)."""
     qty = sum(x["quantity"] for x in lines)
-    lamps = [contents[lt] for lt in sorted({x["lamp_type_id"] for x in lines})]
+    fitted = {x["lamp_type_id"] for x in lines}
+    removed = {
+        int(v) for x in lines if (v := (x["extra"] or {}).get("replaces_lamp_type_id")) is not None
+    }
+    lamps = [contents[lt] for lt in sorted(fitted | removed)]  # cautions and disposal of both
     return {
         "site_id": site.id,
         "area_id": area.id,

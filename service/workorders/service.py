@@ -24,7 +24,7 @@ from service.db.locks import lock_site
 from service.events import removals, reports
 from service.events.checks import as_aware
 from service.register.models import Area, LampPosition, Site
-from service.workorders import stock_hooks
+from service.workorders import choice_hooks, stock_hooks
 from service.workorders.issue import GROUP, SPOT, issue_orders
 from service.workorders.models import (
     OPEN_STATES,
@@ -333,8 +333,10 @@ def complete(session: Session, order_id: int, body: CompleteBody) -> WorkOrder:
         ln.position_outcomes = [
             {"position_id": pid, "outcome": str(o), "reason": r} for pid, o, r in entries
         ]
+    choice_hooks.check_switched(session, order, resolved)  # 422 before any write
     stock_hooks.on_completed(session, order)  # 409 before any removal when stock is short
-    _record(session, order, resolved, at)
+    _record(session, order, resolved, at)  # removals keep the lamp type taken out
+    choice_hooks.switch_fixtures(session, order)  # then the fixture gets the type fitted
     reports.reopen_reports(session, order.id)  # reports of skipped positions reopen
     _settle_covered(covered, order, at, now)
     _move(order, WorkOrderState.DONE, now)

@@ -73,3 +73,30 @@ def test_weekly_run_orders_only_this_weeks_areas_and_a_rerun_adds_none(
     again = client.post(url, json={"week": "2026-W49"}, headers=writer)
     assert again.status_code == 201, again.text
     assert again.json()["group_orders"] == 0
+
+
+def test_open_orders_of_an_earlier_week_take_this_weeks_capacity(
+    client: TestClient, db: Session, writer: dict[str, str], reader: dict[str, str]
+) -> None:
+    k = _site(db)
+    url = f"{API}/sites/{k['site']}/runs"
+    first = client.post(url, json={"week": "2026-W48"}, headers=writer)
+    assert first.status_code == 201 and first.json()["group_orders"] == 2  # L1, L2: 10 h
+    # Next week both are still open (10 h of the 10 h a week): the stair waits, though due.
+    nxt = client.post(url, json={"week": "2026-W49"}, headers=writer)
+    assert nxt.status_code == 201, nxt.text
+    assert nxt.json()["group_orders"] == 0
+    orders = client.get(f"{API}/work-orders?site_id={k['site']}", headers=reader).json()["items"]
+    l1 = next(o for o in orders if o["area_id"] == k["L1"])
+    r = client.post(
+        f"{API}/work-orders/{l1['id']}/cancel", json={"reason": "re-plan"}, headers=writer
+    )
+    assert r.status_code == 200, r.text
+    # One earlier order (L2, 5 h) left open: 5 h are free. The cancelled level is due again
+    # and still the riskiest, so it goes in before the stair (5 h each).
+    later = client.post(url, json={"week": "2026-W50"}, headers=writer)
+    assert later.status_code == 201 and later.json()["group_orders"] == 1, later.text
+    orders = client.get(f"{API}/work-orders?site_id={k['site']}", headers=reader).json()["items"]
+    open_now = [o for o in orders if o["state"] in ("draft", "issued", "in_progress")]
+    assert sorted(o["area_id"] for o in open_now) == sorted([k["L1"], k["L2"]])
+    assert sum(o["estimated_labour_h"] for o in open_now) <= 10.0  # the week's capacity held
