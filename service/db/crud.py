@@ -1,10 +1,12 @@
-"""Small helpers every repository uses: fetch-or-404 and applying a partial update."""
+"""Helpers every repository uses: fetch-or-404, a partial update, list filters, uniqueness."""
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any, TypeVar
 
 from pydantic import BaseModel
+from sqlalchemy import Select, select
 from sqlalchemy.orm import Session
 
 from service.api.errors import NotFound
@@ -28,3 +30,37 @@ def apply_patch(row: Any, patch: BaseModel) -> dict[str, Any]:
     for field, value in changes.items():
         setattr(row, field, value)
     return changes
+
+
+def filtered(
+    stmt: Select[Any],
+    *,
+    equal: Sequence[tuple[Any, Any]] = (),
+    contains: Sequence[tuple[Any, str | None]] = (),
+    retired: tuple[Any, bool] | None = None,
+) -> Select[Any]:
+    """A list query narrowed by the filters a client gave (None: not given).
+
+    `equal` pairs a column with the value it must equal, `contains` with a fragment its text
+    must hold (any case); `retired` is (the retired-at column, include retired rows).
+    """
+    if retired is not None and not retired[1]:
+        stmt = stmt.where(retired[0].is_(None))
+    for column, value in equal:
+        if value is not None:
+            stmt = stmt.where(column == value)
+    for column, fragment in contains:
+        if fragment:
+            stmt = stmt.where(column.ilike(f"%{fragment}%"))
+    return stmt
+
+
+def value_taken(
+    session: Session, column: Any, value: Any, exclude_id: int | None = None, *within: Any
+) -> bool:
+    """True when a row other than `exclude_id` already has `value` in `column` (within scope)."""
+    model = column.class_
+    stmt = select(model.id).where(column == value, *within)
+    if exclude_id is not None:
+        stmt = stmt.where(model.id != exclude_id)
+    return session.scalar(stmt) is not None

@@ -6,6 +6,7 @@ from typing import Any
 
 from sqlalchemy import Select, select
 
+from service.db.crud import filtered
 from service.events.models import BurnoutReport, LampRemoval
 
 REPORT_SORT = {"id": BurnoutReport.id, "reported_at": BurnoutReport.reported_at}
@@ -13,32 +14,26 @@ REMOVAL_SORT = {"id": LampRemoval.id, "removed_at": LampRemoval.removed_at}
 
 
 def report_query(
-    site_id: int | None, area_id: int | None, status: str | None, position_id: int | None
+    site_id: int | None = None,
+    area_id: int | None = None,
+    status: str | None = None,
+    position_id: int | None = None,
 ) -> Select[Any]:
     """Burnout reports filtered by site, area, status and position."""
-    stmt = select(BurnoutReport)
-    if site_id is not None:
-        stmt = stmt.where(BurnoutReport.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(BurnoutReport.area_id == area_id)
-    if status is not None:
-        stmt = stmt.where(BurnoutReport.status == status)
-    if position_id is not None:
-        stmt = stmt.where(BurnoutReport.position_id == position_id)
-    return stmt
+    r = BurnoutReport
+    by = [r.site_id, r.area_id, r.status, r.position_id]
+    values = (site_id, area_id, status, position_id)
+    return filtered(select(r), equal=list(zip(by, values, strict=True)))
 
 
 def removal_query(
-    site_id: int | None, lamp_type_id: int | None, failed: bool | None, position_id: int | None
+    site_id: int | None = None,
+    lamp_type_id: int | None = None,
+    failed: bool | None = None,
+    position_id: int | None = None,
 ) -> Select[Any]:
     """Lamp removals filtered by site, lamp type, outcome and position."""
-    stmt = select(LampRemoval)
-    if site_id is not None:
-        stmt = stmt.where(LampRemoval.site_id == site_id)
-    if lamp_type_id is not None:
-        stmt = stmt.where(LampRemoval.lamp_type_id == lamp_type_id)
-    if failed is not None:
-        stmt = stmt.where(LampRemoval.failed.is_(failed))
-    if position_id is not None:
-        stmt = stmt.where(LampRemoval.position_id == position_id)
-    return stmt
+    r = LampRemoval
+    by = [r.site_id, r.lamp_type_id, r.failed, r.position_id]
+    values = (site_id, lamp_type_id, failed, position_id)
+    return filtered(select(r), equal=list(zip(by, values, strict=True)))

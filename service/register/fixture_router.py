@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Query, Response
 from pydantic import BaseModel
 
 import service.register.fixture_bulk as fixture_bulk
@@ -14,7 +14,7 @@ from service.api.bulk import EXPORT_RESPONSES, UPLOAD_OPENAPI, RawBodyDep, expor
 from service.api.ids import MAX_ID, IdPath
 from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, page_of, paginate
-from service.api.preconditions import locate, versioned
+from service.api.resource_routes import Resource
 from service.catalogue.schemas import IncludeRetiredQ
 from service.register import fixtures
 from service.register import repository as repo
@@ -29,6 +29,16 @@ from service.register.schemas import (
 from service.uploads.parse import read_upload
 
 router = APIRouter(tags=["register"])
+FIXTURE = Resource(
+    collection="/fixtures", id_name="fixture_id", model=Fixture, read=FixtureRead, service=fixtures
+)
+POSITION = Resource(
+    collection="/positions",
+    id_name="position_id",
+    model=LampPosition,
+    read=PositionRead,
+    service=fixtures,
+)
 
 SiteQ = Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this site.")]
 AreaQ = Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this area.")]
@@ -71,14 +81,12 @@ def list_fixtures(
     return page_of(FixtureRead, items, total, page)
 
 
-@router.post("/fixtures", response_model=FixtureRead, status_code=status.HTTP_201_CREATED)
-def create_fixture(
-    body: FixtureCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
-) -> FixtureRead:
-    """Create a fixture and its lamp positions."""
-    fixture = fixtures.create_fixture(session, body)
-    locate(request, response, "get_fixture", fixture_id=fixture.id)
-    return FixtureRead.model_validate(fixture)
+FIXTURE.create_route(
+    router,
+    ("create_fixture", "get_fixture"),
+    "Create a fixture and its lamp positions.",
+    FixtureCreate,
+)
 
 
 @router.post("/fixtures/import", response_model=FixtureImportSummary, openapi_extra=UPLOAD_OPENAPI)
@@ -118,37 +126,18 @@ def export_fixtures(
     return export_response(fixture_bulk.FIXTURE_COLUMNS, rows, format, "fixtures")
 
 
-@router.get(
-    "/fixtures/{fixture_id}",
-    response_model=FixtureRead,
-    dependencies=[versioned(Fixture, "fixture_id")],
+FIXTURE.get_route(router, "get_fixture", "Read one fixture with its positions.")
+FIXTURE.patch_route(
+    router,
+    "update_fixture",
+    "Change some fields of a fixture; positions follow lamps_per_fixture.",
+    FixtureUpdate,
 )
-def get_fixture(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> FixtureRead:
-    """Read one fixture with its positions."""
-    return FixtureRead.model_validate(fixtures.get_fixture(session, fixture_id))
-
-
-@router.patch(
-    "/fixtures/{fixture_id}",
-    response_model=FixtureRead,
-    dependencies=[versioned(Fixture, "fixture_id")],
+FIXTURE.delete_route(
+    router,
+    "delete_fixture",
+    "Delete a fixture with its positions.",
 )
-def update_fixture(
-    fixture_id: IdPath, body: FixtureUpdate, session: SessionDep, _: WriteKey
-) -> FixtureRead:
-    """Change some fields of a fixture; positions follow lamps_per_fixture."""
-    return FixtureRead.model_validate(fixtures.update_fixture(session, fixture_id, body))
-
-
-@router.delete(
-    "/fixtures/{fixture_id}",
-    status_code=status.HTTP_204_NO_CONTENT,
-    dependencies=[versioned(Fixture, "fixture_id")],
-)
-def delete_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
-    """Delete a fixture with its positions."""
-    fixtures.delete_fixture(session, fixture_id)
-    return Response(status_code=status.HTTP_204_NO_CONTENT)
 
 
 @router.get("/fixtures/{fixture_id}/positions", response_model=list[PositionRead])
@@ -157,13 +146,9 @@ def list_positions(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> list[
     return [PositionRead.model_validate(p) for p in fixtures.list_positions(session, fixture_id)]
 
 
-@router.patch(
-    "/positions/{position_id}",
-    response_model=PositionRead,
-    dependencies=[versioned(LampPosition, "position_id")],
+POSITION.patch_route(
+    router,
+    "update_position",
+    "Correct when a position's lamp went in and the burn hours it had then.",
+    PositionUpdate,
 )
-def update_position(
-    position_id: IdPath, body: PositionUpdate, session: SessionDep, _: WriteKey
-) -> PositionRead:
-    """Correct when a position's lamp went in and the burn hours it had then."""
-    return PositionRead.model_validate(fixtures.update_position(session, position_id, body))

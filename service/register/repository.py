@@ -8,6 +8,7 @@ from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session, selectinload
 
 from service.api.pagination import columns_of
+from service.db.crud import filtered, value_taken
 from service.register.models import Area, Fixture, LampPosition, Site
 
 SITE_SORT = {
@@ -19,30 +20,23 @@ SITE_SORT = {
 
 
 def site_query(
-    name_contains: str | None = None,
+    name: str | None = None,
     time_zone: str | None = None,
     include_retired: bool = True,
     external_reference: str | None = None,
 ) -> Select[Any]:
     """Sites filtered by a name fragment (case-insensitive), time zone, retirement, reference."""
-    stmt = select(Site)
-    if external_reference is not None:
-        stmt = stmt.where(Site.external_reference == external_reference)
-    if not include_retired:
-        stmt = stmt.where(Site.retired_at.is_(None))
-    if name_contains:
-        stmt = stmt.where(Site.name.ilike(f"%{name_contains}%"))
-    if time_zone:
-        stmt = stmt.where(Site.time_zone == time_zone)
-    return stmt
+    return filtered(
+        select(Site),
+        equal=[(Site.external_reference, external_reference), (Site.time_zone, time_zone or None)],
+        contains=[(Site.name, name)],
+        retired=(Site.retired_at, include_retired),
+    )
 
 
 def site_name_taken(session: Session, name: str, exclude_id: int | None = None) -> bool:
     """True when another site already has this name."""
-    stmt = select(Site.id).where(Site.name == name)
-    if exclude_id is not None:
-        stmt = stmt.where(Site.id != exclude_id)
-    return session.scalar(stmt) is not None
+    return value_taken(session, Site.name, name, exclude_id)
 
 
 AREA_SORT = {
@@ -57,30 +51,23 @@ AREA_SORT = {
 def area_query(
     site_id: int | None = None,
     access_method: str | None = None,
-    name_contains: str | None = None,
+    name: str | None = None,
     include_retired: bool = True,
 ) -> Select[Any]:
     """Areas filtered by site, access method, a name fragment (any case) and retirement."""
-    stmt = select(Area)
-    if not include_retired:
-        stmt = stmt.where(Area.retired_at.is_(None))
-    if site_id is not None:
-        stmt = stmt.where(Area.site_id == site_id)
-    if access_method:
-        stmt = stmt.where(Area.access_method == access_method)
-    if name_contains:
-        stmt = stmt.where(Area.name.ilike(f"%{name_contains}%"))
-    return stmt
+    return filtered(
+        select(Area),
+        equal=[(Area.site_id, site_id), (Area.access_method, access_method or None)],
+        contains=[(Area.name, name)],
+        retired=(Area.retired_at, include_retired),
+    )
 
 
 def area_name_taken(
     session: Session, site_id: int, name: str, exclude_id: int | None = None
 ) -> bool:
     """True when another area of the site already has this name."""
-    stmt = select(Area.id).where(Area.site_id == site_id, Area.name == name)
-    if exclude_id is not None:
-        stmt = stmt.where(Area.id != exclude_id)
-    return session.scalar(stmt) is not None
+    return value_taken(session, Area.name, name, exclude_id, Area.site_id == site_id)
 
 
 FIXTURE_SORT = {
@@ -103,28 +90,18 @@ def fixture_query(
     external_reference: str | None = None,
 ) -> Select[Any]:
     """Fixtures (with positions) filtered by site, area, lamp type, tag, retirement, reference."""
-    stmt = select(Fixture).options(selectinload(Fixture.positions))
-    if external_reference is not None:
-        stmt = stmt.where(Fixture.external_reference == external_reference)
-    if not include_retired:
-        stmt = stmt.where(Fixture.retired_at.is_(None))
-    if site_id is not None:
-        stmt = stmt.where(Fixture.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(Fixture.area_id == area_id)
-    if lamp_type_id is not None:
-        stmt = stmt.where(Fixture.lamp_type_id == lamp_type_id)
-    if tag_contains:
-        stmt = stmt.where(Fixture.tag.ilike(f"%{tag_contains}%"))
-    return stmt
+    by = [Fixture.site_id, Fixture.area_id, Fixture.lamp_type_id, Fixture.external_reference]
+    return filtered(
+        select(Fixture).options(selectinload(Fixture.positions)),
+        equal=list(zip(by, (site_id, area_id, lamp_type_id, external_reference), strict=True)),
+        contains=[(Fixture.tag, tag_contains)],
+        retired=(Fixture.retired_at, include_retired),
+    )
 
 
 def tag_taken(session: Session, site_id: int, tag: str, exclude_id: int | None = None) -> bool:
     """True when another fixture of the site already has this tag."""
-    stmt = select(Fixture.id).where(Fixture.site_id == site_id, Fixture.tag == tag)
-    if exclude_id is not None:
-        stmt = stmt.where(Fixture.id != exclude_id)
-    return session.scalar(stmt) is not None
+    return value_taken(session, Fixture.tag, tag, exclude_id, Fixture.site_id == site_id)
 
 
 def positions_of(session: Session, fixture_id: int) -> list[LampPosition]:

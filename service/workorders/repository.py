@@ -9,6 +9,7 @@ from typing import Any
 from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
+from service.db.crud import filtered
 from service.workorders.models import WorkOrder
 
 ORDER_SORT = {
@@ -31,21 +32,12 @@ def order_query(
     external_reference: str | None = None,
 ) -> Select[Any]:
     """Orders filtered; changed_since keeps those updated (state changes included) at or after."""
-    stmt = select(WorkOrder)
-    if external_reference is not None:
-        stmt = stmt.where(WorkOrder.external_reference == external_reference)
-    if site_id is not None:
-        stmt = stmt.where(WorkOrder.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(WorkOrder.area_id == area_id)
-    if state is not None:
-        stmt = stmt.where(WorkOrder.state == state)
-    if kind is not None:
-        stmt = stmt.where(WorkOrder.kind == kind)
-    if iso_week is not None:
-        stmt = stmt.where(WorkOrder.iso_week == iso_week)
+    o = WorkOrder
+    by = [o.external_reference, o.site_id, o.area_id, o.state, o.kind, o.iso_week]
+    values = (external_reference, site_id, area_id, state, kind, iso_week)
+    stmt = filtered(select(o), equal=list(zip(by, values, strict=True)))
     if changed_since is not None:
-        stmt = stmt.where(WorkOrder.updated_at >= changed_since)
+        stmt = stmt.where(o.updated_at >= changed_since)
     return stmt
 
 
