@@ -80,11 +80,30 @@ class Resource:
     def _act(self, name: str, given: Callable[..., Any] | None) -> Callable[..., Any]:
         return given if given is not None else lambda *a: getattr(self.service, name)(*a)
 
-    def _item_params(self, key: Any, body: type[BaseModel] | None) -> list[Any]:
+    def _add(
+        self,
+        router: APIRouter,
+        spec: tuple[str, str, str, str],
+        takes: tuple[Any, type[BaseModel] | None],
+        run: Callable[..., Any],
+        **route: Any,
+    ) -> None:
+        """Add a route on one record: spec (method, path, name, doc), takes (key, body)."""
+        method, path, name, doc = spec
+        key, body = takes
         params = [param(self.id_name, IdPath)]
         if body is not None:
             params.append(param("body", body))
-        return [*params, param("session", SessionDep), param("_", key)]
+        params += [param("session", SessionDep), param("_", key)]
+        if method != "DELETE":
+            route["response_model"] = self.read
+        router.add_api_route(
+            path,
+            endpoint(name, doc, params, run),
+            methods=[method],
+            dependencies=[versioned(self.model, self.id_name)],
+            **route,
+        )
 
     def get_route(
         self, router: APIRouter, name: str, doc: str, load: Callable[..., Any] | None = None
@@ -95,13 +114,7 @@ class Resource:
         def run(session: Any, _: Any, **values: Any) -> Any:
             return self.to_read(act(session, values[self.id_name]))
 
-        router.add_api_route(
-            self.item,
-            endpoint(name, doc, self._item_params(ReadKey, None), run),
-            methods=["GET"],
-            response_model=self.read,
-            dependencies=[versioned(self.model, self.id_name)],
-        )
+        self._add(router, ("GET", self.item, name, doc), (ReadKey, None), run)
 
     def _write_route(
         self,
@@ -110,20 +123,13 @@ class Resource:
         body: type[BaseModel] | None,
         given: Callable[..., Any] | None,
     ) -> None:
-        method, path, name, doc = spec
-        act = self._act(name, given)
+        act = self._act(spec[2], given)
 
         def run(session: Any, _: Any, **values: Any) -> Any:
             args = (values["body"],) if body is not None else ()
             return self.to_read(act(session, values[self.id_name], *args))
 
-        router.add_api_route(
-            path,
-            endpoint(name, doc, self._item_params(WriteKey, body), run),
-            methods=[method],
-            response_model=self.read,
-            dependencies=[versioned(self.model, self.id_name)],
-        )
+        self._add(router, spec, (WriteKey, body), run)
 
     def patch_route(
         self,
@@ -158,13 +164,8 @@ class Resource:
             act(session, values[self.id_name])
             return Response(status_code=status.HTTP_204_NO_CONTENT)
 
-        router.add_api_route(
-            self.item,
-            endpoint(name, doc, self._item_params(WriteKey, None), run),
-            methods=["DELETE"],
-            status_code=status.HTTP_204_NO_CONTENT,
-            dependencies=[versioned(self.model, self.id_name)],
-        )
+        spec = ("DELETE", self.item, name, doc)
+        self._add(router, spec, (WriteKey, None), run, status_code=status.HTTP_204_NO_CONTENT)
 
     def create_route(
         self,
@@ -208,12 +209,14 @@ class Resource:
         doc: str,
         filters: Mapping[str, Any],
         query: tuple[Callable[..., Select[Any]], Mapping[str, Any]],
+        load: Callable[..., tuple[Sequence[Any], int]] | None = None,
     ) -> None:
         """GET the collection: one page of the records matching `filters`, sorted.
 
         `filters` maps each query parameter to its annotation, or to (annotation, default)
         when the default is not None; `query` is (the statement for the filters, the sort
         columns); the statement's function takes the filters by their parameter names.
+        `load` (session, statement, page) -> (rows, total) replaces the plain paginate.
         """
         build, sort = query
         params = [param("session", SessionDep), param("_", ReadKey), param("page", PageDep)]
@@ -222,7 +225,11 @@ class Resource:
             params.append(param(key, annotation, default))
 
         def run(session: Any, _: Any, page: Any, **values: Any) -> Any:
-            rows, total = paginate(session, build(**values), page, sort, self.model.id)
+            stmt = build(**values)
+            if load is not None:
+                rows, total = load(session, stmt, page)
+            else:
+                rows, total = paginate(session, stmt, page, sort, self.model.id)
             return Page(
                 items=[self.to_read(r) for r in rows],
                 total=total,

@@ -2,41 +2,21 @@
 
 from __future__ import annotations
 
-from typing import Any
-
-from sqlalchemy import Select, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
-from service.db.crud import filtered, value_taken
+from service.db.crud import ListQuery, sort_columns, value_taken
 
-LAMP_TYPE_SORT = {
-    "code": LampType.code,
-    "id": LampType.id,
-    "technology": LampType.technology,
-    "rated_watts": LampType.rated_watts,
-    "rated_life_h": LampType.rated_life_h,
-    "unit_price": LampType.unit_price,
-    "created_at": LampType.created_at,
-}
+LAMP_TYPE_SORT = sort_columns(
+    LampType, "code", "id", "technology", "rated_watts", "rated_life_h", "unit_price", "created_at"
+)
 
 
-def lamp_type_query(
-    technology: str | None = None,
-    code: str | None = None,
-    contains_mercury: bool | None = None,
-    include_retired: bool = True,
-) -> Select[Any]:
-    """Lamp types filtered by technology, code fragment (any case), mercury and retirement."""
-    return filtered(
-        select(LampType),
-        equal=[
-            (LampType.technology, technology or None),
-            (LampType.contains_mercury, contains_mercury),
-        ],
-        contains=[(LampType.code, code)],
-        retired=(LampType.retired_at, include_retired),
-    )
+#: Lamp types filtered by technology, code fragment (any case), mercury and retirement.
+lamp_type_query = ListQuery(
+    LampType, equal=("technology", "contains_mercury"), contains={"code": "code"}, retired=True
+)
 
 
 def code_taken(session: Session, code: str, exclude_id: int | None = None) -> bool:

@@ -12,7 +12,7 @@ from service.catalogue.schemas import IncludeRetiredQ
 from service.register import areas
 from service.register import repository as repo
 from service.register.models import ACCESS_METHODS, Area
-from service.register.schemas import AreaCreate, AreaRead, AreaUpdate
+from service.register.schemas import AreaCreate, AreaRead, AreaUpdate, NameQ
 
 router = APIRouter(tags=["register"])
 AREA = Resource(collection="/areas", id_name="area_id", model=Area, read=AreaRead, service=areas)
@@ -28,7 +28,7 @@ AREA.list_route(
         "access_method": Annotated[
             str | None, Query(description=f"One of {', '.join(ACCESS_METHODS)}.")
         ],
-        "name": Annotated[str | None, Query(description="Name contains (any case).")],
+        "name": NameQ,
         "include_retired": (IncludeRetiredQ, False),
     },
     (repo.area_query, repo.AREA_SORT),

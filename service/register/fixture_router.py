@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Query, Response
 from pydantic import BaseModel
+from sqlalchemy import Select
+from sqlalchemy.orm import Session
 
 import service.register.fixture_bulk as fixture_bulk
 import service.register.fixture_export as fixture_export
@@ -13,7 +15,7 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import EXPORT_RESPONSES, UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import MAX_ID, IdPath
 from service.api.lookups import ExternalReferenceQ
-from service.api.pagination import Page, PageDep, page_of, paginate
+from service.api.pagination import PageParams, paginate
 from service.api.resource_routes import Resource
 from service.catalogue.schemas import IncludeRetiredQ
 from service.register import fixtures
@@ -57,30 +59,29 @@ class FixtureImportSummary(BaseModel):
     positions_created: int
 
 
-@router.get("/fixtures", response_model=Page[FixtureRead])
-def list_fixtures(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: SiteQ = None,
-    area_id: AreaQ = None,
-    lamp_type_id: LampTypeQ = None,
-    tag: TagQ = None,
-    include_retired: IncludeRetiredQ = False,
-    external_reference: ExternalReferenceQ = None,
-) -> Page[FixtureRead]:
-    """List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on)."""
-    stmt = repo.fixture_query(
-        site_id, area_id, lamp_type_id, tag, include_retired, external_reference
-    )
+def _fixture_page(session: Session, stmt: Select[Any], page: PageParams) -> tuple[list[Any], int]:
     # Plain rows, not ORM objects: the list is answered straight from them (P3 of the
     # speed issue; ORM loading was the largest part of this route's time).
     rows, total = paginate(session, repo.as_rows(stmt), page, repo.FIXTURE_SORT, Fixture.id)
     positions = repo.positions_by_fixture(session, [r.id for r in rows])
-    items = [{**r._mapping, "positions": positions.get(r.id, [])} for r in rows]
-    return page_of(FixtureRead, items, total, page)
+    return [{**r._mapping, "positions": positions.get(r.id, [])} for r in rows], total
 
 
+FIXTURE.list_route(
+    router,
+    "list_fixtures",
+    "List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on).",
+    {
+        "site_id": SiteQ,
+        "area_id": AreaQ,
+        "lamp_type_id": LampTypeQ,
+        "tag": TagQ,
+        "include_retired": (IncludeRetiredQ, False),
+        "external_reference": ExternalReferenceQ,
+    },
+    (repo.fixture_query, repo.FIXTURE_SORT),
+    _fixture_page,
+)
 FIXTURE.create_route(
     router,
     ("create_fixture", "get_fixture"),

@@ -8,30 +8,16 @@ from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session, selectinload
 
 from service.api.pagination import columns_of
-from service.db.crud import filtered, value_taken
+from service.db.crud import ListQuery, sort_columns, value_taken
 from service.register.models import Area, Fixture, LampPosition, Site
 
-SITE_SORT = {
-    "name": Site.name,
-    "id": Site.id,
-    "created_at": Site.created_at,
-    "nominal_voltage_v": Site.nominal_voltage_v,
-}
+SITE_SORT = sort_columns(Site, "name", "id", "created_at", "nominal_voltage_v")
 
 
-def site_query(
-    name: str | None = None,
-    time_zone: str | None = None,
-    include_retired: bool = True,
-    external_reference: str | None = None,
-) -> Select[Any]:
-    """Sites filtered by a name fragment (case-insensitive), time zone, retirement, reference."""
-    return filtered(
-        select(Site),
-        equal=[(Site.external_reference, external_reference), (Site.time_zone, time_zone or None)],
-        contains=[(Site.name, name)],
-        retired=(Site.retired_at, include_retired),
-    )
+#: Sites filtered by a name fragment (case-insensitive), time zone, retirement, reference.
+site_query = ListQuery(
+    Site, equal=("external_reference", "time_zone"), contains={"name": "name"}, retired=True
+)
 
 
 def site_name_taken(session: Session, name: str, exclude_id: int | None = None) -> bool:
@@ -39,28 +25,13 @@ def site_name_taken(session: Session, name: str, exclude_id: int | None = None) 
     return value_taken(session, Site.name, name, exclude_id)
 
 
-AREA_SORT = {
-    "name": Area.name,
-    "id": Area.id,
-    "site_id": Area.site_id,
-    "access_method": Area.access_method,
-    "created_at": Area.created_at,
-}
+AREA_SORT = sort_columns(Area, "name", "id", "site_id", "access_method", "created_at")
 
 
-def area_query(
-    site_id: int | None = None,
-    access_method: str | None = None,
-    name: str | None = None,
-    include_retired: bool = True,
-) -> Select[Any]:
-    """Areas filtered by site, access method, a name fragment (any case) and retirement."""
-    return filtered(
-        select(Area),
-        equal=[(Area.site_id, site_id), (Area.access_method, access_method or None)],
-        contains=[(Area.name, name)],
-        retired=(Area.retired_at, include_retired),
-    )
+#: Areas filtered by site, access method, a name fragment (any case) and retirement.
+area_query = ListQuery(
+    Area, equal=("site_id", "access_method"), contains={"name": "name"}, retired=True
+)
 
 
 def area_name_taken(
@@ -70,32 +41,36 @@ def area_name_taken(
     return value_taken(session, Area.name, name, exclude_id, Area.site_id == site_id)
 
 
-FIXTURE_SORT = {
-    "tag": Fixture.tag,
-    "id": Fixture.id,
-    "site_id": Fixture.site_id,
-    "area_id": Fixture.area_id,
-    "lamp_type_id": Fixture.lamp_type_id,
-    "installed_on": Fixture.installed_on,
-    "created_at": Fixture.created_at,
-}
+FIXTURE_SORT = sort_columns(
+    Fixture, "tag", "id", "site_id", "area_id", "lamp_type_id", "installed_on", "created_at"
+)
+
+
+_FIXTURE_FILTERS = ListQuery(
+    Fixture,
+    equal=("site_id", "area_id", "lamp_type_id", "external_reference"),
+    contains={"tag": "tag"},
+    retired=True,
+    options=(selectinload(Fixture.positions),),
+)
 
 
 def fixture_query(
     site_id: int | None = None,
     area_id: int | None = None,
     lamp_type_id: int | None = None,
-    tag_contains: str | None = None,
+    tag: str | None = None,
     include_retired: bool = True,
     external_reference: str | None = None,
 ) -> Select[Any]:
     """Fixtures (with positions) filtered by site, area, lamp type, tag, retirement, reference."""
-    by = [Fixture.site_id, Fixture.area_id, Fixture.lamp_type_id, Fixture.external_reference]
-    return filtered(
-        select(Fixture).options(selectinload(Fixture.positions)),
-        equal=list(zip(by, (site_id, area_id, lamp_type_id, external_reference), strict=True)),
-        contains=[(Fixture.tag, tag_contains)],
-        retired=(Fixture.retired_at, include_retired),
+    return _FIXTURE_FILTERS(
+        site_id=site_id,
+        area_id=area_id,
+        lamp_type_id=lamp_type_id,
+        tag=tag,
+        include_retired=include_retired,
+        external_reference=external_reference,
     )
 
 

@@ -12,7 +12,7 @@ from service.catalogue.schemas import IncludeRetiredQ
 from service.register import area_router, fixture_router, lamp_type_router, sites
 from service.register import repository as repo
 from service.register.models import Site
-from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
+from service.register.schemas import NameQ, SiteCreate, SiteRead, SiteUpdate
 
 router = APIRouter(tags=["register"])
 SITE = Resource(collection="/sites", id_name="site_id", model=Site, read=SiteRead, service=sites)
@@ -22,7 +22,7 @@ SITE.list_route(
     "list_sites",
     "List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v).",
     {
-        "name": Annotated[str | None, Query(description="Name contains (any case).")],
+        "name": NameQ,
         "time_zone": Annotated[str | None, Query(description="Exact IANA time zone.")],
         "include_retired": (IncludeRetiredQ, False),
         "external_reference": ExternalReferenceQ,

@@ -277,7 +277,7 @@ def evaluate_fleet(
     accumulated as exposure; rows without segments burned at `voltage` throughout.
     """
     k, age, volts, hps, horizon = _checked_inputs(
-        types, type_index, age_h, voltage, hours_per_start, horizon_h
+        types, type_index, (age_h, voltage, hours_per_start, horizon_h)
     )
     ratio, (life_v, light_v, power_v, warn_v), (sw, warn_sw) = _condition_factors(
         types, k, volts, hps
@@ -317,14 +317,9 @@ def evaluate_fleet(
 
 
 def _checked_inputs(
-    types: LampTypeTable,
-    type_index: ArrayLike,
-    age_h: ArrayLike,
-    voltage: ArrayLike,
-    hours_per_start: ArrayLike,
-    horizon_h: ArrayLike,
+    types: LampTypeTable, type_index: ArrayLike, per_row: tuple[ArrayLike, ...]
 ) -> tuple[IntArray, FloatArray, FloatArray, FloatArray, FloatArray]:
-    """The row indices and per-row age, voltage, hours per start and horizon, checked."""
+    """The row indices and per-row (age, voltage, hours per start, horizon), checked."""
     k = np.asarray(type_index)
     if k.size == 0:
         k = k.astype(np.intp)
@@ -333,10 +328,9 @@ def _checked_inputs(
     n = k.size
     if n and (k.min() < 0 or k.max() >= types.size):
         raise ValueError("type_index out of range of the lamp type table")
-    age = np.broadcast_to(np.asarray(age_h, dtype=np.float64), (n,))
-    volts = np.broadcast_to(np.asarray(voltage, dtype=np.float64), (n,))
-    hps = np.broadcast_to(np.asarray(hours_per_start, dtype=np.float64), (n,))
-    horizon = np.broadcast_to(np.asarray(horizon_h, dtype=np.float64), (n,))
+    age, volts, hps, horizon = (
+        np.broadcast_to(np.asarray(x, dtype=np.float64), (n,)) for x in per_row
+    )
     if np.any(age < 0) or np.any(~np.isfinite(age)):
         raise ValueError("age must be finite, non-negative burn hours")
     if np.any(horizon < 0) or np.any(~np.isfinite(horizon)):
