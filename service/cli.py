@@ -5,14 +5,14 @@ from __future__ import annotations
 import argparse
 import os
 import sys
-from collections.abc import Callable, Iterator, Sequence
-from contextlib import contextmanager
+from collections.abc import Callable, Sequence
+from contextlib import AbstractContextManager
 
 from sqlalchemy.orm import Session
 
 from service.changes import cli as changes_cli
 from service.config import get_settings
-from service.db.session import begin_write, session_factory
+from service.db.session import short_session
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
@@ -22,19 +22,9 @@ from service.webhooks import cli as webhooks_cli
 Handler = Callable[[argparse.Namespace], int]
 
 
-@contextmanager
-def transaction() -> Iterator[Session]:
+def transaction() -> AbstractContextManager[Session]:
     """One transaction for a CLI command: committed on success, rolled back on error."""
-    session = session_factory()()
-    try:
-        begin_write(session)
-        yield session
-        session.commit()
-    except BaseException:
-        session.rollback()
-        raise
-    finally:
-        session.close()
+    return short_session(None, write=True)
 
 
 def cmd_migrate(args: argparse.Namespace) -> int:

@@ -28,6 +28,18 @@ class DomainError(Exception):
     title: str = "Bad request"
     kind: str = "bad-request"
 
+    def __init_subclass__(
+        cls, *, status: int | None = None, title: str | None = None, kind: str | None = None
+    ) -> None:
+        # class NotFound(DomainError, status=404, title="Not found", kind="not-found")
+        super().__init_subclass__()
+        if status is not None:
+            cls.status = status
+        if title is not None:
+            cls.title = title
+        if kind is not None:
+            cls.kind = kind
+
     def __init__(self, detail: str, *, errors: list[dict[str, Any]] | None = None, **extra: Any):
         super().__init__(detail)
         self.detail = detail
@@ -35,40 +47,28 @@ class DomainError(Exception):
         self.extra = extra
 
 
-class NotFound(DomainError):
+class NotFound(DomainError, status=404, title="Not found", kind="not-found"):
     """A referenced resource does not exist (404)."""
 
-    status, title, kind = 404, "Not found", "not-found"
 
-
-class Conflict(DomainError):
+class Conflict(DomainError, status=409, title="Conflict", kind="conflict"):
     """The request clashes with stored state: duplicates, resources in use, lifecycle (409)."""
 
-    status, title, kind = 409, "Conflict", "conflict"
 
-
-class Invalid(DomainError):
+class Invalid(DomainError, status=422, title="Invalid value", kind="invalid-value"):
     """Values that parse but break a rule of the domain (422)."""
 
-    status, title, kind = 422, "Invalid value", "invalid-value"
 
-
-class Unauthorized(DomainError):
+class Unauthorized(DomainError, status=401, title="Not authenticated", kind="not-authenticated"):
     """No API key, or one we do not know (401)."""
 
-    status, title, kind = 401, "Not authenticated", "not-authenticated"
 
-
-class Forbidden(DomainError):
+class Forbidden(DomainError, status=403, title="Not allowed", kind="not-allowed"):
     """The API key lacks the scope a route needs (403)."""
 
-    status, title, kind = 403, "Not allowed", "not-allowed"
 
-
-class TooLarge(DomainError):
+class TooLarge(DomainError, status=413, title="Too large", kind="too-large"):
     """A bulk upload beyond the configured row limit (413)."""
-
-    status, title, kind = 413, "Too large", "too-large"
 
 
 class BodyTooLarge(HTTPException):

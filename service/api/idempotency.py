@@ -19,8 +19,8 @@ import hashlib
 import json
 import logging
 import tempfile
-from collections.abc import Callable, Iterator
-from contextlib import AbstractContextManager, contextmanager
+from collections.abc import Callable
+from contextlib import AbstractContextManager
 from datetime import timedelta
 from typing import Any
 
@@ -36,7 +36,7 @@ from service.api.errors import PROBLEM_MEDIA_TYPE, busy_problem, is_busy_error
 from service.api.preconditions import install_precondition_handlers
 from service.config import get_settings
 from service.db.base import utcnow
-from service.db.session import begin_write, get_session, session_factory
+from service.db.session import short_session
 from service.idempotency.models import IdempotencyKey
 from service.keys import service as keys
 
@@ -92,33 +92,8 @@ class IdempotencyMiddleware:
     def _opener(self, scope: Scope) -> SessionOpener:
         """Short transactions: the app's session override (tests) or a fresh session."""
         fastapi_app = scope.get("app")
-        override = getattr(fastapi_app, "dependency_overrides", {}).get(get_session)
-
-        @contextmanager
-        def open_session() -> Iterator[Session]:
-            if override is not None:
-                gen = override()
-                session = next(gen)
-                try:
-                    yield session
-                except BaseException as exc:
-                    gen.throw(exc)
-                    raise
-                else:
-                    next(gen, None)
-                return
-            session = session_factory()()
-            try:
-                begin_write(session)  # SQLite: BEGIN IMMEDIATE, no lock upgrade mid-way
-                yield session
-                session.commit()
-            except BaseException:
-                session.rollback()
-                raise
-            finally:
-                session.close()
-
-        return open_session
+        # SQLite: BEGIN IMMEDIATE (write=True), no lock upgrade mid-way.
+        return lambda: short_session(fastapi_app, write=True)
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         """Pass through everything but writes under the prefix that carry the header."""

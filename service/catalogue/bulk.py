@@ -129,6 +129,8 @@ def export_lamp_types(
     contains_mercury: bool | None = None,
 ) -> list[dict[str, Any]]:
     """Lamp types as dicts of every client-settable field, by code (import takes them back)."""
-    stmt = repo.lamp_type_query(technology, code_contains, contains_mercury)
+    stmt = repo.lamp_type_query(
+        technology=technology, code=code_contains, contains_mercury=contains_mercury
+    )
     stmt = stmt.with_only_columns(*(getattr(LampType, n) for n in LAMP_TYPE_FIELDS))
     return [dict(r._mapping) for r in session.execute(stmt.order_by(LampType.code))]

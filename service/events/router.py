@@ -5,11 +5,11 @@ from __future__ import annotations
 from typing import Literal
 
 from fastapi import APIRouter, Request, Response, status
+from sqlalchemy.orm import Session
 
-from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.ids import IdPath, IdQuery
-from service.api.pagination import Page, PageDep, page_of, paginate
-from service.api.preconditions import locate, versioned
+from service.api.auth import SessionDep, WriteKey
+from service.api.ids import IdQuery
+from service.api.resource_routes import Resource
 from service.db.crud import get_or_404
 from service.events import burnouts, removals
 from service.events import repository as repo
@@ -23,50 +23,42 @@ from service.events.schemas import (
 from service.register.models import LampPosition
 
 router = APIRouter(tags=["events"])
-
-
-@router.post(
-    "/burnout-reports", response_model=BurnoutReportRead, status_code=status.HTTP_201_CREATED
+REPORT = Resource(
+    collection="/burnout-reports", id_name="report_id", model=BurnoutReport, read=BurnoutReportRead
 )
-def create_burnout_report(
-    body: BurnoutReportCreate,
-    session: SessionDep,
-    _: WriteKey,
-    request: Request,
-    response: Response,
-) -> BurnoutReportRead:
-    """Report a dark lamp: records one failure observation; open until replaced."""
-    report = burnouts.report_burnout(session, **body.model_dump())
-    locate(request, response, "get_burnout_report", report_id=report.id)
-    return BurnoutReportRead.model_validate(report)
-
-
-@router.get("/burnout-reports", response_model=Page[BurnoutReportRead])
-def list_burnout_reports(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: IdQuery = None,
-    area_id: IdQuery = None,
-    status: Literal["open", "ordered", "closed"] | None = None,
-    position_id: IdQuery = None,
-) -> Page[BurnoutReportRead]:
-    """List burnout reports (sort: id, reported_at)."""
-    stmt = repo.report_query(site_id, area_id, status, position_id)
-    rows, total = paginate(session, stmt, page, repo.REPORT_SORT, BurnoutReport.id)
-    return page_of(BurnoutReportRead, rows, total, page)
-
-
-@router.get(
-    "/burnout-reports/{report_id}",
-    response_model=BurnoutReportRead,
-    dependencies=[versioned(BurnoutReport, "report_id")],
+REMOVAL = Resource(
+    collection="/lamp-removals", id_name="removal_id", model=LampRemoval, read=LampRemovalRead
 )
-def get_burnout_report(report_id: IdPath, session: SessionDep, _: ReadKey) -> BurnoutReportRead:
-    """Read one burnout report."""
-    return BurnoutReportRead.model_validate(
-        get_or_404(session, BurnoutReport, report_id, "burnout report")
-    )
+
+
+def _report(session: Session, body: BurnoutReportCreate) -> BurnoutReport:
+    return burnouts.report_burnout(session, **body.model_dump())
+
+
+def _get_report(session: Session, report_id: int) -> BurnoutReport:
+    return get_or_404(session, BurnoutReport, report_id, "burnout report")
+
+
+REPORT.create_route(
+    router,
+    ("create_burnout_report", "get_burnout_report"),
+    "Report a dark lamp: records one failure observation; open until replaced.",
+    BurnoutReportCreate,
+    _report,
+)
+REPORT.list_route(
+    router,
+    "list_burnout_reports",
+    "List burnout reports (sort: id, reported_at).",
+    {
+        "site_id": IdQuery,
+        "area_id": IdQuery,
+        "status": Literal["open", "ordered", "closed"] | None,
+        "position_id": IdQuery,
+    },
+    (repo.report_query, repo.REPORT_SORT),
+)
+REPORT.get_route(router, "get_burnout_report", "Read one burnout report.", _get_report)
 
 
 @router.post("/lamp-removals", response_model=LampRemovalRead, status_code=status.HTTP_201_CREATED)
@@ -91,17 +83,15 @@ def create_lamp_removal(
     return LampRemovalRead.model_validate(removal)
 
 
-@router.get("/lamp-removals", response_model=Page[LampRemovalRead])
-def list_lamp_removals(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: IdQuery = None,
-    lamp_type_id: IdQuery = None,
-    failed: bool | None = None,
-    position_id: IdQuery = None,
-) -> Page[LampRemovalRead]:
-    """List lamp removals, the field fit's observations (sort: id, removed_at)."""
-    stmt = repo.removal_query(site_id, lamp_type_id, failed, position_id)
-    rows, total = paginate(session, stmt, page, repo.REMOVAL_SORT, LampRemoval.id)
-    return page_of(LampRemovalRead, rows, total, page)
+REMOVAL.list_route(
+    router,
+    "list_lamp_removals",
+    "List lamp removals, the field fit's observations (sort: id, removed_at).",
+    {
+        "site_id": IdQuery,
+        "lamp_type_id": IdQuery,
+        "failed": bool | None,
+        "position_id": IdQuery,
+    },
+    (repo.removal_query, repo.REMOVAL_SORT),
+)

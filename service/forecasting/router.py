@@ -4,13 +4,14 @@ from __future__ import annotations
 
 import math
 from datetime import UTC, datetime
-from typing import Annotated
+from typing import Annotated, Any
 
 from fastapi import APIRouter, Query
 
 from service.api.auth import ReadKey, SessionDep
 from service.api.errors import NotFound
 from service.api.ids import MAX_ID, IdPath
+from service.api.resource_routes import endpoint, param
 from service.api.times import Timestamp
 from service.catalogue.models import LampType
 from service.catalogue.resolved import CurveInUse, catalogue_models
@@ -136,64 +137,65 @@ def _at(at: datetime | None) -> datetime | None:
     return at.replace(tzinfo=UTC) if at is not None and at.tzinfo is None else at
 
 
-@router.get("/forecasts/sites/{site_id}", response_model=ForecastRead)
-def forecast_site(
-    site_id: IdPath, session: SessionDep, _: ReadKey, horizon_weeks: Horizon = 13.0, at: At = None
-) -> ForecastRead:
-    """Forecast a whole site, with each area's totals and crossing dates."""
-    get_or_404(session, Site, site_id, "site")
-    f = fc.forecast(session, site_id=site_id, horizon_weeks=horizon_weeks, at=_at(at))
-    return _read(f, "site", site_id, False)
+def _forecast_route(
+    scope: str, model: type[Any], doc: str, show: bool, extra: dict[str, Any]
+) -> None:
+    """GET /forecasts/<scope>s/{<scope>_id}: one scope's forecast (404 when it is missing).
 
+    `show` says whether positions are listed; `extra` adds query parameters (name to
+    (annotation, default)), passed on to the forecast except `positions`, which overrides show.
+    """
+    id_name = f"{scope}_id"
+    params = [
+        param(id_name, IdPath),
+        param("session", SessionDep),
+        param("_", ReadKey),
+        param("horizon_weeks", Horizon, 13.0),
+        param("at", At, None),
+        *(param(name, ann, default) for name, (ann, default) in extra.items()),
+    ]
 
-@router.get("/forecasts/areas/{area_id}", response_model=ForecastRead)
-def forecast_area(
-    area_id: IdPath,
-    session: SessionDep,
-    _: ReadKey,
-    horizon_weeks: Horizon = 13.0,
-    at: At = None,
-    positions: Annotated[bool, Query(description="Include every position.")] = False,
-) -> ForecastRead:
-    """Forecast one area: totals, light floor and burnout ceiling dates."""
-    get_or_404(session, Area, area_id, "area")
-    f = fc.forecast(session, area_id=area_id, horizon_weeks=horizon_weeks, at=_at(at))
-    return _read(f, "area", area_id, positions)
+    def run(session: Any, _: Any, horizon_weeks: float, at: Any, **values: Any) -> ForecastRead:
+        obj_id = values.pop(id_name)
+        get_or_404(session, model, obj_id, scope.replace("_", " "))
+        with_positions = values.pop("positions", show)
+        f = fc.forecast(
+            session, **{id_name: obj_id}, **values, horizon_weeks=horizon_weeks, at=_at(at)
+        )
+        return _read(f, scope, obj_id, with_positions)
 
-
-@router.get("/forecasts/fixtures/{fixture_id}", response_model=ForecastRead)
-def forecast_fixture(
-    fixture_id: IdPath,
-    session: SessionDep,
-    _: ReadKey,
-    horizon_weeks: Horizon = 13.0,
-    at: At = None,
-) -> ForecastRead:
-    """Forecast one fixture, position by position."""
-    get_or_404(session, Fixture, fixture_id, "fixture")
-    f = fc.forecast(session, fixture_id=fixture_id, horizon_weeks=horizon_weeks, at=_at(at))
-    return _read(f, "fixture", fixture_id, True)
-
-
-@router.get("/forecasts/lamp-types/{lamp_type_id}", response_model=ForecastRead)
-def forecast_lamp_type(
-    lamp_type_id: IdPath,
-    session: SessionDep,
-    _: ReadKey,
-    horizon_weeks: Horizon = 13.0,
-    at: At = None,
-    site_id: Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only this site.")] = None,
-) -> ForecastRead:
-    """Forecast every position holding a lamp type (optionally in one site)."""
-    get_or_404(session, LampType, lamp_type_id, "lamp type")
-    f = fc.forecast(
-        session,
-        lamp_type_id=lamp_type_id,
-        site_id=site_id,
-        horizon_weeks=horizon_weeks,
-        at=_at(at),
+    path = f"/forecasts/{scope.replace('_', '-')}s/{{{id_name}}}"
+    router.add_api_route(
+        path,
+        endpoint(f"forecast_{scope}", doc, params, run),
+        methods=["GET"],
+        response_model=ForecastRead,
     )
-    return _read(f, "lamp_type", lamp_type_id, False)
+
+
+_forecast_route(
+    "site", Site, "Forecast a whole site, with each area's totals and crossing dates.", False, {}
+)
+_forecast_route(
+    "area",
+    Area,
+    "Forecast one area: totals, light floor and burnout ceiling dates.",
+    False,
+    {"positions": (Annotated[bool, Query(description="Include every position.")], False)},
+)
+_forecast_route("fixture", Fixture, "Forecast one fixture, position by position.", True, {})
+_forecast_route(
+    "lamp_type",
+    LampType,
+    "Forecast every position holding a lamp type (optionally in one site).",
+    False,
+    {
+        "site_id": (
+            Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only this site.")],
+            None,
+        )
+    },
+)
 
 
 @router.get("/forecasts/curve", response_model=CurveRead)

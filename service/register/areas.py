@@ -8,7 +8,7 @@ from sqlalchemy.orm import Session
 from service.api.errors import Conflict, Invalid, NotFound
 from service.db.crud import apply_patch, get_or_404
 from service.register import repository as repo
-from service.register.history import check_area, delete_without_history, refuse_retired
+from service.register.history import check_area, delete_checked, refuse_retired
 from service.register.models import Area, Site
 from service.register.schemas import AreaCreate, AreaUpdate
 
@@ -88,6 +88,4 @@ def update_area(session: Session, area_id: int, body: AreaUpdate) -> Area:
 
 def delete_area(session: Session, area_id: int) -> None:
     """Delete an area without history (409 naming the history otherwise)."""
-    area = get_area(session, area_id)
-    check_area(session, area_id)
-    delete_without_history(session, "The area", area)
+    delete_checked(session, get_area(session, area_id), "The area", check_area)

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, Any, Literal
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Query, Response
 from pydantic import BaseModel
+from sqlalchemy import Select
+from sqlalchemy.orm import Session
 
 import service.register.fixture_bulk as fixture_bulk
 import service.register.fixture_export as fixture_export
@@ -13,8 +15,8 @@ from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.bulk import EXPORT_RESPONSES, UPLOAD_OPENAPI, RawBodyDep, export_response
 from service.api.ids import MAX_ID, IdPath
 from service.api.lookups import ExternalReferenceQ
-from service.api.pagination import Page, PageDep, page_of, paginate
-from service.api.preconditions import locate, versioned
+from service.api.pagination import PageParams, paginate
+from service.api.resource_routes import Resource
 from service.catalogue.schemas import IncludeRetiredQ
 from service.register import fixtures
 from service.register import repository as repo
@@ -29,6 +31,16 @@ from service.register.schemas import (
 from service.uploads.parse import read_upload
 
 router = APIRouter(tags=["register"])
+FIXTURE = Resource(
+    collection="/fixtures", id_name="fixture_id", model=Fixture, read=FixtureRead, service=fixtures
+)
+POSITION = Resource(
+    collection="/positions",
+    id_name="position_id",
+    model=LampPosition,
+    read=PositionRead,
+    service=fixtures,
+)
 
 SiteQ = Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this site.")]
 AreaQ = Annotated[int | None, Query(ge=1, le=MAX_ID, description="Only fixtures of this area.")]
@@ -47,38 +59,35 @@ class FixtureImportSummary(BaseModel):
     positions_created: int
 
 
-@router.get("/fixtures", response_model=Page[FixtureRead])
-def list_fixtures(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: SiteQ = None,
-    area_id: AreaQ = None,
-    lamp_type_id: LampTypeQ = None,
-    tag: TagQ = None,
-    include_retired: IncludeRetiredQ = False,
-    external_reference: ExternalReferenceQ = None,
-) -> Page[FixtureRead]:
-    """List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on)."""
-    stmt = repo.fixture_query(
-        site_id, area_id, lamp_type_id, tag, include_retired, external_reference
-    )
+def _fixture_page(session: Session, stmt: Select[Any], page: PageParams) -> tuple[list[Any], int]:
     # Plain rows, not ORM objects: the list is answered straight from them (P3 of the
     # speed issue; ORM loading was the largest part of this route's time).
     rows, total = paginate(session, repo.as_rows(stmt), page, repo.FIXTURE_SORT, Fixture.id)
     positions = repo.positions_by_fixture(session, [r.id for r in rows])
-    items = [{**r._mapping, "positions": positions.get(r.id, [])} for r in rows]
-    return page_of(FixtureRead, items, total, page)
+    return [{**r._mapping, "positions": positions.get(r.id, [])} for r in rows], total
 
 
-@router.post("/fixtures", response_model=FixtureRead, status_code=status.HTTP_201_CREATED)
-def create_fixture(
-    body: FixtureCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
-) -> FixtureRead:
-    """Create a fixture and its lamp positions."""
-    fixture = fixtures.create_fixture(session, body)
-    locate(request, response, "get_fixture", fixture_id=fixture.id)
-    return FixtureRead.model_validate(fixture)
+FIXTURE.list_route(
+    router,
+    "list_fixtures",
+    "List fixtures with their positions (sort: tag, id, site_id, area_id, installed_on).",
+    {
+        "site_id": SiteQ,
+        "area_id": AreaQ,
+        "lamp_type_id": LampTypeQ,
+        "tag": TagQ,
+        "include_retired": (IncludeRetiredQ, False),
+        "external_reference": ExternalReferenceQ,
+    },
+    (repo.fixture_query, repo.FIXTURE_SORT),
+    _fixture_page,
+)
+FIXTURE.create_route(
+    router,
+    ("create_fixture", "get_fixture"),
+    "Create a fixture and its lamp positions.",
+    FixtureCreate,
+)
 
 
 @router.post("/fixtures/import", response_model=FixtureImportSummary, openapi_extra=UPLOAD_OPENAPI)
@@ -118,37 +127,18 @@ def export_fixtures(
     return export_response(fixture_bulk.FIXTURE_COLUMNS, rows, format, "fixtures")
 
 
-@router.get(
-    "/fixtures/{fixture_id}",
-    response_model=FixtureRead,
-    dependencies=[versioned(Fixture, "fixture_id")],
+FIXTURE.get_route(router, "get_fixture", "Read one fixture with its positions.")
+FIXTURE.patch_route(
+    router,
+    "update_fixture",
+    "Change some fields of a fixture; positions follow lamps_per_fixture.",
+    FixtureUpdate,
 )
-def get_fixture(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> FixtureRead:
-    """Read one fixture with its positions."""
-    return FixtureRead.model_validate(fixtures.get_fixture(session, fixture_id))
-
-
-@router.patch(
-    "/fixtures/{fixture_id}",
-    response_model=FixtureRead,
-    dependencies=[versioned(Fixture, "fixture_id")],
+FIXTURE.delete_route(
+    router,
+    "delete_fixture",
+    "Delete a fixture with its positions.",
 )
-def update_fixture(
-    fixture_id: IdPath, body: FixtureUpdate, session: SessionDep, _: WriteKey
-) -> FixtureRead:
-    """Change some fields of a fixture; positions follow lamps_per_fixture."""
-    return FixtureRead.model_validate(fixtures.update_fixture(session, fixture_id, body))
-
-
-@router.delete(
-    "/fixtures/{fixture_id}",
-    status_code=status.HTTP_204_NO_CONTENT,
-    dependencies=[versioned(Fixture, "fixture_id")],
-)
-def delete_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
-    """Delete a fixture with its positions."""
-    fixtures.delete_fixture(session, fixture_id)
-    return Response(status_code=status.HTTP_204_NO_CONTENT)
 
 
 @router.get("/fixtures/{fixture_id}/positions", response_model=list[PositionRead])
@@ -157,13 +147,9 @@ def list_positions(fixture_id: IdPath, session: SessionDep, _: ReadKey) -> list[
     return [PositionRead.model_validate(p) for p in fixtures.list_positions(session, fixture_id)]
 
 
-@router.patch(
-    "/positions/{position_id}",
-    response_model=PositionRead,
-    dependencies=[versioned(LampPosition, "position_id")],
+POSITION.patch_route(
+    router,
+    "update_position",
+    "Correct when a position's lamp went in and the burn hours it had then.",
+    PositionUpdate,
 )
-def update_position(
-    position_id: IdPath, body: PositionUpdate, session: SessionDep, _: WriteKey
-) -> PositionRead:
-    """Correct when a position's lamp went in and the burn hours it had then."""
-    return PositionRead.model_validate(fixtures.update_position(session, position_id, body))

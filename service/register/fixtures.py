@@ -16,7 +16,7 @@ from service.register import repository as repo
 from service.register.history import (
     check_fixture,
     check_positions,
-    delete_without_history,
+    delete_checked,
     refuse_retired,
 )
 from service.register.models import Area, Fixture, LampPosition
@@ -184,9 +184,7 @@ def update_fixture(session: Session, fixture_id: int, body: FixtureUpdate) -> Fi
 
 def delete_fixture(session: Session, fixture_id: int) -> None:
     """Delete a fixture without history (409 naming the history otherwise)."""
-    fixture = get_fixture(session, fixture_id)
-    check_fixture(session, fixture_id)
-    delete_without_history(session, "The fixture", fixture)
+    delete_checked(session, get_fixture(session, fixture_id), "The fixture", check_fixture)
 
 
 def list_positions(session: Session, fixture_id: int) -> list[LampPosition]:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from sqlalchemy import ColumnElement, Select, func, or_, select
@@ -82,6 +83,14 @@ def delete_without_history(session: Session, what: str, row: object) -> None:
         raise Conflict(
             f"{what} gained history while being deleted; nothing was deleted. Retire it instead.",
         ) from None
+
+
+def delete_checked(
+    session: Session, row: Any, what: str, check: Callable[[Session, int], None]
+) -> None:
+    """Hard-delete a row once `check` finds no history (409 naming the history otherwise)."""
+    check(session, row.id)
+    delete_without_history(session, what, row)
 
 
 def check_positions(session: Session, position_ids: list[int]) -> None:

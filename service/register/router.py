@@ -4,72 +4,40 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Query
 
-from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.ids import IdPath
 from service.api.lookups import ExternalReferenceQ
-from service.api.pagination import Page, PageDep, page_of, paginate
-from service.api.preconditions import locate, versioned
+from service.api.resource_routes import Resource
 from service.catalogue.schemas import IncludeRetiredQ
 from service.register import area_router, fixture_router, lamp_type_router, sites
 from service.register import repository as repo
 from service.register.models import Site
-from service.register.schemas import SiteCreate, SiteRead, SiteUpdate
+from service.register.schemas import NameQ, SiteCreate, SiteRead, SiteUpdate
 
 router = APIRouter(tags=["register"])
+SITE = Resource(collection="/sites", id_name="site_id", model=Site, read=SiteRead, service=sites)
 
-
-@router.get("/sites", response_model=Page[SiteRead])
-def list_sites(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    name: Annotated[str | None, Query(description="Name contains (any case).")] = None,
-    time_zone: Annotated[str | None, Query(description="Exact IANA time zone.")] = None,
-    include_retired: IncludeRetiredQ = False,
-    external_reference: ExternalReferenceQ = None,
-) -> Page[SiteRead]:
-    """List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v)."""
-    stmt = repo.site_query(name, time_zone, include_retired, external_reference)
-    rows, total = paginate(session, stmt, page, repo.SITE_SORT, Site.id)
-    return page_of(SiteRead, rows, total, page)
-
-
-@router.post("/sites", response_model=SiteRead, status_code=status.HTTP_201_CREATED)
-def create_site(
-    body: SiteCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
-) -> SiteRead:
-    """Create a site."""
-    site = sites.create_site(session, body)
-    locate(request, response, "get_site", site_id=site.id)
-    return SiteRead.model_validate(site)
-
-
-@router.get("/sites/{site_id}", response_model=SiteRead, dependencies=[versioned(Site, "site_id")])
-def get_site(site_id: IdPath, session: SessionDep, _: ReadKey) -> SiteRead:
-    """Read one site."""
-    return SiteRead.model_validate(sites.get_site(session, site_id))
-
-
-@router.patch(
-    "/sites/{site_id}", response_model=SiteRead, dependencies=[versioned(Site, "site_id")]
+SITE.list_route(
+    router,
+    "list_sites",
+    "List sites, filtered and sorted (sort: name, id, created_at, nominal_voltage_v).",
+    {
+        "name": NameQ,
+        "time_zone": Annotated[str | None, Query(description="Exact IANA time zone.")],
+        "include_retired": (IncludeRetiredQ, False),
+        "external_reference": ExternalReferenceQ,
+    },
+    (repo.site_query, repo.SITE_SORT),
 )
-def update_site(site_id: IdPath, body: SiteUpdate, session: SessionDep, _: WriteKey) -> SiteRead:
-    """Change some fields of a site."""
-    return SiteRead.model_validate(sites.update_site(session, site_id, body))
-
-
-@router.delete(
-    "/sites/{site_id}",
-    status_code=status.HTTP_204_NO_CONTENT,
-    dependencies=[versioned(Site, "site_id")],
+SITE.create_route(router, ("create_site", "get_site"), "Create a site.", SiteCreate)
+SITE.get_route(router, "get_site", "Read one site.")
+SITE.patch_route(
+    router,
+    "update_site",
+    "Change some fields of a site.",
+    SiteUpdate,
 )
-def delete_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> Response:
-    """Delete a site and everything in it."""
-    sites.delete_site(session, site_id)
-    return Response(status_code=status.HTTP_204_NO_CONTENT)
-
+SITE.delete_route(router, "delete_site", "Delete a site and everything in it.")
 
 # One router for the whole register (service.register.router.router).
 router.include_router(area_router.router)

@@ -7,6 +7,7 @@ from datetime import date, datetime
 from typing import Annotated, Literal
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError, available_timezones
 
+from fastapi import Query
 from pydantic import (
     AfterValidator,
     BaseModel,
@@ -61,6 +62,8 @@ def _check_hhmm(value: str) -> str:
 TimeZone = Annotated[str, AfterValidator(_check_zone)]
 ClockTime = Annotated[str, AfterValidator(_check_hhmm)]
 Currency = Annotated[str, Field(pattern=r"^[A-Z]{3}$", description="ISO 4217 code, e.g. EUR.")]
+# List filter: a name fragment (sites, areas).
+NameQ = Annotated[str | None, Query(description="Name contains (any case).")]
 
 
 class SiteFields(BaseModel):

@@ -8,7 +8,7 @@ from service.api.errors import Conflict
 from service.api.lookups import refuse_taken_reference
 from service.db.crud import apply_patch, get_or_404
 from service.register import repository as repo
-from service.register.history import check_site, delete_without_history
+from service.register.history import check_site, delete_checked
 from service.register.models import Site
 from service.register.schemas import SiteCreate, SiteUpdate
 
@@ -42,6 +42,4 @@ def update_site(session: Session, site_id: int, body: SiteUpdate) -> Site:
 
 def delete_site(session: Session, site_id: int) -> None:
     """Delete a site without history (409 naming the history otherwise)."""
-    site = get_site(session, site_id)
-    check_site(session, site_id)
-    delete_without_history(session, "The site", site)
+    delete_checked(session, get_site(session, site_id), "The site", check_site)

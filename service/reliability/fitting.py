@@ -52,14 +52,20 @@ IntArray = NDArray[np.int64]
 
 
 @dataclass(frozen=True)
-class WeibullFit:
-    """A fitted Weibull (shape β, scale η in hours) with confidence bounds."""
+class WeibullEstimate:
+    """A Weibull estimate (shape β, scale η in hours) with its confidence bounds."""
 
     shape: float
     scale: float
     shape_bounds: tuple[float, float]
     scale_bounds: tuple[float, float]
     confidence: float  # two-sided, except the zero-failure WeiBayes lower bound
+
+
+@dataclass(frozen=True)
+class WeibullFit(WeibullEstimate):
+    """A Weibull fitted to failed and right-censored records (MLE or WeiBayes)."""
+
     n_failures: int
     n_censored: int
     method: str  # "mle" or "weibayes"

@@ -276,45 +276,11 @@ def evaluate_fleet(
     voltage is the supply from now on; history (segments by row) gives the past supply,
     accumulated as exposure; rows without segments burned at `voltage` throughout.
     """
-    k = np.asarray(type_index)
-    if k.size == 0:
-        k = k.astype(np.intp)
-    if k.ndim != 1 or not np.issubdtype(k.dtype, np.integer):
-        raise ValueError("type_index must be a 1-D integer array")
-    n = k.size
-    if n and (k.min() < 0 or k.max() >= types.size):
-        raise ValueError("type_index out of range of the lamp type table")
-    age = np.broadcast_to(np.asarray(age_h, dtype=np.float64), (n,))
-    volts = np.broadcast_to(np.asarray(voltage, dtype=np.float64), (n,))
-    hps = np.broadcast_to(np.asarray(hours_per_start, dtype=np.float64), (n,))
-    horizon = np.broadcast_to(np.asarray(horizon_h, dtype=np.float64), (n,))
-    if np.any(age < 0) or np.any(~np.isfinite(age)):
-        raise ValueError("age must be finite, non-negative burn hours")
-    if np.any(horizon < 0) or np.any(~np.isfinite(horizon)):
-        raise ValueError("horizon must be finite, non-negative burn hours")
-    if np.any(volts <= 0):
-        raise ValueError("operating voltage must be positive volts")
-
-    rated_v = types.rated_voltage[k]
-    ratio = np.where(np.isnan(volts), 1.0, volts / rated_v)
-    life_v, light_v, power_v, warn_v = voltage_factors(
-        ratio,
-        types.life_exponent[k],
-        types.light_exponent[k],
-        types.power_exponent[k],
-        types.ballast_gain[k],
-        types.is_filament[k],
-        band=types.voltage_band[k],
-        life_ratio_floor=types.life_ratio_floor[k],
-        driver_min_ratio=types.driver_min_v[k] / rated_v,
-        driver_max_ratio=types.driver_max_v[k] / rated_v,
+    k, age, volts, hps, horizon = _checked_inputs(
+        types, type_index, (age_h, voltage, hours_per_start, horizon_h)
     )
-    sw, warn_sw = switching_life_factor(
-        hps,
-        types.rated_hours_per_start[k],
-        types.second_hours_per_start[k],
-        types.second_life_ratio[k],
-        default_slope=types.switching_slope[k],
+    ratio, (life_v, light_v, power_v, warn_v), (sw, warn_sw) = _condition_factors(
+        types, k, volts, hps
     )
     life_factor = life_v * sw
     beta = types.shape[k]
@@ -348,6 +314,60 @@ def evaluate_fleet(
             ratio, types.ballast_gain[k], types.is_filament[k], band=types.voltage_band[k]
         ),
     )
+
+
+def _checked_inputs(
+    types: LampTypeTable, type_index: ArrayLike, per_row: tuple[ArrayLike, ...]
+) -> tuple[IntArray, FloatArray, FloatArray, FloatArray, FloatArray]:
+    """The row indices and per-row (age, voltage, hours per start, horizon), checked."""
+    k = np.asarray(type_index)
+    if k.size == 0:
+        k = k.astype(np.intp)
+    if k.ndim != 1 or not np.issubdtype(k.dtype, np.integer):
+        raise ValueError("type_index must be a 1-D integer array")
+    n = k.size
+    if n and (k.min() < 0 or k.max() >= types.size):
+        raise ValueError("type_index out of range of the lamp type table")
+    age, volts, hps, horizon = (
+        np.broadcast_to(np.asarray(x, dtype=np.float64), (n,)) for x in per_row
+    )
+    if np.any(age < 0) or np.any(~np.isfinite(age)):
+        raise ValueError("age must be finite, non-negative burn hours")
+    if np.any(horizon < 0) or np.any(~np.isfinite(horizon)):
+        raise ValueError("horizon must be finite, non-negative burn hours")
+    if np.any(volts <= 0):
+        raise ValueError("operating voltage must be positive volts")
+    return k, age, volts, hps, horizon
+
+
+def _condition_factors(
+    types: LampTypeTable, k: IntArray, volts: FloatArray, hps: FloatArray
+) -> tuple[
+    FloatArray, tuple[FloatArray, FloatArray, FloatArray, BoolArray], tuple[FloatArray, BoolArray]
+]:
+    """Supply ratio (NaN volts = rated), the voltage factors and the switching factor."""
+    rated_v = types.rated_voltage[k]
+    ratio = np.where(np.isnan(volts), 1.0, volts / rated_v)
+    factors = voltage_factors(
+        ratio,
+        types.life_exponent[k],
+        types.light_exponent[k],
+        types.power_exponent[k],
+        types.ballast_gain[k],
+        types.is_filament[k],
+        band=types.voltage_band[k],
+        life_ratio_floor=types.life_ratio_floor[k],
+        driver_min_ratio=types.driver_min_v[k] / rated_v,
+        driver_max_ratio=types.driver_max_v[k] / rated_v,
+    )
+    switching = switching_life_factor(
+        hps,
+        types.rated_hours_per_start[k],
+        types.second_hours_per_start[k],
+        types.second_life_ratio[k],
+        default_slope=types.switching_slope[k],
+    )
+    return ratio, factors, switching
 
 
 def _worn_ages(

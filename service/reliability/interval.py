@@ -25,18 +25,15 @@ from numpy.typing import ArrayLike, NDArray
 from scipy.optimize import minimize
 from scipy.stats import norm
 
+from service.reliability.fitting import WeibullEstimate
+
 FloatArray = NDArray[np.float64]
 
 
 @dataclass(frozen=True)
-class IntervalFit:
+class IntervalFit(WeibullEstimate):
     """A Weibull fitted to exact, right- and interval-censored records."""
 
-    shape: float
-    scale: float
-    shape_bounds: tuple[float, float]
-    scale_bounds: tuple[float, float]
-    confidence: float
     n_exact: int
     n_interval: int
     n_censored: int

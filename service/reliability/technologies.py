@@ -15,7 +15,7 @@ rule of the trade, [memory] recalled and only a default a user can override.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 TECHNOLOGIES: tuple[str, ...] = (
     "incandescent",
@@ -82,6 +82,21 @@ class TechnologyDefaults:
         """True for lamps that run straight off the line (no ballast or driver)."""
         return self.default_ballast == "none"
 
+
+_HIGH_PRESSURE_SODIUM = TechnologyDefaults(
+    shape=4.0,  # [memory] HID beta 3-5
+    life_exponent=3.0,  # [memory] assumption
+    light_exponent=1.0,  # [memory] assumption
+    power_exponent=1.0,  # unused (ballasted)
+    rated_percentile=50.0,  # [published] IES definition
+    rated_hours_per_start=10.0,  # [practice]
+    default_ballast="reactor",
+    contains_mercury=True,  # [practice] mercury (and sodium)
+    rupture_risk=False,
+    voltage_band=0.05,  # [practice]
+    switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption
+    typical_rated_life_h=24_000.0,  # [practice] 10,000-30,000 h
+)
 
 TECHNOLOGY_DEFAULTS: dict[str, TechnologyDefaults] = {
     "incandescent": TechnologyDefaults(
@@ -153,34 +168,9 @@ TECHNOLOGY_DEFAULTS: dict[str, TechnologyDefaults] = {
         switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption: as fluorescent
         typical_rated_life_h=15_000.0,  # [practice] 10,000-30,000 h
     ),
-    "high_pressure_sodium": TechnologyDefaults(
-        shape=4.0,  # [memory] HID beta 3-5
-        life_exponent=3.0,  # [memory] assumption
-        light_exponent=1.0,  # [memory] assumption
-        power_exponent=1.0,  # unused (ballasted)
-        rated_percentile=50.0,  # [published] IES definition
-        rated_hours_per_start=10.0,  # [practice]
-        default_ballast="reactor",
-        contains_mercury=True,  # [practice] mercury (and sodium)
-        rupture_risk=False,
-        voltage_band=0.05,  # [practice]
-        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption
-        typical_rated_life_h=24_000.0,  # [practice] 10,000-30,000 h
-    ),
-    "mercury_vapour": TechnologyDefaults(
-        shape=3.5,  # [memory] HID beta 3-5
-        life_exponent=3.0,  # [memory] assumption
-        light_exponent=1.0,  # [memory] assumption
-        power_exponent=1.0,  # unused (ballasted)
-        rated_percentile=50.0,  # [published] IES definition
-        rated_hours_per_start=10.0,  # [practice]
-        default_ballast="reactor",
-        contains_mercury=True,
-        rupture_risk=False,
-        voltage_band=0.05,  # [practice]
-        switching_slope=DEFAULT_SWITCHING_SLOPE,  # [memory] assumption
-        typical_rated_life_h=24_000.0,  # [practice] 10,000-30,000 h
-    ),
+    "high_pressure_sodium": _HIGH_PRESSURE_SODIUM,
+    # Mercury vapour: the same HID assumptions as high-pressure sodium, a lower shape.
+    "mercury_vapour": replace(_HIGH_PRESSURE_SODIUM, shape=3.5),  # [memory] HID beta 3-5
     "led": TechnologyDefaults(
         shape=1.5,  # [memory] LED catastrophic (driver) failures beta 1-2
         life_exponent=1.0,  # [memory] assumption; no effect while the driver holds P = 1

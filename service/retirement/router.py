@@ -4,58 +4,43 @@ from __future__ import annotations
 
 from fastapi import APIRouter
 
-from service.api.auth import SessionDep, WriteKey
-from service.api.ids import IdPath
-from service.api.preconditions import versioned
-from service.catalogue import service as catalogue
-from service.catalogue.models import LampType
-from service.catalogue.schemas import LampTypeRead
-from service.register.models import Area, Fixture, Site
-from service.register.schemas import AreaRead, FixtureRead, SiteRead
+from service.catalogue.router import LAMP_TYPE
+from service.register.area_router import AREA
+from service.register.fixture_router import FIXTURE
+from service.register.router import SITE
 from service.retirement import service
 
 router = APIRouter()
+register = APIRouter(tags=["register"])
+catalogue = APIRouter(tags=["lamp catalogue"])
 
-
-@router.post(
-    "/sites/{site_id}/retire",
-    response_model=SiteRead,
-    tags=["register"],
-    dependencies=[versioned(Site, "site_id")],
+SITE.action_route(
+    register,
+    "retire",
+    "retire_site",
+    "Retire a site with its areas and fixtures (kept with their history).",
+    service.retire_site,
 )
-def retire_site(site_id: IdPath, session: SessionDep, _: WriteKey) -> SiteRead:
-    """Retire a site with its areas and fixtures (kept with their history)."""
-    return SiteRead.model_validate(service.retire_site(session, site_id))
-
-
-@router.post(
-    "/areas/{area_id}/retire",
-    response_model=AreaRead,
-    tags=["register"],
-    dependencies=[versioned(Area, "area_id")],
+AREA.action_route(
+    register,
+    "retire",
+    "retire_area",
+    "Retire an area with its fixtures (kept with their history).",
+    service.retire_area,
 )
-def retire_area(area_id: IdPath, session: SessionDep, _: WriteKey) -> AreaRead:
-    """Retire an area with its fixtures (kept with their history)."""
-    return AreaRead.model_validate(service.retire_area(session, area_id))
-
-
-@router.post(
-    "/fixtures/{fixture_id}/retire",
-    response_model=FixtureRead,
-    tags=["register"],
-    dependencies=[versioned(Fixture, "fixture_id")],
+FIXTURE.action_route(
+    register,
+    "retire",
+    "retire_fixture",
+    "Retire a fixture (kept with its history); refused while it is on an open order.",
+    service.retire_fixture,
 )
-def retire_fixture(fixture_id: IdPath, session: SessionDep, _: WriteKey) -> FixtureRead:
-    """Retire a fixture (kept with its history); refused while it is on an open order."""
-    return FixtureRead.model_validate(service.retire_fixture(session, fixture_id))
-
-
-@router.post(
-    "/lamp-types/{lamp_type_id}/retire",
-    response_model=LampTypeRead,
-    tags=["lamp catalogue"],
-    dependencies=[versioned(LampType, "lamp_type_id")],
+LAMP_TYPE.action_route(
+    catalogue,
+    "retire",
+    "retire_lamp_type",
+    "Retire a lamp type: kept for past orders and field fits, hidden from lists.",
+    service.retire_lamp_type,
 )
-def retire_lamp_type(lamp_type_id: IdPath, session: SessionDep, _: WriteKey) -> LampTypeRead:
-    """Retire a lamp type: kept for past orders and field fits, hidden from lists."""
-    return catalogue.to_read(service.retire_lamp_type(session, lamp_type_id))
+router.include_router(register)
+router.include_router(catalogue)

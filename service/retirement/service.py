@@ -6,7 +6,9 @@ it sits above work orders in the layers so neither the register nor the catalogu
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from datetime import datetime
+from typing import TypeVar
 
 from sqlalchemy import ColumnElement, Select, select, update
 from sqlalchemy.orm import Session
@@ -20,6 +22,8 @@ from service.db.locks import lock_site
 from service.register.models import Area, Fixture, Site
 from service.workorders.issue import OPEN_STATES
 from service.workorders.models import WorkOrder, WorkOrderLine
+
+R = TypeVar("R", Site, Area, Fixture)
 
 
 def open_orders_touching(session: Session, where: ColumnElement[bool]) -> list[int]:
@@ -56,60 +60,55 @@ def _retire_where(
     )
 
 
+def _retire(
+    session: Session,
+    row: R,
+    site_id: int,
+    refuse: tuple[str, ColumnElement[bool]],
+    cascade: Sequence[tuple[type[Area] | type[Fixture], ColumnElement[bool]]] = (),
+) -> R:
+    """Retire a register row under its site's lock, with the rows below it; a repeat is a no-op.
+
+    `refuse` is (what to name, the open-order lines it blocks on): 409 while any is open.
+    """
+    if row.retired_at is not None:
+        return row
+    lock_site(session, site_id)
+    session.refresh(row)  # a retire that held the lock before us may have committed
+    if row.retired_at is not None:
+        return row  # the weekly run and new orders wait for this decision
+    refuse_if_open_orders(refuse[0], open_orders_touching(session, refuse[1]))
+    at = utcnow()
+    for model, cond in cascade:
+        _retire_where(session, model, cond, at)
+    row.retired_at = at
+    session.flush()
+    return row
+
+
 def retire_site(session: Session, site_id: int) -> Site:
     """Retire a site with its areas and fixtures; a repeat answers the site unchanged."""
     site = get_or_404(session, Site, site_id, "site")
-    if site.retired_at is not None:
-        return site
-    lock_site(session, site_id)
-    session.refresh(site)  # a retire that held the lock before us may have committed
-    if site.retired_at is not None:
-        return site  # the weekly run and new orders wait for this decision
-    refuse_if_open_orders(
-        "A fixture of the site", open_orders_touching(session, WorkOrder.site_id == site_id)
-    )
-    at = utcnow()
-    _retire_where(session, Area, Area.site_id == site_id, at)
-    _retire_where(session, Fixture, Fixture.site_id == site_id, at)
-    site.retired_at = at
-    session.flush()
-    return site
+    touching = ("A fixture of the site", WorkOrder.site_id == site_id)
+    below: list[tuple[type[Area] | type[Fixture], ColumnElement[bool]]] = [
+        (Area, Area.site_id == site_id),
+        (Fixture, Fixture.site_id == site_id),
+    ]
+    return _retire(session, site, site_id, touching, below)
 
 
 def retire_area(session: Session, area_id: int) -> Area:
     """Retire an area with its fixtures; a repeat answers the area unchanged."""
     area = get_or_404(session, Area, area_id, "area")
-    if area.retired_at is not None:
-        return area
-    lock_site(session, area.site_id)
-    session.refresh(area)  # a retire that held the lock before us may have committed
-    if area.retired_at is not None:
-        return area
-    refuse_if_open_orders(
-        "A fixture of the area", open_orders_touching(session, WorkOrder.area_id == area_id)
-    )
-    at = utcnow()
-    _retire_where(session, Fixture, Fixture.area_id == area_id, at)
-    area.retired_at = at
-    session.flush()
-    return area
+    touching = ("A fixture of the area", WorkOrder.area_id == area_id)
+    return _retire(session, area, area.site_id, touching, [(Fixture, Fixture.area_id == area_id)])
 
 
 def retire_fixture(session: Session, fixture_id: int) -> Fixture:
     """Retire a fixture; a repeat answers the fixture unchanged."""
     fixture = get_or_404(session, Fixture, fixture_id, "fixture")
-    if fixture.retired_at is not None:
-        return fixture
-    lock_site(session, fixture.site_id)
-    session.refresh(fixture)  # a retire that held the lock before us may have committed
-    if fixture.retired_at is not None:
-        return fixture
-    refuse_if_open_orders(
-        "The fixture", open_orders_touching(session, WorkOrderLine.fixture_id == fixture_id)
-    )
-    fixture.retired_at = utcnow()
-    session.flush()
-    return fixture
+    touching = ("The fixture", WorkOrderLine.fixture_id == fixture_id)
+    return _retire(session, fixture, fixture.site_id, touching)
 
 
 def retire_lamp_type(session: Session, lamp_type_id: int) -> LampType:

@@ -9,41 +9,20 @@ from typing import Any
 from sqlalchemy import Select, func, select
 from sqlalchemy.orm import Session
 
+from service.db.crud import ListQuery, sort_columns
 from service.workorders.models import WorkOrder
 
-ORDER_SORT = {
-    "id": WorkOrder.id,
-    "due_on": WorkOrder.due_on,
-    "updated_at": WorkOrder.updated_at,
-    "created_at": WorkOrder.created_at,
-    "state": WorkOrder.state,
-}
+ORDER_SORT = sort_columns(WorkOrder, "id", "due_on", "updated_at", "created_at", "state")
 
 
-def order_query(
-    *,
-    site_id: int | None = None,
-    area_id: int | None = None,
-    state: str | None = None,
-    kind: str | None = None,
-    iso_week: str | None = None,
-    changed_since: datetime | None = None,
-    external_reference: str | None = None,
-) -> Select[Any]:
+_ORDER_FILTERS = ListQuery(
+    WorkOrder, equal=("external_reference", "site_id", "area_id", "state", "kind", "iso_week")
+)
+
+
+def order_query(*, changed_since: datetime | None = None, **filters: Any) -> Select[Any]:
     """Orders filtered; changed_since keeps those updated (state changes included) at or after."""
-    stmt = select(WorkOrder)
-    if external_reference is not None:
-        stmt = stmt.where(WorkOrder.external_reference == external_reference)
-    if site_id is not None:
-        stmt = stmt.where(WorkOrder.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(WorkOrder.area_id == area_id)
-    if state is not None:
-        stmt = stmt.where(WorkOrder.state == state)
-    if kind is not None:
-        stmt = stmt.where(WorkOrder.kind == kind)
-    if iso_week is not None:
-        stmt = stmt.where(WorkOrder.iso_week == iso_week)
+    stmt = _ORDER_FILTERS(**filters)
     if changed_since is not None:
         stmt = stmt.where(WorkOrder.updated_at >= changed_since)
     return stmt

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Query, Response
 from fastapi.responses import HTMLResponse
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
@@ -13,7 +13,8 @@ from service.api.errors import Invalid
 from service.api.ids import IdPath, IdQuery
 from service.api.lookups import ExternalReferenceQ
 from service.api.pagination import Page, PageDep, paginate
-from service.api.preconditions import locate, versioned
+from service.api.preconditions import versioned
+from service.api.resource_routes import Resource
 from service.api.times import Timestamp
 from service.register.models import Area, Site
 from service.workorders import exports, service
@@ -47,6 +48,16 @@ def read(order: WorkOrder, *, lines: bool = True) -> WorkOrderRead:
     if lines:
         body.lines = [LineRead.model_validate(ln) for ln in order.lines]
     return body
+
+
+ORDER = Resource(
+    collection="/work-orders",
+    id_name="order_id",
+    model=WorkOrder,
+    read=WorkOrderRead,
+    shape=read,
+    service=service,
+)
 
 
 @router.get("/work-orders", response_model=Page[WorkOrderRead])
@@ -92,68 +103,43 @@ def list_orders(
     )
 
 
-@router.post("/work-orders", response_model=WorkOrderRead, status_code=status.HTTP_201_CREATED)
-def create_order(
-    body: WorkOrderCreate, session: SessionDep, _: WriteKey, request: Request, response: Response
-) -> WorkOrderRead:
-    """Create a draft order by hand for one area (group: all fixtures; spot: open burnouts)."""
-    order = service.create(session, body)
-    locate(request, response, "get_order", order_id=order.id)
-    return read(order)
-
-
-@router.get(
-    "/work-orders/{order_id}",
-    response_model=WorkOrderRead,
-    dependencies=[versioned(WorkOrder, "order_id")],
+ORDER.create_route(
+    router,
+    ("create_order", "get_order"),
+    "Create a draft order by hand for one area (group: all fixtures; spot: open burnouts).",
+    WorkOrderCreate,
+    service.create,
 )
-def get_order(order_id: IdPath, session: SessionDep, _: ReadKey) -> WorkOrderRead:
-    """One order with its lines."""
-    return read(service.get_order(session, order_id))
-
-
-@router.patch(
-    "/work-orders/{order_id}",
-    response_model=WorkOrderRead,
-    dependencies=[versioned(WorkOrder, "order_id")],
+ORDER.get_route(router, "get_order", "One order with its lines.")
+ORDER.patch_route(
+    router,
+    "update_order",
+    "Set the external reference (from a CMMS), notes or due date.",
+    WorkOrderUpdate,
+    service.update,
 )
-def update_order(
-    order_id: IdPath, body: WorkOrderUpdate, session: SessionDep, _: WriteKey
-) -> WorkOrderRead:
-    """Set the external reference (from a CMMS), notes or due date."""
-    return read(service.update(session, order_id, body))
-
-
-@router.post(
-    "/work-orders/{order_id}/issue",
-    response_model=WorkOrderRead,
-    dependencies=[versioned(WorkOrder, "order_id")],
+ORDER.action_route(
+    router,
+    "issue",
+    "issue_order",
+    "draft -> issued (409 from any other state).",
+    service.issue,
 )
-def issue_order(order_id: IdPath, session: SessionDep, _: WriteKey) -> WorkOrderRead:
-    """draft -> issued (409 from any other state)."""
-    return read(service.issue(session, order_id))
-
-
-@router.post(
-    "/work-orders/{order_id}/start",
-    response_model=WorkOrderRead,
-    dependencies=[versioned(WorkOrder, "order_id")],
+ORDER.action_route(
+    router,
+    "start",
+    "start_order",
+    "issued -> in_progress (409 from any other state).",
+    service.start,
 )
-def start_order(order_id: IdPath, session: SessionDep, _: WriteKey) -> WorkOrderRead:
-    """issued -> in_progress (409 from any other state)."""
-    return read(service.start(session, order_id))
-
-
-@router.post(
-    "/work-orders/{order_id}/complete",
-    response_model=WorkOrderRead,
-    dependencies=[versioned(WorkOrder, "order_id")],
+ORDER.action_route(
+    router,
+    "complete",
+    "complete_order",
+    "in_progress -> done with per-fixture outcomes; replaced lamps are recorded as removals.",
+    service.complete,
+    CompleteBody,
 )
-def complete_order(
-    order_id: IdPath, body: CompleteBody, session: SessionDep, _: WriteKey
-) -> WorkOrderRead:
-    """in_progress -> done with per-fixture outcomes; replaced lamps are recorded as removals."""
-    return read(service.complete(session, order_id, body))
 
 
 @router.post(

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from datetime import date, datetime
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, ClassVar, Literal, Self
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -127,8 +127,25 @@ class WorkOrderRead(BaseModel):
     lines: list[LineRead] | None = None
 
 
-class FixtureOutcome(BaseModel):
+class _SkipNeedsReason(BaseModel):
+    """An outcome that may be `skipped`: then it needs a reason (what: "fixture", ...)."""
+
+    what: ClassVar[str]
+    if TYPE_CHECKING:  # the subclasses' fields, declared there (in their schema order)
+        outcome: Any
+        reason: str | None
+
+    @model_validator(mode="after")
+    def _reason_for_skips(self) -> Self:
+        if self.outcome == LineOutcome.SKIPPED and not self.reason:
+            raise ValueError(f"a skipped {self.what} needs a reason")
+        return self
+
+
+class FixtureOutcome(_SkipNeedsReason):
     """What happened at one fixture of the order."""
+
+    what: ClassVar[str] = "fixture"
 
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
@@ -136,15 +153,11 @@ class FixtureOutcome(BaseModel):
     outcome: Literal[LineOutcome.REPLACED, LineOutcome.SKIPPED]
     reason: str | None = Field(default=None, min_length=1, max_length=500)
 
-    @model_validator(mode="after")
-    def _reason_for_skips(self) -> FixtureOutcome:
-        if self.outcome == LineOutcome.SKIPPED and not self.reason:
-            raise ValueError("a skipped fixture needs a reason")
-        return self
 
-
-class PositionOutcome(BaseModel):
+class PositionOutcome(_SkipNeedsReason):
     """What happened at one lamp position (overrides its fixture's outcome)."""
+
+    what: ClassVar[str] = "position"
 
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
@@ -154,12 +167,6 @@ class PositionOutcome(BaseModel):
         "a failure), skipped (left in place; its age keeps running)."
     )
     reason: str | None = Field(default=None, min_length=1, max_length=500)
-
-    @model_validator(mode="after")
-    def _reason_for_skips(self) -> PositionOutcome:
-        if self.outcome == LineOutcome.SKIPPED and not self.reason:
-            raise ValueError("a skipped position needs a reason")
-        return self
 
 
 class CompleteBody(BaseModel):
