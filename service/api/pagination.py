@@ -17,6 +17,7 @@ import json
 from collections.abc import Mapping, Sequence
 from datetime import date, datetime
 from enum import Enum
+from functools import cache
 from typing import Annotated, Any, Generic, TypeVar
 
 from fastapi import Depends, Query
@@ -224,7 +225,14 @@ def _one_entity(stmt: Select[Any]) -> bool:
 
 def columns_of(model: type[Any]) -> list[InstrumentedAttribute[Any]]:
     """The mapped column attributes of a model, to select its rows without ORM objects."""
-    return [getattr(model, attr.key) for attr in sa_inspect(model).column_attrs]
+    return list(_columns_of(model))
+
+
+@cache
+def _columns_of(model: type[Any]) -> tuple[InstrumentedAttribute[Any], ...]:
+    # Found once per model: inspecting the mapper on every list request cost as much as
+    # building the rest of the statement.
+    return tuple(getattr(model, attr.key) for attr in sa_inspect(model).column_attrs)
 
 
 def paginate(
@@ -251,7 +259,10 @@ def paginate(
     ordered = ordered.limit(params.limit).offset(params.offset)
     # One entity: ORM objects. Columns (see columns_of): plain rows, no identity map or
     # instrumentation, for lists answered straight from the rows.
-    rows = (session.scalars(ordered) if _one_entity(stmt) else session.execute(ordered)).all()
+    if _one_entity(stmt):
+        rows: Sequence[Any] = session.scalars(ordered).all()
+    else:  # plain columns: the Core connection (no ORM result processing), same rows
+        rows = session.connection().execute(ordered).all()
     params.next_after = None
     if len(rows) == params.limit:
         try:

@@ -33,6 +33,7 @@ from service.uploads.errors import RowErrors, UnsupportedMediaType
 CSV_TYPES = ("text/csv", "application/csv", "text/plain")
 JSON_TYPES = ("application/json",)
 IntArray = NDArray[np.int64]
+BOM = b"\xef\xbb\xbf"  # UTF-8 byte-order mark, dropped by the utf-8-sig decoding
 
 
 @dataclass(frozen=True)
@@ -107,7 +108,7 @@ def read_upload(body: RawBody, spec: UploadSpec) -> Columns:
         )
         empty = {"row": 1, "field": None, "in": "body", "message": "the upload is empty"}
         raise Invalid(f"The {what}.", errors=[empty])
-    return _json_columns(text, spec) if is_json else _csv_columns(text, spec)
+    return _json_columns(text, spec) if is_json else _csv_columns(text, spec, body.data)
 
 
 def read_path(path: str, spec: UploadSpec) -> Columns:
@@ -156,15 +157,25 @@ def _check_header(names: Sequence[str], spec: UploadSpec) -> None:
     errors.raise_if_any("CSV header")
 
 
-def _csv_columns(text: str, spec: UploadSpec) -> Columns:
-    reader = csv.reader(io.StringIO(text))
+def _csv_columns(text: str, spec: UploadSpec, data: bytes | None = None) -> Columns:
+    plain = _is_plain(text)
+    reader: Any = None
+    if plain:  # no quotes: the header is the first line, read without copying the text
+        end = text.find("\n")
+        first = text if end < 0 else text[:end]
+        rows = csv.reader([first[:-1] if first.endswith("\r") else first])
+    else:
+        reader = rows = csv.reader(io.StringIO(text))
     try:
-        names = [h.strip() for h in next(reader)]
+        names = [h.strip() for h in next(rows, [])]
     except csv.Error as exc:
         raise Invalid(f"The CSV header cannot be read: {exc}.") from None
     _check_header(names, spec)
-    cols = _plain_columns(text, len(names))
+    cols = _plain_columns(text, len(names), data) if plain else None
     if cols is None:
+        if reader is None:
+            reader = csv.reader(io.StringIO(text))
+            next(reader)
         cols = _read_rows(reader, len(names))
     n = len(cols[0]) if cols else 0
     # Lines with only blank cells are skipped; their numbers still count.
@@ -182,27 +193,37 @@ def _csv_columns(text: str, spec: UploadSpec) -> Columns:
     return Columns(names, dict(zip(names, cleaned, strict=True)), numbers)
 
 
-def _plain_columns(text: str, width: int) -> list[list[str]] | None:
+def _is_plain(text: str) -> bool:
+    """No quote characters and no carriage return outside a CRLF line end."""
+    return '"' not in text and text.count("\r") == text.count("\r\n")
+
+
+def _plain_columns(text: str, width: int, data: bytes | None = None) -> list[list[str]] | None:
     """The data rows' columns by pyarrow's CSV reader, for a plain file; None otherwise.
 
-    Plain: no quote characters, no carriage return outside a CRLF line end, and every
-    line as wide as the header. Such a file splits the same way in any CSV reader, so the
-    fast reader and _read_rows agree; anything else (quoted cells, blank lines in a file of
-    several columns, short or long rows) goes to _read_rows, which names every bad row.
+    Plain (_is_plain): no quote characters, no carriage return outside a CRLF line end, and
+    every line as wide as the header. Such a file splits the same way in any CSV reader, so
+    the fast reader and _read_rows agree; anything else (quoted cells, blank lines in a file
+    of several columns, short or long rows) goes to _read_rows, which names every bad row.
+    data: the upload's bytes (the text's UTF-8, maybe after a byte-order mark), read in
+    place; without them the text is encoded once.
     """
-    if '"' in text or text.count("\r") != text.count("\r\n"):
+    if not _is_plain(text):
         return None
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
-    body = text[text.index("\n") + 1 :] if "\n" in text else ""
-    if not body.strip():
+    end = text.find("\n")
+    if end < 0 or not text[end + 1 :].strip():
         return None
+    raw = memoryview(data if data is not None else text.encode())
+    if raw[:3] == BOM:
+        raw = raw[3:]
     names = [f"c{i}" for i in range(width)]
     try:
         table = pacsv.read_csv(
-            io.BytesIO(body.encode()),
-            read_options=pacsv.ReadOptions(column_names=names),
+            pa.BufferReader(pa.py_buffer(raw)),
+            read_options=pacsv.ReadOptions(column_names=names, skip_rows=1),
             parse_options=pacsv.ParseOptions(quote_char=False, ignore_empty_lines=False),
             convert_options=pacsv.ConvertOptions(
                 column_types={n: pa.string() for n in names}, strings_can_be_null=False
@@ -210,7 +231,22 @@ def _plain_columns(text: str, width: int) -> list[list[str]] | None:
         )
     except pa.ArrowInvalid:
         return None
-    return [table.column(n).to_pylist() for n in names]
+    return [_shared_pylist(table.column(n)) for n in names]
+
+
+def _shared_pylist(column: Any) -> list[str]:
+    """A string column as a list; repeated cells share one str object.
+
+    A million-row upload repeats its days, ids and hours: one object per distinct cell
+    (8 bytes a cell for the list) instead of one per cell (about 60 bytes each).
+    """
+    arr = column.combine_chunks() if hasattr(column, "combine_chunks") else column
+    encoded = arr.dictionary_encode()
+    distinct = len(encoded.dictionary)
+    if distinct > len(arr) // 2:
+        return list(arr.to_pylist())
+    values = np.array(encoded.dictionary.to_pylist(), dtype=object)
+    return list(values[encoded.indices.to_numpy(zero_copy_only=False)].tolist())
 
 
 def _read_rows(reader: Any, width: int) -> list[list[str]]:

@@ -19,7 +19,6 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
-from itertools import islice
 from typing import Any
 
 import numpy as np
@@ -56,26 +55,27 @@ def write_rows(
     n = len(next(iter(columns.values()))) if columns else 0
     if n == 0:
         return []
+    if any(len(col) != n for col in columns.values()):
+        raise ValueError("every column must have one value per row")
     session.flush()  # pending ORM changes go first, in order
     conn = session.connection()
     dialect = conn.dialect
-    values = {name: _db_values(col, table.c[name], dialect) for name, col in columns.items()}
-    for col in table.columns:
-        if col.name not in values and not col.primary_key and col.default is not None:
-            default = _python_default(col)
-            if default is not None:
-                values[col.name] = _db_values([default[0]] * n, col, dialect)
-    names = list(values)
-    lists = [values[k] for k in names]
-    if any(len(v) != n for v in lists):
-        raise ValueError("every column must have one value per row")
+    # A callable default (a timestamp) is called once: every row of the upload gets the same.
+    defaults = {c.name: _python_default(c) for c in _defaulted(table, columns)}
+    names = [*columns, *defaults]
     pk = _pk_name(table) if return_ids else None
+    # Driver values are made one chunk at a time, so a million rows never exist at once
+    # as Python objects (the columns themselves stay numpy arrays or the caller's lists).
+    chunks = (
+        _chunk_values(table, columns, defaults, dialect, a, min(a + _chunk(), n))
+        for a in range(0, n, _chunk())
+    )
     dbapi: Any = dialect.loaded_dbapi
     try:
         if dialect.name == "postgresql" and dialect.driver == "psycopg":
-            return _copy(conn, table, names, lists, n, pk)
+            return _copy(conn, table, names, chunks, n, pk)
         if dialect.name == "sqlite":
-            return _sqlite(conn, table, names, lists, n, pk)
+            return _sqlite(conn, table, names, chunks, n, pk)
     except dbapi.Error as exc:
         # Raw driver errors as SQLAlchemy's (IntegrityError: 409 for a race between two
         # uploads; OperationalError: 503 when the database is busy), like any other query.
@@ -85,6 +85,41 @@ def write_rows(
     raise RuntimeError(
         f"bulk writes need PostgreSQL with psycopg 3 or SQLite, not {dialect.name}+{dialect.driver}"
     )
+
+
+def _chunk() -> int:
+    return get_settings().bulk_chunk_rows
+
+
+def _defaulted(table: Table, columns: Mapping[str, ColumnValues]) -> list[Column[Any]]:
+    """Columns left out that take a Python-side default (scalar or callable)."""
+    return [
+        col
+        for col in table.columns
+        if col.name not in columns and not col.primary_key and _python_default(col) is not None
+    ]
+
+
+def _chunk_values(
+    table: Table,
+    columns: Mapping[str, ColumnValues],
+    defaults: Mapping[str, tuple[Any] | None],
+    dialect: Dialect,
+    a: int,
+    b: int,
+) -> list[list[Any]]:
+    """Rows a..b-1 as one list of driver values per column (given, then defaulted)."""
+    out = [_db_values(_slice(col, a, b), table.c[name], dialect) for name, col in columns.items()]
+    for name, default in defaults.items():
+        assert default is not None
+        out.append(_db_values([default[0]] * (b - a), table.c[name], dialect))
+    return out
+
+
+def _slice(col: ColumnValues, a: int, b: int) -> ColumnValues:
+    if isinstance(col, Epoch):
+        return Epoch(col.seconds[a:b])
+    return col[a:b]
 
 
 def _pk_name(table: Table) -> str:
@@ -161,7 +196,12 @@ def _quoted(names: Sequence[str]) -> str:
 
 
 def _copy(
-    conn: Connection, table: Table, names: list[str], lists: list[list[Any]], n: int, pk: str | None
+    conn: Connection,
+    table: Table,
+    names: list[str],
+    chunks: Iterator[list[list[Any]]],
+    n: int,
+    pk: str | None,
 ) -> list[int]:
     raw: Any = conn.connection.driver_connection
     ids: list[int] = []
@@ -172,40 +212,50 @@ def _copy(
                 (f'"{table.name}"', pk, n),
             )
             ids = [int(r[0]) for r in cur.fetchall()]
-            names, lists = [pk, *names], [ids, *lists]
+            names = [pk, *names]
         with cur.copy(f'COPY "{table.name}" ({_quoted(names)}) FROM STDIN') as cp:
-            for row in zip(*lists, strict=True):
-                cp.write_row(row)
+            at = 0
+            for lists in chunks:
+                if pk is not None:
+                    lists = [ids[at : at + len(lists[0])], *lists]
+                at += len(lists[0])
+                for row in zip(*lists, strict=True):
+                    cp.write_row(row)
     return ids
 
 
-def _batches(rows: Iterator[tuple[Any, ...]]) -> Iterator[list[tuple[Any, ...]]]:
-    size = get_settings().bulk_chunk_rows
-    while batch := list(islice(rows, size)):
-        yield batch
-
-
 def _sqlite(
-    conn: Connection, table: Table, names: list[str], lists: list[list[Any]], n: int, pk: str | None
+    conn: Connection,
+    table: Table,
+    names: list[str],
+    chunks: Iterator[list[list[Any]]],
+    n: int,
+    pk: str | None,
 ) -> list[int]:
     raw: Any = conn.connection.driver_connection
-    rows = zip(*lists, strict=True)
     cur = raw.cursor()
     try:
         if pk is None:
             sql = f'INSERT INTO "{table.name}" ({_quoted(names)}) VALUES ({", ".join("?" * len(names))})'
-            for batch in _batches(rows):
-                cur.executemany(sql, batch)
+            for lists in chunks:
+                cur.executemany(sql, zip(*lists, strict=True))
             return []
         # The first row gets the next rowid (max + 1) and takes the write lock; the rest
         # follow it with explicit ids, so the ids are known without reading anything back.
         cols = [pk, *names]
         sql = f'INSERT INTO "{table.name}" ({_quoted(cols)}) VALUES ({", ".join("?" * len(cols))})'
-        cur.execute(sql, (None, *next(rows)))
-        first = int(cur.lastrowid)
-        numbered = ((first + k, *row) for k, row in enumerate(rows, start=1))
-        for batch in _batches(numbered):
-            cur.executemany(sql, batch)
+        first: int | None = None
+        next_id = 0
+        for lists in chunks:
+            rows = zip(*lists, strict=True)
+            m = len(lists[0])
+            if first is None:
+                cur.execute(sql, (None, *next(rows)))
+                first = int(cur.lastrowid)
+                next_id, m = first + 1, m - 1
+            cur.executemany(sql, ((next_id + k, *row) for k, row in enumerate(rows)))
+            next_id += m
+        assert first is not None
         return list(range(first, first + n))
     finally:
         cur.close()

@@ -52,6 +52,30 @@ def test_ids_after_orm_rows_and_in_small_chunks(
     assert [by_id[i] for i in ids] == [f"B{i}" for i in range(10)]
 
 
+def test_chunks_keep_numpy_columns_and_one_default_time(
+    db: Session, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Values are made chunk by chunk; a callable default (created_at) is still one moment."""
+    from service.config import get_settings
+
+    monkeypatch.setattr(get_settings(), "bulk_chunk_rows", 4)
+    s = fx.site(db)
+    n = 11  # two full chunks and a short one
+    per_day = np.arange(n, dtype=np.float64) / 2.0
+    ids = write_rows(
+        db,
+        AREAS,
+        {"site_id": [s.id] * n, "name": [f"C{i}" for i in range(n)], "starts_per_day": per_day},
+        return_ids=True,
+    )
+    rows = db.execute(
+        select(Area.id, Area.starts_per_day, Area.created_at).where(Area.id.in_(ids))
+    ).all()
+    by_id = {r[0]: r for r in rows}
+    assert [by_id[i][1] for i in ids] == per_day.tolist()
+    assert len({r[2] for r in rows}) == 1
+
+
 def test_nothing_to_write(db: Session) -> None:
     assert write_rows(db, AREAS, {"site_id": [], "name": []}, return_ids=True) == []
 

@@ -58,3 +58,23 @@ def test_plain_tables_take_the_fast_path(rows: list[list[str]], crlf: bool) -> N
     kept = [i for i, r in enumerate(rows) if "".join(r).strip()]
     assert c.numbers.tolist() == [i + 2 for i in kept]
     assert c.get("b") == [rows[i][1].strip() or None for i in kept]
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    st.lists(st.sampled_from(["1", "2", "2025-01-01", "8.5", " x "]), min_size=1, max_size=40),
+    st.booleans(),
+)
+def test_repeated_cells_and_a_byte_order_mark_read_as_the_csv_module_reads_them(
+    cells: list[str], bom: bool
+) -> None:
+    """Repeated cells share one object (memory), values and row numbers as csv reads them."""
+    text = "a,b\n" + "".join(f"{v},{v}\n" for v in cells)
+    data = (b"\xef\xbb\xbf" if bom else b"") + text.encode()
+    c = read_upload(RawBody(data, "text/csv"), UploadSpec(columns=("a", "b")))
+    ref = reference(text, 2)
+    assert ref is not None
+    assert c.get("a") == [v.strip() or None for v in ref[0]]
+    assert c.numbers.tolist() == list(range(2, len(cells) + 2))
+    fast = _plain_columns(text, 2, data)
+    assert fast == ref
