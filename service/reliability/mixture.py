@@ -114,7 +114,7 @@ def to_fine_p(p_nodes: FloatArray, r: Rule) -> FloatArray:
     """
     p = np.clip(p_nodes, _P_MIN, 1.0 - 1e-15)
     g = np.log(-np.log1p(-p))
-    gf = np.einsum("fk,k...->f...", r.lagrange, g)
+    gf = np.clip(np.einsum("fk,k...->f...", r.lagrange, g), g.min(axis=0), g.max(axis=0))
     return -np.expm1(-np.exp(np.minimum(gf, 50.0)))
 
 
@@ -138,10 +138,16 @@ class Moments:
         lm = np.log(np.maximum(self.mean, _P_MIN))
         lv = np.log(np.maximum(self.var, _P_MIN))
         skew = self.third / np.maximum(self.var, 1e-200) ** 1.5
-        mean = np.exp(np.einsum("fk,k...->f...", r.lagrange, lm))
-        var = np.exp(np.einsum("fk,k...->f...", r.lagrange, lv))
-        third = np.einsum("fk,k...->f...", r.lagrange, skew) * var**1.5
-        return Moments(mean, var, third)
+
+        # The interpolant held within the nodes' own range (no overshoot where a sum
+        # vanishes at some nodes, e.g. no chance of failing within the horizon).
+        def carry(v: FloatArray) -> FloatArray:
+            out = np.einsum("fk,k...->f...", r.lagrange, v)
+            return np.asarray(np.clip(out, v.min(axis=0), v.max(axis=0)), dtype=np.float64)
+
+        mean = np.exp(carry(lm))
+        var = np.exp(carry(lv))
+        return Moments(mean, var, carry(skew) * var**1.5)
 
 
 def poisson_regime(mean: FloatArray, var: FloatArray) -> NDArray[np.bool_]:
@@ -153,7 +159,7 @@ def rna_cdf(k: FloatArray, m: Moments, poisson: bool = True) -> FloatArray:
     """Refined normal approximation of P(K <= k), broadcast over m's columns."""
     shape = np.broadcast_shapes(np.shape(k), m.mean.shape)
     kk, mu, var = (np.broadcast_to(x, shape) for x in (k, m.mean, m.var))
-    sd = np.sqrt(np.maximum(var, 1e-300))
+    sd = np.sqrt(np.maximum(var, 1e-200))  # sd^3 stays a normal float
     x = (kk + 0.5 - mu) / sd
     gamma = np.broadcast_to(m.third, shape) / sd**3
     g = ndtr(x) + gamma * (1.0 - x * x) * np.exp(-0.5 * x * x) / (6.0 * math.sqrt(2 * math.pi))
@@ -172,7 +178,7 @@ def support_max(m: Moments, n: int) -> int:
     if m.mean.size == 0:
         return 0
     top = float(np.max(m.mean + 12.0 * np.sqrt(m.var))) + 12.0
-    return int(min(n, math.ceil(top)))
+    return int(min(n, math.ceil(top))) if math.isfinite(top) else n
 
 
 def pmf_truncated(p: FloatArray, kmax: int) -> FloatArray:

@@ -143,3 +143,17 @@ def test_refined_normal_against_the_exact_pmf() -> None:
     rna = mx.rna_cdf(ks, mx.Moments(m.mean[:, None], m.var[:, None], m.third[:, None]))[0]
     exact = np.cumsum(pmf_dft(p))
     assert np.abs(rna - exact).max() < 2e-3
+
+
+def test_moment_sums_vanishing_at_some_nodes_carry_without_overshoot() -> None:
+    # A type with no chance of failing at the largest scales (sums 0 there): the interpolant
+    # of the log sums must stay within the nodes' range (it overflowed to infinity once).
+    r = mx.rule()
+    mean = np.array([50.0, 20.0, 5.0, 1.0, 1e-5, 0.0, 0.0, 0.0, 0.0])[:, None]
+    fine = mx.Moments(mean, mean * 0.9, mean * 0.8).to_fine(r)
+    assert np.all(np.isfinite(fine.mean)) and fine.mean.max() <= 50.0 + 1e-9
+    mix = mx.mixture(mx.Moments(mean, mean * 0.9, mean * 0.8), 60, r)
+    q = int(mix.quantile(0.95)[0])
+    # reference: the same mixture summed directly at the nodes with scipy's Poisson CDF
+    # bounds it: between the quantiles of the nodes' smallest and largest means
+    assert 0 <= q <= int(stats.poisson(50.0).ppf(0.999))
