@@ -5,7 +5,9 @@ the schema with the migrations, bulk-loads invented data with Core inserts, then
 site's weekly issue once (orders created) and once more (the repeat creates nothing).
 
 Run: python benchmarks/bench_weekly_run.py [URL] [--sizes 10,100] [--quick] [--repeats N]
-(--profile FILE: cProfile the first run of each size into FILE.<size>, top 25 printed).
+(--profile FILE: cProfile the first run of each size into FILE.<size>, top 25 printed;
+--phases: seconds in each phase of the issue path per run, printed: planning with position
+ages, the fixture and position reads, the bulk writes).
 P5: 100,000 fixtures (target <= 5 s), anchor column: the repeat run that creates nothing;
 P8: the same at 10,000 fixtures (growth).
 """
@@ -237,7 +239,9 @@ def main() -> int:
     ap.add_argument("url", nargs="?", default=URL, help="scratch PostgreSQL database")
     ap.add_argument("--sizes", default="10,100", help="fixtures per area (100 areas x 10 sites)")
     ap.add_argument("--profile", help="cProfile the first run into this file (prints the top)")
+    ap.add_argument("--phases", action="store_true", help="print seconds per phase per run")
     args = ap.parse_args()
+    phases = time_phases() if args.phases else None
     quick = args.quick
     sizes = [1] if quick else [int(x) for x in args.sizes.split(",")]
     repeats = 1 if quick else args.repeats
@@ -265,6 +269,11 @@ def main() -> int:
             bad = [r for r in runs if r.outcome != "succeeded"]
             assert not bad, bad[0].error
             firsts.append(dt)
+            if phases is not None:
+                print(f"  run {i + 1}: {dt:.2f} s; " + ", ".join(
+                    f"{k} {v:.2f}" for k, v in phases.items()
+                ))  # fmt: skip
+                phases.clear()
         print(
             f"  orders created {sum(r.orders_created for r in runs)} "
             f"(group {sum(r.group_orders for r in runs)}, spot {sum(r.spot_orders for r in runs)})"
@@ -284,6 +293,32 @@ def main() -> int:
         )
     table.finish(args.json)
     return 0
+
+
+PHASES = ("_due_types", "load_positions", "plan_areas", "_fixtures", "_positions", "_write")
+
+
+def time_phases() -> dict[str, float]:
+    """Wrap the issue path's phases with timers; the dict fills with seconds per phase."""
+    from service.workorders import issue
+
+    spent: dict[str, float] = {}
+
+    def wrap(name: str) -> None:
+        inner = getattr(issue, name)
+
+        def timed(*a: Any, **k: Any) -> Any:
+            t0 = time.perf_counter()
+            try:
+                return inner(*a, **k)
+            finally:
+                spent[name] = spent.get(name, 0.0) + time.perf_counter() - t0
+
+        setattr(issue, name, timed)
+
+    for name in PHASES:
+        wrap(name)
+    return spent
 
 
 def profiled(url: str, sites: list[int], out: str) -> tuple[float, list[Any]]:

@@ -15,6 +15,11 @@ has an open group order is covered by that group order from the start.
 Catch-up: on a site with a weekly capacity (labour hours or money), the weekly run orders
 only the due areas that the catch-up schedule (planning.site_schedule, planning.catch_up)
 puts in this week; the others wait for their week's run. Each order's plan names its place.
+Group orders still open from earlier weeks (committed_orders) take their labour hours and
+money off this week's capacity first.
+
+Lamp choice: a group order's lines fit the lamp its plan chose (choice_hooks: switched
+lines), and its cautions and disposal cover both the lamps fitted and those taken out.
 """
 
 from __future__ import annotations
