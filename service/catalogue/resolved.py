@@ -87,6 +87,29 @@ def _ballast_of(
     return np.where(fixed[t] != "", fixed[t], np.where(np.isin(b, _DISCHARGE), b, own[t]))
 
 
+def _ballast_codes(
+    type_ids: IntArray,
+    own: StrArray,
+    fixed: StrArray,
+    lamp_type_id: IntArray,
+    ballast_kind: ArrayLike | None,
+) -> IntArray:
+    """Codes (in _CODES) of the ballast each position runs on: _ballast_of by integer codes.
+
+    The per-position strings are compared only once (searchsorted into the short code list);
+    the choice between fixed, fixture and own ballast is then made on integers.
+    """
+    t = np.searchsorted(type_ids, lamp_type_id)
+    own_c = np.searchsorted(_CODES, own).astype(np.int64)[t]
+    if ballast_kind is None:
+        return own_c
+    fixed_c = np.where(fixed != "", np.searchsorted(_CODES, fixed), -1).astype(np.int64)[t]
+    b = np.asarray(ballast_kind, dtype=str)
+    bc = np.minimum(np.searchsorted(_CODES, b), _NCODES - 1).astype(np.int64)
+    discharge = np.isin(_CODES, _DISCHARGE)[bc] & (_CODES[bc] == b)
+    return np.where(fixed_c >= 0, fixed_c, np.where(discharge, bc, own_c))
+
+
 def _key(type_id: ArrayLike, ballast: ArrayLike) -> IntArray:
     codes = np.searchsorted(_CODES, np.asarray(ballast, dtype=str))
     return np.asarray(type_id, dtype=np.int64) * _NCODES + codes.astype(np.int64)
@@ -114,8 +137,9 @@ class TypeTable:
     def index(self, lamp_type_id: ArrayLike, ballast_kind: ArrayLike | None = None) -> IntArray:
         """Row of each (lamp type id, fixture ballast kind) in the table."""
         keys = _key(self.ids, self.ballasts)
-        want = _key(lamp_type_id, self.ballast_of(lamp_type_id, ballast_kind))
-        return np.searchsorted(keys, want).astype(np.int64)
+        lt = np.asarray(lamp_type_id, dtype=np.int64)
+        code = _ballast_codes(self.type_ids, self.own, self.fixed, lt, ballast_kind)
+        return np.searchsorted(keys, lt * _NCODES + code).astype(np.int64)
 
     def curve(self, lamp_type_id: int) -> CurveInUse:
         """The curve in use for one lamp type."""
