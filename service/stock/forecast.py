@@ -310,8 +310,8 @@ def storeroom_demand(
             continue
         sc = position_cumulative(session, site, at, opt.weeks, last_relamps, loaded=loaded)
         parts.append((sc.lamp_type_id, sc.cum, sc.dark))
-        for t, nd in sc.nodes.items():  # one lamp type's scale error is shared across sites
-            nodes[t] = nodes[t].merge(nd) if t in nodes else nd
+        for t, site_nd in sc.nodes.items():  # one lamp type's scale error spans the sites
+            nodes[t] = nodes[t].merge(site_nd) if t in nodes else site_nd
         for t, arr in sc.group_by_type.items():
             groups[t] = groups.get(t, np.zeros(opt.weeks, dtype=np.int64)) + arr
     lt_all = np.concatenate([p[0] for p in parts]) if parts else np.zeros(0, dtype=np.int64)
