@@ -33,6 +33,7 @@ from service.stock.router import build_router as build_stock_router
 from service.web.install import install_web
 from service.webhooks.metrics import register_feed_metrics
 from service.webhooks.router import router as webhooks_router
+from service.workorders.issue import committed_orders
 from service.workorders.repository import last_group_relamps
 from service.workorders.router import router as workorders_router
 
@@ -46,7 +47,7 @@ DOMAIN_ROUTERS: list[APIRouter] = [
     readings_router,
     events_router,
     forecasting_router,
-    build_planning_router(last_group_relamps),
+    build_planning_router(last_group_relamps, committed_orders),
     build_choice_router(last_group_relamps),
     workorders_router,
     build_stock_router(last_group_relamps),

@@ -138,7 +138,7 @@ def area_plan_read(plan: AreaPlan) -> AreaPlanRead:
 
 
 def catch_up_read(area_id: int, sched: SiteSchedule) -> CatchUpRead | None:
-    """An area's catch-up slot as a body part (None when it is not due)."""
+    """An area's catch-up slot as a body part (None: not due, or on an open group order)."""
     slot, job, start = sched.slots.get(area_id), sched.jobs.get(area_id), sched.week_start(area_id)
     if slot is None or job is None or start is None:
         return None

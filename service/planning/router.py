@@ -2,21 +2,32 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from datetime import timedelta
 
 from fastapi import APIRouter
+from sqlalchemy.orm import Session
 
 from service.api.auth import ReadKey, SessionDep
 from service.planning import service
+from service.planning.catch_up import Committed
 from service.planning.choice_bodies import plan_briefs
 from service.planning.plan_bodies import area_plan_read, catch_up_read
 from service.planning.schemas import AreaPlanRead, PlanOverrides, SitePlanRead
 from service.planning.site_schedule import site_schedule
+from service.register.models import Site
 from service.register.sites import get_site
 
+# A site's group orders still open (work orders' committed_orders): load the catch-up
+# schedule counts before placing any area, as the weekly run does.
+CommittedOrders = Callable[[Session, Site, str | None], list[Committed]]
 
-def build_router(last_relamps: service.LastRelamps) -> APIRouter:
-    """The planning routes, handed the query for completed group relamps (from work orders)."""
+
+def build_router(
+    last_relamps: service.LastRelamps, committed: CommittedOrders | None = None
+) -> APIRouter:
+    """The planning routes, handed the work-order queries they need (completed group
+    relamps; open group orders that take capacity)."""
     router = APIRouter(tags=["planning"])
 
     @router.get("/areas/{area_id}/relamp-plan", response_model=AreaPlanRead)
@@ -43,7 +54,9 @@ def build_router(last_relamps: service.LastRelamps) -> APIRouter:
         as_of = plans[0].as_of if plans else service.utcnow()
         today = service.local_today(site, as_of)
         horizon = today + timedelta(weeks=site.lookahead_weeks)
-        sched = site_schedule(site, plans, today, horizon)
+        # Every open group order counts (None: no week of its own is being run here).
+        load = committed(session, site, None) if committed is not None else []
+        sched = site_schedule(site, plans, today, horizon, load)
         areas = [area_plan_read(p) for p in plans]
         for body in areas:
             body.catch_up = catch_up_read(body.area_id, sched)

@@ -350,6 +350,13 @@ def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:
     return int(mx.mixture(col, nd.n, mx.rule(), p).quantile(level)[0])
 
 
+def lead_mean(nd: NodeDemand, lead: int) -> float:
+    """Mean spot lamps from now to week boundary `lead`, over the scale's nodes."""
+    if lead <= 0:
+        return 0.0
+    return float(mx.rule().w @ nd.lead.mean[:, lead])
+
+
 @dataclass(frozen=True)
 class WeekDemand:
     """One group of positions' weekly demand (arrays over weeks)."""

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 
 import numpy as np
@@ -21,6 +21,7 @@ from service.catalogue.models import LampType
 from service.catalogue.resolved import TypeTable
 from service.config import get_settings
 from service.db.base import utcnow
+from service.forecasting.ranges import position_sd_ln_scale
 from service.planning.portfolio import portfolio_plans
 from service.planning.service import AreaPlan, LastRelamps, local_today
 from service.readings.ages import PositionAges
@@ -65,6 +66,7 @@ class TypeDemand:
     dark_now: int
     cum: FloatArray  # (n, H+1) cumulative expected spot replacements at week boundaries
     week: demand.WeekDemand
+    nodes: demand.NodeDemand | None = None  # the spot demand at the scale's nodes
 
 
 @dataclass(frozen=True)
@@ -88,6 +90,8 @@ class SiteCurves:
     dark: NDArray[np.bool_]  # dark now: a lamp needed in the first week
     group_by_type: dict[int, IntArray]  # lamps of planned group relamps per week
     plans: list[AreaPlan]
+    # Per lamp type, the same spot demand at the nodes of its lognormal scale (the mixture).
+    nodes: dict[int, demand.NodeDemand] = field(default_factory=dict)
 
 
 def group_weeks(
@@ -222,7 +226,11 @@ def site_curves(sl: SiteLoad, site: Site, at: datetime, weeks: int) -> SiteCurve
     # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
     # the group order (its report goes onto it): counting it as spot demand too doubled it.
     dark = demand.dark_spot_lamps(ages.burned_out, gw)
-    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
+    # The spot demand again at each node of the lamp type's uncertain scale (the forecast's
+    # own spread, forecasting.ranges): its quantiles are the mixture's, not the nominal's.
+    sd = position_sd_ln_scale(types, ages.lamp_type_id)
+    nodes = demand.node_demand(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
+    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, nodes)
 
 
 def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
@@ -295,12 +303,15 @@ def storeroom_demand(
     sites = site_ids_of(session, [storeroom_id])[storeroom_id]
     parts: list[tuple[IntArray, FloatArray, NDArray[np.bool_]]] = []
     groups: dict[int, IntArray] = {}
+    nodes: dict[int, demand.NodeDemand] = {}
     for sid in sites:
         site = session.get(Site, sid)
         if site is None or site.retired_at is not None:
             continue
         sc = position_cumulative(session, site, at, opt.weeks, last_relamps, loaded=loaded)
         parts.append((sc.lamp_type_id, sc.cum, sc.dark))
+        for t, site_nd in sc.nodes.items():  # one lamp type's scale error spans the sites
+            nodes[t] = nodes[t].merge(site_nd) if t in nodes else site_nd
         for t, arr in sc.group_by_type.items():
             groups[t] = groups.get(t, np.zeros(opt.weeks, dtype=np.int64)) + arr
     lt_all = np.concatenate([p[0] for p in parts]) if parts else np.zeros(0, dtype=np.int64)
@@ -312,10 +323,11 @@ def storeroom_demand(
         cum = cum_all[sel]
         n_dark = int(dark_all[sel].sum())
         grp = groups.get(t, np.zeros(opt.weeks, dtype=np.int64))
+        nd = nodes.get(int(t))
         week = demand.week_demand(
-            demand.weekly_increments(cum), grp, opt.level, opt.breakage, dark_now=n_dark
+            demand.weekly_increments(cum), grp, opt.level, opt.breakage, dark_now=n_dark, spread=nd
         )
-        out[int(t)] = TypeDemand(int(t), int(sel.sum()), n_dark, cum, week)
+        out[int(t)] = TypeDemand(int(t), int(sel.sum()), n_dark, cum, week, nd)
     start = at.date()
     return StoreDemand(
         storeroom_id=storeroom_id,
@@ -366,9 +378,13 @@ def to_order(sd: StoreDemand, balances: list[StockBalance], session: Session) ->
         else:
             # Spot over the lead time: one Bernoulli per position (clipped expected count).
             p_lead = np.clip(td.cum[:, lead] - td.cum[:, 0], 0.0, 1.0)
-            q_spot = demand.quantile(p_lead, opt.level)[0] if lead else 0
+            if td.nodes is not None:  # mixed over the scale, as the weekly demand is
+                q_spot = demand.lead_quantile(td.nodes, lead, opt.level)
+                spot_l = demand.lead_mean(td.nodes, lead)
+            else:
+                q_spot = demand.quantile(p_lead, opt.level)[0] if lead else 0
+                spot_l = float(p_lead.sum())
             group_l = float(td.week.group[:lead].sum())
-            spot_l = float(p_lead.sum())
             dark = td.dark_now if lead else 0
             brk = opt.breakage * (spot_l + dark + group_l)
             mean_l = spot_l + dark + group_l + brk
