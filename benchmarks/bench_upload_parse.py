@@ -44,7 +44,7 @@ def median_s(f: Callable[[], object], n: int = 3) -> float:
 def csv_module_only(data: bytes, spec: UploadSpec) -> object:
     """read_upload with the fast reader switched off."""
     keep = parse._plain_columns
-    parse._plain_columns = lambda text, width: None  # type: ignore[assignment]
+    parse._plain_columns = lambda text, width, data=None: None  # type: ignore[assignment]
     try:
         return read_upload(RawBody(data, "text/csv"), spec)
     finally:

@@ -17,7 +17,6 @@ import json
 from collections.abc import Mapping, Sequence
 from datetime import date, datetime
 from enum import Enum
-from functools import cache
 from typing import Annotated, Any, Generic, TypeVar
 
 from fastapi import Depends, Query
@@ -225,14 +224,15 @@ def _one_entity(stmt: Select[Any]) -> bool:
 
 def columns_of(model: type[Any]) -> list[InstrumentedAttribute[Any]]:
     """The mapped column attributes of a model, to select its rows without ORM objects."""
-    return list(_columns_of(model))
+    found = _COLUMNS.get(model)
+    if found is None:  # inspecting the mapper per list request cost as much as the statement
+        found = _COLUMNS[model] = tuple(
+            getattr(model, attr.key) for attr in sa_inspect(model).column_attrs
+        )
+    return list(found)
 
 
-@cache
-def _columns_of(model: type[Any]) -> tuple[InstrumentedAttribute[Any], ...]:
-    # Found once per model: inspecting the mapper on every list request cost as much as
-    # building the rest of the statement.
-    return tuple(getattr(model, attr.key) for attr in sa_inspect(model).column_attrs)
+_COLUMNS: dict[type[Any], tuple[InstrumentedAttribute[Any], ...]] = {}
 
 
 def paginate(
@@ -246,7 +246,9 @@ def paginate(
 
     The total counts every row matching the filters, not only those after the cursor.
     """
-    total = session.scalar(select(func.count()).select_from(stmt.order_by(None).subquery())) or 0
+    # The count and plain-column pages run on the Core connection: no ORM result processing.
+    counted = select(func.count()).select_from(stmt.order_by(None).subquery())
+    total = session.connection().execute(counted).scalar() or 0
     keys = _order(stmt, params.sort, columns, default)
     window = stmt
     if params.after is not None:
@@ -261,7 +263,7 @@ def paginate(
     # instrumentation, for lists answered straight from the rows.
     if _one_entity(stmt):
         rows: Sequence[Any] = session.scalars(ordered).all()
-    else:  # plain columns: the Core connection (no ORM result processing), same rows
+    else:
         rows = session.connection().execute(ordered).all()
     params.next_after = None
     if len(rows) == params.limit:
