@@ -16,6 +16,7 @@ from service.api.errors import Conflict
 from service.db.base import utcnow
 from service.events.checks import as_aware
 from service.events.models import BurnoutReport, BurnoutReportState
+from service.events.repository import report_query
 
 OPEN, ORDERED, CLOSED = (
     BurnoutReportState.OPEN,
@@ -58,11 +59,7 @@ def open_burnout_reports(
     session: Session, *, site_id: int | None = None, area_id: int | None = None
 ) -> list[BurnoutReport]:
     """Reports still "open" (dark lamps no work order has taken in), oldest first."""
-    stmt = select(BurnoutReport).where(BurnoutReport.status == OPEN)
-    if site_id is not None:
-        stmt = stmt.where(BurnoutReport.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(BurnoutReport.area_id == area_id)
+    stmt = report_query(site_id=site_id, area_id=area_id, status=OPEN)
     return list(session.scalars(stmt.order_by(BurnoutReport.reported_at, BurnoutReport.id)))
 
 

@@ -29,11 +29,9 @@ from service.register.models import Site
 from service.reliability.fleet import evaluate_fleet
 from service.reliability.renewal import weibull_renewal
 from service.stock import demand, outlook, reorder
+from service.stock.demand import FloatArray, IntArray
 from service.stock.models import StockBalance
 from service.stock.service import get_storeroom, site_ids_of
-
-FloatArray = NDArray[np.float64]
-IntArray = NDArray[np.int64]
 
 
 @dataclass(frozen=True)

@@ -10,11 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import NDArray
 
-from service.stock.demand import quantile_normal
-
-FloatArray = NDArray[np.float64]
+from service.stock.demand import FloatArray, IntArray, quantile_normal
 
 
 @dataclass(frozen=True)
@@ -22,7 +19,7 @@ class Level:
     """Projected available lamps at the end of each week."""
 
     demand_mean: FloatArray
-    received: NDArray[np.int64]
+    received: IntArray
     level_mean: FloatArray
     level_at_service_level: FloatArray
 
