@@ -111,6 +111,8 @@ MortalityPoints = Annotated[
     AfterValidator(_mortality),
     Field(description="[[% of rated life > 0, % surviving in (0, 100)], ...]; 2 or more."),
 ]
+
+
 def _lm80(points: list[list[float]]) -> list[list[float]]:
     """LM-80-style points: hours >= 0 strictly increasing, mean lumen fraction in (0, 1.5].
 

@@ -89,9 +89,7 @@ def test_filament_lamp_ignores_a_stray_fixture_ballast(
 def test_removal_normalised_hours_use_the_fixture_ballast(db: Session) -> None:
     _, fixtures = _pair(db)
     positions = db.scalars(select(LampPosition).order_by(LampPosition.id)).all()
-    removals = record_removals(
-        db, positions, removed_at=AT, failed=False, reason="group_relamp"
-    )
+    removals = record_removals(db, positions, removed_at=AT, failed=False, reason="group_relamp")
     kind_of = {fid: kind for kind, fid in fixtures.items()}
     assert len(removals) == 2
     for rem in removals:
