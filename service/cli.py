@@ -6,13 +6,10 @@ import argparse
 import os
 import sys
 from collections.abc import Callable, Sequence
-from contextlib import AbstractContextManager
-
-from sqlalchemy.orm import Session
 
 from service.changes import cli as changes_cli
 from service.config import get_settings
-from service.db.session import short_session
+from service.db.session import transaction
 from service.register import cli as register_cli
 from service.scheduling import cli as runs_cli
 from service.seed import cli as seed_cli
@@ -20,11 +17,6 @@ from service.users import cli as users_cli
 from service.webhooks import cli as webhooks_cli
 
 Handler = Callable[[argparse.Namespace], int]
-
-
-def transaction() -> AbstractContextManager[Session]:
-    """One transaction for a CLI command: committed on success, rolled back on error."""
-    return short_session(None, write=True)
 
 
 def cmd_migrate(args: argparse.Namespace) -> int:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import AsyncIterator, Iterator
-from contextlib import contextmanager
+from contextlib import AbstractContextManager, contextmanager
 from functools import lru_cache
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
@@ -226,3 +226,8 @@ def short_session(app: Any, *, write: bool) -> Iterator[Session]:
         raise
     finally:
         session.close()
+
+
+def transaction() -> AbstractContextManager[Session]:
+    """One transaction for a command-line command: committed on success, rolled back on error."""
+    return short_session(None, write=True)

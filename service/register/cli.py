@@ -27,7 +27,7 @@ def _print_errors(exc: DomainError) -> int:
 def cmd_import(args: argparse.Namespace) -> int:
     """Import lamp types or fixtures from a CSV or JSON (.json) file."""
     from service.catalogue.bulk import LAMP_TYPE_UPLOAD, import_lamp_types
-    from service.cli import transaction
+    from service.db.session import transaction
     from service.register.fixture_bulk import FIXTURE_UPLOAD, import_fixtures
     from service.uploads.parse import read_path
 
@@ -57,7 +57,7 @@ def cmd_export(args: argparse.Namespace) -> int:
     """Write lamp types or fixtures to standard output as CSV or JSON."""
     from service.catalogue.bulk import export_lamp_types
     from service.catalogue.schemas import LAMP_TYPE_FIELDS
-    from service.cli import transaction
+    from service.db.session import transaction
     from service.register.fixture_bulk import FIXTURE_COLUMNS
     from service.register.fixture_export import export_fixtures
     from service.register.models import Site

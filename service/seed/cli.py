@@ -8,7 +8,7 @@ from pathlib import Path
 
 def cmd_demo_load(args: argparse.Namespace) -> int:
     """Load the demo scenario (all of it, in one transaction)."""
-    from service.cli import transaction
+    from service.db.session import transaction
     from service.seed.loader import load_demo
 
     with transaction() as session:
@@ -24,7 +24,7 @@ def cmd_demo_load(args: argparse.Namespace) -> int:
 
 def cmd_demo_key(args: argparse.Namespace) -> int:
     """Print the demo admin key (a fresh one if the saved one is gone or revoked)."""
-    from service.cli import transaction
+    from service.db.session import transaction
     from service.seed.loader import demo_key
 
     with transaction() as session:

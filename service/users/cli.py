@@ -24,7 +24,7 @@ def _password(args: argparse.Namespace) -> str:
 
 def cmd_users(args: argparse.Namespace) -> int:
     """Run one users sub-command in one transaction."""
-    from service.cli import transaction
+    from service.db.session import transaction
     from service.users import service
 
     try:

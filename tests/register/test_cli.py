@@ -11,6 +11,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from service import cli
+from service.db import session as db_session
 from service.register.models import Fixture, LampPosition
 
 LAMP_TYPES = (
@@ -34,7 +35,7 @@ def on_test_db(db: Session, monkeypatch: pytest.MonkeyPatch) -> Session:
         yield db
         db.flush()
 
-    monkeypatch.setattr(cli, "transaction", transaction)
+    monkeypatch.setattr(db_session, "transaction", transaction)
     from service.register.models import Area, Site
 
     site = Site(
