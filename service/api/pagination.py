@@ -140,6 +140,22 @@ def _order(
     return keys
 
 
+def order_keys(
+    stmt: Select[Any], sort: str | None, columns: Mapping[str, Any], default: Any
+) -> list[tuple[str, Any, bool]]:
+    """The (name, column, descending) keys paginate orders by (422 naming a bad field)."""
+    return _order(stmt, sort, columns, default)
+
+
+def check_keyset(keys: list[tuple[str, Any, bool]]) -> bool:
+    """True when a keyset cursor can follow these sort keys (none can be empty)."""
+    try:
+        _check_keyset(keys)
+    except Invalid:
+        return False
+    return True
+
+
 def apply_sort(
     stmt: Select[Any], sort: str | None, columns: Mapping[str, Any], default: Any
 ) -> Select[Any]:
@@ -161,9 +177,16 @@ def _typed(column: Any, value: Any) -> Any:
     """A cursor value back in the column's Python type."""
     if value is None:
         raise _bad_cursor("it names an empty sort value")
-    try:
-        kind = column.type.python_type
-    except (AttributeError, NotImplementedError):
+    kind = None
+    # A TypeDecorator (UTCDateTime) may not name its Python type: its impl's then.
+    for sql_type in (column.type, getattr(column.type, "impl", column.type)):
+        try:
+            kind = sql_type.python_type
+            if kind is not object:  # a TypeDecorator names no type of its own
+                break
+        except (AttributeError, NotImplementedError):
+            continue
+    if kind is None or kind is object:
         return value
     try:
         if issubclass(kind, datetime):

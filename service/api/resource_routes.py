@@ -25,7 +25,6 @@ from typing import Any
 
 from fastapi import APIRouter, Request, Response, status
 from pydantic import BaseModel
-from sqlalchemy import Select
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
 from service.api.ids import IdPath
@@ -208,15 +207,18 @@ class Resource:
         name: str,
         doc: str,
         filters: Mapping[str, Any],
-        query: tuple[Callable[..., Select[Any]], Mapping[str, Any]],
+        query: tuple[Callable[..., Any], Mapping[str, Any]],
         load: Callable[..., tuple[Sequence[Any], int]] | None = None,
+        plain: bool = False,
     ) -> None:
         """GET the collection: one page of the records matching `filters`, sorted.
 
         `filters` maps each query parameter to its annotation, or to (annotation, default)
         when the default is not None; `query` is (the statement for the filters, the sort
         columns); the statement's function takes the filters by their parameter names.
-        `load` (session, statement, page) -> (rows, total) replaces the plain paginate.
+        `load` (session, statement, page) -> (rows, total) replaces the plain paginate;
+        with `plain` its rows are already dicts of the read schema's fields, which the
+        response model then validates once (not once here and again in FastAPI).
         """
         build, sort = query
         params = [param("session", SessionDep), param("_", ReadKey), param("page", PageDep)]
@@ -230,6 +232,14 @@ class Resource:
                 rows, total = load(session, stmt, page)
             else:
                 rows, total = paginate(session, stmt, page, sort, self.model.id)
+            if plain:
+                return {
+                    "items": rows,
+                    "total": total,
+                    "limit": page.limit,
+                    "offset": page.offset,
+                    "next_after": page.next_after,
+                }
             return Page(
                 items=[self.to_read(r) for r in rows],
                 total=total,
