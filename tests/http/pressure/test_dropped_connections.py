@@ -11,7 +11,6 @@ from typing import Any
 import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy import Engine, event, func, select, text
-from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
 from service.config import get_settings
@@ -19,7 +18,7 @@ from service.db.session import get_engine, make_engine
 from service.keys import service as keys_service
 from service.main import create_app
 from service.register.models import Site
-from tests.conftest import scratch_postgres
+from tests.conftest import local_postgres_url, scratch_postgres
 from tests.factories import plan_site
 
 REPEATS = 5
@@ -34,12 +33,10 @@ SITE: dict[str, Any] = {
 
 
 @pytest.fixture()
-def scratch_url(db_url: str) -> Iterator[str]:
-    """A migrated PostgreSQL database of this test's own, whose commits are real."""
-    base = make_url(db_url)
-    if base.get_backend_name() != "postgresql":
-        pytest.skip("pg_terminate_backend needs PostgreSQL")
-    with scratch_postgres(db_url, "dropped") as url:
+def scratch_url() -> Iterator[str]:
+    """A migrated database of this test's own on the local PostgreSQL server (every pass:
+    pg_terminate_backend is PostgreSQL's), whose commits are real."""
+    with scratch_postgres(local_postgres_url(), "dropped") as url:
         yield url
 
 
@@ -111,7 +108,6 @@ def _sites(engine: Engine) -> int:
         return int(s.scalar(select(func.count()).select_from(Site)) or 0)
 
 
-@pytest.mark.postgres_only
 @pytest.mark.parametrize(
     ("method", "fragment"),
     [
