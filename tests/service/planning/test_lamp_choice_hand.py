@@ -5,7 +5,7 @@ year, tariff 0.15 a kWh rising 3 % a year, discount rate 8 %, labour 40 an hour,
 per lamp for a group and for a spot replacement, no equipment hire, 0.4 kg CO2 a kWh.
 
 Filament laws [practice: common practice, the classic exponents of the IES Lighting
-Handbook's filament characteristic curves, FIELD_NOTES section 3]: life x (V/Vr)^-13,
+Handbook's filament characteristic curves (recalled from memory)]: life x (V/Vr)^-13,
 light x (V/Vr)^3.4, power x (V/Vr)^1.6. Life shape beta = 1 (exponential) so that the
 renewal function is exact, M(t) = t/mu [published: Cox, Renewal Theory]; with equal group
 and spot costs a block replacement then never pays (C(T) = c/T + c/mu > c/mu), so every
