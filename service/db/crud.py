@@ -10,8 +10,8 @@ from pydantic import BaseModel
 from sqlalchemy import Select, select
 from sqlalchemy.orm import Session
 
-from service.api.errors import NotFound
-from service.api.ids import MAX_ID
+from service.db.ids import MAX_ID
+from service.errors import NotFound
 
 M = TypeVar("M")
 
