@@ -14,6 +14,7 @@ from service.api.guard import check_request
 from service.api.health import router as health_router
 from service.api.home import router as home_router
 from service.api.idempotency import install_retries
+from service.api.key_routes import router as keys_router
 from service.api.metrics import install_metrics
 from service.api.observe import configure_logging, install_observe
 from service.api.openapi import install_openapi, operation_id
@@ -22,7 +23,6 @@ from service.changes.router import router as changes_router
 from service.config import get_settings
 from service.events.router import router as events_router
 from service.forecasting.router import router as forecasting_router
-from service.keys.router import router as keys_router
 from service.planning.choice_router import build_router as build_choice_router
 from service.planning.router import build_router as build_planning_router
 from service.readings.router import router as readings_router

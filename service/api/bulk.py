@@ -11,12 +11,24 @@ import csv
 import io
 import json
 from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass
 from typing import Annotated, Any
 
 from fastapi import Depends, Request
 from fastapi.responses import Response
 
-from service.uploads.parse import RawBody, media_of
+
+@dataclass(frozen=True)
+class RawBody:
+    """An uploaded body and its media type (parameters such as charset are ignored)."""
+
+    data: bytes
+    media_type: str
+
+
+def media_of(content_type: str) -> str:
+    """The media type of a Content-Type header, lower case, without parameters."""
+    return content_type.split(";")[0].strip().lower()
 
 
 async def raw_body(request: Request) -> RawBody:

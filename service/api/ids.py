@@ -12,8 +12,9 @@ from typing import Annotated
 from fastapi import Path, Query
 from pydantic import Field
 
-# Every id column is an INTEGER: 32-bit signed on PostgreSQL.
-MAX_ID = 2**31 - 1
+from service.db.ids import MAX_ID  # re-exported: the id columns' range is the database's fact
+
+__all__ = ["MAX_ID", "Id", "IdPath", "IdQuery"]
 
 # In a request body (pydantic models). Strict: true, 2.0 or "2" is not an id (lax
 # validation would read true as record 1).

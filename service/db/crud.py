@@ -2,16 +2,16 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import Any, TypeVar
 
 from pydantic import BaseModel
-from sqlalchemy import Select, select
+from sqlalchemy import ColumnElement, Select, bindparam, select
 from sqlalchemy.orm import Session
 
-from service.api.errors import NotFound
-from service.api.ids import MAX_ID
+from service.db.ids import MAX_ID
+from service.errors import NotFound
 
 M = TypeVar("M")
 
@@ -54,11 +54,14 @@ class ListQuery:
     retired: bool = False
     options: tuple[Any, ...] = ()
 
-    def __call__(self, **given: Any) -> Select[Any]:
+    def _check(self, given: Mapping[str, Any]) -> None:
         known = {*self.equal, *self.contains, *(["include_retired"] if self.retired else [])}
         unknown = set(given) - known
         if unknown:
             raise TypeError(f"unknown filters {sorted(unknown)} for {self.model.__name__}")
+
+    def __call__(self, **given: Any) -> Select[Any]:
+        self._check(given)
         stmt = select(self.model).options(*self.options)
         if self.retired and not given.get("include_retired", True):
             stmt = stmt.where(self.model.retired_at.is_(None))
@@ -71,6 +74,31 @@ class ListQuery:
             if fragment:
                 stmt = stmt.where(getattr(self.model, column).ilike(f"%{fragment}%"))
         return stmt
+
+    def binds(self, **given: Any) -> dict[str, Any]:
+        """The filters that apply, as bind values by name (what `__call__` would filter on).
+
+        A `contains` filter binds its LIKE pattern; include_retired=False binds "active",
+        which has no value. With `bound_where`, a statement built once serves every request.
+        """
+        self._check(given)
+        found = {n: given[n] for n in self.equal if given.get(n) is not None and given[n] != ""}
+        found.update({n: f"%{given[n]}%" for n in self.contains if given.get(n)})
+        if self.retired and not given.get("include_retired", True):
+            found["active"] = None
+        return found
+
+    def bound_where(self, names: Iterable[str]) -> list[ColumnElement[bool]]:
+        """The conditions of filters named by `binds`, each on a bind parameter of its name."""
+        where: list[ColumnElement[bool]] = []
+        for name in names:
+            if name == "active":
+                where.append(self.model.retired_at.is_(None))
+            elif name in self.contains:
+                where.append(getattr(self.model, self.contains[name]).ilike(bindparam(name)))
+            else:
+                where.append(getattr(self.model, name) == bindparam(name))
+        return where
 
 
 def value_taken(

@@ -220,12 +220,10 @@ def short_session(app: Any, *, write: bool) -> Iterator[Session]:
         if write:
             begin_write(session)
         yield session
-        session.commit()
     except BaseException:
-        session.rollback()
+        _rollback_and_close(session)
         raise
-    finally:
-        session.close()
+    _commit_and_close(session)  # as a request's session ends: rolled back if the commit fails
 
 
 def transaction() -> AbstractContextManager[Session]:

@@ -9,9 +9,9 @@ from collections.abc import Sequence
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from service.api.errors import Conflict, NotFound
 from service.config import get_settings
 from service.db.base import utcnow
+from service.errors import Conflict, NotFound
 from service.keys.cache import ActiveKey, SessionOpener, cache
 from service.keys.models import ApiKey
 from service.keys.usage import recorder

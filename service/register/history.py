@@ -1,20 +1,74 @@
-"""History that blocks a hard delete: counts of rows a cascade would drop."""
+"""History that blocks a hard delete: counts of rows a cascade would drop.
+
+The rows that record what happened (removals, readings, reports, orders, runs) belong to
+domains above the register, so the register does not import them: each is declared as a
+`HistorySource` by `service.retirement.history`, which fills this module's list when the
+retirement package is imported (the app always imports it). The counts keep the order of
+that declaration, so a 409 names the blocking history in one order every time.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy import ColumnElement, Select, func, or_, select
 from sqlalchemy.exc import IntegrityError
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import QueryableAttribute, Session
 
 from service.api.errors import Conflict
-from service.events.models import BurnoutReport, LampRemoval
-from service.readings.models import BurnHourRecord, VoltageReading
 from service.register.models import Area, Fixture
-from service.scheduling.models import WeeklyRun
-from service.workorders.models import WorkOrder, WorkOrderLine
+
+Column = QueryableAttribute[Any]
+
+
+@dataclass(frozen=True)
+class HistorySource:
+    """One table of history rows and its columns that point at the register (None: no such column).
+
+    A site check with `site` set counts by the site alone; otherwise rows count when their
+    fixture is among the fixtures or their area among the areas checked.
+    """
+
+    label: str  # as the 409 names the rows, plural: "removals"
+    model: type
+    fixture: Column | None = None
+    position: Column | None = None
+    area: Column | None = None
+    site: Column | None = None
+
+    def condition(
+        self, fixtures: Select[int], areas: Select[int] | None, site_id: int | None
+    ) -> ColumnElement[bool] | None:
+        """Which rows of this table are history of what is checked (None: none can be)."""
+        if self.site is not None and site_id is not None:
+            return self.site == site_id
+        parts = [] if self.fixture is None else [self.fixture.in_(fixtures)]
+        if self.area is not None and areas is not None:
+            parts.append(self.area.in_(areas))
+        return or_(*parts) if parts else None
+
+
+_SOURCES: list[HistorySource] = []
+
+
+def register_history_source(*sources: HistorySource) -> None:
+    """Declare tables of history rows; a label declared again replaces the earlier entry."""
+    for source in sources:
+        known = [i for i, s in enumerate(_SOURCES) if s.label == source.label]
+        if known:
+            _SOURCES[known[0]] = source
+        else:
+            _SOURCES.append(source)
+
+
+def history_sources() -> tuple[HistorySource, ...]:
+    """The declared history tables, in declaration order; refuses to check with none declared."""
+    if not _SOURCES:
+        # Checking against nothing would let a delete drop history: fail loudly instead.
+        raise RuntimeError("no history sources declared: import service.retirement first")
+    return tuple(_SOURCES)
 
 
 def _count(session: Session, model: type, where: ColumnElement[bool]) -> int:
@@ -29,38 +83,13 @@ def history_counts(
     site_id: int | None = None,
 ) -> dict[str, int]:
     """Counts of history rows under the given fixtures, areas and site (non-zero only)."""
-    area_cond = BurnHourRecord.area_id.in_(areas) if areas is not None else None
-    volt_area = VoltageReading.area_id.in_(areas) if areas is not None else None
-    counts = {
-        "removals": _count(session, LampRemoval, LampRemoval.fixture_id.in_(fixtures)),
-        "burn-hour records": _count(
-            session,
-            BurnHourRecord,
-            or_(
-                BurnHourRecord.fixture_id.in_(fixtures),
-                *([area_cond] if area_cond is not None else []),
-            ),
-        ),
-        "voltage readings": _count(
-            session,
-            VoltageReading,
-            VoltageReading.site_id == site_id
-            if site_id is not None
-            else or_(
-                VoltageReading.fixture_id.in_(fixtures),
-                *([volt_area] if volt_area is not None else []),
-            ),
-        ),
-        "burnout reports": _count(session, BurnoutReport, BurnoutReport.fixture_id.in_(fixtures)),
-        "work-order lines": _count(session, WorkOrderLine, WorkOrderLine.fixture_id.in_(fixtures)),
-        "work orders": _count(session, WorkOrder, WorkOrder.area_id.in_(areas))
-        if areas is not None
-        else 0,
-        "weekly runs": _count(session, WeeklyRun, WeeklyRun.site_id == site_id)
-        if site_id is not None
-        else 0,
-    }
-    return {k: v for k, v in counts.items() if v}
+    counts = {}
+    for source in history_sources():
+        where = source.condition(fixtures, areas, site_id)
+        n = _count(session, source.model, where) if where is not None else 0
+        if n:
+            counts[source.label] = n
+    return counts
 
 
 def refuse_if_history(what: str, counts: dict[str, int]) -> None:
@@ -94,14 +123,13 @@ def delete_checked(
 
 
 def check_positions(session: Session, position_ids: list[int]) -> None:
-    """409 if lamp positions about to be dropped have removals or burnout reports."""
+    """409 if lamp positions about to be dropped have history (removals, burnout reports)."""
     if not position_ids:
         return
     counts = {
-        "removals": _count(session, LampRemoval, LampRemoval.position_id.in_(position_ids)),
-        "burnout reports": _count(
-            session, BurnoutReport, BurnoutReport.position_id.in_(position_ids)
-        ),
+        source.label: _count(session, source.model, source.position.in_(position_ids))
+        for source in history_sources()
+        if source.position is not None
     }
     refuse_if_history("A lamp position to drop", {k: v for k, v in counts.items() if v})
 

@@ -124,35 +124,6 @@ def positions_by_fixture(
     return found
 
 
-_FIXTURE_EQUAL = ("site_id", "area_id", "lamp_type_id", "external_reference")
-
-
-def fixture_filters(
-    site_id: int | None = None,
-    area_id: int | None = None,
-    lamp_type_id: int | None = None,
-    tag: str | None = None,
-    include_retired: bool = True,
-    external_reference: str | None = None,
-) -> dict[str, Any]:
-    """The filters of fixture_query a client gave, as bind values (empty ones left out).
-
-    "tag" is bound as its LIKE pattern; "active" (only unretired fixtures) binds nothing.
-    """
-    given = {
-        "site_id": site_id,
-        "area_id": area_id,
-        "lamp_type_id": lamp_type_id,
-        "external_reference": external_reference,
-    }
-    found: dict[str, Any] = {k: v for k, v in given.items() if v is not None and v != ""}
-    if tag:
-        found["tag"] = f"%{tag}%"
-    if not include_retired:
-        found["active"] = None
-    return found
-
-
 _FIXTURE_BASE = select(Fixture)
 
 
@@ -171,14 +142,7 @@ def fixture_list_statements(
     Built once per shape with bind parameters (filters by name, limit, offset), so a
     request neither builds a statement nor computes its cache key (P3 of the speed issue).
     """
-    where = []
-    for name in filters:
-        if name == "tag":
-            where.append(Fixture.tag.ilike(bindparam("tag")))
-        elif name == "active":
-            where.append(Fixture.retired_at.is_(None))
-        else:
-            where.append(getattr(Fixture, name) == bindparam(name))
+    where = _FIXTURE_FILTERS.bound_where(filters)
     count = select(func.count()).select_from(Fixture).where(*where)
     columns = {**FIXTURE_SORT, "id": Fixture.id}
     ordered = [columns[n].desc() if desc else columns[n].asc() for n, desc in order]
@@ -228,7 +192,7 @@ def fixture_list_page(
     `given` are fixture_query's filters by name. The same rows, total and cursor as
     paginate over as_rows(fixture_query(**given)).
     """
-    filters = fixture_filters(**given)
+    filters = _FIXTURE_FILTERS.binds(**given)  # "tag" as its LIKE pattern, "active" unbound
     order = fixture_order(page.sort)
     names = tuple(filters)
     count, stmt = fixture_list_statements(names, order)

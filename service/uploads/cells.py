@@ -167,19 +167,7 @@ def bools(c: Columns, name: str, errors: RowErrors) -> BoolArray:
 
 def optional_bools(c: Columns, name: str, errors: RowErrors) -> list[bool | None]:
     """A true/false column; None where blank or bad."""
-    out: list[bool | None] = []
-    if not c.has(name):
-        return [None] * len(c)
-    for i, v in enumerate(c.get(name)):
-        if v is None:
-            out.append(None)
-            continue
-        try:
-            out.append(boolean(v))
-        except CellError as exc:
-            errors.add(int(c.numbers[i]), name, str(exc))
-            out.append(None)
-    return out
+    return _each(c, name, errors, None, lambda v, _zone: boolean(v))
 
 
 def texts(
@@ -226,37 +214,43 @@ def _each(
             continue
         zone = zones[i] if zones is not None else None
         key = (v, zone)
-        hit = cache.get(key)
+        cacheable = not isinstance(v, list | dict)  # a JSON array or object: no hash, never valid
+        hit = cache.get(key) if cacheable else None
         if hit is None:
             try:
-                hit = cache[key] = parse(v, zone)
+                hit = parse(v, zone)
             except CellError as exc:
                 errors.add(int(c.numbers[i]), name, str(exc))
+            else:
+                if cacheable:
+                    cache[key] = hit
         out.append(hit)
     return out
 
 
-def read_date(v: Any, _zone: str | None = None) -> date:
-    """One ISO date cell, YYYY-MM-DD, in the accepted years."""
+D = TypeVar("D", date, datetime)
+
+
+def _iso(v: Any, kind: type[D], wanted: str) -> D:
+    """An ISO date or date-time cell (or a value already of that kind) in the accepted years."""
     try:
-        d = v if isinstance(v, date) else date.fromisoformat(str(v))
+        d = v if isinstance(v, kind) else kind.fromisoformat(str(v))
     except ValueError:
-        raise CellError(f"must be a date YYYY-MM-DD, not '{_shown(v)}'") from None
+        raise CellError(f"must be {wanted}, not '{_shown(v)}'") from None
     problem = year_problem(d)
     if problem:
         raise CellError(problem)
     return d
 
 
+def read_date(v: Any, _zone: str | None = None) -> date:
+    """One ISO date cell, YYYY-MM-DD, in the accepted years."""
+    return _iso(v, date, "a date YYYY-MM-DD")
+
+
 def read_timestamp(v: Any, zone: str | None = None) -> datetime:
     """One ISO 8601 timestamp cell as aware UTC; no offset: wall-clock time in zone (UTC)."""
-    try:
-        dt = v if isinstance(v, datetime) else datetime.fromisoformat(str(v))
-    except ValueError:
-        raise CellError(f"must be an ISO 8601 date-time, not '{_shown(v)}'") from None
-    problem = year_problem(dt)
-    if problem:
-        raise CellError(problem)
+    dt = _iso(v, datetime, "an ISO 8601 date-time")
     if dt.tzinfo is None:
         try:
             dt = in_zone(dt, ZoneInfo(zone or "UTC"))

@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
+from service.api.bulk import RawBody, media_of  # re-exported: the body as HTTP hands it in
 from service.api.errors import Invalid, TooLarge
 from service.config import get_settings
 from service.uploads.errors import RowErrors, UnsupportedMediaType
@@ -34,14 +35,6 @@ CSV_TYPES = ("text/csv", "application/csv", "text/plain")
 JSON_TYPES = ("application/json",)
 IntArray = NDArray[np.int64]
 BOM = b"\xef\xbb\xbf"  # UTF-8 byte-order mark, dropped by the utf-8-sig decoding
-
-
-@dataclass(frozen=True)
-class RawBody:
-    """An uploaded body and its media type (parameters such as charset are ignored)."""
-
-    data: bytes
-    media_type: str
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -81,11 +74,6 @@ class Columns:
     def row(self, i: int) -> dict[str, Any]:
         """Row i (0-based) as a dict of its given cells."""
         return {k: col[i] for k, col in self.cols.items() if col[i] is not None}
-
-
-def media_of(content_type: str) -> str:
-    """The media type of a Content-Type header, lower case, without parameters."""
-    return content_type.split(";")[0].strip().lower()
 
 
 def read_upload(body: RawBody, spec: UploadSpec) -> Columns:

@@ -44,6 +44,17 @@ class Epoch:
 ColumnValues = Sequence[Any] | NDArray[Any] | Epoch
 
 
+@dataclass(frozen=True)
+class _Insert:
+    """One bulk insert, as each driver's writer takes it."""
+
+    table: Table
+    names: list[str]  # the columns, in the order of each chunk's lists
+    chunks: Iterator[list[list[Any]]]  # per chunk: one list of driver values per column
+    n: int  # rows in all
+    pk: str | None  # the primary key to number the rows by (return_ids), else None
+
+
 def write_rows(
     session: Session,
     table: Table,
@@ -70,12 +81,13 @@ def write_rows(
         _chunk_values(table, columns, defaults, dialect, a, min(a + _chunk(), n))
         for a in range(0, n, _chunk())
     )
+    job = _Insert(table, names, chunks, n, pk)
     dbapi: Any = dialect.loaded_dbapi
     try:
         if dialect.name == "postgresql" and dialect.driver == "psycopg":
-            return _copy(conn, table, names, chunks, n, pk)
+            return _copy(conn, job)
         if dialect.name == "sqlite":
-            return _sqlite(conn, table, names, chunks, n, pk)
+            return _sqlite(conn, job)
     except dbapi.Error as exc:
         # Raw driver errors as SQLAlchemy's (IntegrityError: 409 for a race between two
         # uploads; OperationalError: 503 when the database is busy), like any other query.
@@ -195,27 +207,21 @@ def _quoted(names: Sequence[str]) -> str:
     return ", ".join(f'"{c}"' for c in names)
 
 
-def _copy(
-    conn: Connection,
-    table: Table,
-    names: list[str],
-    chunks: Iterator[list[list[Any]]],
-    n: int,
-    pk: str | None,
-) -> list[int]:
+def _copy(conn: Connection, job: _Insert) -> list[int]:
     raw: Any = conn.connection.driver_connection
     ids: list[int] = []
+    table, pk, names = job.table, job.pk, job.names
     with raw.cursor() as cur:
         if pk is not None:
             cur.execute(
                 "SELECT nextval(pg_get_serial_sequence(%s, %s)) FROM generate_series(1, %s)",
-                (f'"{table.name}"', pk, n),
+                (f'"{table.name}"', pk, job.n),
             )
             ids = [int(r[0]) for r in cur.fetchall()]
             names = [pk, *names]
         with cur.copy(f'COPY "{table.name}" ({_quoted(names)}) FROM STDIN') as cp:
             at = 0
-            for lists in chunks:
+            for lists in job.chunks:
                 if pk is not None:
                     lists = [ids[at : at + len(lists[0])], *lists]
                 at += len(lists[0])
@@ -224,29 +230,26 @@ def _copy(
     return ids
 
 
-def _sqlite(
-    conn: Connection,
-    table: Table,
-    names: list[str],
-    chunks: Iterator[list[list[Any]]],
-    n: int,
-    pk: str | None,
-) -> list[int]:
+def _insert_sql(table: Table, names: Sequence[str]) -> str:
+    """The sqlite3 INSERT of one row into these columns, with qmark parameters."""
+    return f'INSERT INTO "{table.name}" ({_quoted(names)}) VALUES ({", ".join("?" * len(names))})'
+
+
+def _sqlite(conn: Connection, job: _Insert) -> list[int]:
     raw: Any = conn.connection.driver_connection
     cur = raw.cursor()
     try:
-        if pk is None:
-            sql = f'INSERT INTO "{table.name}" ({_quoted(names)}) VALUES ({", ".join("?" * len(names))})'
-            for lists in chunks:
+        if job.pk is None:
+            sql = _insert_sql(job.table, job.names)
+            for lists in job.chunks:
                 cur.executemany(sql, zip(*lists, strict=True))
             return []
         # The first row gets the next rowid (max + 1) and takes the write lock; the rest
         # follow it with explicit ids, so the ids are known without reading anything back.
-        cols = [pk, *names]
-        sql = f'INSERT INTO "{table.name}" ({_quoted(cols)}) VALUES ({", ".join("?" * len(cols))})'
+        sql = _insert_sql(job.table, [job.pk, *job.names])
         first: int | None = None
         next_id = 0
-        for lists in chunks:
+        for lists in job.chunks:
             rows = zip(*lists, strict=True)
             m = len(lists[0])
             if first is None:
@@ -256,6 +259,6 @@ def _sqlite(
             cur.executemany(sql, ((next_id + k, *row) for k, row in enumerate(rows)))
             next_id += m
         assert first is not None
-        return list(range(first, first + n))
+        return list(range(first, first + job.n))
     finally:
         cur.close()

@@ -9,7 +9,9 @@ States (plain words of our own) and the only moves allowed:
 
 from __future__ import annotations
 
+from collections.abc import Container, Sequence
 from datetime import UTC, datetime, timedelta
+from typing import Any
 
 from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
@@ -251,27 +253,29 @@ def _err(field: str, message: str) -> dict[str, str]:
     return {"field": field, "in": "body", "message": message}
 
 
+def _by_id(
+    items: Sequence[Any], key: str, where: str, known: Container[int], errors: list[dict[str, str]]
+) -> dict[int, tuple[str, str | None]]:
+    """(outcome, reason) per id named by `key`; an id not in `known` or given twice is an error."""
+    got: dict[int, tuple[str, str | None]] = {}
+    for i, item in enumerate(items):
+        at = getattr(item, key)
+        if at not in known:
+            errors.append(_err(f"{where}.{i}.{key}", "not on this order"))
+        elif at in got:
+            errors.append(_err(f"{where}.{i}.{key}", "given twice"))
+        else:
+            got[at] = (item.outcome, item.reason)
+    return got
+
+
 def _outcomes(order: WorkOrder, body: CompleteBody) -> Resolved:
     """Each line's per-position outcomes from the body (positions override fixtures)."""
     by_fixture = {ln.fixture_id: ln for ln in order.lines}
     on_order = {pid for ln in order.lines for pid in ln.position_ids}
-    fixture_got: dict[int, tuple[str, str | None]] = {}
-    pos_got: dict[int, tuple[str, str | None]] = {}
-    errors = []
-    for i, o in enumerate(body.outcomes):
-        if o.fixture_id not in by_fixture:
-            errors.append(_err(f"outcomes.{i}.fixture_id", "not on this order"))
-        elif o.fixture_id in fixture_got:
-            errors.append(_err(f"outcomes.{i}.fixture_id", "given twice"))
-        else:
-            fixture_got[o.fixture_id] = (o.outcome, o.reason)
-    for i, p in enumerate(body.positions):
-        if p.position_id not in on_order:
-            errors.append(_err(f"positions.{i}.position_id", "not on this order"))
-        elif p.position_id in pos_got:
-            errors.append(_err(f"positions.{i}.position_id", "given twice"))
-        else:
-            pos_got[p.position_id] = (p.outcome, p.reason)
+    errors: list[dict[str, str]] = []
+    fixture_got = _by_id(body.outcomes, "fixture_id", "outcomes", by_fixture, errors)
+    pos_got = _by_id(body.positions, "position_id", "positions", on_order, errors)
     missing = [
         f
         for f, ln in by_fixture.items()

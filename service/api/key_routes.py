@@ -1,4 +1,4 @@
-"""HTTP routes for API keys (admin scope)."""
+"""HTTP routes for API keys (admin scope): above api, while service.keys sits below it."""
 
 from __future__ import annotations
 
