@@ -29,7 +29,7 @@ from service.register.models import Site
 from service.reliability.fleet import evaluate_fleet
 from service.reliability.renewal import weibull_renewal
 from service.stock import demand, outlook, reorder
-from service.stock.demand import FloatArray, IntArray
+from service.stock.demand import FloatArray, IntArray, unique_rows
 from service.stock.models import StockBalance
 from service.stock.service import get_storeroom, site_ids_of
 
@@ -128,6 +128,21 @@ class Portfolio:
 
     at: datetime
     sites: dict[int, SiteLoad]
+    # Site curves already computed from this load, by (site, weeks, with nodes): demand and
+    # the budget of one request ask for the same site's curves (memoised, see curves).
+    memo: dict[tuple[int, int, bool], SiteCurves] = field(
+        default_factory=dict, compare=False, repr=False
+    )
+
+    def curves(self, site: Site, weeks: int, *, nodes: bool = True) -> SiteCurves:
+        """A loaded site's curves over `weeks`, computed once per load (nodes: the mixture's)."""
+        key = (site.id, weeks, nodes)
+        if key not in self.memo:
+            with_nodes = self.memo.get((site.id, weeks, True))
+            if not nodes and with_nodes is not None:  # the curves with nodes hold these
+                return with_nodes
+            self.memo[key] = site_curves(self.sites[site.id], site, self.at, weeks, nodes=nodes)
+        return self.memo[key]
 
 
 def effective_scales(ages: PositionAges, types: TypeTable) -> FloatArray:
@@ -183,18 +198,23 @@ def position_cumulative(
     last_relamps: LastRelamps,
     *,
     loaded: Portfolio | None = None,
+    nodes: bool = True,
 ) -> SiteCurves:
     """A site's per-position cumulative spot replacements, with its planned group relamps.
 
-    loaded: the portfolio's load when the caller has one (else the site is loaded here).
+    loaded: the portfolio's load when the caller has one (else the site is loaded here);
+    nodes: also the spot demand at the scale's nodes (the mixture; the budget needs none).
     """
     if loaded is not None and site.id in loaded.sites:
-        return site_curves(loaded.sites[site.id], site, at, weeks)
-    return site_curves(load_site(session, site, at, last_relamps), site, at, weeks)
+        return loaded.curves(site, weeks, nodes=nodes)
+    sl = load_site(session, site, at, last_relamps)
+    return site_curves(sl, site, at, weeks, nodes=nodes)
 
 
-def site_curves(sl: SiteLoad, site: Site, at: datetime, weeks: int) -> SiteCurves:
-    """position_cumulative from a site's load (pure)."""
+def site_curves(
+    sl: SiteLoad, site: Site, at: datetime, weeks: int, *, nodes: bool = True
+) -> SiteCurves:
+    """position_cumulative from a site's load (pure); nodes: with the mixture's nodes."""
     ages, types = sl.ages, sl.types
     group_by_type: dict[int, IntArray] = {}
     if ages.size == 0 or types is None:
@@ -224,27 +244,13 @@ def site_curves(sl: SiteLoad, site: Site, at: datetime, weeks: int) -> SiteCurve
     # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
     # the group order (its report goes onto it): counting it as spot demand too doubled it.
     dark = demand.dark_spot_lamps(ages.burned_out, gw)
+    if not nodes:
+        return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
     # The spot demand again at each node of the lamp type's uncertain scale (the forecast's
     # own spread, forecasting.ranges): its quantiles are the mixture's, not the nominal's.
     sd = position_sd_ln_scale(types, ages.lamp_type_id)
-    nodes = demand.node_demand(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
-    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, nodes)
-
-
-def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
-    """np.unique(keys, axis=0, return_inverse=True) by one lexsort: same rows, same order.
-
-    Rows sort column by column (the first column first), as np.unique's structured view
-    compares them, at a fraction of its cost for a few hundred thousand rows.
-    """
-    n = keys.shape[0]
-    order = np.lexsort(keys.T[::-1])
-    ordered = keys[order]
-    new = np.ones(n, dtype=bool)
-    new[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
-    member = np.empty(n, dtype=np.intp)
-    member[order] = np.cumsum(new) - 1
-    return ordered[new], member
+    per = demand.node_demand(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
+    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, per)
 
 
 def alike_curves(
