@@ -33,7 +33,9 @@ on a fixed cell (a quarter week) is as fine as forecasting.spot_replacements' 24
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -58,7 +60,7 @@ __all__ = [
     "quantiles_exact",
 ]
 
-from service.reliability.renewal import weibull_renewal
+from service.reliability.renewal import RenewalCurve, weibull_renewal
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -74,6 +76,32 @@ CHUNK = 20_000  # positions per block (memory: CHUNK x 2 x cells floats per arra
 # at least GROUP_MIN strong are evaluated on AGE_GRID ages and read linearly in age.
 AGE_GRID = 1025
 GROUP_MIN = 2 * AGE_GRID
+
+
+@lru_cache(maxsize=64)
+def unit_renewal(beta: float, span: float) -> RenewalCurve:
+    """M of the unit-scale Weibull on [0, span], 2 x RENEWAL_GRID steps (span a power of 2)."""
+    return weibull_renewal(beta, 1.0, span, 2 * RENEWAL_GRID)
+
+
+@lru_cache(maxsize=64)
+def _unit_table(beta: float, span: float) -> FloatArray:
+    """unit_renewal(beta, span) read on 2 x TABLE_STEPS + 2 uniform steps of span / (2 x TABLE_STEPS)."""
+    step = span / (2 * TABLE_STEPS)
+    table: FloatArray = unit_renewal(beta, span).at(np.arange(2 * TABLE_STEPS + 2) * step)
+    table.flags.writeable = False  # shared by every caller
+    return table
+
+
+def span_of(reach: float) -> float:
+    """The power of 2 at or above reach (scale units): curves shared between calls reaching
+    alike, each at least as fine as one of RENEWAL_GRID steps over reach itself."""
+    return float(2.0 ** math.ceil(math.log2(max(reach, 1e-9) * 1.0001)))
+
+
+def renewal_reaching(beta: float, reach: float) -> RenewalCurve:
+    """The shared unit-scale renewal curve of shape beta reaching at least reach."""
+    return unit_renewal(float(beta), span_of(reach))
 
 
 def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
@@ -167,10 +195,9 @@ def weekly_cumulative(
         if idx.size == 0:
             continue
         beta = float(shape[k])
-        umax = float(delta[idx].max()) * k_cells
-        curve = weibull_renewal(beta, 1.0, umax * 1.0001, RENEWAL_GRID)
-        step = umax * 1.0001 / TABLE_STEPS
-        table = curve.at(np.arange(TABLE_STEPS + 2) * step)
+        span = span_of(float(delta[idx].max()) * k_cells)
+        table = _unit_table(beta, span)  # shared by calls (nodes, sites) of alike reach
+        step = span / (2 * TABLE_STEPS)
         out[idx, 1:] = _grouped_pass(beta, table, step, u_age[idx], delta[idx], weeks)
     return out
 
@@ -255,7 +282,7 @@ def _after_new(
         sel = np.nonzero(k == kk)[0]
         rates, inv = np.unique(rate_over_scale[sel], return_inverse=True)
         u = rates[:, None] * steps
-        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
+        curve = renewal_reaching(float(shape[kk]), float(u.max()))
         out[sel] = curve.at(u)[inv.ravel()]
     return out
 

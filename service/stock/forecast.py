@@ -27,7 +27,6 @@ from service.planning.service import AreaPlan, LastRelamps, local_today
 from service.readings.ages import PositionAges
 from service.register.models import Site
 from service.reliability.fleet import evaluate_fleet
-from service.reliability.renewal import weibull_renewal
 from service.stock import demand, outlook, reorder
 from service.stock.demand import FloatArray, IntArray, unique_rows
 from service.stock.models import StockBalance
@@ -283,7 +282,7 @@ def alike_curves(
         sel = np.nonzero((k == kk) & relamped)[0]
         pairs, inv = unique_rows(np.column_stack([scale[sel], rate[sel]]))
         u = pairs[:, 1][:, None] * steps / pairs[:, 0][:, None]  # scales to each boundary
-        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
+        curve = demand.renewal_reaching(float(shape[kk]), float(u.max()))
         after[sel] = curve.at(u)[inv]
     return before[member], after
 
