@@ -322,10 +322,11 @@ def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray
 
 
 def _weighted_moments(p: FloatArray, w: FloatArray) -> mx.Moments:
-    """mx.Moments.of of rows repeated w times (p: (u, C), w: (u,) counts), as sums."""
+    """mx.Moments.of of rows repeated w times (p: (K, u, C), w: (u,) counts): (K, C) sums."""
     q = 1.0 - p
     v = p * q
-    return mx.Moments(w @ p, w @ v, w @ (v * (q - p)))
+    e = "kuc,u->kc"
+    return mx.Moments(np.einsum(e, p, w), np.einsum(e, v, w), np.einsum(e, v * (q - p), w))
 
 
 def node_demand(
@@ -349,52 +350,33 @@ def node_demand(
     r = mx.rule()
     cols = [label, k, scale_h, age_h, rate_h_per_week, group_week, sd_ln_scale]
     rows, member = unique_rows(np.column_stack(cols).astype(np.float64))
-    # Rows sort by label first: each label's distinct rows are one slice of them.
-    u_label = rows[:, 0].astype(np.int64)
     u_k, u_gw = rows[:, 1].astype(np.int64), rows[:, 5].astype(np.int64)
+    p_w = np.empty((r.z.size, rows.shape[0], weeks))  # (node, distinct row, week)
+    p_l = np.empty((r.z.size, rows.shape[0], weeks + 1))  # from now to each boundary
+    for i, z in enumerate(r.z.tolist()):
+        sc = rows[:, 2] * np.exp(rows[:, 6] * z)
+        cum = _node_cumulative(shape, u_k, sc, rows[:, 3], rows[:, 4], weeks, u_gw)
+        p_w[i] = weekly_increments(cum)
+        np.clip(cum, 0.0, 1.0, out=p_l[i])  # cum[:, 0] = 0
+    # Rows sort by label first: each label's distinct rows are one slice of them.
     weight = np.bincount(member, minlength=rows.shape[0]).astype(np.float64)
-    labels, starts, counts = np.unique(u_label, return_index=True, return_counts=True)
+    labels, starts, counts = np.unique(
+        rows[:, 0].astype(np.int64), return_index=True, return_counts=True
+    )
     n_of = np.bincount(np.searchsorted(labels, label), minlength=labels.size)
     # Each label's positions (in their given order) as distinct rows, for the exact mixture.
     by_label = np.argsort(label, kind="stable")
     pos_starts = np.concatenate([[0], np.cumsum(n_of)])
-    per: list[list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]]] = [
-        [] for _ in labels
-    ]
-    for z in r.z.tolist():
-        sc = rows[:, 2] * np.exp(rows[:, 6] * z)
-        cum = _node_cumulative(shape, u_k, sc, rows[:, 3], rows[:, 4], weeks, u_gw)
-        p_w = weekly_increments(cum)
-        np.clip(cum, 0.0, 1.0, out=cum)  # from now (cum[:, 0] = 0) to each boundary
-        for g in range(labels.size):
-            j = slice(int(starts[g]), int(starts[g] + counts[g]))
-            small = int(n_of[g]) * r.z.size * (weeks + 1) < SMALL
-            mw, ml = _weighted_moments(p_w[j], weight[j]), _weighted_moments(cum[j], weight[j])
-            if not small:
-                per[g].append((mw, ml, None, None))
-                continue
+    out: dict[int, NodeDemand] = {}
+    for g in range(labels.size):
+        j = slice(int(starts[g]), int(starts[g] + counts[g]))
+        mw, ml = _weighted_moments(p_w[:, j], weight[j]), _weighted_moments(p_l[:, j], weight[j])
+        keep_w = keep_l = None
+        if int(n_of[g]) * r.z.size * (weeks + 1) < SMALL:  # the positions' own, expanded
             at = member[by_label[pos_starts[g] : pos_starts[g + 1]]]
-            per[g].append((mw, ml, p_w[at], cum[at]))
-    return {int(labels[g]): _stack(int(n_of[g]), per[g]) for g in range(labels.size)}
-
-
-def _stack(
-    n: int,
-    rows: list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]],
-) -> NodeDemand:
-    """Node rows -> one NodeDemand (moments (K, columns), probabilities (K, n, columns))."""
-
-    def mom(i: int) -> mx.Moments:
-        ms = [row[i] for row in rows]
-        return mx.Moments(
-            *(np.stack([getattr(m, f) for m in ms]) for f in ("mean", "var", "third"))
-        )
-
-    pw = [row[2] for row in rows]
-    pl = [row[3] for row in rows]
-    keep_w = np.stack(pw) if all(x is not None for x in pw) else None  # type: ignore[arg-type]
-    keep_l = np.stack(pl) if all(x is not None for x in pl) else None  # type: ignore[arg-type]
-    return NodeDemand(n, mom(0), mom(1), keep_w, keep_l)
+            keep_w, keep_l = p_w[:, at], p_l[:, at]
+        out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, keep_w, keep_l)
+    return out
 
 
 def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:
