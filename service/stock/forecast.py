@@ -238,8 +238,7 @@ def site_curves(
                 arr = group_by_type.setdefault(g.lamp_type_id, np.zeros(weeks, dtype=np.int64))
                 arr[wk] += g.positions
     gw = group_weeks(ages.area_id, ages.lamp_type_id, due_week, weeks)
-    before, after = alike_curves(shape, k, scale, age, rate, weeks, gw < weeks)
-    cum = demand.cumulative_with_group(before, after, gw)
+    cum = alike_cumulative(shape, k, scale, age, rate, weeks, gw)
     # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
     # the group order (its report goes onto it): counting it as spot demand too doubled it.
     dark = demand.dark_spot_lamps(ages.burned_out, gw)
@@ -252,39 +251,45 @@ def site_curves(
     return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, per)
 
 
-def alike_curves(
+def alike_cumulative(
     shape: FloatArray,
     k: IntArray,
     scale: FloatArray,
     age: FloatArray,
     rate: FloatArray,
     weeks: int,
-    relamped: NDArray[np.bool_],
-) -> tuple[FloatArray, FloatArray]:
-    """(N_a of the lamp in place, M of a new lamp) at week boundaries 0..weeks per position.
+    group_week: IntArray,
+) -> FloatArray:
+    """Cumulative spot replacements at week boundaries 0..weeks per position, with the
+    planned group relamps (group_week: the week one puts a new lamp in; weeks: none).
 
-    Positions exactly alike in type row, scale, age and burn rate get the same curves, so
-    each distinct set is computed once and handed to its positions (a portfolio's 300,000
-    positions are often a few tens of thousands of such sets): the same numbers as one row
-    per position. relamped: positions a planned group relamp gives a new lamp in the horizon.
+    Positions exactly alike in type row, scale, age and burn rate get the same curve of the
+    lamp in place, and alike with the same group week the same cumulative: each distinct
+    set is computed once and handed to its positions (a portfolio's 300,000 positions are
+    often a few thousand such sets): the same numbers as one row per position.
     """
-    n, h1 = age.size, weeks + 1
+    h1 = weeks + 1
     rows, member = unique_rows(np.column_stack([k, scale, age, rate]).astype(np.float64))
     g_k = rows[:, 0].astype(np.int64)
     # Every week boundary in one pass (stock.demand.weekly_cumulative: one convolution per
     # row), not one delayed-renewal sum per boundary.
     before = demand.weekly_cumulative(shape, g_k, rows[:, 1], rows[:, 2], rows[:, 3], weeks)
+    # Distinct (curve, group week) pairs: the relamp is applied once per pair.
+    pairs, pm = unique_rows(np.column_stack([member, group_week]).astype(np.float64))
+    r_idx, p_gw = pairs[:, 0].astype(np.int64), pairs[:, 1].astype(np.int64)
+    p_k, p_scale, p_rate = g_k[r_idx], rows[r_idx, 1], rows[r_idx, 3]
+    relamped = p_gw < weeks
     # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
     # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
-    after = np.zeros((n, h1))
+    after = np.zeros((pairs.shape[0], h1))
     steps = np.arange(h1, dtype=float)[None, :]
-    for kk in np.unique(k[relamped]).tolist():
-        sel = np.nonzero((k == kk) & relamped)[0]
-        pairs, inv = unique_rows(np.column_stack([scale[sel], rate[sel]]))
-        u = pairs[:, 1][:, None] * steps / pairs[:, 0][:, None]  # scales to each boundary
+    for kk in np.unique(p_k[relamped]).tolist():
+        sel = np.nonzero((p_k == kk) & relamped)[0]
+        u = p_rate[sel][:, None] * steps / p_scale[sel][:, None]  # scales to each boundary
         curve = demand.renewal_reaching(float(shape[kk]), float(u.max()))
-        after[sel] = curve.at(u)[inv]
-    return before[member], after
+        after[sel] = curve.at(u)
+    cum: FloatArray = demand.cumulative_with_group(before[r_idx], after, p_gw)[pm]
+    return cum
 
 
 def storeroom_demand(
