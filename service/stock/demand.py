@@ -239,8 +239,9 @@ class NodeDemand:
     """One lamp type's spot demand at the Gauss-Hermite nodes of its uncertain scale.
 
     weekly: moment sums (K, H) of the weekly probabilities; lead: of the clipped cumulative
-    from now to each week boundary (K, H + 1); the per-position probabilities of both are
-    kept for small groups (the exact mixture), None otherwise.
+    from now to each week boundary (K, H + 1); for small groups (the exact mixture) the
+    probabilities of both at the distinct position rows (K, u, columns), `weight` positions
+    each (None: one each), None otherwise.
     """
 
     n: int
@@ -248,6 +249,12 @@ class NodeDemand:
     lead: mx.Moments
     p_weekly: FloatArray | None
     p_lead: FloatArray | None
+    weight: FloatArray | None = None
+
+    def weights(self) -> FloatArray:
+        """Positions per kept row (ones when every row is one position)."""
+        rows = 0 if self.p_lead is None else self.p_lead.shape[1]
+        return self.weight if self.weight is not None else np.ones(rows)
 
     def merge(self, other: NodeDemand) -> NodeDemand:
         """The same lamp type's positions from another site (the scale error is shared)."""
@@ -255,17 +262,69 @@ class NodeDemand:
         def add(a: mx.Moments, b: mx.Moments) -> mx.Moments:
             return mx.Moments(a.mean + b.mean, a.var + b.var, a.third + b.third)
 
-        def cat(a: FloatArray | None, b: FloatArray | None) -> FloatArray | None:
-            ok = a is not None and b is not None and a[0].size + b[0].size < SMALL
-            return np.concatenate([a, b], axis=1) if ok else None
+        n = self.n + other.n
+        both = self.p_lead is not None and other.p_lead is not None
+        ok = both and n * int(self.lead.mean.shape[1]) < SMALL
 
+        def cat(a: FloatArray | None, b: FloatArray | None) -> FloatArray | None:
+            return (
+                np.concatenate([a, b], axis=1) if ok and a is not None and b is not None else None
+            )
+
+        weight = np.concatenate([self.weights(), other.weights()]) if ok else None
         return NodeDemand(
-            self.n + other.n,
+            n,
             add(self.weekly, other.weekly),
             add(self.lead, other.lead),
             cat(self.p_weekly, other.p_weekly),
             cat(self.p_lead, other.p_lead),
+            weight,
         )
+
+
+def pmf_repeated(p: FloatArray, weight: FloatArray, kmax: int) -> FloatArray:
+    """Poisson-binomial pmf over 0..kmax per (fine point, column) of rows repeated weight
+    times (p: (F, u, C), weight: (u,) integer counts): (F, C, kmax + 1).
+
+    By the characteristic function, prod_i (1 - p_i + p_i e^{i theta})^{w_i} at L points
+    theta = 2 pi l / L, then the inverse DFT [Fernandez & Williams 2010; Hong 2013, as
+    reliability.poisson_binomial.pmf_dft]: L >= 2 (kmax + 1), so only the mass beyond L folds
+    back, and past kmax the caller's support (mixture.support_max) leaves a negligible tail.
+    The powers as exp(w log z): any branch of log z gives z^w for an integer w.
+    """
+    f, u, c = p.shape
+    size = next_fast_len(2 * (kmax + 1), real=True)
+    # e^{-i theta}: numpy.fft.irfft sums X_l e^{+i theta_l k}, so the DFT of the pmf is needed.
+    e = np.exp(-2j * np.pi * np.arange(size // 2 + 1) / size)
+    out = np.empty((f, c, kmax + 1))
+    block = max(1, 2_000_000 // (f * e.size))  # rows per step (memory: f x rows x L)
+    with np.errstate(divide="ignore"):  # z = 0 (p = 1/2 at theta = pi): the product is 0
+        for col in range(c):
+            s = np.zeros((f, e.size), dtype=np.complex128)
+            for lo in range(0, u, block):
+                pc = p[:, lo : lo + block, col, None]
+                s += np.einsum("fuL,u->fL", np.log(1.0 - pc + pc * e), weight[lo : lo + block])
+            out[:, col] = np.fft.irfft(np.exp(s), size, axis=1)[:, : kmax + 1]
+    return np.maximum(out, 0.0)
+
+
+def mixed(m: mx.Moments, nd: NodeDemand, p: FloatArray | None) -> mx.Mixture:
+    """mixture.mixture of nd's count over these columns (m: (K, C), p: nd's rows (K, u, C)),
+    its exact branch by pmf_repeated when rows repeat (a fixture's lamps, an area's set)."""
+    r = mx.rule()
+    w = nd.weights()
+    if p is None or p.shape[1] * 4 > nd.n:  # few repeats: the positions' own recursion
+        pos = None if p is None else np.repeat(p, w.astype(np.int64), axis=1)
+        return mx.mixture(m, nd.n, r, pos)
+    # As mixture.mixture: the same support, budget and fine grid; distinct rows only.
+    mean = np.einsum("k,k...->...", r.w, m.mean)
+    fine = m.to_fine(r) if r.z.size > 1 else m
+    kmax = mx.support_max(fine, nd.n)
+    if not mx.exact_is_cheap(nd.n, r.z_fine.size * m.mean.shape[1], kmax):
+        return mx.Mixture(mean, nd.n, "rna", fine=fine, w_fine=r.w_fine)
+    pf = mx.to_fine_p(p, r) if r.z.size > 1 else p
+    pmf = pmf_repeated(pf, w, kmax)
+    return mx.Mixture(mean, nd.n, "exact", pmf=np.einsum("f,f...->...", r.w_fine, pmf))
 
 
 def _after_new(
@@ -364,18 +423,15 @@ def node_demand(
         rows[:, 0].astype(np.int64), return_index=True, return_counts=True
     )
     n_of = np.bincount(np.searchsorted(labels, label), minlength=labels.size)
-    # Each label's positions (in their given order) as distinct rows, for the exact mixture.
-    by_label = np.argsort(label, kind="stable")
-    pos_starts = np.concatenate([[0], np.cumsum(n_of)])
     out: dict[int, NodeDemand] = {}
     for g in range(labels.size):
         j = slice(int(starts[g]), int(starts[g] + counts[g]))
         mw, ml = _weighted_moments(p_w[:, j], weight[j]), _weighted_moments(p_l[:, j], weight[j])
-        keep_w = keep_l = None
-        if int(n_of[g]) * r.z.size * (weeks + 1) < SMALL:  # the positions' own, expanded
-            at = member[by_label[pos_starts[g] : pos_starts[g + 1]]]
-            keep_w, keep_l = p_w[:, at], p_l[:, at]
-        out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, keep_w, keep_l)
+        if int(n_of[g]) * r.z.size * (weeks + 1) < SMALL:  # the distinct rows, weighted
+            keep = (p_w[:, j].copy(), p_l[:, j].copy(), weight[j].copy())
+            out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, *keep)
+        else:
+            out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, None, None)
     return out
 
 
@@ -389,7 +445,7 @@ def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:
         nd.lead.var[:, lead : lead + 1],
         nd.lead.third[:, lead : lead + 1],
     )
-    return int(mx.mixture(col, nd.n, mx.rule(), p).quantile(level)[0])
+    return int(mixed(col, nd, p).quantile(level)[0])
 
 
 def lead_mean(nd: NodeDemand, lead: int) -> float:
@@ -434,7 +490,7 @@ def week_demand(
     var = (p * (1.0 - p)).sum(axis=0)
     method = "exact" if p.shape[0] <= EXACT_MAX else "normal"
     if spread is not None and h:  # the mixture over the lamp type's uncertain scale
-        mix = mx.mixture(spread.weekly, spread.n, mx.rule(), spread.p_weekly)
+        mix = mixed(spread.weekly, spread, spread.p_weekly)
         r = mx.rule()
         mean = mix.mean.copy()
         var = r.w @ spread.weekly.var + r.w @ (spread.weekly.mean**2) - mean**2
