@@ -286,25 +286,31 @@ def pmf_repeated(p: FloatArray, weight: FloatArray, kmax: int) -> FloatArray:
     """Poisson-binomial pmf over 0..kmax per (fine point, column) of rows repeated weight
     times (p: (F, u, C), weight: (u,) integer counts): (F, C, kmax + 1).
 
-    By the characteristic function, prod_i (1 - p_i + p_i e^{i theta})^{w_i} at L points
-    theta = 2 pi l / L, then the inverse DFT [Fernandez & Williams 2010; Hong 2013, as
-    reliability.poisson_binomial.pmf_dft]: L >= 2 (kmax + 1), so only the mass beyond L folds
-    back, and past kmax the caller's support (mixture.support_max) leaves a negligible tail.
-    The powers as exp(w log z): any branch of log z gives z^w for an integer w.
+    By the characteristic function, prod_i (1 - p_i + p_i e^{-i theta})^{w_i} at L > kmax
+    points theta = 2 pi l / L, then the inverse DFT [Fernandez & Williams 2010; Hong 2013,
+    as reliability.poisson_binomial.pmf_dft]: mass beyond L - 1 would fold back, and past
+    kmax the caller's support (mixture.support_max: 12 sd) leaves a negligible tail. Each
+    factor's log in real arithmetic: |z|^2 = 1 - 2 p q (1 - cos theta), arg z = atan2(-p sin
+    theta, q + p cos theta); summed times w_i (any branch gives z^w for an integer w).
     """
     f, u, c = p.shape
-    size = next_fast_len(2 * (kmax + 1), real=True)
-    # e^{-i theta}: numpy.fft.irfft sums X_l e^{+i theta_l k}, so the DFT of the pmf is needed.
-    e = np.exp(-2j * np.pi * np.arange(size // 2 + 1) / size)
+    size = next_fast_len(kmax + 1, real=True)
+    theta = 2.0 * np.pi * np.arange(size // 2 + 1) / size
+    cos, sin = np.cos(theta), np.sin(theta)
     out = np.empty((f, c, kmax + 1))
-    block = max(1, 2_000_000 // (f * e.size))  # rows per step (memory: f x rows x L)
+    block = max(1, 1_000_000 // (f * theta.size))  # rows per step (memory: f x rows x L)
     with np.errstate(divide="ignore"):  # z = 0 (p = 1/2 at theta = pi): the product is 0
         for col in range(c):
-            s = np.zeros((f, e.size), dtype=np.complex128)
+            re = np.zeros((f, theta.size))
+            im = np.zeros((f, theta.size))
             for lo in range(0, u, block):
                 pc = p[:, lo : lo + block, col, None]
-                s += np.einsum("fuL,u->fL", np.log(1.0 - pc + pc * e), weight[lo : lo + block])
-            out[:, col] = np.fft.irfft(np.exp(s), size, axis=1)[:, : kmax + 1]
+                wb = weight[lo : lo + block]
+                q = 1.0 - pc
+                re += 0.5 * (np.log1p(-2.0 * pc * q * (1.0 - cos)) * wb[:, None]).sum(axis=1)
+                im += (np.arctan2(-pc * sin, q + pc * cos) * wb[:, None]).sum(axis=1)
+            cf = np.exp(re) * (np.cos(im) + 1j * np.sin(im))
+            out[:, col] = np.fft.irfft(cf, size, axis=1)[:, : kmax + 1]
     return np.maximum(out, 0.0)
 
 
