@@ -405,7 +405,26 @@ def node_demand(
     sd_ln_scale: FloatArray,
     label: IntArray,
 ) -> dict[int, NodeDemand]:
-    """Per label (lamp type) the spot demand at each node of the lognormal scale.
+    """Per label (lamp type) the spot demand at each node of the lognormal scale (see
+    node_passes)."""
+    cols = (shape, k, scale_h, age_h, rate_h_per_week, weeks, group_week, sd_ln_scale, label)
+    return node_passes(*cols)[0]
+
+
+def node_passes(
+    shape: FloatArray,
+    k: IntArray,
+    scale_h: FloatArray,
+    age_h: FloatArray,
+    rate_h_per_week: FloatArray,
+    weeks: int,
+    group_week: IntArray,
+    sd_ln_scale: FloatArray,
+    label: IntArray,
+) -> tuple[dict[int, NodeDemand], FloatArray | None]:
+    """Per label (lamp type) the spot demand at each node of the lognormal scale, and the
+    cumulative (n, weeks + 1) at the nominal scale (the node z = 0 of an odd rule; None
+    without one): the same curves as the nominal pass would give, not computed twice.
 
     sd_ln_scale per position (its lamp type's); at node z every scale is eta e^{sd z}, and
     the one pass (weekly_cumulative) and the new-lamp curves after a group relamp are
@@ -418,9 +437,12 @@ def node_demand(
     u_k, u_gw = rows[:, 1].astype(np.int64), rows[:, 5].astype(np.int64)
     p_w = np.empty((r.z.size, rows.shape[0], weeks))  # (node, distinct row, week)
     p_l = np.empty((r.z.size, rows.shape[0], weeks + 1))  # from now to each boundary
+    nominal: FloatArray | None = None
     for i, z in enumerate(r.z.tolist()):
         sc = rows[:, 2] * np.exp(rows[:, 6] * z)
         cum = _node_cumulative(shape, u_k, sc, rows[:, 3], rows[:, 4], weeks, u_gw)
+        if z == 0.0:
+            nominal = cum[member]  # every position's, before the clip below
         p_w[i] = weekly_increments(cum)
         np.clip(cum, 0.0, 1.0, out=p_l[i])  # cum[:, 0] = 0
     # Rows sort by label first: each label's distinct rows are one slice of them.
@@ -438,7 +460,7 @@ def node_demand(
             out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, *keep)
         else:
             out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, None, None)
-    return out
+    return out, nominal
 
 
 def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:

@@ -238,16 +238,20 @@ def site_curves(
                 arr = group_by_type.setdefault(g.lamp_type_id, np.zeros(weeks, dtype=np.int64))
                 arr[wk] += g.positions
     gw = group_weeks(ages.area_id, ages.lamp_type_id, due_week, weeks)
-    cum = alike_cumulative(shape, k, scale, age, rate, weeks, gw)
     # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
     # the group order (its report goes onto it): counting it as spot demand too doubled it.
     dark = demand.dark_spot_lamps(ages.burned_out, gw)
     if not nodes:
+        cum = alike_cumulative(shape, k, scale, age, rate, weeks, gw)
         return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
     # The spot demand again at each node of the lamp type's uncertain scale (the forecast's
     # own spread, forecasting.ranges): its quantiles are the mixture's, not the nominal's.
+    # Its middle node is the nominal scale: those are the positions' curves (cum).
     sd = position_sd_ln_scale(types, ages.lamp_type_id)
-    per = demand.node_demand(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
+    per, nominal = demand.node_passes(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
+    if nominal is None:
+        nominal = alike_cumulative(shape, k, scale, age, rate, weeks, gw)
+    cum = nominal
     return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, per)
 
 
