@@ -127,21 +127,20 @@ class Portfolio:
 
     at: datetime
     sites: dict[int, SiteLoad]
-    # Site curves already computed from this load, by (site, weeks, with nodes): demand and
-    # the budget of one request ask for the same site's curves (memoised, see curves).
-    memo: dict[tuple[int, int, bool], SiteCurves] = field(
-        default_factory=dict, compare=False, repr=False
-    )
+    # The demand's site curves (with the mixture's nodes) already computed from this load,
+    # by (site, weeks): storerooms serving one site share them, and a budget over the same
+    # weeks reads them. Curves without nodes (the budget's, one ask per site) are not kept.
+    memo: dict[tuple[int, int], SiteCurves] = field(default_factory=dict, compare=False, repr=False)
 
     def curves(self, site: Site, weeks: int, *, nodes: bool = True) -> SiteCurves:
-        """A loaded site's curves over `weeks`, computed once per load (nodes: the mixture's)."""
-        key = (site.id, weeks, nodes)
-        if key not in self.memo:
-            with_nodes = self.memo.get((site.id, weeks, True))
-            if not nodes and with_nodes is not None:  # the curves with nodes hold these
-                return with_nodes
-            self.memo[key] = site_curves(self.sites[site.id], site, self.at, weeks, nodes=nodes)
-        return self.memo[key]
+        """A loaded site's curves over `weeks` (nodes: with the mixture's, memoised)."""
+        key = (site.id, weeks)
+        if key in self.memo:  # the curves with nodes hold those without
+            return self.memo[key]
+        sc = site_curves(self.sites[site.id], site, self.at, weeks, nodes=nodes)
+        if nodes:
+            self.memo[key] = sc
+        return sc
 
 
 def effective_scales(ages: PositionAges, types: TypeTable) -> FloatArray:

@@ -504,3 +504,16 @@ def test_budget_rows_equal_the_reference_of_the_earlier_code(db: Session) -> Non
         assert abs(got[key] - want) <= 1e-6 * max(abs(want), 1.0), key
     for got_s, want_s in zip(spot_lamps(db, sites, loaded), SPOT, strict=True):
         assert abs(got_s - want_s) <= 1e-6 * want_s
+
+
+def test_a_loads_demand_curves_are_computed_once_and_agree_with_the_budgets(db: Session) -> None:
+    sites = fleet(db)
+    loaded = load_portfolio(db, sites, AT, last_group_relamps)  # type: ignore[arg-type]
+    s = sites[0]
+    first = loaded.curves(s, 26)  # type: ignore[arg-type]
+    assert loaded.curves(s, 26) is first  # type: ignore[arg-type]
+    assert loaded.curves(s, 26, nodes=False) is first  # type: ignore[arg-type]
+    plain = loaded.curves(s, 54, nodes=False)  # type: ignore[arg-type]
+    assert not plain.nodes and loaded.curves(s, 54, nodes=False) is not plain  # type: ignore[arg-type]
+    # The nominal curves from the mixture's middle node against the plain pass's.
+    np.testing.assert_allclose(first.cum, plain.cum[:, :27], rtol=1e-6, atol=1e-9)
