@@ -9,12 +9,16 @@ The anchor, in the same run: loading the same positions' ages (readings.ages), t
 read every one of those answers starts from.
 
 Run: python benchmarks/bench_demand_db.py [URL] [--quick] [--repeats N] [--reuse]
-(--reuse: time an earlier run's database again without rebuilding it)
+(--reuse: time an earlier run's database again without rebuilding it). The medians of
+D2's phases are printed after the table: the load and plan, the storerooms' demand, their
+to-order lists, the budget.
 """
 
 from __future__ import annotations
 
+import statistics
 import sys
+import time
 from pathlib import Path
 
 import numpy as np
@@ -59,17 +63,32 @@ def stock(url: str, sites: list[int]) -> list[int]:
     return sites
 
 
+# Seconds of each phase of every D2 run (printed as medians after the table).
+PHASES: dict[str, list[float]] = {"load + plans": [], "demand": [], "to-order": [], "budget": []}
+
+
 def figure(factory: sessionmaker[Session], rooms: list[int]) -> object:
     """Every storeroom's demand and to-order list, every site's budget, from one load."""
+    spent = dict.fromkeys(PHASES, 0.0)
     with factory() as s:
+        t0 = time.perf_counter()
         sites = s.scalars(select(Site).where(Site.retired_at.is_(None)).order_by(Site.id)).all()
         loaded = load_portfolio(s, sites, utcnow(), last_group_relamps)
+        spent["load + plans"] += time.perf_counter() - t0
         out: list[object] = []
         for r in rooms:
+            t0 = time.perf_counter()
             sd = storeroom_demand(s, r, last_relamps=last_group_relamps, loaded=loaded)
+            t1 = time.perf_counter()
             out.append(to_order(sd, balances(s, r), s))
+            spent["demand"] += t1 - t0
+            spent["to-order"] += time.perf_counter() - t1
+        t0 = time.perf_counter()
         out.append(budget.portfolio(s, last_relamps=last_group_relamps, loaded=loaded))
-        return out
+        spent["budget"] += time.perf_counter() - t0
+    for k, v in spent.items():
+        PHASES[k].append(v)
+    return out
 
 
 def anchor(factory: sessionmaker[Session], sites: list[int]) -> object:
@@ -107,6 +126,7 @@ def main() -> int:
         target="" if args.quick else "<= 3 s (issue 13)",
     )
     engine.dispose()
+    print("D2 phases, medians (s):", {k: round(statistics.median(v), 3) for k, v in PHASES.items()})
     table.finish(args.json)
     return 0
 

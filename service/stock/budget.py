@@ -255,7 +255,8 @@ def site_budget(
     at = loaded.at if loaded is not None else (at or utcnow())
     today = local_today(site, at)
     bk = _Book(month_starts(today), cleaning_minutes_per_lamp)
-    sc = position_cumulative(session, site, at, WEEKS, last_relamps, loaded=loaded)
+    # The spot curves only: the mixture's nodes are the storeroom demand's, not the budget's.
+    sc = position_cumulative(session, site, at, WEEKS, last_relamps, loaded=loaded, nodes=False)
     retro = chosen_retrofits(session, sc.plans)
     for plan in sc.plans:
         for g in plan.groups:

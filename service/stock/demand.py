@@ -33,7 +33,9 @@ on a fixed cell (a quarter week) is as fine as forecasting.spot_replacements' 24
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -58,7 +60,7 @@ __all__ = [
     "quantiles_exact",
 ]
 
-from service.reliability.renewal import weibull_renewal
+from service.reliability.renewal import RenewalCurve, weibull_renewal
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -74,6 +76,32 @@ CHUNK = 20_000  # positions per block (memory: CHUNK x 2 x cells floats per arra
 # at least GROUP_MIN strong are evaluated on AGE_GRID ages and read linearly in age.
 AGE_GRID = 1025
 GROUP_MIN = 2 * AGE_GRID
+
+
+@lru_cache(maxsize=64)
+def unit_renewal(beta: float, span: float) -> RenewalCurve:
+    """M of the unit-scale Weibull on [0, span], 2 x RENEWAL_GRID steps (span a power of 2)."""
+    return weibull_renewal(beta, 1.0, span, 2 * RENEWAL_GRID)
+
+
+@lru_cache(maxsize=64)
+def _unit_table(beta: float, span: float) -> FloatArray:
+    """unit_renewal(beta, span) read on 2 x TABLE_STEPS + 2 uniform steps of span / (2 x TABLE_STEPS)."""
+    step = span / (2 * TABLE_STEPS)
+    table: FloatArray = unit_renewal(beta, span).at(np.arange(2 * TABLE_STEPS + 2) * step)
+    table.flags.writeable = False  # shared by every caller
+    return table
+
+
+def span_of(reach: float) -> float:
+    """The power of 2 at or above reach (scale units): curves shared between calls reaching
+    alike, each at least as fine as one of RENEWAL_GRID steps over reach itself."""
+    return float(2.0 ** math.ceil(math.log2(max(reach, 1e-9) * 1.0001)))
+
+
+def renewal_reaching(beta: float, reach: float) -> RenewalCurve:
+    """The shared unit-scale renewal curve of shape beta reaching at least reach."""
+    return unit_renewal(float(beta), span_of(reach))
 
 
 def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
@@ -167,10 +195,9 @@ def weekly_cumulative(
         if idx.size == 0:
             continue
         beta = float(shape[k])
-        umax = float(delta[idx].max()) * k_cells
-        curve = weibull_renewal(beta, 1.0, umax * 1.0001, RENEWAL_GRID)
-        step = umax * 1.0001 / TABLE_STEPS
-        table = curve.at(np.arange(TABLE_STEPS + 2) * step)
+        span = span_of(float(delta[idx].max()) * k_cells)
+        table = _unit_table(beta, span)  # shared by calls (nodes, sites) of alike reach
+        step = span / (2 * TABLE_STEPS)
         out[idx, 1:] = _grouped_pass(beta, table, step, u_age[idx], delta[idx], weeks)
     return out
 
@@ -212,8 +239,9 @@ class NodeDemand:
     """One lamp type's spot demand at the Gauss-Hermite nodes of its uncertain scale.
 
     weekly: moment sums (K, H) of the weekly probabilities; lead: of the clipped cumulative
-    from now to each week boundary (K, H + 1); the per-position probabilities of both are
-    kept for small groups (the exact mixture), None otherwise.
+    from now to each week boundary (K, H + 1); for small groups (the exact mixture) the
+    probabilities of both at the distinct position rows (K, u, columns), `weight` positions
+    each (None: one each), None otherwise.
     """
 
     n: int
@@ -221,6 +249,12 @@ class NodeDemand:
     lead: mx.Moments
     p_weekly: FloatArray | None
     p_lead: FloatArray | None
+    weight: FloatArray | None = None
+
+    def weights(self) -> FloatArray:
+        """Positions per kept row (ones when every row is one position)."""
+        rows = 0 if self.p_lead is None else self.p_lead.shape[1]
+        return self.weight if self.weight is not None else np.ones(rows)
 
     def merge(self, other: NodeDemand) -> NodeDemand:
         """The same lamp type's positions from another site (the scale error is shared)."""
@@ -228,17 +262,75 @@ class NodeDemand:
         def add(a: mx.Moments, b: mx.Moments) -> mx.Moments:
             return mx.Moments(a.mean + b.mean, a.var + b.var, a.third + b.third)
 
-        def cat(a: FloatArray | None, b: FloatArray | None) -> FloatArray | None:
-            ok = a is not None and b is not None and a[0].size + b[0].size < SMALL
-            return np.concatenate([a, b], axis=1) if ok else None
+        n = self.n + other.n
+        both = self.p_lead is not None and other.p_lead is not None
+        ok = both and n * int(self.lead.mean.shape[1]) < SMALL
 
+        def cat(a: FloatArray | None, b: FloatArray | None) -> FloatArray | None:
+            return (
+                np.concatenate([a, b], axis=1) if ok and a is not None and b is not None else None
+            )
+
+        weight = np.concatenate([self.weights(), other.weights()]) if ok else None
         return NodeDemand(
-            self.n + other.n,
+            n,
             add(self.weekly, other.weekly),
             add(self.lead, other.lead),
             cat(self.p_weekly, other.p_weekly),
             cat(self.p_lead, other.p_lead),
+            weight,
         )
+
+
+def pmf_repeated(p: FloatArray, weight: FloatArray, kmax: int) -> FloatArray:
+    """Poisson-binomial pmf over 0..kmax per (fine point, column) of rows repeated weight
+    times (p: (F, u, C), weight: (u,) integer counts): (F, C, kmax + 1).
+
+    By the characteristic function, prod_i (1 - p_i + p_i e^{-i theta})^{w_i} at L > kmax
+    points theta = 2 pi l / L, then the inverse DFT [Fernandez & Williams 2010; Hong 2013,
+    as reliability.poisson_binomial.pmf_dft]: mass beyond L - 1 would fold back, and past
+    kmax the caller's support (mixture.support_max: 12 sd) leaves a negligible tail. Each
+    factor's log in real arithmetic: |z|^2 = 1 - 2 p q (1 - cos theta), arg z = atan2(-p sin
+    theta, q + p cos theta); summed times w_i (any branch gives z^w for an integer w).
+    """
+    f, u, c = p.shape
+    size = next_fast_len(kmax + 1, real=True)
+    theta = 2.0 * np.pi * np.arange(size // 2 + 1) / size
+    cos, sin = np.cos(theta), np.sin(theta)
+    out = np.empty((f, c, kmax + 1))
+    block = max(1, 1_000_000 // (f * theta.size))  # rows per step (memory: f x rows x L)
+    with np.errstate(divide="ignore"):  # z = 0 (p = 1/2 at theta = pi): the product is 0
+        for col in range(c):
+            re = np.zeros((f, theta.size))
+            im = np.zeros((f, theta.size))
+            for lo in range(0, u, block):
+                pc = p[:, lo : lo + block, col, None]
+                wb = weight[lo : lo + block]
+                q = 1.0 - pc
+                re += 0.5 * (np.log1p(-2.0 * pc * q * (1.0 - cos)) * wb[:, None]).sum(axis=1)
+                im += (np.arctan2(-pc * sin, q + pc * cos) * wb[:, None]).sum(axis=1)
+            cf = np.exp(re) * (np.cos(im) + 1j * np.sin(im))
+            out[:, col] = np.fft.irfft(cf, size, axis=1)[:, : kmax + 1]
+    return np.maximum(out, 0.0)
+
+
+def mixed(m: mx.Moments, nd: NodeDemand, p: FloatArray | None) -> mx.Mixture:
+    """mixture.mixture of nd's count over these columns (m: (K, C), p: nd's rows (K, u, C)),
+    its exact branch by pmf_repeated when rows repeat (a fixture's lamps, an area's set)."""
+    r = mx.rule()
+    w = nd.weights()
+    if p is None or p.shape[1] * 4 > nd.n:  # few repeats: the positions' own recursion
+        pos = None if p is None else np.repeat(p, w.astype(np.int64), axis=1)
+        return mx.mixture(m, nd.n, r, pos)
+    # As mixture.mixture: the same support, budget and fine grid; distinct rows only.
+    mean = np.einsum("k,k...->...", r.w, m.mean)
+    fine = m.to_fine(r) if r.z.size > 1 else m
+    kmax = mx.support_max(fine, nd.n)
+    if not mx.exact_is_cheap(nd.n, r.z_fine.size * m.mean.shape[1], kmax):
+        return mx.Mixture(mean, nd.n, "rna", fine=fine, w_fine=r.w_fine)
+    pf = mx.to_fine_p(p, r) if r.z.size > 1 else p
+    pmf = pmf_repeated(pf, w, kmax)
+    return mx.Mixture(mean, nd.n, "exact", pmf=np.einsum("f,f...->...", r.w_fine, pmf))
 
 
 def _after_new(
@@ -255,7 +347,7 @@ def _after_new(
         sel = np.nonzero(k == kk)[0]
         rates, inv = np.unique(rate_over_scale[sel], return_inverse=True)
         u = rates[:, None] * steps
-        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
+        curve = renewal_reaching(float(shape[kk]), float(u.max()))
         out[sel] = curve.at(u)[inv.ravel()]
     return out
 
@@ -278,6 +370,30 @@ def _node_cumulative(
     return cum
 
 
+def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """np.unique(keys, axis=0, return_inverse=True) by one lexsort: same rows, same order.
+
+    Rows sort column by column (the first column first), as np.unique's structured view
+    compares them, at a fraction of its cost for a few hundred thousand rows.
+    """
+    n = keys.shape[0]
+    order = np.lexsort(keys.T[::-1])
+    ordered = keys[order]
+    new = np.ones(n, dtype=bool)
+    new[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
+    member = np.empty(n, dtype=np.intp)
+    member[order] = np.cumsum(new) - 1
+    return ordered[new], member
+
+
+def _weighted_moments(p: FloatArray, w: FloatArray) -> mx.Moments:
+    """mx.Moments.of of rows repeated w times (p: (K, u, C), w: (u,) counts): (K, C) sums."""
+    q = 1.0 - p
+    v = p * q
+    e = "kuc,u->kc"
+    return mx.Moments(np.einsum(e, p, w), np.einsum(e, v, w), np.einsum(e, v * (q - p), w))
+
+
 def node_demand(
     shape: FloatArray,
     k: IntArray,
@@ -289,52 +405,62 @@ def node_demand(
     sd_ln_scale: FloatArray,
     label: IntArray,
 ) -> dict[int, NodeDemand]:
-    """Per label (lamp type) the spot demand at each node of the lognormal scale.
+    """Per label (lamp type) the spot demand at each node of the lognormal scale (see
+    node_passes)."""
+    cols = (shape, k, scale_h, age_h, rate_h_per_week, weeks, group_week, sd_ln_scale, label)
+    return node_passes(*cols)[0]
+
+
+def node_passes(
+    shape: FloatArray,
+    k: IntArray,
+    scale_h: FloatArray,
+    age_h: FloatArray,
+    rate_h_per_week: FloatArray,
+    weeks: int,
+    group_week: IntArray,
+    sd_ln_scale: FloatArray,
+    label: IntArray,
+) -> tuple[dict[int, NodeDemand], FloatArray | None]:
+    """Per label (lamp type) the spot demand at each node of the lognormal scale, and the
+    cumulative (n, weeks + 1) at the nominal scale (the node z = 0 of an odd rule; None
+    without one): the same curves as the nominal pass would give, not computed twice.
 
     sd_ln_scale per position (its lamp type's); at node z every scale is eta e^{sd z}, and
     the one pass (weekly_cumulative) and the new-lamp curves after a group relamp are
-    evaluated there: NODES passes.
+    evaluated there: NODES passes. Positions alike in every input (a fixture's lamps, an
+    area put in at one relamp) share their curves: each distinct row is computed once.
     """
     r = mx.rule()
-    order = np.argsort(label, kind="stable")  # each label's positions one slice
-    k, scale_h, age_h = k[order], scale_h[order], age_h[order]
-    rate_h_per_week, group_week, sd = rate_h_per_week[order], group_week[order], sd_ln_scale[order]
-    labels, starts, counts = np.unique(label[order], return_index=True, return_counts=True)
-    per: list[list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]]] = [
-        [] for _ in labels
-    ]
-    for z in r.z.tolist():
-        sc = scale_h * np.exp(sd * z)
-        cum = _node_cumulative(shape, k, sc, age_h, rate_h_per_week, weeks, group_week)
-        p_w = weekly_increments(cum)
-        np.clip(cum, 0.0, 1.0, out=cum)  # from now (cum[:, 0] = 0) to each boundary
-        for g in range(labels.size):
-            j = slice(int(starts[g]), int(starts[g] + counts[g]))
-            small = int(counts[g]) * r.z.size * (weeks + 1) < SMALL
-            pw, pl = p_w[j], cum[j]
-            per[g].append(
-                (mx.Moments.of(pw), mx.Moments.of(pl), pw if small else None, pl if small else None)
-            )
-    return {int(labels[g]): _stack(int(counts[g]), per[g]) for g in range(labels.size)}
-
-
-def _stack(
-    n: int,
-    rows: list[tuple[mx.Moments, mx.Moments, FloatArray | None, FloatArray | None]],
-) -> NodeDemand:
-    """Node rows -> one NodeDemand (moments (K, columns), probabilities (K, n, columns))."""
-
-    def mom(i: int) -> mx.Moments:
-        ms = [row[i] for row in rows]
-        return mx.Moments(
-            *(np.stack([getattr(m, f) for m in ms]) for f in ("mean", "var", "third"))
-        )
-
-    pw = [row[2] for row in rows]
-    pl = [row[3] for row in rows]
-    keep_w = np.stack(pw) if all(x is not None for x in pw) else None  # type: ignore[arg-type]
-    keep_l = np.stack(pl) if all(x is not None for x in pl) else None  # type: ignore[arg-type]
-    return NodeDemand(n, mom(0), mom(1), keep_w, keep_l)
+    cols = [label, k, scale_h, age_h, rate_h_per_week, group_week, sd_ln_scale]
+    rows, member = unique_rows(np.column_stack(cols).astype(np.float64))
+    u_k, u_gw = rows[:, 1].astype(np.int64), rows[:, 5].astype(np.int64)
+    p_w = np.empty((r.z.size, rows.shape[0], weeks))  # (node, distinct row, week)
+    p_l = np.empty((r.z.size, rows.shape[0], weeks + 1))  # from now to each boundary
+    nominal: FloatArray | None = None
+    for i, z in enumerate(r.z.tolist()):
+        sc = rows[:, 2] * np.exp(rows[:, 6] * z)
+        cum = _node_cumulative(shape, u_k, sc, rows[:, 3], rows[:, 4], weeks, u_gw)
+        if z == 0.0:
+            nominal = cum[member]  # every position's, before the clip below
+        p_w[i] = weekly_increments(cum)
+        np.clip(cum, 0.0, 1.0, out=p_l[i])  # cum[:, 0] = 0
+    # Rows sort by label first: each label's distinct rows are one slice of them.
+    weight = np.bincount(member, minlength=rows.shape[0]).astype(np.float64)
+    labels, starts, counts = np.unique(
+        rows[:, 0].astype(np.int64), return_index=True, return_counts=True
+    )
+    n_of = np.bincount(np.searchsorted(labels, label), minlength=labels.size)
+    out: dict[int, NodeDemand] = {}
+    for g in range(labels.size):
+        j = slice(int(starts[g]), int(starts[g] + counts[g]))
+        mw, ml = _weighted_moments(p_w[:, j], weight[j]), _weighted_moments(p_l[:, j], weight[j])
+        if int(n_of[g]) * r.z.size * (weeks + 1) < SMALL:  # the distinct rows, weighted
+            keep = (p_w[:, j].copy(), p_l[:, j].copy(), weight[j].copy())
+            out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, *keep)
+        else:
+            out[int(labels[g])] = NodeDemand(int(n_of[g]), mw, ml, None, None)
+    return out, nominal
 
 
 def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:
@@ -347,7 +473,7 @@ def lead_quantile(nd: NodeDemand, lead: int, level: float) -> int:
         nd.lead.var[:, lead : lead + 1],
         nd.lead.third[:, lead : lead + 1],
     )
-    return int(mx.mixture(col, nd.n, mx.rule(), p).quantile(level)[0])
+    return int(mixed(col, nd, p).quantile(level)[0])
 
 
 def lead_mean(nd: NodeDemand, lead: int) -> float:
@@ -392,7 +518,7 @@ def week_demand(
     var = (p * (1.0 - p)).sum(axis=0)
     method = "exact" if p.shape[0] <= EXACT_MAX else "normal"
     if spread is not None and h:  # the mixture over the lamp type's uncertain scale
-        mix = mx.mixture(spread.weekly, spread.n, mx.rule(), spread.p_weekly)
+        mix = mixed(spread.weekly, spread, spread.p_weekly)
         r = mx.rule()
         mean = mix.mean.copy()
         var = r.w @ spread.weekly.var + r.w @ (spread.weekly.mean**2) - mean**2

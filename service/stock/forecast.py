@@ -27,9 +27,8 @@ from service.planning.service import AreaPlan, LastRelamps, local_today
 from service.readings.ages import PositionAges
 from service.register.models import Site
 from service.reliability.fleet import evaluate_fleet
-from service.reliability.renewal import weibull_renewal
 from service.stock import demand, outlook, reorder
-from service.stock.demand import FloatArray, IntArray
+from service.stock.demand import FloatArray, IntArray, unique_rows
 from service.stock.models import StockBalance
 from service.stock.service import get_storeroom, site_ids_of
 
@@ -128,6 +127,20 @@ class Portfolio:
 
     at: datetime
     sites: dict[int, SiteLoad]
+    # The demand's site curves (with the mixture's nodes) already computed from this load,
+    # by (site, weeks): storerooms serving one site share them, and a budget over the same
+    # weeks reads them. Curves without nodes (the budget's, one ask per site) are not kept.
+    memo: dict[tuple[int, int], SiteCurves] = field(default_factory=dict, compare=False, repr=False)
+
+    def curves(self, site: Site, weeks: int, *, nodes: bool = True) -> SiteCurves:
+        """A loaded site's curves over `weeks` (nodes: with the mixture's, memoised)."""
+        key = (site.id, weeks)
+        if key in self.memo:  # the curves with nodes hold those without
+            return self.memo[key]
+        sc = site_curves(self.sites[site.id], site, self.at, weeks, nodes=nodes)
+        if nodes:
+            self.memo[key] = sc
+        return sc
 
 
 def effective_scales(ages: PositionAges, types: TypeTable) -> FloatArray:
@@ -183,18 +196,23 @@ def position_cumulative(
     last_relamps: LastRelamps,
     *,
     loaded: Portfolio | None = None,
+    nodes: bool = True,
 ) -> SiteCurves:
     """A site's per-position cumulative spot replacements, with its planned group relamps.
 
-    loaded: the portfolio's load when the caller has one (else the site is loaded here).
+    loaded: the portfolio's load when the caller has one (else the site is loaded here);
+    nodes: also the spot demand at the scale's nodes (the mixture; the budget needs none).
     """
     if loaded is not None and site.id in loaded.sites:
-        return site_curves(loaded.sites[site.id], site, at, weeks)
-    return site_curves(load_site(session, site, at, last_relamps), site, at, weeks)
+        return loaded.curves(site, weeks, nodes=nodes)
+    sl = load_site(session, site, at, last_relamps)
+    return site_curves(sl, site, at, weeks, nodes=nodes)
 
 
-def site_curves(sl: SiteLoad, site: Site, at: datetime, weeks: int) -> SiteCurves:
-    """position_cumulative from a site's load (pure)."""
+def site_curves(
+    sl: SiteLoad, site: Site, at: datetime, weeks: int, *, nodes: bool = True
+) -> SiteCurves:
+    """position_cumulative from a site's load (pure); nodes: with the mixture's nodes."""
     ages, types = sl.ages, sl.types
     group_by_type: dict[int, IntArray] = {}
     if ages.size == 0 or types is None:
@@ -219,67 +237,62 @@ def site_curves(sl: SiteLoad, site: Site, at: datetime, weeks: int) -> SiteCurve
                 arr = group_by_type.setdefault(g.lamp_type_id, np.zeros(weeks, dtype=np.int64))
                 arr[wk] += g.positions
     gw = group_weeks(ages.area_id, ages.lamp_type_id, due_week, weeks)
-    before, after = alike_curves(shape, k, scale, age, rate, weeks, gw < weeks)
-    cum = demand.cumulative_with_group(before, after, gw)
     # A dark lamp in an area whose group relamp falls in the first week gets its lamp from
     # the group order (its report goes onto it): counting it as spot demand too doubled it.
     dark = demand.dark_spot_lamps(ages.burned_out, gw)
+    if not nodes:
+        cum = alike_cumulative(shape, k, scale, age, rate, weeks, gw)
+        return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans)
     # The spot demand again at each node of the lamp type's uncertain scale (the forecast's
     # own spread, forecasting.ranges): its quantiles are the mixture's, not the nominal's.
+    # Its middle node is the nominal scale: those are the positions' curves (cum).
     sd = position_sd_ln_scale(types, ages.lamp_type_id)
-    nodes = demand.node_demand(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
-    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, nodes)
+    per, nominal = demand.node_passes(shape, k, scale, age, rate, weeks, gw, sd, ages.lamp_type_id)
+    if nominal is None:
+        nominal = alike_cumulative(shape, k, scale, age, rate, weeks, gw)
+    cum = nominal
+    return SiteCurves(ages.lamp_type_id, ages.area_id, cum, dark, group_by_type, plans, per)
 
 
-def unique_rows(keys: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
-    """np.unique(keys, axis=0, return_inverse=True) by one lexsort: same rows, same order.
-
-    Rows sort column by column (the first column first), as np.unique's structured view
-    compares them, at a fraction of its cost for a few hundred thousand rows.
-    """
-    n = keys.shape[0]
-    order = np.lexsort(keys.T[::-1])
-    ordered = keys[order]
-    new = np.ones(n, dtype=bool)
-    new[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
-    member = np.empty(n, dtype=np.intp)
-    member[order] = np.cumsum(new) - 1
-    return ordered[new], member
-
-
-def alike_curves(
+def alike_cumulative(
     shape: FloatArray,
     k: IntArray,
     scale: FloatArray,
     age: FloatArray,
     rate: FloatArray,
     weeks: int,
-    relamped: NDArray[np.bool_],
-) -> tuple[FloatArray, FloatArray]:
-    """(N_a of the lamp in place, M of a new lamp) at week boundaries 0..weeks per position.
+    group_week: IntArray,
+) -> FloatArray:
+    """Cumulative spot replacements at week boundaries 0..weeks per position, with the
+    planned group relamps (group_week: the week one puts a new lamp in; weeks: none).
 
-    Positions exactly alike in type row, scale, age and burn rate get the same curves, so
-    each distinct set is computed once and handed to its positions (a portfolio's 300,000
-    positions are often a few tens of thousands of such sets): the same numbers as one row
-    per position. relamped: positions a planned group relamp gives a new lamp in the horizon.
+    Positions exactly alike in type row, scale, age and burn rate get the same curve of the
+    lamp in place, and alike with the same group week the same cumulative: each distinct
+    set is computed once and handed to its positions (a portfolio's 300,000 positions are
+    often a few thousand such sets): the same numbers as one row per position.
     """
-    n, h1 = age.size, weeks + 1
+    h1 = weeks + 1
     rows, member = unique_rows(np.column_stack([k, scale, age, rate]).astype(np.float64))
     g_k = rows[:, 0].astype(np.int64)
     # Every week boundary in one pass (stock.demand.weekly_cumulative: one convolution per
     # row), not one delayed-renewal sum per boundary.
     before = demand.weekly_cumulative(shape, g_k, rows[:, 1], rows[:, 2], rows[:, 3], weeks)
+    # Distinct (curve, group week) pairs: the relamp is applied once per pair.
+    pairs, pm = unique_rows(np.column_stack([member, group_week]).astype(np.float64))
+    r_idx, p_gw = pairs[:, 0].astype(np.int64), pairs[:, 1].astype(np.int64)
+    p_k, p_scale, p_rate = g_k[r_idx], rows[r_idx, 1], rows[r_idx, 3]
+    relamped = p_gw < weeks
     # After a group relamp the position holds a new lamp: N_0(w) = M(w), the renewal
     # function, scaled per position (M_eta(t) = M_1(t / eta), see forecasting.spot_replacements).
-    after = np.zeros((n, h1))
+    after = np.zeros((pairs.shape[0], h1))
     steps = np.arange(h1, dtype=float)[None, :]
-    for kk in np.unique(k[relamped]).tolist():
-        sel = np.nonzero((k == kk) & relamped)[0]
-        pairs, inv = unique_rows(np.column_stack([scale[sel], rate[sel]]))
-        u = pairs[:, 1][:, None] * steps / pairs[:, 0][:, None]  # scales to each boundary
-        curve = weibull_renewal(float(shape[kk]), 1.0, float(u.max()) * 1.0001 + 1e-9, 1000)
-        after[sel] = curve.at(u)[inv]
-    return before[member], after
+    for kk in np.unique(p_k[relamped]).tolist():
+        sel = np.nonzero((p_k == kk) & relamped)[0]
+        u = p_rate[sel][:, None] * steps / p_scale[sel][:, None]  # scales to each boundary
+        curve = demand.renewal_reaching(float(shape[kk]), float(u.max()))
+        after[sel] = curve.at(u)
+    cum: FloatArray = demand.cumulative_with_group(before[r_idx], after, p_gw)[pm]
+    return cum
 
 
 def storeroom_demand(

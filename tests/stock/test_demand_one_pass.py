@@ -25,7 +25,7 @@ from service.register.models import LampPosition, Site
 from service.reliability import poisson_binomial
 from service.seed.loader import load_demo
 from service.stock import demand
-from service.stock.forecast import group_weeks, position_cumulative
+from service.stock.forecast import alike_cumulative, group_weeks, position_cumulative
 from service.workorders.repository import last_group_relamps
 from tests import factories as fx
 
@@ -150,3 +150,16 @@ def test_weekly_exact_quantiles_match_the_dft_and_scipy() -> None:
         got = poisson_binomial.quantiles_exact(big, level)
         want = [demand.quantile_exact(big[:, w], level) for w in range(26)]
         assert got.tolist() == want
+
+
+def test_the_middle_node_is_the_nominal_pass() -> None:
+    # The mixture's middle node (z = 0) is the nominal scale: its curves stand in for the
+    # nominal pass (stock.forecast.alike_cumulative), group relamps included.
+    shape, k, scale, age, rate = _fleet(600, 11)
+    scale, age = np.round(scale, -2), np.round(age, -2)  # repeats, as a fixture's lamps
+    gw = np.random.default_rng(3).choice([0, 5, 30, WEEKS], age.size).astype(np.int64)
+    sd = np.full(age.size, 0.246)
+    _, nominal = demand.node_passes(shape, k, scale, age, rate, WEEKS, gw, sd, k)
+    want = alike_cumulative(shape, k, scale, age, rate, WEEKS, gw)
+    assert nominal is not None
+    np.testing.assert_allclose(nominal, want, rtol=1e-9, atol=1e-12)
