@@ -4,9 +4,10 @@ The site: 200 areas, 50,000 fixtures with 2 lamps each (3 lamp types), a year of
 area burn-hour records (73,000 rows) and a monthly voltage reading per area. The timed part
 is GET /api/v1/forecasts/sites/{id} through FastAPI's TestClient on a fresh app: every query,
 the position ages, fleet evaluation, per-position renewal and crossing dates. Scratch
-databases only (bench_forecast), never the test database.
+databases only (bench_forecast, or --pg-url's), never the test database.
 
 Run: python benchmarks/bench_forecast.py [sqlite|postgresql|both] [--sizes 5000,50000] [--quick]
+[--pg-url postgresql+psycopg://postgres@127.0.0.1:5432/bench_NAME] (default bench_forecast).
 P6: 100,000 positions (target <= 1 s); P8: the same at the other sizes (growth). Beside it,
 the ages phase (readings.ages.position_ages of the site: its queries and arithmetic) against
 a bare fetch of its main rows in the same run (the positions query, driver tuples into
@@ -41,14 +42,18 @@ RUNS = 3
 
 
 def prepare(url: str) -> None:
-    """Fresh schema by the migrations."""
+    """Fresh schema by the migrations (on PostgreSQL the url's database dropped and made anew)."""
     from sqlalchemy import create_engine, text
+    from sqlalchemy.engine import make_url
 
     if url.startswith("postgresql"):
+        name = make_url(url).database
+        if not name or not name.replace("_", "").isalnum():
+            raise SystemExit(f"refusing database name {name!r}: letters, digits and _ only")
         admin = create_engine(PG_ADMIN, isolation_level="AUTOCOMMIT")
         with admin.connect() as c:
-            c.execute(text("DROP DATABASE IF EXISTS bench_forecast"))
-            c.execute(text("CREATE DATABASE bench_forecast"))
+            c.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
+            c.execute(text(f'CREATE DATABASE "{name}"'))
         admin.dispose()
     from service.db.session import make_engine
     from tests.conftest import migrate
@@ -294,6 +299,9 @@ def main() -> int:
     ap = parser(__doc__, default_repeats=RUNS)
     ap.add_argument("db", nargs="?", default="both", choices=["sqlite", "postgresql", "both"])
     ap.add_argument("--sizes", default="5000,50000", help="fixtures per run (2 lamps each)")
+    ap.add_argument(
+        "--pg-url", default=PG_URL, help="scratch PostgreSQL database (dropped and recreated)"
+    )
     args = ap.parse_args()
     sizes = [200] if args.quick else [int(x) for x in args.sizes.split(",")]
     repeats = 1 if args.quick else args.repeats
@@ -305,7 +313,7 @@ def main() -> int:
                 url = f"sqlite:///{tmp}/bench_forecast.sqlite3"
                 run("sqlite", url, table, n, repeats, "<= 1 s")
         if which in ("postgresql", "both"):
-            run("postgresql", PG_URL, table, n, repeats, "<= 1 s")
+            run("postgresql", args.pg_url, table, n, repeats, "<= 1 s")
     table.finish(args.json)
     return 0
 
