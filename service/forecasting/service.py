@@ -45,6 +45,7 @@ from service.forecasting.fit import load_fitted_types
 from service.forecasting.ranges import ParamSpread, param_spread
 from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
+from service.reliability.uncertainty import CountRange
 from service.register.models import Area, Site
 from service.reliability.dirt import maintained_light
 from service.reliability.fleet import FleetResult, evaluate_fleet
@@ -165,7 +166,15 @@ def evaluate_positions(
     )
 
 
-def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
+def _live(pf: PositionForecast, sel: Any = slice(None)) -> IntArray:
+    """The burning positions of a selection as ascending indices: the same elements in the
+    same order as a full-length mask would select, without a pass over every position."""
+    live: IntArray = np.arange(pf.ages.size)[sel][~pf.ages.burned_out[sel]]
+    return live
+
+
+def _summary(pf: PositionForecast, sel: Any = slice(None), rng: CountRange | None = None) -> Summary:
+    """Aggregates of the selected positions; rng: their burnout range if already computed."""
     dark = pf.ages.burned_out[sel]
     n = int(dark.size)
     burning = ~dark
@@ -175,10 +184,7 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         return float(x.mean()) if x.size else 0.0
 
     p_fail = pf.p_fail[sel]
-    # The burning positions as ascending indices: the same elements in the same order as
-    # a full-length mask would select, without a pass over every position per area.
-    live = np.arange(pf.ages.size)[sel][burning]
-    rng = pf.spread.count(pf.p_fail, live)
+    rng = pf.spread.count(pf.p_fail, _live(pf, sel)) if rng is None else rng
     return Summary(
         positions=n,
         burning=nb,
@@ -336,6 +342,8 @@ def forecast(
 
     areas: list[AreaForecast] = []
     members = _positions_by_row(group)  # each area's positions, ascending (one sort)
+    # Every area's burnout range and the scope's in one batch (the same ranges as one by one).
+    ranges = pf.spread.counts([*(_live(pf, m[1]) for m in members), _live(pf)])
     for g, a in enumerate(area_ids.tolist()):
         zone = ZoneInfo(info[a][4])
         areas.append(
@@ -347,14 +355,14 @@ def forecast(
                 burnout_ceiling=info[a][3],
                 light_floor_date=_to_date(at, float(floor_h[g]), float(rate[g]), zone),
                 burnout_ceiling_date=_to_date(at, float(ceil_h[g]), float(rate[g]), zone),
-                summary=_summary(pf, members[g][1]),
+                summary=_summary(pf, members[g][1], ranges[g]),
             )
         )
     return Forecast(
         at=at.astimezone(ZoneInfo(zone_name)),
         horizon_weeks=horizon_weeks,
         time_zone=zone_name,
-        summary=_summary(pf),
+        summary=_summary(pf, rng=ranges[-1]),
         areas=areas,
         curves=curves,
         positions=pf,
