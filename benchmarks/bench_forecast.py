@@ -205,10 +205,14 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
     print(f"[{label}] load: {time.perf_counter() - t:.1f} s ({N_FIXTURES * LAMPS:,} positions)")
     os.environ["LAMPKEEPER_DATABASE_URL"] = url
     from fastapi.testclient import TestClient
+    from sqlalchemy.orm import Session
 
     from service.config import get_settings
     from service.db.session import get_engine
     from service.main import create_app
+    from service.readings.ages import positions_select
+    from service.readings.repository import rows_matrix
+    from service.register.models import Fixture
 
     get_settings.cache_clear()
     get_engine.cache_clear()
@@ -227,14 +231,20 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
         answers.append(r)
 
     positions = N_FIXTURES * LAMPS
-    table.timed(
-        "P6" if positions == 100_000 else "P8",
-        f"site forecast via API, {positions:,} positions, {label}",
-        call,
-        repeats=repeats,
-        target=target if positions == 100_000 else "linear growth",
-    )
+    with Session(get_engine()) as s:
+        cond = [Fixture.site_id == site_id, Fixture.retired_at.is_(None)]
+        dialect = s.connection().dialect.name
+        table.timed(
+            "P6" if positions == 100_000 else "P8",
+            f"site forecast via API, {positions:,} positions, {label}",
+            call,
+            anchor="bare fetch of the positions rows",
+            anchor_fn=lambda: rows_matrix(s, positions_select(cond, dialect), 11),
+            repeats=repeats,
+            target=target if positions == 100_000 else "linear growth",
+        )
     ages_phase(label, table, site_id, repeats)
+    phases(label, site_id, repeats)
     peak_memory(label, call)
     body = answers[-1].json()
     s = body["summary"]
@@ -277,6 +287,63 @@ def ages_phase(label: str, table: Table, site_id: int, repeats: int) -> None:
             anchor_fn=lambda: rows_matrix(s, positions_select(cond, dialect), 11),
             repeats=repeats,
         )
+
+
+def phases(label: str, site_id: int, repeats: int) -> None:
+    """The forecast's phases one by one in one session (medians): where the time goes."""
+    import statistics
+
+    from sqlalchemy.orm import Session
+
+    from service.db.session import get_engine
+
+    times: dict[str, list[float]] = {}
+    with Session(get_engine()) as s:
+        for _ in range(max(1, repeats)):
+            _phase_pass(s, site_id, times)
+    split = ", ".join(f"{k} {statistics.median(v) * 1e3:.0f} ms" for k, v in times.items())
+    print(f"[{label}] phases (medians of {max(1, repeats)}): {split}")
+
+
+def _phase_pass(s: Any, site_id: int, times: dict[str, list[float]]) -> None:
+    """One forecast's phases: ages, types and evaluation, ranges, crossings, JSON encoding."""
+    import numpy as np
+
+    from service.forecasting import router
+    from service.forecasting import service as fc
+    from service.forecasting.crossings import crossings, positions_by_row
+    from service.forecasting.dirt import position_dirt
+    from service.forecasting.fit import load_fitted_types
+    from service.readings.ages import position_ages
+
+    at = datetime(2026, 1, 1, tzinfo=UTC)
+
+    def timed(name: str, fn: Any) -> Any:
+        t0 = time.perf_counter()
+        out = fn()
+        times.setdefault(name, []).append(time.perf_counter() - t0)
+        return out
+
+    ages = timed("ages", lambda: position_ages(s, site_id=site_id, at=at, active_only=True))
+
+    def evaluate() -> Any:
+        types = load_fitted_types(
+            s, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind
+        )
+        return types, fc.evaluate_positions(ages, types, 13.0, position_dirt(s, ages, at))
+
+    types, pf = timed("evaluate", evaluate)
+    _, inverse = np.unique(ages.area_id, return_inverse=True)
+    group = np.asarray(inverse, dtype=np.int64).ravel()
+    members = positions_by_row(group)
+    sels = [*(fc._live(pf, m[1]) for m in members), fc._live(pf)]
+    timed("ranges", lambda: pf.spread.counts(sels))
+    n_g = len(members)
+    rate = np.bincount(group, weights=ages.burn_h_per_week) / np.bincount(group)
+    limits = (np.full(n_g, 0.8), np.full(n_g, 0.15))  # the bench areas' floor and ceiling
+    timed("crossings", lambda: crossings(pf, types, group, *limits, rate))
+    f = fc.forecast(s, site_id=site_id, horizon_weeks=13.0, at=at)
+    timed("encode", lambda: router._read(f, "site", site_id, False).model_dump_json())
 
 
 def peak_memory(label: str, call: Any) -> None:

@@ -61,7 +61,9 @@ class PositionDirt:
                 return self.factor(hours_ahead_by_area[self.area_row])
             h = np.asarray(hours_ahead_by_area, dtype=np.float64)[area_row]
             t = self.cleaned_ago_y[rows] + h * self.years_per_burn_h[rows]
-            return lmf_interp(self.columns, years_since_cleaning(t, self.interval_y[rows]), area_row)
+            return lmf_interp(
+                self.columns, years_since_cleaning(t, self.interval_y[rows]), area_row
+            )
         ago, interval, y_per_h = per_area
         t = ago + hours_ahead_by_area * y_per_h
         all_rows = np.arange(self.columns.shape[0])

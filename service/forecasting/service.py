@@ -47,9 +47,9 @@ from service.forecasting.fit import load_fitted_types
 from service.forecasting.ranges import ParamSpread, param_spread
 from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
-from service.reliability.uncertainty import CountRange
 from service.register.models import Area, Site
 from service.reliability.fleet import FleetResult, evaluate_fleet
+from service.reliability.uncertainty import CountRange
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -172,7 +172,9 @@ def _live(pf: PositionForecast, sel: Any = slice(None)) -> IntArray:
     return live
 
 
-def _summary(pf: PositionForecast, sel: Any = slice(None), rng: CountRange | None = None) -> Summary:
+def _summary(
+    pf: PositionForecast, sel: Any = slice(None), rng: CountRange | None = None
+) -> Summary:
     """Aggregates of the selected positions; rng: their burnout range if already computed."""
     dark = pf.ages.burned_out[sel]
     n = int(dark.size)

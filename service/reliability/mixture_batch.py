@@ -198,9 +198,7 @@ def build_items(fleet: FleetCurves, selections: Sequence[IntArray]) -> Items:
     if not mixes:
         z = np.zeros(0, np.int64)
         return Items(z, z, np.zeros(0), z, [], np.zeros((0, 2), np.int64), np.zeros((0, 3)))
-    return Items(
-        cat(sel_l), cat(grp_l), cat(w_l), cat(n_l), mixes, cat(spans_l), cat(stats_l)
-    )
+    return Items(cat(sel_l), cat(grp_l), cat(w_l), cat(n_l), mixes, cat(spans_l), cat(stats_l))
 
 
 def count_mixtures(

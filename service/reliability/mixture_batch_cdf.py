@@ -138,7 +138,9 @@ def _block_cdfs(
     """Mixture._fine_cdf_at for jobs of one fine-grid size, edges padded to the longest."""
     j, m = len(edges), max(e.size for e in edges)
     pad = np.stack([np.concatenate((e, np.full(m - e.size, e[-1]))) for e in edges])  # (J, M)
-    mu, var, third = (np.stack([getattr(x, a)[:, 0] for x in fine]) for a in ("mean", "var", "third"))
+    mu, var, third = (
+        np.stack([getattr(x, a)[:, 0] for x in fine]) for a in ("mean", "var", "third")
+    )
     regime = mx.poisson_regime(mu, var) & (var > 1e-12) & (pad[:, -1:] >= 0)  # (J, F)
     g = np.empty((j, mu.shape[1], m))
     rest = ~regime
@@ -209,7 +211,9 @@ def quantiles(mixtures: Sequence[mx.Mixture], level: float) -> IntArray:
 def _bisect(mixtures: list[mx.Mixture], level: float) -> IntArray:
     """Bisection of the refined-normal mixture CDFs (one fine-grid size), all at once."""
     fine = [m.fine for m in mixtures if m.fine is not None]
-    mu, var, third = (np.stack([getattr(x, a)[:, 0] for x in fine]) for a in ("mean", "var", "third"))
+    mu, var, third = (
+        np.stack([getattr(x, a)[:, 0] for x in fine]) for a in ("mean", "var", "third")
+    )
     w = mixtures[0].w_fine
     assert w is not None
     lo = np.full(len(mixtures), -1, dtype=np.int64)
@@ -270,7 +274,9 @@ def binned_quantiles(selections: Sequence[Sequence[Item]], tail: float) -> list[
     Each selection: its items, grouped by group, in order.
     """
     plans = [_plan(items) for items in selections]
-    jobs = [(m, e) for plan in plans for g in plan.groups for _, m, e, _ in g.items if m.pmf is None]
+    jobs = [
+        (m, e) for plan in plans for g in plan.groups for _, m, e, _ in g.items if m.pmf is None
+    ]
     cdfs = iter(rna_binned_cdfs(jobs))
     parts: list[list[FloatArray]] = []
     for plan in plans:
