@@ -125,11 +125,43 @@ def _rna_rows(k: FloatArray, mu: FloatArray, var: FloatArray, third: FloatArray)
     return g
 
 
+def _poisson_settled(lm: FloatArray) -> int:
+    """A count past which every row's running Poisson sum no longer changes, exactly.
+
+    Past the mean the pmf falls with k; once it is below 2^-55 (log below -38.1) and the
+    sum is at least 1/2 (true past the mean: the median is above mean - ln 2), adding it
+    rounds back to the same float, and so does every later, smaller term. k = mean + 12 sd
+    + 40 is checked to be there; a row that is not (none expected) keeps the full length.
+    """
+    k = np.ceil(lm + 12.0 * np.sqrt(lm) + 40.0)
+    log_pmf = k * np.log(lm) - lm - gammaln(k + 1.0)
+    if not bool(np.all(log_pmf < -40.0)):
+        return 1 << 62
+    return int(k.max())
+
+
 def _poisson_rows(lm: FloatArray, top: int) -> FloatArray:
     """Running sums of the Poisson pmf at each row's mean over 0..top (mixture.py's own)."""
     ks = np.arange(top + 1, dtype=np.float64)
     log_pmf = ks[None, :] * np.log(lm[:, None]) - lm[:, None] - gammaln(ks + 1.0)[None, :]
     return np.cumsum(np.exp(log_pmf), axis=1)
+
+
+def _fill_poisson(
+    g: FloatArray, regime: NDArray[np.bool_], mu: FloatArray, pad: FloatArray
+) -> None:
+    """g's Poisson-regime rows (J, F, M): each row's running Poisson sum at its job's edges."""
+    jj, ff = np.nonzero(regime)  # row-major: each job's rows are consecutive
+    lm = mu[regime]
+    top = min(int(pad.max()), _poisson_settled(lm))
+    cdf_p = _poisson_rows(lm, max(top, 0))
+    bounds = np.searchsorted(jj, np.arange(g.shape[0] + 1))
+    for i in np.unique(jj).tolist():
+        b0, b1 = int(bounds[i]), int(bounds[i + 1])
+        idx = pad[i].astype(np.int64)
+        vals = cdf_p[b0:b1][:, np.clip(idx, 0, top)]
+        vals[:, idx < 0] = 0.0
+        g[i, ff[b0:b1]] = vals
 
 
 def _block_cdfs(
@@ -148,11 +180,7 @@ def _block_cdfs(
         jj = np.nonzero(rest)[0]
         g[rest] = _rna_rows(pad[jj], mu[rest], var[rest], third[rest])
     if regime.any():
-        jj = np.nonzero(regime)[0]
-        idx = pad.astype(np.int64)[jj]  # (R, M)
-        cdf_p = _poisson_rows(mu[regime], int(idx.max()))
-        hit = np.take_along_axis(cdf_p, np.maximum(idx, 0), axis=1)
-        g[regime] = np.where(idx >= 0, hit, 0.0)
+        _fill_poisson(g, regime, mu, pad)
     cdf = np.einsum("f,jfm->jm", w_fine, g)
     return [cdf[i, : e.size] for i, e in enumerate(edges)]
 
