@@ -14,7 +14,7 @@ rows, the same spans, bins, convolution and quantiles); the array work is shared
   pmf unchanged, and a deeper truncation leaves the lower counts unchanged;
 - the refined-normal CDF at every item's bin edges in one flat evaluation, and the Poisson
   rows' running sums in padded blocks (mixture_batch_cdf.py);
-- the lamp types' convolutions by batched FFT (mixture_batch_cdf.convolve_many).
+- the lamp types' convolutions by batched FFT (mixture_batch_bins.convolve_many).
 
 Results equal count_mixture's up to floating-point summation order (checked selection by
 selection in tests/unit/reliability/test_mixture_batch.py).
@@ -31,6 +31,7 @@ from numpy.typing import NDArray
 
 from service.reliability import mixture as mx
 from service.reliability import mixture_batch_cdf as bc
+from service.reliability.mixture_batch_bins import binned_quantiles
 from service.reliability.uncertainty import (
     FORECAST_EXACT_BUDGET,
     MIXTURE_METHOD,
@@ -219,7 +220,7 @@ def count_mixtures(
         low[single] = bc.quantiles(only, tail)
         high[single] = bc.quantiles(only, 1.0 - tail)
     if many:
-        lo_hi = bc.binned_quantiles(
+        lo_hi = binned_quantiles(
             [
                 [
                     (int(items.grp[i]), float(items.node_w[i]), items.mixtures[i], items.spans[i])
