@@ -4,9 +4,10 @@ The site: 200 areas, 50,000 fixtures with 2 lamps each (3 lamp types), a year of
 area burn-hour records (73,000 rows) and a monthly voltage reading per area. The timed part
 is GET /api/v1/forecasts/sites/{id} through FastAPI's TestClient on a fresh app: every query,
 the position ages, fleet evaluation, per-position renewal and crossing dates. Scratch
-databases only (bench_forecast), never the test database.
+databases only (bench_forecast, or --pg-url's), never the test database.
 
 Run: python benchmarks/bench_forecast.py [sqlite|postgresql|both] [--sizes 5000,50000] [--quick]
+[--pg-url postgresql+psycopg://postgres@127.0.0.1:5432/bench_NAME] (default bench_forecast).
 P6: 100,000 positions (target <= 1 s); P8: the same at the other sizes (growth). Beside it,
 the ages phase (readings.ages.position_ages of the site: its queries and arithmetic) against
 a bare fetch of its main rows in the same run (the positions query, driver tuples into
@@ -41,14 +42,18 @@ RUNS = 3
 
 
 def prepare(url: str) -> None:
-    """Fresh schema by the migrations."""
+    """Fresh schema by the migrations (on PostgreSQL the url's database dropped and made anew)."""
     from sqlalchemy import create_engine, text
+    from sqlalchemy.engine import make_url
 
     if url.startswith("postgresql"):
+        name = make_url(url).database
+        if not name or not name.replace("_", "").isalnum():
+            raise SystemExit(f"refusing database name {name!r}: letters, digits and _ only")
         admin = create_engine(PG_ADMIN, isolation_level="AUTOCOMMIT")
         with admin.connect() as c:
-            c.execute(text("DROP DATABASE IF EXISTS bench_forecast"))
-            c.execute(text("CREATE DATABASE bench_forecast"))
+            c.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
+            c.execute(text(f'CREATE DATABASE "{name}"'))
         admin.dispose()
     from service.db.session import make_engine
     from tests.conftest import migrate
@@ -200,10 +205,14 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
     print(f"[{label}] load: {time.perf_counter() - t:.1f} s ({N_FIXTURES * LAMPS:,} positions)")
     os.environ["LAMPKEEPER_DATABASE_URL"] = url
     from fastapi.testclient import TestClient
+    from sqlalchemy.orm import Session
 
     from service.config import get_settings
     from service.db.session import get_engine
     from service.main import create_app
+    from service.readings.ages import positions_select
+    from service.readings.repository import rows_matrix
+    from service.register.models import Fixture
 
     get_settings.cache_clear()
     get_engine.cache_clear()
@@ -222,14 +231,20 @@ def run(label: str, url: str, table: Table, fixtures: int, repeats: int, target:
         answers.append(r)
 
     positions = N_FIXTURES * LAMPS
-    table.timed(
-        "P6" if positions == 100_000 else "P8",
-        f"site forecast via API, {positions:,} positions, {label}",
-        call,
-        repeats=repeats,
-        target=target if positions == 100_000 else "linear growth",
-    )
+    with Session(get_engine()) as s:
+        cond = [Fixture.site_id == site_id, Fixture.retired_at.is_(None)]
+        dialect = s.connection().dialect.name
+        table.timed(
+            "P6" if positions == 100_000 else "P8",
+            f"site forecast via API, {positions:,} positions, {label}",
+            call,
+            anchor="bare fetch of the positions rows",
+            anchor_fn=lambda: rows_matrix(s, positions_select(cond, dialect), 11),
+            repeats=repeats,
+            target=target if positions == 100_000 else "linear growth",
+        )
     ages_phase(label, table, site_id, repeats)
+    phases(label, site_id, repeats)
     peak_memory(label, call)
     body = answers[-1].json()
     s = body["summary"]
@@ -274,6 +289,63 @@ def ages_phase(label: str, table: Table, site_id: int, repeats: int) -> None:
         )
 
 
+def phases(label: str, site_id: int, repeats: int) -> None:
+    """The forecast's phases one by one in one session (medians): where the time goes."""
+    import statistics
+
+    from sqlalchemy.orm import Session
+
+    from service.db.session import get_engine
+
+    times: dict[str, list[float]] = {}
+    with Session(get_engine()) as s:
+        for _ in range(max(1, repeats)):
+            _phase_pass(s, site_id, times)
+    split = ", ".join(f"{k} {statistics.median(v) * 1e3:.0f} ms" for k, v in times.items())
+    print(f"[{label}] phases (medians of {max(1, repeats)}): {split}")
+
+
+def _phase_pass(s: Any, site_id: int, times: dict[str, list[float]]) -> None:
+    """One forecast's phases: ages, types and evaluation, ranges, crossings, JSON encoding."""
+    import numpy as np
+
+    from service.forecasting import router
+    from service.forecasting import service as fc
+    from service.forecasting.crossings import crossings, positions_by_row
+    from service.forecasting.dirt import position_dirt
+    from service.forecasting.fit import load_fitted_types
+    from service.readings.ages import position_ages
+
+    at = datetime(2026, 1, 1, tzinfo=UTC)
+
+    def timed(name: str, fn: Any) -> Any:
+        t0 = time.perf_counter()
+        out = fn()
+        times.setdefault(name, []).append(time.perf_counter() - t0)
+        return out
+
+    ages = timed("ages", lambda: position_ages(s, site_id=site_id, at=at, active_only=True))
+
+    def evaluate() -> Any:
+        types = load_fitted_types(
+            s, ages.lamp_type_id, field_fit=True, ballast_kinds=ages.ballast_kind
+        )
+        return types, fc.evaluate_positions(ages, types, 13.0, position_dirt(s, ages, at))
+
+    types, pf = timed("evaluate", evaluate)
+    _, inverse = np.unique(ages.area_id, return_inverse=True)
+    group = np.asarray(inverse, dtype=np.int64).ravel()
+    members = positions_by_row(group)
+    sels = [*(fc._live(pf, m[1]) for m in members), fc._live(pf)]
+    timed("ranges", lambda: pf.spread.counts(sels))
+    n_g = len(members)
+    rate = np.bincount(group, weights=ages.burn_h_per_week) / np.bincount(group)
+    limits = (np.full(n_g, 0.8), np.full(n_g, 0.15))  # the bench areas' floor and ceiling
+    timed("crossings", lambda: crossings(pf, types, group, *limits, rate))
+    f = fc.forecast(s, site_id=site_id, horizon_weeks=13.0, at=at)
+    timed("encode", lambda: router._read(f, "site", site_id, False).model_dump_json())
+
+
 def peak_memory(label: str, call: Any) -> None:
     """Peak traced memory of one forecast request, and the process's peak RSS so far."""
     import resource
@@ -294,6 +366,9 @@ def main() -> int:
     ap = parser(__doc__, default_repeats=RUNS)
     ap.add_argument("db", nargs="?", default="both", choices=["sqlite", "postgresql", "both"])
     ap.add_argument("--sizes", default="5000,50000", help="fixtures per run (2 lamps each)")
+    ap.add_argument(
+        "--pg-url", default=PG_URL, help="scratch PostgreSQL database (dropped and recreated)"
+    )
     args = ap.parse_args()
     sizes = [200] if args.quick else [int(x) for x in args.sizes.split(",")]
     repeats = 1 if args.quick else args.repeats
@@ -305,7 +380,7 @@ def main() -> int:
                 url = f"sqlite:///{tmp}/bench_forecast.sqlite3"
                 run("sqlite", url, table, n, repeats, "<= 1 s")
         if which in ("postgresql", "both"):
-            run("postgresql", PG_URL, table, n, repeats, "<= 1 s")
+            run("postgresql", args.pg_url, table, n, repeats, "<= 1 s")
     table.finish(args.json)
     return 0
 

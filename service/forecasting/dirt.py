@@ -49,16 +49,26 @@ class PositionDirt:
         t = self.cleaned_ago_y + np.asarray(hours_ahead, dtype=np.float64) * self.years_per_burn_h
         return lmf_interp(self.columns, years_since_cleaning(t, self.interval_y), self.area_row)
 
-    def factor_by_area(self, hours_ahead_by_area: FloatArray) -> FloatArray:
-        """Per position, with hours ahead given per area row (computed once per area if it can)."""
+    def factor_by_area(
+        self, hours_ahead_by_area: FloatArray, rows: IntArray | None = None
+    ) -> FloatArray:
+        """Per position (of `rows` only, if given), with hours ahead given per area row
+        (computed once per area if it can)."""
+        area_row = self.area_row if rows is None else self.area_row[rows]
         per_area = self._per_area
         if per_area is None:
-            return self.factor(hours_ahead_by_area[self.area_row])
+            if rows is None:
+                return self.factor(hours_ahead_by_area[self.area_row])
+            h = np.asarray(hours_ahead_by_area, dtype=np.float64)[area_row]
+            t = self.cleaned_ago_y[rows] + h * self.years_per_burn_h[rows]
+            return lmf_interp(
+                self.columns, years_since_cleaning(t, self.interval_y[rows]), area_row
+            )
         ago, interval, y_per_h = per_area
         t = ago + hours_ahead_by_area * y_per_h
-        rows = np.arange(self.columns.shape[0])
-        lmf = lmf_interp(self.columns, years_since_cleaning(t, interval), rows)
-        return lmf[self.area_row]
+        all_rows = np.arange(self.columns.shape[0])
+        lmf = lmf_interp(self.columns, years_since_cleaning(t, interval), all_rows)
+        return lmf[area_row]
 
     @cached_property
     def _per_area(self) -> tuple[FloatArray, FloatArray, FloatArray] | None:

@@ -17,6 +17,7 @@ undercovered at the catalogue prior's spread. Per lamp type, the parameters' unc
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -25,6 +26,7 @@ from numpy.typing import NDArray
 
 from service.catalogue.resolved import CurveInUse, TypeTable
 from service.reliability.credibility import SIGMA_LN_SCALE
+from service.reliability.mixture_batch import FleetCurves, count_mixtures
 from service.reliability.uncertainty import (
     CountRange,
     GroupCurve,
@@ -85,6 +87,20 @@ class ParamSpread:
                 )
             )
         return count_mixture(groups, LEVEL)
+
+    def counts(self, selections: Sequence[IntArray]) -> list[CountRange]:
+        """count() of many selections (ascending position indices) at once: the same ranges,
+        the shared array work done once (reliability/mixture_batch.py)."""
+        fleet = FleetCurves(
+            self.group,
+            self.age_h,
+            self.horizon_h,
+            self.shape,
+            self.scale_h,
+            self.sd_ln_shape,
+            self.sd_ln_scale,
+        )
+        return count_mixtures(fleet, selections, LEVEL)
 
 
 def _sds(curve: CurveInUse) -> tuple[float, float]:

@@ -23,7 +23,8 @@ lamp's voltage response follows its fixture's ballast kind, see catalogue.resolv
   spot-replaced, falls below Area.light_floor) and its burnout ceiling (share of positions
   whose current lamp has burned out if none were replaced, 1 - mean S(age + t), rises above
   Area.burnout_ceiling), found by bisection in burn hours and turned into dates with the
-  area's burn rate, in the site's time zone; None when not within CROSSING_YEARS.
+  area's burn rate, in the site's time zone; None when not within CROSSING_YEARS
+  (forecasting/crossings.py: one bisection over the areas still open, both limits).
 """
 
 from __future__ import annotations
@@ -40,20 +41,19 @@ from sqlalchemy.orm import Session
 
 from service.catalogue.resolved import CurveInUse, TypeTable
 from service.db.base import utcnow
+from service.forecasting.crossings import crossings, positions_by_row
 from service.forecasting.dirt import PositionDirt, no_dirt, position_dirt
 from service.forecasting.fit import load_fitted_types
 from service.forecasting.ranges import ParamSpread, param_spread
 from service.forecasting.spot_replacements import expected_replacements
 from service.readings.ages import PositionAges, position_ages
 from service.register.models import Area, Site
-from service.reliability.dirt import maintained_light
 from service.reliability.fleet import FleetResult, evaluate_fleet
+from service.reliability.uncertainty import CountRange
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-CROSSING_YEARS = 10.0  # look this far ahead for floor and ceiling crossings
-_BISECT = 40
 _H_PER_WEEK = 168.0
 
 
@@ -165,7 +165,17 @@ def evaluate_positions(
     )
 
 
-def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
+def _live(pf: PositionForecast, sel: Any = slice(None)) -> IntArray:
+    """The burning positions of a selection as ascending indices: the same elements in the
+    same order as a full-length mask would select, without a pass over every position."""
+    live: IntArray = np.arange(pf.ages.size)[sel][~pf.ages.burned_out[sel]]
+    return live
+
+
+def _summary(
+    pf: PositionForecast, sel: Any = slice(None), rng: CountRange | None = None
+) -> Summary:
+    """Aggregates of the selected positions; rng: their burnout range if already computed."""
     dark = pf.ages.burned_out[sel]
     n = int(dark.size)
     burning = ~dark
@@ -175,10 +185,7 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         return float(x.mean()) if x.size else 0.0
 
     p_fail = pf.p_fail[sel]
-    # The burning positions as ascending indices: the same elements in the same order as
-    # a full-length mask would select, without a pass over every position per area.
-    live = np.arange(pf.ages.size)[sel][burning]
-    rng = pf.spread.count(pf.p_fail, live)
+    rng = pf.spread.count(pf.p_fail, _live(pf, sel)) if rng is None else rng
     return Summary(
         positions=n,
         burning=nb,
@@ -196,82 +203,6 @@ def _summary(pf: PositionForecast, sel: Any = slice(None)) -> Summary:
         burnouts_low=rng.low,
         burnouts_high=rng.high,
     )
-
-
-def _light_at(
-    pf: PositionForecast,
-    types: TypeTable,
-    tau: FloatArray,
-    by_row: list[tuple[int, IntArray]],
-    dirt: FloatArray,
-) -> FloatArray:
-    """Maintained light of each position tau burn hours ahead (dark: new lamp), dirt given."""
-    age = np.where(pf.ages.burned_out, 0.0, pf.ages.age_h) + tau
-    worn = pf.fleet.effective_age_h + tau  # filament curves follow the life used (exposure)
-    out = np.empty(age.size)
-    for j, idx in by_row:
-        curve = types.table.lumen_curves[j]
-        if curve.basis == "rated_life_fraction":
-            out[idx] = curve.at(worn[idx], pf.fleet.life_h[idx])
-        else:
-            out[idx] = curve.at(age[idx], None)
-    return maintained_light(out, pf.fleet.light_factor, dirt)
-
-
-def _burned_share_at(pf: PositionForecast, beta: FloatArray, tau: FloatArray) -> FloatArray:
-    """1 where dark, else F(age + tau): the lamp burned out by then if none replaced."""
-    # the wear so far is the accumulated exposure (effective age at today's supply)
-    f = -np.expm1(-np.power((pf.fleet.effective_age_h + tau) / pf.fleet.scale_h, beta))
-    return np.where(pf.ages.burned_out, 1.0, f)
-
-
-def _positions_by_row(type_row: IntArray) -> list[tuple[int, IntArray]]:
-    """(type row, positions of that row) pairs: one sort instead of a scan per row per step."""
-    order = np.argsort(type_row, kind="stable")
-    rows, starts = np.unique(type_row[order], return_index=True)
-    bounds = [*starts.tolist(), int(type_row.size)]
-    return [(int(r), order[bounds[i] : bounds[i + 1]]) for i, r in enumerate(rows.tolist())]
-
-
-def _crossings(
-    pf: PositionForecast,
-    types: TypeTable,
-    group: IntArray,
-    n_groups: int,
-    limit: FloatArray,
-    rate_week: FloatArray,
-    kind: str,
-) -> FloatArray:
-    """Burn hours ahead at which each group crosses its limit (NaN: none / not in range)."""
-    counts = np.maximum(np.bincount(group, minlength=n_groups), 1)
-    # Found once, not per bisection step (42 evaluations per kind).
-    by_row = _positions_by_row(pf.type_row) if kind == "light" else []
-    beta = types.table.shape[pf.type_row]
-
-    def metric(tau_g: FloatArray) -> FloatArray:
-        tau = tau_g[group]
-        if kind == "light":
-            vals = _light_at(pf, types, tau, by_row, pf.dirt.factor_by_area(tau_g))
-        else:
-            vals = _burned_share_at(pf, beta, tau)
-        return np.bincount(group, weights=vals, minlength=n_groups) / counts
-
-    def crossed(v: FloatArray) -> NDArray[np.bool_]:
-        return v < limit if kind == "light" else v >= limit
-
-    hi = rate_week * 52.18 * CROSSING_YEARS  # burn hours in the look-ahead span
-    valid = ~np.isnan(limit) & (hi > 0)
-    now = crossed(metric(np.zeros(n_groups)))
-    end = crossed(metric(hi))
-    lo = np.zeros(n_groups)
-    top = hi.copy()
-    for _ in range(_BISECT):
-        mid = 0.5 * (lo + top)
-        c = crossed(metric(mid))
-        top = np.where(c, mid, top)
-        lo = np.where(c, lo, mid)
-    out = np.where(now, 0.0, np.where(end, top, np.nan))
-    return np.where(valid, out, np.nan)
 
 
 def _to_date(at: datetime, hours_ahead: float, rate_week: float, zone: ZoneInfo) -> datetime | None:
@@ -331,11 +262,12 @@ def forecast(
         [np.nan if info[a][3] is None else info[a][3] for a in area_ids.tolist()], dtype=float
     )
     group = group.astype(np.int64)
-    floor_h = _crossings(pf, types, group, n_g, floor, rate, "light") if n_g else floor
-    ceil_h = _crossings(pf, types, group, n_g, ceiling, rate, "burnout") if n_g else ceiling
+    floor_h, ceil_h = crossings(pf, types, group, floor, ceiling, rate) if n_g else (floor, ceiling)
 
     areas: list[AreaForecast] = []
-    members = _positions_by_row(group)  # each area's positions, ascending (one sort)
+    members = positions_by_row(group)  # each area's positions, ascending (one sort)
+    # Every area's burnout range and the scope's in one batch (the same ranges as one by one).
+    ranges = pf.spread.counts([*(_live(pf, m[1]) for m in members), _live(pf)])
     for g, a in enumerate(area_ids.tolist()):
         zone = ZoneInfo(info[a][4])
         areas.append(
@@ -347,14 +279,14 @@ def forecast(
                 burnout_ceiling=info[a][3],
                 light_floor_date=_to_date(at, float(floor_h[g]), float(rate[g]), zone),
                 burnout_ceiling_date=_to_date(at, float(ceil_h[g]), float(rate[g]), zone),
-                summary=_summary(pf, members[g][1]),
+                summary=_summary(pf, members[g][1], ranges[g]),
             )
         )
     return Forecast(
         at=at.astimezone(ZoneInfo(zone_name)),
         horizon_weeks=horizon_weeks,
         time_zone=zone_name,
-        summary=_summary(pf),
+        summary=_summary(pf, rng=ranges[-1]),
         areas=areas,
         curves=curves,
         positions=pf,

@@ -235,7 +235,14 @@ def _load_records(
     own_fixtures = np.array(
         session.scalars(
             select(BurnHourRecord.fixture_id)
-            .where(in_scope(BurnHourRecord.fixture_id, fixture_scope))
+            # IS NOT NULL spelled out (IN never matches NULL, so the same rows): PostgreSQL
+            # then reads the few fixture records from their index instead of hashing every
+            # fixture in scope against every area record (70 ms to 0.1 ms at 100,000
+            # positions with area records only).
+            .where(
+                BurnHourRecord.fixture_id.is_not(None),
+                in_scope(BurnHourRecord.fixture_id, fixture_scope),
+            )
             .distinct()
         ).all(),
         dtype=np.int64,
