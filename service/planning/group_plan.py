@@ -379,7 +379,8 @@ def _distinct_problems(
     life and the three caps (ScaledProblems' columns); nothing else enters the search.
     """
     seen: dict[tuple[float | None, ...], int] = {}
-    rows, first = [], []
+    rows: list[int] = []
+    first: list[int] = []
     for k, (p, (_, costs, cond)) in enumerate(cases):
         key = (
             p.life.scale,
