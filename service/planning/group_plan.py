@@ -294,15 +294,22 @@ def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepar
         default_slope=model.switching_slope,
     )
     result: list[_Prepared | None] = [None] * len(conds)
-    lives: dict[int, tuple[Weibull, VoltageEffect, float, list[str]]] = {}
-    for i, cond in enumerate(conds):
+    # Conditions alike in what the voltage and the cycle made of them, and in the floor, dirt,
+    # burn rate and rupture fraction, share one _Prepared: _prepared reads nothing else.
+    lists = (life.tolist(), light.tolist(), power.tolist(), sw.tolist(), warn.tolist())
+    factors = zip(*lists, strict=True)
+    alike: dict[tuple[Any, ...], list[int]] = {}
+    for i, (cond, f) in enumerate(zip(conds, factors, strict=True)):
         if scalar[i]:
             result[i] = _prepare(model, cond)
             continue
-        ve = VoltageEffect(float(life[i]), float(light[i]), float(power[i]), ())
-        swf = float(sw[i])
-        words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warn[i])
-        lives[i] = (Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve, swf, words)
+        key = (*f, cond.light_floor, cond.dirt, cond.weekly_burn_hours, cond.rupture_fraction)
+        alike.setdefault(key, []).append(i)
+    lives: dict[int, tuple[Weibull, VoltageEffect, float, list[str]]] = {}
+    for (lf, light_f, power_f, swf, warned, *_), idx in alike.items():
+        ve = VoltageEffect(lf, light_f, power_f, ())
+        words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warned)
+        lives[idx[0]] = (Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve, swf, words)
     # Every light floor of this model in one pass (maintained.floor_hours_many).
     floored = [i for i in lives if conds[i].light_floor is not None]
     cases = [
@@ -317,8 +324,11 @@ def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepar
         for i in floored
     ]
     floors = dict(zip(floored, floor_hours_many(model, cases), strict=True))
-    for i, (scaled, ve, swf, words) in lives.items():
-        result[i] = _prepared(model, conds[i], scaled, ve, swf, words, floors.get(i))
+    for idx in alike.values():
+        scaled, ve, swf, words = lives[idx[0]]
+        shared = _prepared(model, conds[idx[0]], scaled, ve, swf, words, floors.get(idx[0]))
+        for i in idx:
+            result[i] = shared
     return [r for r in result if r is not None]
 
 
@@ -435,8 +445,12 @@ def plan_groups(
         # Alike groups (same scaled life, costs and caps) share one search: the rows are
         # solved independently, so a shared row is the very plan its own row would give.
         plans = plan_block_replacement_scaled(problems)
+        made: dict[tuple[int, int], GroupPlan] = {}  # one GroupPlan per (prepared, plan)
         for k, (i, p) in enumerate(zip(idx, ps, strict=True)):
-            out[i] = _group_plan(p, plans[rows[k]])
+            pair = (id(p), rows[k])
+            if pair not in made:
+                made[pair] = _group_plan(p, plans[rows[k]])
+            out[i] = made[pair]
     return [g for g in out if g is not None]
 
 
