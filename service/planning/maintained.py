@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -84,6 +85,7 @@ def luminaire_factor_in_cycle(
     return dirt.factor_after_relamp(_years(np.asarray(t_h, dtype=np.float64), weekly_h))
 
 
+@lru_cache(maxsize=256)  # pure in its two hashable arguments; alike areas ask it again
 def spot_only_luminaire_factor(dirt: DirtRegime | None, weekly_h: float) -> float:
     """Long-run mean luminaire factor without group visits (spot replacement only).
 

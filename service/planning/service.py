@@ -210,8 +210,8 @@ def group_sums(pos: PositionArrays, ballast: NDArray[np.str_]) -> GroupSums:
 
     # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
     kinds, kind_of = np.unique(ballast, return_inverse=True)
-    per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
-    np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
+    cell = inv * kinds.size + np.asarray(kind_of).ravel()  # (group, kind) as one index
+    per_kind = np.bincount(cell, minlength=ng * kinds.size).reshape(ng, kinds.size)
     return GroupSums(
         area_id=uniq[:, 0].astype(np.int64),
         lamp_type_id=uniq[:, 1].astype(np.int64),
