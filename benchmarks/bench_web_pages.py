@@ -9,7 +9,8 @@ area's relamp plan and forecast) and a bare SQL count of the fixtures.
 
 Rows G1 (overview) and G2 (area page), target at most 1 s each; G3a-d the overview's phases
 (position ages, the rest of the portfolio plans, the weekly burnout chart, this year's
-spend), each beside the whole overview's server-side work measured in the same loop.
+spend), each beside the whole overview's server-side work measured in the same loop; G4
+one site's relamp plan through the API (target at most 0.4 s) beside its plans without a body.
 Run: python benchmarks/bench_web_pages.py [postgresql+psycopg://postgres@127.0.0.1:5432/bench_web]
 [--repeats N] [--quick] [--json PATH]. Add --profile to print the top of a cProfile of one
 overview (--profile-only: just that), --reuse to time an earlier run's database again
@@ -113,6 +114,7 @@ def main() -> int:
             return 0
         time_pages(table, client, api, sites, area_id, n_fix, median_s(sql_count, repeats), repeats)
         time_phases(table, engine, repeats)
+        time_one_site(table, client, api, engine, sites[0], repeats)
         if args.profile:
             profile(get(client, "/app"))
     engine.dispose()
@@ -226,6 +228,33 @@ def time_phases(table: Table, engine: Any, repeats: int) -> None:
                 repeats,
             )
         )
+
+
+def time_one_site(
+    table: Table, client: Any, api: dict[str, str], engine: Any, site_id: int, repeats: int
+) -> None:
+    """G4: one site's relamp plan through the API beside the same plans without a body."""
+    from service.planning import service as planning
+    from service.register.models import Site
+    from service.workorders.repository import last_group_relamps
+
+    def plans_only() -> None:
+        with Session(engine) as s:
+            site = s.get(Site, site_id)
+            planning.site_plans(s, site, last_relamps=last_group_relamps)
+
+    api_s = median_s(get(client, f"/api/v1/sites/{site_id}/relamp-plan", api), repeats)
+    table.add(
+        Row(
+            "G4",
+            f"one site's relamp plan, API /sites/{site_id}/relamp-plan",
+            api_s,
+            "the same site's plans in-process, no body",
+            median_s(plans_only, repeats),
+            repeats,
+            "<= 0.4 s",
+        )
+    )
 
 
 def profile(call: Callable[[], None]) -> None:

@@ -294,15 +294,22 @@ def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepar
         default_slope=model.switching_slope,
     )
     result: list[_Prepared | None] = [None] * len(conds)
-    lives: dict[int, tuple[Weibull, VoltageEffect, float, list[str]]] = {}
-    for i, cond in enumerate(conds):
+    # Conditions alike in what the voltage and the cycle made of them, and in the floor, dirt,
+    # burn rate and rupture fraction, share one _Prepared: _prepared reads nothing else.
+    lists = (life.tolist(), light.tolist(), power.tolist(), sw.tolist(), warn.tolist())
+    factors = zip(*lists, strict=True)
+    alike: dict[tuple[Any, ...], list[int]] = {}
+    for i, (cond, f) in enumerate(zip(conds, factors, strict=True)):
         if scalar[i]:
             result[i] = _prepare(model, cond)
             continue
-        ve = VoltageEffect(float(life[i]), float(light[i]), float(power[i]), ())
-        swf = float(sw[i])
-        words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warn[i])
-        lives[i] = (Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve, swf, words)
+        key = (*f, cond.light_floor, cond.dirt, cond.weekly_burn_hours, cond.rupture_fraction)
+        alike.setdefault(key, []).append(i)
+    lives: dict[int, tuple[Weibull, VoltageEffect, float, list[str]]] = {}
+    for (lf, light_f, power_f, swf, warned, *_), idx in alike.items():
+        ve = VoltageEffect(lf, light_f, power_f, ())
+        words = ["switching cycle outside the modelled range; life factor bounded"] * bool(warned)
+        lives[idx[0]] = (Weibull(model.shape, model.scale_h * ve.life_factor * swf), ve, swf, words)
     # Every light floor of this model in one pass (maintained.floor_hours_many).
     floored = [i for i in lives if conds[i].light_floor is not None]
     cases = [
@@ -317,8 +324,11 @@ def _prepare_many(model: LampModel, conds: Sequence[Conditions]) -> list[_Prepar
         for i in floored
     ]
     floors = dict(zip(floored, floor_hours_many(model, cases), strict=True))
-    for i, (scaled, ve, swf, words) in lives.items():
-        result[i] = _prepared(model, conds[i], scaled, ve, swf, words, floors.get(i))
+    for idx in alike.values():
+        scaled, ve, swf, words = lives[idx[0]]
+        shared = _prepared(model, conds[idx[0]], scaled, ve, swf, words, floors.get(idx[0]))
+        for i in idx:
+            result[i] = shared
     return [r for r in result if r is not None]
 
 
@@ -370,6 +380,34 @@ def _nan(v: float | None) -> float:
     return math.nan if v is None else float(v)
 
 
+def _distinct_problems(
+    cases: Sequence[tuple[_Prepared, tuple[LampModel, CostInputs, Conditions]]],
+) -> tuple[list[int], list[int]]:
+    """Each case's row among the distinct block problems, and each row's first case.
+
+    A problem on a shared unit curve is fixed by the scaled life, the two costs, the mean
+    life and the three caps (ScaledProblems' columns); nothing else enters the search.
+    """
+    seen: dict[tuple[float | None, ...], int] = {}
+    rows: list[int] = []
+    first: list[int] = []
+    for k, (p, (_, costs, cond)) in enumerate(cases):
+        key = (
+            p.life.scale,
+            costs.c_group,
+            costs.c_spot,
+            p.mean_h,
+            p.floor_h,  # None where not set (NaN would never equal itself in a key)
+            cond.burnout_ceiling,
+            p.cap_h,
+        )
+        row = seen.setdefault(key, len(seen))
+        if row == len(first):
+            first.append(k)
+        rows.append(row)
+    return rows, first
+
+
 def plan_groups(
     items: Sequence[tuple[LampModel, CostInputs, Conditions]],
 ) -> list[GroupPlan]:
@@ -391,19 +429,28 @@ def plan_groups(
             out[i] = plan_group(*items[i])
     for (shape, ratio), idx in by_unit.items():
         ps = [prepared[i] for i in idx]
-        costs = [items[i][1] for i in idx]
+        rows, first = _distinct_problems([(ps[k], items[i]) for k, i in enumerate(idx)])
+        uniq = first
+        costs = [items[idx[k]][1] for k in uniq]
         problems = ScaledProblems(
             unit=_unit_renewal(shape, ratio, RENEWAL_STEPS),
-            scale_h=np.array([p.life.scale for p in ps]),
+            scale_h=np.array([ps[k].life.scale for k in uniq]),
             c_group=np.array([c.c_group for c in costs]),
             c_spot=np.array([c.c_spot for c in costs]),
-            mean_life_h=np.array([p.mean_h for p in ps]),
-            light_floor_h=np.array([_nan(p.floor_h) for p in ps]),
-            burnout_ceiling=np.array([_nan(items[i][2].burnout_ceiling) for i in idx]),
-            rupture_cap_h=np.array([_nan(p.cap_h) for p in ps]),
+            mean_life_h=np.array([ps[k].mean_h for k in uniq]),
+            light_floor_h=np.array([_nan(ps[k].floor_h) for k in uniq]),
+            burnout_ceiling=np.array([_nan(items[idx[k]][2].burnout_ceiling) for k in uniq]),
+            rupture_cap_h=np.array([_nan(ps[k].cap_h) for k in uniq]),
         )
-        for i, p, plan in zip(idx, ps, plan_block_replacement_scaled(problems), strict=True):
-            out[i] = _group_plan(p, plan)
+        # Alike groups (same scaled life, costs and caps) share one search: the rows are
+        # solved independently, so a shared row is the very plan its own row would give.
+        plans = plan_block_replacement_scaled(problems)
+        made: dict[tuple[int, int], GroupPlan] = {}  # one GroupPlan per (prepared, plan)
+        for k, (i, p) in enumerate(zip(idx, ps, strict=True)):
+            pair = (id(p), rows[k])
+            if pair not in made:
+                made[pair] = _group_plan(p, plans[rows[k]])
+            out[i] = made[pair]
     return [g for g in out if g is not None]
 
 
@@ -424,11 +471,14 @@ class PlanCache:
 
     @staticmethod
     def key(model: LampModel, costs: CostInputs, cond: Conditions) -> tuple[Any, ...]:
-        """What a plan depends on (the lamp model's identity, the two costs, the conditions)."""
+        """What a plan depends on (the lamp model's identity and life, the two costs, the
+        conditions); the life's shape and scale tell a fit-bounds model from its type's."""
         return (
             model.lamp_type_id,
             model.code,
             model.ballast_behaviour,
+            model.shape,
+            model.scale_h,
             costs.c_group,
             costs.c_spot,
             cond,

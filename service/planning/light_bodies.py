@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-from service.planning.light_view import across_bounds, maintained_view
+from service.planning.light_view import FitBounds, MaintainedView, across_bounds, maintained_view
 from service.planning.schemas import CleaningOnlyRead, FitBoundsRead, MaintainedLightRead
 from service.planning.service import TypeGroup
 
 
-def maintained_read(g: TypeGroup) -> MaintainedLightRead:
-    """The maintained-light body of one lamp type's plan."""
-    v = maintained_view(g.model, g.costs, g.cond, g.group)
+def maintained_read(g: TypeGroup, view: MaintainedView | None = None) -> MaintainedLightRead:
+    """The maintained-light body of one lamp type's plan (view: computed already)."""
+    v = view or maintained_view(g.model, g.costs, g.cond, g.group)
     d = g.cond.dirt
     c = v.cleaning_only
     return MaintainedLightRead(
@@ -27,9 +27,10 @@ def maintained_read(g: TypeGroup) -> MaintainedLightRead:
     )
 
 
-def bounds_read(g: TypeGroup, per_year_h: float) -> FitBoundsRead:
-    """The plan's interval and yearly saving at the lower and upper scale bound."""
-    b = across_bounds(g.model, g.costs, g.cond, g.curve)
+def bounds_read(g: TypeGroup, per_year_h: float, found: FitBounds | None = None) -> FitBoundsRead:
+    """The plan's interval and yearly saving at the lower and upper scale bound (found:
+    computed already)."""
+    b = found or across_bounds(g.model, g.costs, g.cond, g.curve)
     lo, hi = b.lower.plan, b.upper.plan
     return FitBoundsRead(
         confidence=b.confidence,

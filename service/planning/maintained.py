@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -84,6 +85,7 @@ def luminaire_factor_in_cycle(
     return dirt.factor_after_relamp(_years(np.asarray(t_h, dtype=np.float64), weekly_h))
 
 
+@lru_cache(maxsize=256)  # pure in its two hashable arguments; alike areas ask it again
 def spot_only_luminaire_factor(dirt: DirtRegime | None, weekly_h: float) -> float:
     """Long-run mean luminaire factor without group visits (spot replacement only).
 
@@ -142,9 +144,23 @@ class FloorCase:
 
 def floor_hours_many(model: LampModel, cases: list[FloorCase]) -> list[float]:
     """floor_hours for many groups of one lamp model: one lumen-curve read for all of them
-    and one dirt read per regime, element by element the same numbers."""
+    and one dirt read per regime, element by element the same numbers.
+
+    Alike cases (equal life, floor, horizon, light factor, dirt and weekly hours: all that
+    floor_hours reads) are computed once.
+    """
     if not cases:
         return []
+    seen: dict[FloorCase, int] = {}
+    rows = [seen.setdefault(c, len(seen)) for c in cases]
+    if len(seen) < len(cases):
+        found = _floor_hours_distinct(model, list(seen))
+        return [found[r] for r in rows]
+    return _floor_hours_distinct(model, cases)
+
+
+def _floor_hours_distinct(model: LampModel, cases: list[FloorCase]) -> list[float]:
+    """floor_hours_many's computation, one row per case."""
     t = np.stack([np.linspace(0.0, c.horizon_h, _GRID) for c in cases])
     rated = model.lumen_curve.basis != "hours"
     life_h = np.array([c.life.scale * _LN2 ** (1.0 / c.life.shape) for c in cases])

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 from service.planning.energy import EnergyView
 from service.planning.light_bodies import bounds_read, maintained_read
+from service.planning.plan_views import PlanViews
 from service.planning.schemas import (
     AreaPlanRead,
     CatchUpRead,
@@ -17,8 +19,7 @@ from service.planning.service import WEEKS_PER_YEAR, AreaPlan, TypeGroup
 from service.planning.site_schedule import SiteSchedule
 
 
-def _energy(g: TypeGroup, per_year_h: float) -> EnergyViewRead | None:
-    ev = g.energy
+def _energy(ev: EnergyView | str, g: TypeGroup, per_year_h: float) -> EnergyViewRead | None:
     if not isinstance(ev, EnergyView):
         return None
     return EnergyViewRead(
@@ -47,8 +48,11 @@ def _energy(g: TypeGroup, per_year_h: float) -> EnergyViewRead | None:
     )
 
 
-def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
+def _type_plan(
+    g: TypeGroup, weekly_h: float, access: str, views: PlanViews | None = None
+) -> LampTypePlan:
     p, c, gp = g.group.plan, g.costs, g.group
+    ev = views.energy[id(g)] if views else g.energy
     per_year_h = weekly_h * WEEKS_PER_YEAR  # burn hours per year
     return LampTypePlan(
         lamp_type_id=g.lamp_type_id,
@@ -103,16 +107,23 @@ def _type_plan(g: TypeGroup, weekly_h: float, access: str) -> LampTypePlan:
             rupture_cap_h=gp.rupture_cap_h,
         ),
         objective=gp.objective,
-        energy_view=_energy(g, per_year_h),
-        energy_view_omitted=g.energy if isinstance(g.energy, str) else None,
-        maintained_light=maintained_read(g),
-        fit_bounds=bounds_read(g, per_year_h),
+        energy_view=_energy(ev, g, per_year_h),
+        energy_view_omitted=ev if isinstance(ev, str) else None,
+        maintained_light=maintained_read(g, views.maintained[id(g)] if views else None),
+        fit_bounds=bounds_read(g, per_year_h, views.bounds[id(g)] if views else None),
     )
 
 
-def area_plan_read(plan: AreaPlan) -> AreaPlanRead:
-    """The response body for one area's plan."""
-    types = [_type_plan(g, plan.weekly_burn_hours, plan.area.access_method) for g in plan.groups]
+def area_plan_reads(plans: Sequence[AreaPlan]) -> list[AreaPlanRead]:
+    """area_plan_read of many plans, alike groups' views computed once (plan_views.py)."""
+    views = PlanViews.of([g for p in plans for g in p.groups])
+    return [area_plan_read(p, views) for p in plans]
+
+
+def area_plan_read(plan: AreaPlan, views: PlanViews | None = None) -> AreaPlanRead:
+    """The response body for one area's plan (views: its groups' views, computed already)."""
+    access = plan.area.access_method
+    types = [_type_plan(g, plan.weekly_burn_hours, access, views) for g in plan.groups]
     first = plan.first
     ages = [g.group_age_h for g in plan.groups]
     return AreaPlanRead(

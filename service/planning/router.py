@@ -12,7 +12,7 @@ from service.api.auth import ReadKey, SessionDep
 from service.planning import service
 from service.planning.catch_up import Committed
 from service.planning.choice_bodies import plan_briefs
-from service.planning.plan_bodies import area_plan_read, catch_up_read
+from service.planning.plan_bodies import area_plan_read, area_plan_reads, catch_up_read
 from service.planning.schemas import AreaPlanRead, PlanOverrides, SitePlanRead
 from service.planning.site_schedule import site_schedule
 from service.register.models import Site
@@ -57,7 +57,7 @@ def build_router(
         # Every open group order counts (None: no week of its own is being run here).
         load = committed(session, site, None) if committed is not None else []
         sched = site_schedule(site, plans, today, horizon, load)
-        areas = [area_plan_read(p) for p in plans]
+        areas = area_plan_reads(plans)  # alike groups' views computed once
         for body in areas:
             body.catch_up = catch_up_read(body.area_id, sched)
         return SitePlanRead(

@@ -54,6 +54,7 @@ from service.planning.maintained import (
 from service.planning.positions import PositionArrays, load_positions
 from service.planning.schemas import PlanOverrides
 from service.register.models import Area, Site
+from service.reliability.dirt import DirtRegime
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -209,8 +210,8 @@ def group_sums(pos: PositionArrays, ballast: NDArray[np.str_]) -> GroupSums:
 
     # Dominant ballast per group: positions counted per (group, ballast kind), the most wins.
     kinds, kind_of = np.unique(ballast, return_inverse=True)
-    per_kind = np.zeros((ng, kinds.size), dtype=np.int64)
-    np.add.at(per_kind, (inv, np.asarray(kind_of).ravel()), 1)
+    cell = inv * kinds.size + np.asarray(kind_of).ravel()  # (group, kind) as one index
+    per_kind = np.bincount(cell, minlength=ng * kinds.size).reshape(ng, kinds.size)
     return GroupSums(
         area_id=uniq[:, 0].astype(np.int64),
         lamp_type_id=uniq[:, 1].astype(np.int64),
@@ -286,6 +287,84 @@ def group_conditions(
     return float(volts), vbasis, hps
 
 
+@dataclass(frozen=True, kw_only=True)
+class AreaTerms:
+    """An area's share of its groups' cost inputs and conditions, read from the ORM once."""
+
+    lamp_price: float | None  # the what-if price, else each model's unit price
+    labour_rate_per_h: float
+    group_minutes_per_lamp: float
+    spot_minutes_per_lamp: float
+    equipment_hire_per_visit: float
+    area_positions: int
+    spot_lamps_per_visit: float
+    mercury_fee: float  # disposal fee per lamp, charged for mercury lamps only
+    energy_price_per_kwh: float
+    relamp_cleans: bool
+    cleaning_labour_per_position: float
+    light_floor: float | None  # fraction of initial light
+    burnout_ceiling: float | None  # share of positions
+    rupture_fraction: float
+    dirt: DirtRegime
+    weekly_burn_hours: float
+
+
+def area_terms(site: Site, area: Area, ab: AreaBasis, over: PlanOverrides) -> AreaTerms:
+    """The parts of group_inputs that depend on the site, the area and the overrides only."""
+    return AreaTerms(
+        lamp_price=over.lamp_price,
+        labour_rate_per_h=_pick(over.labour_rate_per_h, site.labour_rate_per_h),
+        group_minutes_per_lamp=_pick(over.group_minutes_per_lamp, area.group_minutes_per_lamp),
+        spot_minutes_per_lamp=_pick(over.spot_minutes_per_lamp, area.spot_minutes_per_lamp),
+        equipment_hire_per_visit=_pick(
+            over.equipment_hire_per_visit, area.equipment_hire_per_visit
+        ),
+        area_positions=max(ab.positions, 1),
+        spot_lamps_per_visit=_pick(over.spot_lamps_per_visit, 1.0),
+        mercury_fee=_pick(over.disposal_fee_per_lamp, site.disposal_fee_per_mercury_lamp),
+        energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
+        relamp_cleans=area.relamp_includes_cleaning,
+        cleaning_labour_per_position=_cleaning(area, site, over, ab.fixtures, ab.positions),
+        light_floor=over.light_floor if over.light_floor is not None else area.light_floor,
+        burnout_ceiling=(
+            over.burnout_ceiling if over.burnout_ceiling is not None else area.burnout_ceiling
+        ),
+        rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
+        dirt=regime_of(area),
+        weekly_burn_hours=ab.weekly,
+    )
+
+
+def terms_inputs(
+    model: LampModel, t: AreaTerms, volts: float, hps: float | None
+) -> tuple[CostInputs, Conditions]:
+    """group_inputs from the area's terms: what a group's positions cost and its conditions."""
+    costs = CostInputs(
+        lamp_price=t.lamp_price if t.lamp_price is not None else model.unit_price,
+        labour_rate_per_h=t.labour_rate_per_h,
+        group_minutes_per_lamp=t.group_minutes_per_lamp,
+        spot_minutes_per_lamp=t.spot_minutes_per_lamp,
+        equipment_hire_per_visit=t.equipment_hire_per_visit,
+        area_positions=t.area_positions,
+        spot_lamps_per_visit=t.spot_lamps_per_visit,
+        disposal_fee_per_lamp=t.mercury_fee if model.contains_mercury else 0.0,
+        energy_price_per_kwh=t.energy_price_per_kwh,
+        lamp_watts=model.rated_watts,
+        relamp_cleans=t.relamp_cleans,
+        cleaning_labour_per_position=t.cleaning_labour_per_position,
+    )
+    cond = Conditions(
+        voltage_v=volts,
+        hours_per_start=hps,
+        light_floor=t.light_floor,
+        burnout_ceiling=t.burnout_ceiling,
+        rupture_fraction=t.rupture_fraction,
+        dirt=t.dirt,
+        weekly_burn_hours=t.weekly_burn_hours,
+    )
+    return costs, cond
+
+
 def group_inputs(
     model: LampModel,
     site: Site,
@@ -296,35 +375,7 @@ def group_inputs(
     over: PlanOverrides,
 ) -> tuple[CostInputs, Conditions]:
     """What a group's positions cost to relamp and the conditions it runs under."""
-    fee = _pick(over.disposal_fee_per_lamp, site.disposal_fee_per_mercury_lamp)
-    costs = CostInputs(
-        lamp_price=over.lamp_price if over.lamp_price is not None else model.unit_price,
-        labour_rate_per_h=_pick(over.labour_rate_per_h, site.labour_rate_per_h),
-        group_minutes_per_lamp=_pick(over.group_minutes_per_lamp, area.group_minutes_per_lamp),
-        spot_minutes_per_lamp=_pick(over.spot_minutes_per_lamp, area.spot_minutes_per_lamp),
-        equipment_hire_per_visit=_pick(
-            over.equipment_hire_per_visit, area.equipment_hire_per_visit
-        ),
-        area_positions=max(ab.positions, 1),
-        spot_lamps_per_visit=_pick(over.spot_lamps_per_visit, 1.0),
-        disposal_fee_per_lamp=fee if model.contains_mercury else 0.0,
-        energy_price_per_kwh=_pick(over.energy_price_per_kwh, site.energy_price_per_kwh),
-        lamp_watts=model.rated_watts,
-        relamp_cleans=area.relamp_includes_cleaning,
-        cleaning_labour_per_position=_cleaning(area, site, over, ab.fixtures, ab.positions),
-    )
-    cond = Conditions(
-        voltage_v=volts,
-        hours_per_start=hps,
-        light_floor=over.light_floor if over.light_floor is not None else area.light_floor,
-        burnout_ceiling=(
-            over.burnout_ceiling if over.burnout_ceiling is not None else area.burnout_ceiling
-        ),
-        rupture_fraction=_pick(over.rupture_cap_fraction, DEFAULT_RUPTURE_FRACTION),
-        dirt=regime_of(area),
-        weekly_burn_hours=ab.weekly,
-    )
-    return costs, cond
+    return terms_inputs(model, area_terms(site, area, ab, over), volts, hps)
 
 
 def group_age(ab: AreaBasis, g: int, sums: GroupSums, over: PlanOverrides, at: datetime) -> float:
@@ -353,6 +404,29 @@ class _Pending:
     cond: Conditions
 
 
+def _group_points(
+    sums: GroupSums, over: PlanOverrides
+) -> tuple[list[float], list[str], list[float | None]]:
+    """Every group's (volts, voltage basis, measured hours per start) at once: group_conditions
+    but for the area's schedule, which the caller puts before the measured cycle."""
+    n = sums.count.size
+    if over.voltage_v is not None:
+        raw, basis = [float(over.voltage_v)] * n, ["override"] * n
+    else:
+        burned = sums.hours > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            mean_v = np.where(burned, sums.volt_h / sums.hours, sums.volt_sum / sums.count)
+        raw = mean_v.tolist()
+        basis = np.where(burned, "burn_hour_weighted_mean", "mean_of_positions").tolist()
+    # Rounded as group_conditions rounds (np.round on the array: the scalar's rounding).
+    volts = [round(round(v / VOLTAGE_STEP_V) * VOLTAGE_STEP_V, 6) for v in raw]
+    cycled = (sums.starts > 0) & (sums.hours > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        per_start = np.round(sums.hours / np.where(cycled, sums.starts, 1.0), 3)
+    hps = [h if c else None for h, c in zip(per_start.tolist(), cycled.tolist(), strict=True)]
+    return volts, basis, hps
+
+
 def _pending(
     site: Site,
     areas: Sequence[Area],
@@ -361,21 +435,31 @@ def _pending(
     models: Mapping[tuple[int, str], LampModel],
     over: PlanOverrides,
 ) -> list[_Pending]:
-    """Every group's inputs, areas in the given order (pure)."""
+    """Every group's inputs, areas in the given order (pure; the ORM read once per area)."""
     by_area = sums.by_area()
+    volts, vbasis, measured_hps = _group_points(sums, over)
+    type_ids, dominant = sums.lamp_type_id.tolist(), sums.dominant.tolist()
     out = []
     for area in areas:
-        for g in by_area.get(area.id, []):
-            model = models[(int(sums.lamp_type_id[g]), str(sums.dominant[g]))]
-            volts, vbasis, hps = group_conditions(g, sums, area, over)
-            costs, cond = group_inputs(model, site, area, bases[area.id], volts, hps, over)
+        gidx = by_area.get(area.id, [])
+        if not gidx:
+            continue
+        terms = area_terms(site, area, bases[area.id], over)
+        if over.hours_per_start is not None:
+            area_hps: float | None = over.hours_per_start
+        else:
+            area_hps = area.hours_per_start
+        for g in gidx:
+            model = models[(type_ids[g], dominant[g])]
+            hps = area_hps if area_hps is not None else measured_hps[g]
+            costs, cond = terms_inputs(model, terms, volts[g], hps)
             out.append(
                 _Pending(
                     area_id=area.id,
                     g=g,
                     model=model,
-                    volts=volts,
-                    vbasis=vbasis,
+                    volts=volts[g],
+                    vbasis=vbasis[g],
                     hps=hps,
                     costs=costs,
                     cond=cond,

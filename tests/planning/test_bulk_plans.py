@@ -16,10 +16,11 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.planning.group_plan import PlanCache
+from service.planning.plan_bodies import area_plan_read, area_plan_reads
 from service.planning.portfolio import portfolio_plans
 from service.planning.positions import load_positions
 from service.planning.schemas import PlanOverrides
-from service.planning.service import AreaPlan, plan_areas, site_plans
+from service.planning.service import AreaPlan, area_plan, plan_areas, site_plans
 from service.register.models import Area, Site
 from service.seed.loader import load_demo
 from service.workorders.repository import last_group_relamps
@@ -173,3 +174,72 @@ def test_portfolio_plans_equal_site_by_site_plans(db: Session, tmp_path: Path) -
     # The chart's positions are the plans' positions: every active one, once.
     active = load_positions(db, at=now)
     assert np.array_equal(np.sort(got.ages.position_id), np.sort(active.position_id))
+
+
+def _alike_portfolio(db: Session) -> None:
+    """Many areas alike in some inputs and not others: the fast path shares their searches."""
+    types = [
+        fx.lamp_type(
+            db,
+            f"S{i}",
+            technology=t,
+            rated_life_h=life,
+            weibull_shape=shape,
+            life_exponent=None,
+            unit_price=6.0 + i,
+            **extra,
+        )
+        for i, (t, life, shape, extra) in enumerate(TECHS)
+    ]
+    site = fx.site(db, "Alike Works", disposal_fee_per_mercury_lamp=0.5)
+    volts = [226.0, 230.0, 230.0, 236.5]  # repeats: alike groups; filament life moves with V
+    for k in range(16):
+        area = fx.area(
+            db,
+            site,
+            f"B{k}",
+            hours_per_day=[12.0, 24.0][k % 2],
+            equipment_hire_per_visit=[0.0, 150.0][(k // 2) % 2],
+            light_floor=0.8 if k % 3 == 0 else None,
+            burnout_ceiling=0.15 if k % 5 == 1 else None,
+            relamp_includes_cleaning=k % 4 == 3,
+        )
+        for j, lt in enumerate((types[k % 5], types[(k + 2) % 5])):
+            fx.fixtures(
+                db,
+                area,
+                lt,
+                3,
+                lamps=2,
+                installed_at=AT - timedelta(weeks=[20.0, 90.0, 250.0][(k + j) % 3]),
+                tag=f"T{j}-",
+                measured_voltage_v=volts[(k + j) % 4],
+            )
+    db.commit()
+
+
+def test_alike_areas_plan_as_each_area_alone(db: Session) -> None:
+    # Oracle: the legacy planner (one scalar plan_group per distinct input) and each area's
+    # own plan (area_plan: its positions loaded and searched alone).
+    _alike_portfolio(db)
+    assert _compare(db, AT) >= 32
+    site = db.scalars(select(Site).where(Site.name == "Alike Works")).one()
+    together = site_plans(db, site, AT, last_relamps=last_group_relamps)
+    alone = [
+        area_plan(db, p.area.id, PlanOverrides(at=AT), last_relamps=last_group_relamps)
+        for p in together
+    ]
+    assert _same(together, alone, age_rel=1e-12) == 32
+
+
+def test_site_bodies_share_views_as_each_group_alone(db: Session) -> None:
+    # Oracle: area_plan_read without shared views (each group's energy view, maintained
+    # light and fit bounds computed on its own, the scalar plan_group per bound).
+    _alike_portfolio(db)
+    _random_portfolio(db, 5)
+    for site in db.scalars(select(Site).order_by(Site.id)).all():
+        plans = site_plans(db, site, AT, last_relamps=last_group_relamps)
+        shared = [b.model_dump_json() for b in area_plan_reads(plans)]
+        again = site_plans(db, site, AT, last_relamps=last_group_relamps)
+        alone = [area_plan_read(p).model_dump_json() for p in again]
+        assert shared == alone, site.name
