@@ -159,6 +159,9 @@ def _db_values(col: ColumnValues, column: Column[Any], dialect: Dialect) -> list
     return list(map(_memo(proc), col))
 
 
+_INT = {int}
+
+
 def _json_texts(col: Sequence[Any], type_: JSON) -> list[Any]:
     """A JSON column as its text, made as the JSON type's bind processor makes it.
 
@@ -176,6 +179,8 @@ def _json_texts(col: Sequence[Any], type_: JSON) -> list[Any]:
             out.append("null")
         elif isinstance(v, Null):
             out.append(None)
+        elif type(v) is list and set(map(type, v)) <= _INT:  # ids, numbers (not bools)
+            out.append(str(v))  # a list of ints prints as json.dumps writes it, 4x quicker
         else:
             out.append(json.dumps(v))
     return out

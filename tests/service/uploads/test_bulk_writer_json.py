@@ -19,6 +19,8 @@ LAMP_TYPES: Table = LampType.__table__  # type: ignore[assignment]
 
 VALUES: list[Any] = [
     [101, 102, 103],
+    [-7, 0, 2**40],  # the writer's quick path for lists of ints
+    [True, 1, 2],  # bools are ints to Python, true to JSON: not the quick path
     {"note": 'tab\there, "quoted", back\\slash, ünïcödé', "points": [1.5, None, -2e-9]},
     [],
     None,  # JSON null, as the ORM stores None in a JSON column
@@ -54,7 +56,8 @@ def test_json_values_stored_as_the_orm_stores_them(db: Session) -> None:
     orm, bulk = _stored(db, "ORM-"), _stored(db, "BULK-")
     assert bulk == orm
     assert [v for _, v in bulk] == VALUES  # read back as written
-    assert bulk[3][0] == "null"  # None is JSON null text, not SQL NULL
+    assert bulk[5][0] == "null"  # None is JSON null text, not SQL NULL
+    assert [t for t, _ in bulk[:3]] == ["[101, 102, 103]", "[-7, 0, 1099511627776]", "[true, 1, 2]"]
 
 
 def test_sql_null_stays_null(db: Session) -> None:
