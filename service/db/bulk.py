@@ -36,7 +36,7 @@ def in_ids(session: Session, column: Any, ids: Sequence[int]) -> ColumnElement[b
         )
         return out
     each = func.json_each(bindparam(None, json.dumps(values), unique=True)).table_valued("value")
-    return column.in_(select(each.c.value))  # type: ignore[no-any-return]
+    return column.in_(select(each.c.value))
 
 
 def id_pairs(

@@ -24,6 +24,7 @@ lines), and its cautions and disposal cover both the lamps fitted and those take
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from datetime import date, datetime, timedelta
@@ -321,7 +322,7 @@ def issue_orders(
     if built:
         _write(session, built, result, at)
         if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
-            _reserve(session, site.id, [oid for oid, _, _ in result.created])
+            _reserve(session, site.id, built, [oid for oid, _, _ in result.created])
     return result
 
 
@@ -385,12 +386,16 @@ def _switch_lines(
             contents.update(_contents(session, fit))
 
 
-def _reserve(session: Session, site_id: int, order_ids: list[int]) -> None:
+def _reserve(session: Session, site_id: int, built: list[Built], order_ids: list[int]) -> None:
     """Reserve stocked lamps for orders just created issued (nothing when none are stocked)."""
     if not order_ids or not stock_hooks.site_stocks_anything(session, site_id):
         return
-    orders = session.scalars(select(WorkOrder).where(WorkOrder.id.in_(order_ids))).all()
-    stock_hooks.on_issued_many(session, orders)
+    needs: dict[int, Counter[int]] = {}
+    for oid, (_, lines, _) in zip(order_ids, built, strict=True):
+        need = needs[oid] = Counter()
+        for x in lines:
+            need[x["lamp_type_id"]] += x["quantity"]
+    stock_hooks.on_created_issued(session, site_id, needs)
 
 
 def _due_types(
