@@ -96,18 +96,27 @@ def _contents(session: Session, ids: set[int]) -> dict[int, LampContent]:
 
 
 def _fixtures(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, list[Any]]:
-    """Fixtures of these areas: area id -> [(id, tag, location, lamp type)], by tag."""
+    """Active fixtures of these areas: area id -> [(id, tag, location, lamp type)], by tag.
+
+    The driver's own tuples (plain ints and strings, no result processing): no Row object
+    for each of a site's ten thousand fixtures.
+    """
     out: dict[int, list[Any]] = {}
     if not area_ids:
         return out
     stmt = (
-        select(Fixture.id, Fixture.area_id, Fixture.tag, Fixture.location, Fixture.lamp_type_id)
-        .where(Fixture.site_id == site_id, Fixture.area_id.in_(list(area_ids)))
+        select(Fixture.area_id, Fixture.id, Fixture.tag, Fixture.location, Fixture.lamp_type_id)
+        .where(Fixture.site_id == site_id, in_ids(session, Fixture.area_id, area_ids))
         .where(Fixture.retired_at.is_(None))
         .order_by(Fixture.area_id, Fixture.location, Fixture.tag)
     )
-    for fid, aid, tag, loc, lt in session.execute(stmt).all():
-        out.setdefault(aid, []).append((fid, tag, loc, lt))
+    result = session.connection().execute(stmt)
+    try:
+        rows = result.cursor.fetchall() if result.cursor is not None else []
+    finally:
+        result.close()
+    for aid, *rest in rows:
+        out.setdefault(aid, []).append(tuple(rest))
     return out
 
 
