@@ -601,8 +601,9 @@ def _write(
     """Insert orders and lines, take the reports, and let group orders cover spot orders.
 
     Set-based: the orders and their lines each go through the bulk writer (COPY on
-    PostgreSQL) and the reports are taken in one UPDATE per 1,000, not one per order; a
-    1,000-order weekly run used to spend most of its write time in per-order statements.
+    PostgreSQL), the reports are taken and the spot orders covered each by one UPDATE ...
+    FROM bound id arrays, not one per order; a 1,000-order weekly run used to spend most of
+    its write time in per-order statements.
     """
     orders = [o for o, _, _ in built]
     names = list(orders[0])
