@@ -7,7 +7,8 @@ site's weekly issue once (orders created) and once more (the repeat creates noth
 Run: python benchmarks/bench_weekly_run.py [URL] [--sizes 10,100] [--quick] [--repeats N]
 (--profile FILE: cProfile the first run of each size into FILE.<size>, top 25 printed;
 --phases: seconds in each phase of the issue path per run, printed: planning with position
-ages, the fixture and position reads, the bulk writes).
+ages, the fixture and position reads, the bulk writes, taking the reports; --reuse: keep a
+database already holding the portfolio of that size instead of rebuilding it).
 P5: 100,000 fixtures (target <= 5 s), anchor column: the repeat run that creates nothing;
 P8: the same at 10,000 fixtures (growth).
 """
@@ -240,6 +241,7 @@ def main() -> int:
     ap.add_argument("--sizes", default="10,100", help="fixtures per area (100 areas x 10 sites)")
     ap.add_argument("--profile", help="cProfile the first run into this file (prints the top)")
     ap.add_argument("--phases", action="store_true", help="print seconds per phase per run")
+    ap.add_argument("--reuse", action="store_true", help="keep a database already loaded")
     args = ap.parse_args()
     phases = time_phases() if args.phases else None
     quick = args.quick
@@ -252,8 +254,11 @@ def main() -> int:
         OPEN_REPORTS = min(3_000, n_fix * LAMPS_PER_FIXTURE // 100)
         rng = np.random.default_rng(20261201)
         t0 = time.perf_counter()
-        rebuild(args.url)
-        sites = load(args.url, rng)
+        if args.reuse and loaded(args.url) == n_fix:
+            sites = list(range(1, N_SITES + 1))
+        else:
+            rebuild(args.url)
+            sites = load(args.url, rng)
         print(
             f"load: {time.perf_counter() - t0:.1f} s ({n_fix:,} fixtures, "
             f"{n_fix * LAMPS_PER_FIXTURE:,} positions)"
@@ -295,17 +300,30 @@ def main() -> int:
     return 0
 
 
-PHASES = ("_due_types", "load_positions", "plan_areas", "_fixtures", "_positions", "_write")
+PHASES = (  # functions of service.workorders.issue, or "module:function" elsewhere
+    "_due_types",
+    "load_positions",
+    "plan_areas",
+    "_load_work",
+    "_fixtures",
+    "_positions",
+    "_group_lines",
+    "_write",
+    "write_rows",
+    "service.events.reports:take_for_orders",
+)
 
 
 def time_phases() -> dict[str, float]:
     """Wrap the issue path's phases with timers; the dict fills with seconds per phase."""
-    from service.workorders import issue
+    import importlib
 
     spent: dict[str, float] = {}
 
-    def wrap(name: str) -> None:
-        inner = getattr(issue, name)
+    def wrap(entry: str) -> None:
+        where, _, name = entry.rpartition(":")
+        module = importlib.import_module(where or "service.workorders.issue")
+        inner = getattr(module, name)
 
         def timed(*a: Any, **k: Any) -> Any:
             t0 = time.perf_counter()
@@ -314,10 +332,10 @@ def time_phases() -> dict[str, float]:
             finally:
                 spent[name] = spent.get(name, 0.0) + time.perf_counter() - t0
 
-        setattr(issue, name, timed)
+        setattr(module, name, timed)
 
-    for name in PHASES:
-        wrap(name)
+    for entry in PHASES:
+        wrap(entry)
     return spent
 
 
@@ -331,6 +349,20 @@ def profiled(url: str, sites: list[int], out: str) -> tuple[float, list[Any]]:
     prof.dump_stats(out)
     pstats.Stats(out).sort_stats("cumulative").print_stats(25)
     return result
+
+
+def loaded(url: str) -> int:
+    """Fixtures in the scratch database (0 when it or its schema is missing)."""
+    from sqlalchemy.exc import DBAPIError
+
+    engine = make_engine(url)
+    try:
+        with engine.connect() as c:
+            return int(c.execute(text("SELECT count(*) FROM fixtures")).scalar_one())
+    except DBAPIError:
+        return 0
+    finally:
+        engine.dispose()
 
 
 def clear(url: str) -> None:

@@ -24,6 +24,7 @@ lines), and its cautions and disposal cover both the lamps fitted and those take
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from datetime import date, datetime, timedelta
@@ -31,10 +32,11 @@ from functools import partial
 from typing import Any
 
 import numpy as np
-from sqlalchemy import Table, case, func, or_, select, update
+from sqlalchemy import Table, case, func, inspect, or_, select, update
 from sqlalchemy.orm import Session
 
 from service.catalogue.models import LampType
+from service.db.bulk import id_pairs, in_ids
 from service.events import reports
 from service.events.models import BurnoutReport, BurnoutReportState
 from service.planning.catch_up import Committed
@@ -94,37 +96,45 @@ def _contents(session: Session, ids: set[int]) -> dict[int, LampContent]:
 
 
 def _fixtures(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, list[Any]]:
-    """Fixtures of these areas: area id -> [(id, tag, location, lamp type)], by tag."""
+    """Active fixtures of these areas: area id -> [(id, tag, location, lamp type)], by tag.
+
+    The driver's own tuples (plain ints and strings, no result processing): no Row object
+    for each of a site's ten thousand fixtures.
+    """
     out: dict[int, list[Any]] = {}
     if not area_ids:
         return out
     stmt = (
-        select(Fixture.id, Fixture.area_id, Fixture.tag, Fixture.location, Fixture.lamp_type_id)
-        .where(Fixture.site_id == site_id, Fixture.area_id.in_(list(area_ids)))
+        select(Fixture.area_id, Fixture.id, Fixture.tag, Fixture.location, Fixture.lamp_type_id)
+        .where(Fixture.site_id == site_id, in_ids(session, Fixture.area_id, area_ids))
         .where(Fixture.retired_at.is_(None))
         .order_by(Fixture.area_id, Fixture.location, Fixture.tag)
     )
-    for fid, aid, tag, loc, lt in session.execute(stmt).all():
-        out.setdefault(aid, []).append((fid, tag, loc, lt))
+    result = session.connection().execute(stmt)
+    try:
+        rows = result.cursor.fetchall() if result.cursor is not None else []
+    finally:
+        result.close()
+    for aid, *rest in rows:
+        out.setdefault(aid, []).append(tuple(rest))
     return out
 
 
 Slots = tuple[list[int], list[int]]  # a fixture's position ids and their numbers, by number
 
 
-def _positions(session: Session, site_id: int, area_ids: Sequence[int]) -> dict[int, Slots]:
+def _positions(session: Session, fixture_ids: Sequence[int]) -> dict[int, Slots]:
     """fixture id -> (position ids, position nos) by position no, from one numeric query.
 
-    Plain columns into numpy (readings.repository.float_matrix), sorted there: no ORM rows
-    and no server sort; a 100,000-fixture run reads a few hundred thousand positions here.
+    By the fixtures' ids (one bound array: the unique index on fixture and position no),
+    not by a join on the site's fixtures, which the planner answered with a scan of every
+    position of the portfolio, once per site. Plain columns into numpy
+    (readings.repository.float_matrix), sorted there: no ORM rows and no server sort.
     """
-    if not area_ids:
+    if not fixture_ids:
         return {}
-    stmt = (
-        select(LampPosition.fixture_id, LampPosition.position_no, LampPosition.id)
-        .join(Fixture, Fixture.id == LampPosition.fixture_id)
-        .where(Fixture.site_id == site_id, Fixture.area_id.in_(list(area_ids)))
-        .where(Fixture.retired_at.is_(None))
+    stmt = select(LampPosition.fixture_id, LampPosition.position_no, LampPosition.id).where(
+        in_ids(session, LampPosition.fixture_id, fixture_ids)
     )
     m = float_matrix(session, stmt, 3).astype(np.int64)  # ids and numbers: exact in a float
     m = m[np.lexsort((m[:, 1], m[:, 0]))]  # by fixture, then position no
@@ -143,6 +153,12 @@ def _open_reports(
     area_ids: Sequence[int] | None,
     states: Sequence[str] = (BurnoutReportState.OPEN,),
 ) -> list[Any]:
+    """Reports of the site (or these areas) in these states, retired fixtures' included.
+
+    The caller drops those of retired fixtures against the active fixtures it reads
+    anyway (_load_work): a test on the fixtures here scanned the whole fixtures table per
+    site (there is no index on retired_at).
+    """
     stmt = (
         select(
             BurnoutReport.id,
@@ -152,16 +168,51 @@ def _open_reports(
             BurnoutReport.status,
         )
         .where(BurnoutReport.site_id == site_id, BurnoutReport.status.in_(list(states)))
-        .where(  # retired fixtures get no new work
-            BurnoutReport.fixture_id.not_in(
-                select(Fixture.id).where(Fixture.retired_at.is_not(None))
-            )
-        )
         .order_by(BurnoutReport.area_id, BurnoutReport.fixture_id, BurnoutReport.id)
     )
     if area_ids is not None:
         stmt = stmt.where(BurnoutReport.area_id.in_(list(area_ids)))
     return list(session.execute(stmt).all())
+
+
+@dataclass
+class _Work:
+    """What a run's orders are built from (_load_work)."""
+
+    fixtures: dict[int, list[Any]]  # area id -> its active fixtures (_fixtures)
+    positions: dict[int, Slots]  # the due fixtures' positions (_positions)
+    per_area: dict[int, list[Any]]  # area id -> its not-closed reports of active fixtures
+    pos_no: dict[int, int]  # a reported position's number
+    contents: dict[int, LampContent]  # the fixtures' lamp types
+
+
+def _load_work(
+    session: Session,
+    site_id: int,
+    areas: dict[int, Area],
+    group_types: dict[int, tuple[set[int], date, AreaPlan]],
+    scope: list[int] | None,
+) -> _Work:
+    """Reports, fixtures, positions and lamp contents of the areas getting orders: 5 queries."""
+    # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
+    # order a new group order will cover) only flag their positions on the group order.
+    states = (BurnoutReportState.OPEN, BurnoutReportState.ORDERED)
+    reports = [r for r in _open_reports(session, site_id, scope, states) if r.area_id in areas]
+    wanted = sorted(set(group_types) | {r.area_id for r in reports})
+    fixtures = _fixtures(session, site_id, wanted)
+    active = {f[0] for fs in fixtures.values() for f in fs}
+    reports = [r for r in reports if r.fixture_id in active]  # retired fixtures: no new work
+    due = [f[0] for a, g in group_types.items() for f in fixtures.get(a, []) if f[3] in g[0]]
+    per_area: dict[int, list[Any]] = {}
+    for r in reports:
+        per_area.setdefault(r.area_id, []).append(r)
+    return _Work(
+        fixtures=fixtures,
+        positions=_positions(session, due),
+        per_area=per_area,
+        pos_no=_position_numbers(session, [r.position_id for r in reports]),
+        contents=_contents(session, {f[3] for fs in fixtures.values() for f in fs}),
+    )
 
 
 def _busy_areas(session: Session, site_id: int) -> dict[int, int]:
@@ -173,27 +224,37 @@ def _busy_areas(session: Session, site_id: int) -> dict[int, int]:
 
 
 def cover_spot_orders(session: Session, group_orders: dict[int, int], at: datetime) -> None:
-    """Let new group orders (area id -> order id) cover their areas' open spot orders."""
+    """Let new group orders (area id -> order id) cover their areas' open spot orders.
+
+    One UPDATE ... FROM a table of (area, order) pairs bound as two arrays (db.bulk); the
+    spot orders it changed are expired in the session, so loaded ones see it.
+    """
+    if not group_orders:
+        return
     areas = sorted(group_orders)
-    for i in range(0, len(areas), 1000):  # keep IN lists and CASE bounded
-        chunk = areas[i : i + 1000]
-        session.execute(
-            update(WorkOrder)
-            .where(
-                WorkOrder.area_id.in_(chunk),
-                WorkOrder.kind == SPOT,
-                WorkOrder.state.in_(OPEN_STATES),
-                WorkOrder.covered_by_order_id.is_(None),
-            )
-            .values(
-                covered_by_order_id=case(
-                    {a: group_orders[a] for a in chunk}, value=WorkOrder.area_id
-                ),
-                updated_at=at,
-                version=WorkOrder.version + 1,  # Core UPDATE: bump the ORM's version by hand
-            )
-            .execution_options(synchronize_session="fetch")  # loaded spot orders see it
+    pairs = id_pairs(session, ("area_id", "order_id"), areas, [group_orders[a] for a in areas])
+    stmt = (
+        update(WorkOrder)
+        .where(
+            WorkOrder.area_id == pairs.c.area_id,
+            WorkOrder.kind == SPOT,
+            WorkOrder.state.in_(OPEN_STATES),
+            WorkOrder.covered_by_order_id.is_(None),
         )
+        .values(
+            covered_by_order_id=pairs.c.order_id,
+            updated_at=at,
+            version=WorkOrder.version + 1,  # Core UPDATE: bump the ORM's version by hand
+        )
+        .returning(WorkOrder.id)
+    )
+    opts = {"synchronize_session": False}  # loaded spot orders are expired below instead
+    changed = set(session.execute(stmt, execution_options=opts).scalars().all())
+    for obj in list(session.identity_map.values()):
+        if isinstance(obj, WorkOrder):
+            ident = inspect(obj).identity  # the key held, without loading an expired row
+            if ident is not None and ident[0] in changed:
+                session.expire(obj, ["covered_by_order_id", "updated_at", "version"])
 
 
 def _existing(session: Session, site_id: int, iso_week: str | None) -> set[tuple[int, str]]:
@@ -247,28 +308,17 @@ def issue_orders(
             ordered,
             iso_week,
         )
-    # Not-closed reports in scope: open ones get an order; ordered ones (on an open spot
-    # order a new group order will cover) only flag their positions on the group order.
     scope = list(areas) if area_id is not None else None
-    states = (BurnoutReportState.OPEN, BurnoutReportState.ORDERED)
-    all_reports = [r for r in _open_reports(session, site.id, scope, states) if r.area_id in areas]
-    wanted = sorted(set(group_types) | {r.area_id for r in all_reports})
-    fixtures = _fixtures(session, site.id, wanted)
-    positions = _positions(session, site.id, list(group_types))
-    pos_no = _position_numbers(session, [r.position_id for r in all_reports])
-    contents = _contents(session, {f[3] for aid in wanted for f in fixtures.get(aid, [])})
-    per_area: dict[int, list[Any]] = {}
-    for r in all_reports:
-        per_area.setdefault(r.area_id, []).append(r)
-
+    work = _load_work(session, site.id, areas, group_types, scope)
+    fixtures, per_area, pos_no, contents = work.fixtures, work.per_area, work.pos_no, work.contents
     mk = partial(
         _order, site, state=state, iso_week=iso_week, run_id=run_id, contents=contents, now=at
     )
     built: list[Built] = []
     for aid in sorted(group_types):
         lines = _group_lines(
-            fixtures.get(aid, []), group_types[aid][0], positions, per_area.get(aid, []), pos_no,
-            contents,
+            fixtures.get(aid, []), group_types[aid][0], work.positions, per_area.get(aid, []),
+            pos_no, contents,
         )  # fmt: skip
         if lines:
             built.append(
@@ -281,7 +331,7 @@ def issue_orders(
     if built:
         _write(session, built, result, at)
         if state == WorkOrderState.ISSUED:  # created issued (the weekly run): reserve now
-            _reserve(session, site.id, [oid for oid, _, _ in result.created])
+            _reserve(session, site.id, built, [oid for oid, _, _ in result.created])
     return result
 
 
@@ -345,12 +395,16 @@ def _switch_lines(
             contents.update(_contents(session, fit))
 
 
-def _reserve(session: Session, site_id: int, order_ids: list[int]) -> None:
+def _reserve(session: Session, site_id: int, built: list[Built], order_ids: list[int]) -> None:
     """Reserve stocked lamps for orders just created issued (nothing when none are stocked)."""
     if not order_ids or not stock_hooks.site_stocks_anything(session, site_id):
         return
-    orders = session.scalars(select(WorkOrder).where(WorkOrder.id.in_(order_ids))).all()
-    stock_hooks.on_issued_many(session, orders)
+    needs: dict[int, Counter[int]] = {}
+    for oid, (_, lines, _) in zip(order_ids, built, strict=True):
+        need = needs[oid] = Counter()
+        for x in lines:
+            need[x["lamp_type_id"]] += x["quantity"]
+    stock_hooks.on_created_issued(session, site_id, needs)
 
 
 def _due_types(
@@ -547,8 +601,9 @@ def _write(
     """Insert orders and lines, take the reports, and let group orders cover spot orders.
 
     Set-based: the orders and their lines each go through the bulk writer (COPY on
-    PostgreSQL) and the reports are taken in one UPDATE per 1,000, not one per order; a
-    1,000-order weekly run used to spend most of its write time in per-order statements.
+    PostgreSQL), the reports are taken and the spot orders covered each by one UPDATE ...
+    FROM bound id arrays, not one per order; a 1,000-order weekly run used to spend most of
+    its write time in per-order statements.
     """
     orders = [o for o, _, _ in built]
     names = list(orders[0])
@@ -580,12 +635,13 @@ def _write(
 
 
 def _position_numbers(session: Session, ids: list[int]) -> dict[int, int]:
-    out: dict[int, int] = {}
-    for i in range(0, len(ids), 5000):  # keep IN lists bounded
-        chunk = ids[i : i + 5000]
-        stmt = select(LampPosition.id, LampPosition.position_no).where(LampPosition.id.in_(chunk))
-        out.update({a: b for a, b in session.execute(stmt).all()})
-    return out
+    """Position id -> its number (one bound array of ids)."""
+    if not ids:
+        return {}
+    stmt = select(LampPosition.id, LampPosition.position_no).where(
+        in_ids(session, LampPosition.id, ids)
+    )
+    return {a: b for a, b in session.execute(stmt).all()}
 
 
 def _line(

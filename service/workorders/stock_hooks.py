@@ -10,7 +10,7 @@ balances are locked in lamp-type order.
 from __future__ import annotations
 
 from collections import Counter
-from collections.abc import Iterable, Mapping
+from collections.abc import Mapping
 
 from sqlalchemy.orm import Session
 
@@ -54,10 +54,27 @@ def site_stocks_anything(session: Session, site_id: int) -> bool:
     return room is not None and ledger.stocks_anything(session, room)
 
 
-def on_issued_many(session: Session, orders: Iterable[WorkOrder]) -> None:
-    """Reserve for orders created already issued (the weekly run), lowest id first."""
-    for order in sorted(orders, key=lambda o: o.id):
-        on_issued(session, order)
+def on_created_issued(
+    session: Session, site_id: int, needs: Mapping[int, Mapping[int, int]]
+) -> None:
+    """Reserve for orders just created issued (the weekly run), lowest id first.
+
+    needs: order id -> lamps per lamp type its lines call for (the lines the run wrote,
+    not reloaded as ORM objects). The storeroom is looked up and its balances locked once
+    for all of the run's orders, in lamp-type order; orders this transaction created have
+    no movements yet, so no step is looked up (on_issued checks it for a retried issue).
+    """
+    room = ledger.storeroom_of_site(session, site_id)
+    if room is None or not needs:
+        return
+    balances = ledger.lock_balances(session, room, sorted({lt for n in needs.values() for lt in n}))
+    for oid in sorted(needs):
+        for lt, bal in balances.items():
+            qty = min(needs[oid].get(lt, 0), max(bal.available, 0))
+            if qty > 0:
+                ledger.move(
+                    session, bal, MovementKind.RESERVED, qty, work_order_id=oid, step=ISSUED_STEP
+                )
 
 
 def _release_all(session: Session, order: WorkOrder, step: str) -> None:
