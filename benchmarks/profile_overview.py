@@ -62,14 +62,16 @@ def _request() -> Any:
 
 
 def _wrap_steps(laps: dict[str, list[float]]) -> None:
-    """Time every step the overview calls, by wrapping the names its module looks up."""
+    """Time every step the overview calls, by wrapping the names its modules look up."""
     from service.web import charts, queries
+    from service.web import overview as content
     from service.web import router as web
 
     for owner, names in (
-        (web, ("portfolio_plans", "spend_this_year", "page")),
-        (queries, ("site_summaries", "sites")),
+        (content, ("portfolio_plans", "spend_this_year")),
+        (queries, ("site_summaries",)),
         (charts, ("weekly_burnouts",)),
+        (web, ("page",)),
     ):
         for name in names:
             if hasattr(owner, name):
@@ -99,17 +101,8 @@ class GcClock:
         self.spent, self.runs = [0.0, 0.0, 0.0], [0, 0, 0]
 
 
-def main() -> int:
-    """Sign in, time direct calls and app requests, optionally print a cProfile."""
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("url", help="a database built by benchmarks/bench_web_pages.py")
-    ap.add_argument("--repeats", type=int, default=3)
-    ap.add_argument("--profile", action="store_true", help="print a cProfile of one call")
-    ap.add_argument("--top", type=int, default=45)
-    args = ap.parse_args()
-    os.environ["LAMPKEEPER_DATABASE_URL"] = args.url
-    os.environ["LAMPKEEPER_SCHEDULER_ENABLED"] = "false"
-    from fastapi.testclient import TestClient
+def _direct_call(url: str) -> tuple[Callable[[], int], str, Any]:
+    """(a call of the page function on a fresh Session: its body size, the cookie, the app)."""
     from sqlalchemy.orm import Session
 
     from service.db.session import make_engine
@@ -118,7 +111,8 @@ def main() -> int:
     from service.web import router as web
     from service.web.auth import Visitor
 
-    engine = make_engine(args.url)
+    app = create_app(start_scheduler=False)  # before any freeze, as a server builds it
+    engine = make_engine(url)
     with Session(engine) as s, s.begin():
         if users.repo.by_username(s, "bench") is None:
             users.create_user(s, "bench", "Bench Viewer", "viewer", PASSWORD)
@@ -131,32 +125,66 @@ def main() -> int:
             resp = web.overview(_request(), s, Visitor(user=found[1], row=found[0]))
             return len(resp.body)
 
+    return direct, token, app
+
+
+def _time_direct(direct: Callable[[], int], repeats: int, clock: GcClock) -> None:
+    """Median wall and CPU seconds of direct calls, and of each step inside them."""
     laps: dict[str, list[float]] = {}
-    size = direct()  # warm-up (imports, caches, the first connection)
     _wrap_steps(laps)
-    totals = []
-    clock = GcClock()
-    for _ in range(args.repeats):
-        t0 = time.perf_counter()
+    totals, cpu = [], []
+    for _ in range(repeats):
+        t0, c0 = time.perf_counter(), time.process_time()
         direct()
         totals.append(time.perf_counter() - t0)
-    print(f"page size: {size:,} bytes")
-    print(f"direct call: median {statistics.median(totals):.3f} s of {args.repeats}")
-    clock.report(f"{args.repeats} direct calls")
+        cpu.append(time.process_time() - c0)
+    print(
+        f"direct call: median {statistics.median(totals):.3f} s of {repeats}"
+        f" (this process's CPU: median {statistics.median(cpu):.3f} s)"
+    )
+    clock.report(f"{repeats} direct calls")
     for name, times in laps.items():
         print(f"  {name:18s} median {statistics.median(times):.3f} s ({len(times)} calls)")
-    with TestClient(create_app(start_scheduler=False)) as client:
+
+
+def _time_requests(app: Any, token: str, repeats: int, clock: GcClock) -> None:
+    """Median seconds of GET /app through the app (middleware, session, auth included)."""
+    from fastapi.testclient import TestClient
+
+    with TestClient(app) as client:
         client.cookies.set("lk_session", token)
         client.get("/app")
         clock.report("the app's start and a warm-up request")
         http = []
-        for _ in range(args.repeats):
+        for _ in range(repeats):
             t0 = time.perf_counter()
             r = client.get("/app")
             http.append(time.perf_counter() - t0)
             assert r.status_code == 200, r.status_code
-    print(f"through the app: median {statistics.median(http):.3f} s of {args.repeats}")
-    clock.report(f"{args.repeats} requests (and the app's start)")
+    print(f"through the app: median {statistics.median(http):.3f} s of {repeats}")
+    clock.report(f"{repeats} requests")
+
+
+def main() -> int:
+    """Sign in, time direct calls and app requests, optionally print a cProfile."""
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("url", help="a database built by benchmarks/bench_web_pages.py")
+    ap.add_argument("--repeats", type=int, default=3)
+    ap.add_argument("--profile", action="store_true", help="print a cProfile of one call")
+    ap.add_argument("--top", type=int, default=45)
+    ap.add_argument("--no-freeze", action="store_true", help="direct calls without gc.freeze")
+    args = ap.parse_args()
+    os.environ["LAMPKEEPER_DATABASE_URL"] = args.url
+    os.environ["LAMPKEEPER_SCHEDULER_ENABLED"] = "false"
+    from service.main import freeze_startup_heap
+
+    direct, token, app = _direct_call(args.url)
+    print(f"page size: {direct():,} bytes")  # also the warm-up: imports, caches, a connection
+    if not args.no_freeze:
+        freeze_startup_heap()  # as the app's start does (service.main.lifespan)
+    clock = GcClock()
+    _time_direct(direct, args.repeats, clock)
+    _time_requests(app, token, args.repeats, clock)
     if args.profile:
         prof = cProfile.Profile()
         prof.enable()
@@ -165,7 +193,6 @@ def main() -> int:
         stats = pstats.Stats(prof)
         stats.sort_stats("cumulative").print_stats(args.top)
         stats.sort_stats("tottime").print_stats(25)
-    engine.dispose()
     return 0
 
 
