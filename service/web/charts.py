@@ -27,7 +27,7 @@ from service.planning.service import AreaPlan, TypeGroup
 from service.readings.ages import PositionAges, position_ages
 from service.reliability.fleet import evaluate_fleet
 from service.reliability.weibull import Weibull
-from service.stock.demand import weekly_cumulative
+from service.stock.demand import weekly_cumulative_totals
 from service.stock.forecast import unique_rows
 
 FloatArray = NDArray[np.float64]
@@ -219,8 +219,9 @@ def weekly_burnouts(
     """Expected burnouts per week for the next weeks by lamp type, group relamps marked.
 
     Cumulative expected spot replacements N_a(w) (the delayed-renewal sum of
-    service.forecasting.spot_replacements, every week boundary at once by
-    stock.demand.weekly_cumulative) at the end of each week, differenced into weekly counts; `due` are the planned group relamp dates.
+    service.forecasting.spot_replacements, every week boundary at once and summed per lamp
+    type by stock.demand.weekly_cumulative_totals) at the end of each week, differenced
+    into weekly counts; `due` are the planned group relamp dates.
     loaded: the active positions' ages and their type table, when the caller has them
     (the overview's plans load the same ones); else they are loaded here.
     """
@@ -246,13 +247,19 @@ def weekly_burnouts(
     weight = np.bincount(member, minlength=len(groups)).astype(float)
     g_type, g_k = groups[:, 0].astype(np.int64), groups[:, 1].astype(np.int64)
     type_ids, per_type = np.unique(g_type, return_inverse=True)
-    # Every week boundary of every group in one pass (stock.demand.weekly_cumulative: one
-    # convolution per group on quarter-week cells), not one renewal sum per week.
-    n = weekly_cumulative(
-        types.table.shape, g_k, groups[:, 2], groups[:, 3], groups[:, 4], weeks
-    )  # groups x (weeks + 1)
-    cumulative = np.zeros((weeks + 1, type_ids.size))
-    np.add.at(cumulative.T, per_type, n * weight[:, None])
+    # Every week boundary summed per lamp type (stock.demand.weekly_cumulative_totals: the
+    # groups' dF_a added up per lamp-type row and cell width, one convolution per class).
+    cumulative = weekly_cumulative_totals(
+        types.table.shape,
+        g_k,
+        groups[:, 2],
+        groups[:, 3],
+        groups[:, 4],
+        weeks,
+        weight=weight,
+        label=per_type.ravel().astype(np.int64),
+        labels=type_ids.size,
+    ).T  # (weeks + 1) x lamp types
     per_week = np.diff(cumulative, axis=0)  # weeks x lamp types
     codes = type_codes(session, type_ids.tolist())
     series = [

@@ -16,11 +16,11 @@ from service.planning import service as planning
 from service.planning.choice import has_alternatives
 from service.planning.choice_bodies import lamp_choice_read
 from service.planning.plan_bodies import area_plan_read
-from service.planning.portfolio import portfolio_plans
 from service.planning.service import WEEKS_PER_YEAR
 from service.register.models import Site
 from service.users import service as users
 from service.web import charts, queries
+from service.web import overview as overview_page
 from service.web.auth import (
     COOKIE,
     Visitor,
@@ -39,7 +39,6 @@ from service.workorders.schemas import (
     FixtureOutcome,
     PositionOutcome,
 )
-from service.workorders.spend import spend_this_year
 
 router = APIRouter(include_in_schema=False)
 Text = Annotated[str, Form(max_length=1000)]
@@ -99,33 +98,9 @@ def sign_out(
 
 @router.get("/app", response_class=HTMLResponse)
 def overview(request: Request, session: SessionDep, visitor: VisitorDep) -> HTMLResponse:
-    """Each site's open burnouts and orders, areas due soon, and the weekly burnout chart."""
-    now = utcnow()
-    today = now.date()
-    rows = queries.site_summaries(session, today)
-    # One load of the portfolio for every site's plans and for the chart (no per-site loads).
-    sites = queries.sites(session)
-    pf = portfolio_plans(session, sites, now, last_relamps=last_group_relamps)
-    plans = pf.plans
-    spend = spend_this_year(session, sites, plans, now)
-    due = [p for p in plans if p.due_on is not None]
-    soon = [p for p in due if p.due_on is not None and (p.due_on - today).days < DUE_SOON_DAYS]
-    due_days = [p.due_on for p in due if p.due_on]
-    weekly = charts.weekly_burnouts(session, now, due_days, today, loaded=(pf.ages, pf.types))
-    return page(
-        request,
-        "overview.html",
-        visitor=visitor,
-        rows=rows,
-        spend=spend,
-        soon=soon,
-        plans=plans,
-        due_soon_weeks=DUE_SOON_DAYS // 7,
-        weekly=weekly,
-    )
-
-
-DUE_SOON_DAYS = 8 * 7  # the overview lists group relamps due within this many days
+    """Each site's open burnouts, orders and relamps due, areas due soon, the weekly chart."""
+    view = overview_page.overview(session, utcnow())
+    return page(request, "overview.html", visitor=visitor, view=view)
 
 
 @router.get("/app/lamp-types", response_class=HTMLResponse)
