@@ -176,12 +176,12 @@ def main() -> int:
     args = ap.parse_args()
     os.environ["LAMPKEEPER_DATABASE_URL"] = args.url
     os.environ["LAMPKEEPER_SCHEDULER_ENABLED"] = "false"
-    from service.main import freeze_startup_heap
+    from service.heap import freeze_startup
 
     direct, token, app = _direct_call(args.url)
     print(f"page size: {direct():,} bytes")  # also the warm-up: imports, caches, a connection
     if not args.no_freeze:
-        freeze_startup_heap()  # as the app's start does (service.main.lifespan)
+        freeze_startup()  # as the app's start does (service.main.lifespan)
     clock = GcClock()
     _time_direct(direct, args.repeats, clock)
     _time_requests(app, token, args.repeats, clock)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import gc
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
@@ -24,6 +23,7 @@ from service.changes.router import router as changes_router
 from service.config import get_settings
 from service.events.router import router as events_router
 from service.forecasting.router import router as forecasting_router
+from service.heap import freeze_startup
 from service.planning.choice_router import build_router as build_choice_router
 from service.planning.router import build_router as build_planning_router
 from service.readings.router import router as readings_router
@@ -59,28 +59,12 @@ DOMAIN_ROUTERS: list[APIRouter] = [
 ]
 
 
-_heap_frozen: list[bool] = []  # set once per process by freeze_startup_heap
-
-
-def freeze_startup_heap() -> None:
-    """Hide the objects made at start-up from the cyclic collector, once per process."""
-    # A full (generation 2) collection walks every tracked object; the ~240,000 made by
-    # importing and building the app cost ~0.2-0.4 s per pass on the shared 2-core host,
-    # and a heavy page (the overview) sets one off per request. gc.freeze (Python's gc
-    # docs) moves them to the permanent generation; objects made later are collected as
-    # usual. Collect first so start-up garbage is freed, not kept.
-    if not _heap_frozen:
-        gc.collect()
-        gc.freeze()
-        _heap_frozen.append(True)
-
-
 @asynccontextmanager
 async def lifespan(app: FastAPI) -> AsyncIterator[None]:
     """Start background work (the weekly scheduler) with the app, stop it after."""
     from service.scheduling.scheduler import start_scheduler
 
-    freeze_startup_heap()
+    freeze_startup()
     scheduler = start_scheduler() if app.state.start_scheduler else None
     try:
         yield

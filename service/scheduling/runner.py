@@ -23,14 +23,11 @@ skips it (no run record) instead of queueing behind the site lock and running it
 
 from __future__ import annotations
 
-import gc
 import logging
 import os
 import socket
 import threading
 import time
-from collections.abc import Iterator
-from contextlib import contextmanager
 from datetime import datetime, timedelta
 from typing import Any, cast
 
@@ -43,6 +40,7 @@ from service.config import get_settings
 from service.db.base import utcnow
 from service.db.locks import lock_site
 from service.db.session import begin_write
+from service.heap import long_lived_frozen
 from service.planning.service import local_today
 from service.register.models import Site
 from service.scheduling.models import RunOutcome, RunWeek, WeeklyRun
@@ -56,34 +54,6 @@ _local_locks: dict[int, threading.RLock] = {}
 _locks_guard = threading.Lock()
 
 REAPED_ERROR = "lease expired: the process running it stopped"
-
-_frozen = 0  # runs inside _long_lived_frozen (threads may run sites side by side)
-_frozen_guard = threading.Lock()
-
-
-@contextmanager
-def _long_lived_frozen() -> Iterator[None]:
-    """Keep the cyclic collector off the objects the process already holds, during a run.
-
-    A site's run allocates some hundred thousand short-lived containers (rows, lines, plan
-    figures), which set off full collections; each of those walked every object the
-    process holds (modules, mappers, numpy, scipy: about 200,000), 0.3 s apiece, several
-    per site run (a third of a 100,000-fixture weekly run). gc.freeze moves them to the
-    permanent generation for the run, gc.unfreeze hands them back; both are O(1), and
-    the run's own garbage is collected as before.
-    """
-    global _frozen
-    with _frozen_guard:
-        if _frozen == 0:
-            gc.freeze()
-        _frozen += 1
-    try:
-        yield
-    finally:
-        with _frozen_guard:
-            _frozen -= 1
-            if _frozen == 0:
-                gc.unfreeze()
 
 
 def _site_lock(site_id: int) -> threading.RLock:
@@ -245,7 +215,7 @@ def run_site_week(
     heartbeat.start()
     started = time.perf_counter()
     try:
-        with _site_lock(site_id), _long_lived_frozen():
+        with _site_lock(site_id), long_lived_frozen():
             row = _work(factory, site_id, week, run_id, when)
         observe_run("succeeded", time.perf_counter() - started, row.orders_created or 0)
         return row
