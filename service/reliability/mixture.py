@@ -240,14 +240,36 @@ class Mixture:
     def quantile(self, level: float) -> IntArray:
         """Per column the smallest integer k with P(K <= k) >= level (bisection)."""
         c = self.mean.size
+        target = level - 1e-12
+        if self.pmf is not None:  # a non-decreasing cumsum: the bisection's k, read directly
+            cdf = np.cumsum(self.pmf, axis=1)
+            first = np.array([np.searchsorted(cdf[i], target) for i in range(c)], dtype=np.int64)
+            return np.where(first >= cdf.shape[1], self.n, np.minimum(first, self.n))
+        assert self.fine is not None
+        # Beyond 12 sd (+ 12) of every fine point the CDF is 0 or 1 to far below 1e-12:
+        # the bisection's steps out there are decided without evaluating it (same path).
+        mu, sd = self.fine.mean, np.sqrt(self.fine.var)
+        below = np.floor(np.min(mu - 12.0 * sd, axis=0)) - 12.0  # (C,) cdf < level under
+        above = np.ceil(np.max(mu + 12.0 * sd, axis=0)) + 12.0  # cdf >= level at and over
         lo = np.full(c, -1, dtype=np.int64)  # cdf(lo) < level (cdf(-1) = 0)
         hi = np.full(c, self.n, dtype=np.int64)  # cdf(hi) = 1 >= level
         while np.any(hi - lo > 1):
             mid = (lo + hi) // 2
-            ok = self.cdf(mid) >= level - 1e-12
+            ok = mid >= above
+            need = np.nonzero((hi - lo > 1) & (mid > below) & ~ok)[0]
+            if need.size:
+                ok[need] = self._cdf_cols(mid[need], need) >= target
             hi = np.where(ok, mid, hi)
             lo = np.where(ok, lo, mid)
         return hi
+
+    def _cdf_cols(self, k: IntArray, cols: IntArray) -> FloatArray:
+        """The RNA mixture CDF at k[i] for column cols[i] only (as cdf, fewer columns)."""
+        assert self.fine is not None and self.w_fine is not None
+        f = self.fine
+        sub = Moments(f.mean[:, cols], f.var[:, cols], f.third[:, cols])
+        g = rna_cdf(np.asarray(k, dtype=np.float64)[None, :], sub)
+        return np.asarray(np.einsum("f,f...->...", self.w_fine, g), dtype=np.float64)
 
     def span(self, col: int = 0) -> tuple[int, int]:
         """(lo, hi): the counts carrying one column's mass (tails below ~1e-12 left out)."""

@@ -112,30 +112,51 @@ def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
     return out
 
 
+def _end_sums(d_f: FloatArray, m_lag: FloatArray, ends: IntArray) -> FloatArray:
+    """The discrete convolution of d_f and m_lag read at the cells ends - 1 only (n, weeks):
+    sum_{j < e} d_f[:, j] m_lag[:, e - 1 - j] for each end e.
+
+    Rows sharing one m_lag (one cell width) are one matrix product d_f @ W with
+    W[j, w] = m_lag[ends[w] - 1 - j] (j < ends[w], else 0); otherwise one dot per end.
+    Direct sums of non-negative terms: no FFT round-off to clip.
+    """
+    k_cells = d_f.shape[1]
+    if m_lag.shape[0] == 1:
+        j = np.arange(k_cells)[:, None]
+        lag = ends[None, :] - 1 - j
+        w = np.where(lag >= 0, m_lag[0][np.maximum(lag, 0)], 0.0)
+        out: FloatArray = d_f @ w
+        return out
+    rev = m_lag[:, ::-1]  # m_lag[e - 1 - j] = rev[K - e + j]
+    out = np.empty((d_f.shape[0], ends.size))
+    for i, e in enumerate(ends.tolist()):
+        out[:, i] = np.einsum("ij,ij->i", d_f[:, :e], rev[:, k_cells - e :])
+    return out
+
+
 def _one_pass(
     beta: float, table: FloatArray, step: float, u_age: FloatArray, delta: FloatArray, weeks: int
 ) -> FloatArray:
-    """N_a at week boundaries 1..weeks (m, weeks) of positions in scale units, one FFT each."""
+    """N_a at week boundaries 1..weeks (m, weeks) of positions in scale units.
+
+    The convolution int_0^w M(w - x) dF_a(x) is needed at the week ends only: its 26 sums
+    directly (_end_sums), not the whole convolution by FFT.
+    """
     m = CELLS_PER_WEEK
     k_cells = weeks * m
     edges = np.arange(k_cells + 1, dtype=np.float64)
     lags = edges[:-1] + 0.5
     ends = np.arange(1, weeks + 1) * m  # cells up to each boundary
     out = np.empty((u_age.size, weeks))
-    # A linear (not circular) convolution of two length-K rows needs 2K - 1 points,
-    # rounded up to a length the FFT factors quickly (2, 3 and 5 only).
-    size = next_fast_len(2 * k_cells - 1, real=True)
     for lo in range(0, u_age.size, CHUNK):
         a = u_age[lo : lo + CHUNK][:, None]
         d = delta[lo : lo + CHUNK][:, None]
         # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
         f_a = -np.expm1(-(np.power(a + d * edges[None, :], beta) - np.power(a, beta)))
         d_f = np.diff(f_a, axis=1)
-        m_lag = _read_linear(table, d * lags[None, :] / step)
-        conv = np.fft.irfft(
-            np.fft.rfft(d_f, size, axis=1) * np.fft.rfft(m_lag, size, axis=1), size, axis=1
-        )
-        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(conv[:, ends - 1], 0.0)
+        one = bool(np.all(d == d[:1]))
+        m_lag = _read_linear(table, (d[:1] if one else d) * lags[None, :] / step)
+        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(_end_sums(d_f, m_lag, ends), 0.0)
     return out
 
 
