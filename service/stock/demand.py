@@ -112,23 +112,31 @@ def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
     return out
 
 
-def _end_sums(d_f: FloatArray, m_lag: FloatArray, ends: IntArray) -> FloatArray:
-    """The discrete convolution of d_f and m_lag read at the cells ends - 1 only (n, weeks):
-    sum_{j < e} d_f[:, j] m_lag[:, e - 1 - j] for each end e.
+def _end_sums(d_f: FloatArray, m_lag: FloatArray, cls: IntArray, ends: IntArray) -> FloatArray:
+    """The discrete convolution of d_f and m_lag[cls] read at the cells ends - 1 only
+    (n, weeks): sum_{j < e} d_f[:, j] m_lag[cls, e - 1 - j] for each end e.
 
-    Rows sharing one m_lag (one cell width) are one matrix product d_f @ W with
-    W[j, w] = m_lag[ends[w] - 1 - j] (j < ends[w], else 0); otherwise one dot per end.
-    Direct sums of non-negative terms: no FFT round-off to clip.
+    m_lag: one row per cell width, cls: each row's width. Rows of one width are one matrix
+    product d_f @ W with W[j, w] = m_lag[ends[w] - 1 - j] (j < ends[w], else 0); with
+    widths nearly as many as rows, one dot per end. Direct sums of non-negative terms.
     """
-    k_cells = d_f.shape[1]
-    if m_lag.shape[0] == 1:
+    n, k_cells = d_f.shape
+    if m_lag.shape[0] * 8 <= n:
         j = np.arange(k_cells)[:, None]
         lag = ends[None, :] - 1 - j
-        w = np.where(lag >= 0, m_lag[0][np.maximum(lag, 0)], 0.0)
-        out: FloatArray = d_f @ w
+        w = np.where(lag >= 0, m_lag[:, np.maximum(lag, 0)], 0.0)  # (widths, K, weeks)
+        if m_lag.shape[0] == 1:
+            one: FloatArray = d_f @ w[0]
+            return one
+        out = np.empty((n, ends.size))
+        order = np.argsort(cls, kind="stable")
+        bounds = np.searchsorted(cls[order], np.arange(m_lag.shape[0] + 1))
+        for c in range(m_lag.shape[0]):
+            rows = order[bounds[c] : bounds[c + 1]]
+            out[rows] = d_f[rows] @ w[c]
         return out
-    rev = m_lag[:, ::-1]  # m_lag[e - 1 - j] = rev[K - e + j]
-    out = np.empty((d_f.shape[0], ends.size))
+    rev = m_lag[cls, ::-1]  # m_lag[e - 1 - j] = rev[K - e + j]
+    out = np.empty((n, ends.size))
     for i, e in enumerate(ends.tolist()):
         out[:, i] = np.einsum("ij,ij->i", d_f[:, :e], rev[:, k_cells - e :])
     return out
@@ -140,7 +148,7 @@ def _one_pass(
     """N_a at week boundaries 1..weeks (m, weeks) of positions in scale units.
 
     The convolution int_0^w M(w - x) dF_a(x) is needed at the week ends only: its 26 sums
-    directly (_end_sums), not the whole convolution by FFT.
+    directly (_end_sums), not the whole convolution by FFT; M read once per cell width.
     """
     m = CELLS_PER_WEEK
     k_cells = weeks * m
@@ -154,9 +162,10 @@ def _one_pass(
         # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
         f_a = -np.expm1(-(np.power(a + d * edges[None, :], beta) - np.power(a, beta)))
         d_f = np.diff(f_a, axis=1)
-        one = bool(np.all(d == d[:1]))
-        m_lag = _read_linear(table, (d[:1] if one else d) * lags[None, :] / step)
-        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(_end_sums(d_f, m_lag, ends), 0.0)
+        widths, cls = np.unique(d[:, 0], return_inverse=True)
+        m_lag = _read_linear(table, widths[:, None] * lags[None, :] / step)
+        sums = _end_sums(d_f, m_lag, cls.ravel(), ends)
+        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(sums, 0.0)
     return out
 
 
@@ -340,15 +349,14 @@ def mixed(m: mx.Moments, nd: NodeDemand, p: FloatArray | None) -> mx.Mixture:
     its exact branch by pmf_repeated when rows repeat (a fixture's lamps, an area's set)."""
     r = mx.rule()
     w = nd.weights()
-    if p is None or p.shape[1] * 4 > nd.n:  # few repeats: the positions' own recursion
-        pos = None if p is None else np.repeat(p, w.astype(np.int64), axis=1)
-        return mx.mixture(m, nd.n, r, pos)
     # As mixture.mixture: the same support, budget and fine grid; distinct rows only.
     mean = np.einsum("k,k...->...", r.w, m.mean)
     fine = m.to_fine(r) if r.z.size > 1 else m
     kmax = mx.support_max(fine, nd.n)
-    if not mx.exact_is_cheap(nd.n, r.z_fine.size * m.mean.shape[1], kmax):
-        return mx.Mixture(mean, nd.n, "rna", fine=fine, w_fine=r.w_fine)
+    if p is None or not mx.exact_is_cheap(nd.n, r.z_fine.size * m.mean.shape[1], kmax):
+        return mx.Mixture(mean, nd.n, "rna", fine=fine, w_fine=r.w_fine)  # as mx.mixture's
+    if p.shape[1] * 4 > nd.n:  # few repeats: the positions' own recursion
+        return mx.mixture(m, nd.n, r, np.repeat(p, w.astype(np.int64), axis=1))
     pf = mx.to_fine_p(p, r) if r.z.size > 1 else p
     pmf = pmf_repeated(pf, w, kmax)
     return mx.Mixture(mean, nd.n, "exact", pmf=np.einsum("f,f...->...", r.w_fine, pmf))
