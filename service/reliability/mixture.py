@@ -248,7 +248,7 @@ class Mixture:
         assert self.fine is not None
         # Beyond 12 sd (+ 12) of every fine point the CDF is 0 or 1 to far below 1e-12:
         # the bisection's steps out there are decided without evaluating it (same path).
-        mu, sd = self.fine.mean, np.sqrt(self.fine.var)
+        mu, sd = self.fine.mean, np.sqrt(np.maximum(self.fine.var, 0.0))
         below = np.floor(np.min(mu - 12.0 * sd, axis=0)) - 12.0  # (C,) cdf < level under
         above = np.ceil(np.max(mu + 12.0 * sd, axis=0)) + 12.0  # cdf >= level at and over
         lo = np.full(c, -1, dtype=np.int64)  # cdf(lo) < level (cdf(-1) = 0)
