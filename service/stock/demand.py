@@ -178,12 +178,10 @@ def _grouped_pass(
     out = np.empty((u_age.size, weeks))
     widths, cls = np.unique(delta, return_inverse=True)
     cls = cls.ravel()
-    direct = np.zeros(u_age.size, dtype=bool)
-    for c in range(widths.size):
+    counts = np.bincount(cls, minlength=widths.size)
+    direct = counts[cls] < GROUP_MIN  # the rows of small classes, one pass for them all
+    for c in np.nonzero(counts >= GROUP_MIN)[0].tolist():
         idx = np.nonzero(cls == c)[0]
-        if idx.size < GROUP_MIN:
-            direct[idx] = True
-            continue
         a = u_age[idx]
         lo, hi = float(a.min()), float(a.max())
         if hi <= lo:
