@@ -26,7 +26,7 @@ Cumulative spot replacements at every week boundary in one pass (weekly_cumulati
 position the delayed-renewal sum N_a(w) = F_a(w) + int_0^w M(w - x) dF_a(x) [Cox, *Renewal
 Theory*] on one grid of CELLS_PER_WEEK cells per week: F_a at the cell edges, M at the cell
 midpoint lags, so the Stieltjes midpoint sums of all 27 boundaries are the prefix terms of one
-discrete convolution, done by FFT (numpy.fft) for every position at once. The midpoint rule
+discrete convolution, read at the week ends only (a matrix product per cell width). The midpoint rule
 on a fixed cell (a quarter week) is as fine as forecasting.spot_replacements' 24 cells up to
 6 weeks and finer beyond; the two agree to the latter's own quadrature error.
 """
