@@ -205,6 +205,37 @@ def exact_is_cheap(n: int, columns: int, kmax: int, budget: float = EXACT_BUDGET
 
 
 @dataclass(frozen=True)
+class _RnaColumns:
+    """rna_cdf's parts that do not depend on k, computed once for a quantile's bisection."""
+
+    mean: FloatArray
+    var: FloatArray
+    sd: FloatArray
+    gamma: FloatArray
+    regime: NDArray[np.bool_]
+
+    @classmethod
+    def of(cls, m: Moments) -> _RnaColumns:
+        """The fine moments' sd, skewness factor and Poisson regime (as rna_cdf forms them)."""
+        sd = np.sqrt(np.maximum(m.var, 1e-200))
+        return cls(m.mean, m.var, sd, m.third / sd**3, poisson_regime(m.mean, m.var))
+
+    def cdf(self, k: IntArray, cols: IntArray) -> FloatArray:
+        """rna_cdf(k[None, :], the columns cols of m) (F, len(cols)), the same arithmetic."""
+        mu, var = self.mean[:, cols], self.var[:, cols]
+        kk = np.broadcast_to(np.asarray(k, dtype=np.float64)[None, :], mu.shape)
+        x = (kk + 0.5 - mu) / self.sd[:, cols]
+        gamma = self.gamma[:, cols]
+        g = ndtr(x) + gamma * (1.0 - x * x) * np.exp(-0.5 * x * x) / (6.0 * math.sqrt(2 * math.pi))
+        out = np.clip(g, 0.0, 1.0)
+        regime = self.regime[:, cols]
+        if regime.any():
+            kp = kk[regime]
+            out[regime] = np.where(kp >= 0, pdtr(np.maximum(kp, 0.0), mu[regime]), 0.0)
+        return np.where(var > 1e-12, out, (kk + 1e-9 >= mu).astype(np.float64))
+
+
+@dataclass(frozen=True)
 class Mixture:
     """The mixture distribution of a count per column (weeks, or one horizon).
 
@@ -240,14 +271,34 @@ class Mixture:
     def quantile(self, level: float) -> IntArray:
         """Per column the smallest integer k with P(K <= k) >= level (bisection)."""
         c = self.mean.size
+        target = level - 1e-12
+        if self.pmf is not None:  # a non-decreasing cumsum: the bisection's k, read directly
+            cdf = np.cumsum(self.pmf, axis=1)
+            first = np.array([np.searchsorted(cdf[i], target) for i in range(c)], dtype=np.int64)
+            return np.where(first >= cdf.shape[1], self.n, np.minimum(first, self.n))
+        assert self.fine is not None
+        # Beyond 12 sd (+ 12) of every fine point the CDF is 0 or 1 to far below 1e-12:
+        # the bisection's steps out there are decided without evaluating it (same path).
+        mu, sd = self.fine.mean, np.sqrt(np.maximum(self.fine.var, 0.0))
+        below = np.floor(np.min(mu - 12.0 * sd, axis=0)) - 12.0  # (C,) cdf < level under
+        above = np.ceil(np.max(mu + 12.0 * sd, axis=0)) + 12.0  # cdf >= level at and over
         lo = np.full(c, -1, dtype=np.int64)  # cdf(lo) < level (cdf(-1) = 0)
         hi = np.full(c, self.n, dtype=np.int64)  # cdf(hi) = 1 >= level
+        at = _RnaColumns.of(self.fine)
         while np.any(hi - lo > 1):
             mid = (lo + hi) // 2
-            ok = self.cdf(mid) >= level - 1e-12
+            ok = mid >= above
+            need = np.nonzero((hi - lo > 1) & (mid > below) & ~ok)[0]
+            if need.size:
+                ok[need] = self._mix(at.cdf(mid[need], need)) >= target
             hi = np.where(ok, mid, hi)
             lo = np.where(ok, lo, mid)
         return hi
+
+    def _mix(self, g: FloatArray) -> FloatArray:
+        """The fine points' CDFs (F, ...) weighted into the mixture's (as cdf)."""
+        assert self.w_fine is not None
+        return np.asarray(np.einsum("f,f...->...", self.w_fine, g), dtype=np.float64)
 
     def span(self, col: int = 0) -> tuple[int, int]:
         """(lo, hi): the counts carrying one column's mass (tails below ~1e-12 left out)."""

@@ -209,12 +209,17 @@ def _energy(bk: _Book, plan: AreaPlan, g: TypeGroup, rf: Retrofit | None) -> Non
     c = g.costs
     old_w = g.positions * c.lamp_watts * g.group.power_factor  # watts of the type's lamps
     new_w = rf.units * rf.result.watts_per_unit if rf is not None else old_w
+    rate, price = plan.weekly_burn_hours, c.energy_price_per_kwh
+    if rf is None:  # the old lamps all month, every month (the same sums as the split below)
+        for i in range(MONTHS):
+            hours = rate * (bk.starts[i + 1] - bk.starts[i]).days / 7.0
+            bk.sums[(i, "operation", "energy")] += old_w * hours / 1000.0 * price
+        return
     for i in range(MONTHS):
-        start, end = bk.starts[i], bk.starts[i + 1]
-        before, after = energy_split_days(rf.day, start, end) if rf else ((end - start).days, 0)
-        hours, hours_new = (plan.weekly_burn_hours * d / 7.0 for d in (before, after))
+        before, after = energy_split_days(rf.day, bk.starts[i], bk.starts[i + 1])
+        hours, hours_new = rate * before / 7.0, rate * after / 7.0
         kwh = old_w * hours / 1000.0 + (new_w * hours_new / 1000.0 if after else 0.0)
-        bk.add(i, "operation", {"energy": kwh * c.energy_price_per_kwh})
+        bk.sums[(i, "operation", "energy")] += kwh * price
 
 
 def _retrofit(bk: _Book, plan: AreaPlan, g: TypeGroup, rf: Retrofit) -> None:

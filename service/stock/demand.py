@@ -26,7 +26,7 @@ Cumulative spot replacements at every week boundary in one pass (weekly_cumulati
 position the delayed-renewal sum N_a(w) = F_a(w) + int_0^w M(w - x) dF_a(x) [Cox, *Renewal
 Theory*] on one grid of CELLS_PER_WEEK cells per week: F_a at the cell edges, M at the cell
 midpoint lags, so the Stieltjes midpoint sums of all 27 boundaries are the prefix terms of one
-discrete convolution, done by FFT (numpy.fft) for every position at once. The midpoint rule
+discrete convolution, read at the week ends only (a matrix product per cell width). The midpoint rule
 on a fixed cell (a quarter week) is as fine as forecasting.spot_replacements' 24 cells up to
 6 weeks and finer beyond; the two agree to the latter's own quadrature error.
 """
@@ -112,30 +112,60 @@ def _read_linear(table: FloatArray, x: FloatArray) -> FloatArray:
     return out
 
 
+def _end_sums(d_f: FloatArray, m_lag: FloatArray, cls: IntArray, ends: IntArray) -> FloatArray:
+    """The discrete convolution of d_f and m_lag[cls] read at the cells ends - 1 only
+    (n, weeks): sum_{j < e} d_f[:, j] m_lag[cls, e - 1 - j] for each end e.
+
+    m_lag: one row per cell width, cls: each row's width. Rows of one width are one matrix
+    product d_f @ W with W[j, w] = m_lag[ends[w] - 1 - j] (j < ends[w], else 0); with
+    widths nearly as many as rows, one dot per end. Direct sums of non-negative terms.
+    """
+    n, k_cells = d_f.shape
+    if m_lag.shape[0] * 8 <= n:
+        j = np.arange(k_cells)[:, None]
+        lag = ends[None, :] - 1 - j
+        w = np.where(lag >= 0, m_lag[:, np.maximum(lag, 0)], 0.0)  # (widths, K, weeks)
+        if m_lag.shape[0] == 1:
+            one: FloatArray = d_f @ w[0]
+            return one
+        out = np.empty((n, ends.size))
+        order = np.argsort(cls, kind="stable")
+        bounds = np.searchsorted(cls[order], np.arange(m_lag.shape[0] + 1))
+        for c in range(m_lag.shape[0]):
+            rows = order[bounds[c] : bounds[c + 1]]
+            out[rows] = d_f[rows] @ w[c]
+        return out
+    rev = m_lag[cls, ::-1]  # m_lag[e - 1 - j] = rev[K - e + j]
+    out = np.empty((n, ends.size))
+    for i, e in enumerate(ends.tolist()):
+        out[:, i] = np.einsum("ij,ij->i", d_f[:, :e], rev[:, k_cells - e :])
+    return out
+
+
 def _one_pass(
     beta: float, table: FloatArray, step: float, u_age: FloatArray, delta: FloatArray, weeks: int
 ) -> FloatArray:
-    """N_a at week boundaries 1..weeks (m, weeks) of positions in scale units, one FFT each."""
+    """N_a at week boundaries 1..weeks (m, weeks) of positions in scale units.
+
+    The convolution int_0^w M(w - x) dF_a(x) is needed at the week ends only: its 26 sums
+    directly (_end_sums), not the whole convolution by FFT; M read once per cell width.
+    """
     m = CELLS_PER_WEEK
     k_cells = weeks * m
     edges = np.arange(k_cells + 1, dtype=np.float64)
     lags = edges[:-1] + 0.5
     ends = np.arange(1, weeks + 1) * m  # cells up to each boundary
     out = np.empty((u_age.size, weeks))
-    # A linear (not circular) convolution of two length-K rows needs 2K - 1 points,
-    # rounded up to a length the FFT factors quickly (2, 3 and 5 only).
-    size = next_fast_len(2 * k_cells - 1, real=True)
     for lo in range(0, u_age.size, CHUNK):
         a = u_age[lo : lo + CHUNK][:, None]
         d = delta[lo : lo + CHUNK][:, None]
         # F_a(x) = 1 - exp(-((a+x)^beta - a^beta)), written to keep precision.
         f_a = -np.expm1(-(np.power(a + d * edges[None, :], beta) - np.power(a, beta)))
         d_f = np.diff(f_a, axis=1)
-        m_lag = _read_linear(table, d * lags[None, :] / step)
-        conv = np.fft.irfft(
-            np.fft.rfft(d_f, size, axis=1) * np.fft.rfft(m_lag, size, axis=1), size, axis=1
-        )
-        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(conv[:, ends - 1], 0.0)
+        widths, cls = np.unique(d[:, 0], return_inverse=True)
+        m_lag = _read_linear(table, widths[:, None] * lags[None, :] / step)
+        sums = _end_sums(d_f, m_lag, cls.ravel(), ends)
+        out[lo : lo + CHUNK] = f_a[:, ends] + np.maximum(sums, 0.0)
     return out
 
 
@@ -148,12 +178,10 @@ def _grouped_pass(
     out = np.empty((u_age.size, weeks))
     widths, cls = np.unique(delta, return_inverse=True)
     cls = cls.ravel()
-    direct = np.zeros(u_age.size, dtype=bool)
-    for c in range(widths.size):
+    counts = np.bincount(cls, minlength=widths.size)
+    direct = counts[cls] < GROUP_MIN  # the rows of small classes, one pass for them all
+    for c in np.nonzero(counts >= GROUP_MIN)[0].tolist():
         idx = np.nonzero(cls == c)[0]
-        if idx.size < GROUP_MIN:
-            direct[idx] = True
-            continue
         a = u_age[idx]
         lo, hi = float(a.min()), float(a.max())
         if hi <= lo:
@@ -396,15 +424,14 @@ def mixed(m: mx.Moments, nd: NodeDemand, p: FloatArray | None) -> mx.Mixture:
     its exact branch by pmf_repeated when rows repeat (a fixture's lamps, an area's set)."""
     r = mx.rule()
     w = nd.weights()
-    if p is None or p.shape[1] * 4 > nd.n:  # few repeats: the positions' own recursion
-        pos = None if p is None else np.repeat(p, w.astype(np.int64), axis=1)
-        return mx.mixture(m, nd.n, r, pos)
     # As mixture.mixture: the same support, budget and fine grid; distinct rows only.
     mean = np.einsum("k,k...->...", r.w, m.mean)
     fine = m.to_fine(r) if r.z.size > 1 else m
     kmax = mx.support_max(fine, nd.n)
-    if not mx.exact_is_cheap(nd.n, r.z_fine.size * m.mean.shape[1], kmax):
-        return mx.Mixture(mean, nd.n, "rna", fine=fine, w_fine=r.w_fine)
+    if p is None or not mx.exact_is_cheap(nd.n, r.z_fine.size * m.mean.shape[1], kmax):
+        return mx.Mixture(mean, nd.n, "rna", fine=fine, w_fine=r.w_fine)  # as mx.mixture's
+    if p.shape[1] * 4 > nd.n:  # few repeats: the positions' own recursion
+        return mx.mixture(m, nd.n, r, np.repeat(p, w.astype(np.int64), axis=1))
     pf = mx.to_fine_p(p, r) if r.z.size > 1 else p
     pmf = pmf_repeated(pf, w, kmax)
     return mx.Mixture(mean, nd.n, "exact", pmf=np.einsum("f,f...->...", r.w_fine, pmf))
