@@ -28,6 +28,7 @@ interval on the same renewal curve (replacement.block_cost_rate).
 from __future__ import annotations
 
 import math
+from collections.abc import Hashable
 from dataclasses import dataclass
 
 import numpy as np
@@ -41,7 +42,12 @@ from service.planning.group_plan import (
 )
 from service.planning.maintained import luminaire_factor_in_cycle, spot_only_luminaire_factor
 from service.reliability.lumen import DEFAULT_EFFICACY_LM_PER_W
-from service.reliability.megalumen import MegalumenCost, cost_per_megalumen_hour
+from service.reliability.megalumen import (
+    DeliveredLight,
+    MegalumenCost,
+    cost_per_megalumen_hour_of,
+    delivered_light,
+)
 from service.reliability.renewal import RenewalCurve
 from service.reliability.replacement import BlockPlan, block_cost_rate
 
@@ -114,6 +120,31 @@ def _setup(model: LampModel, cond: Conditions, gp: GroupPlan) -> _Setup:
     )
 
 
+# Delivered light by what it reads (life, horizon, lumen curve, dirt, weekly hours): one
+# body's views share each convolution (plan_views.py); None computes it afresh.
+Lights = dict[Hashable, DeliveredLight]
+
+
+def _light(
+    model: LampModel, cond: Conditions, gp: GroupPlan, st: _Setup, lights: Lights | None
+) -> DeliveredLight:
+    dirt, weekly_h = cond.dirt, cond.weekly_burn_hours
+    life_h = gp.life.scale * _LN2 ** (1.0 / gp.life.shape)  # effective B50, hours
+    curve_life = None if model.lumen_curve.basis == "hours" else life_h
+    key = (gp.life, gp.horizon_h, id(model.lumen_curve), curve_life, dirt, weekly_h)
+    if lights is not None and key in lights:
+        return lights[key]
+    light = delivered_light(
+        st.curve,
+        lumen_fraction=lambda u: model.lumen_curve.at(u, curve_life),
+        survival=gp.life.sf,
+        luminaire_factor=lambda t: luminaire_factor_in_cycle(dirt, t, weekly_h),
+    )
+    if lights is not None:
+        lights[key] = light
+    return light
+
+
 def _megalumen(
     model: LampModel,
     costs: CostInputs,
@@ -121,24 +152,19 @@ def _megalumen(
     gp: GroupPlan,
     st: _Setup,
     intervals: list[float],
+    lights: Lights | None = None,
 ) -> MegalumenCost:
-    dirt, weekly_h = cond.dirt, cond.weekly_burn_hours
-    life_h = gp.life.scale * _LN2 ** (1.0 / gp.life.shape)  # effective B50, hours
-    curve_life = None if model.lumen_curve.basis == "hours" else life_h
     horizon = float(st.curve.t[-1])
-    return cost_per_megalumen_hour(
+    return cost_per_megalumen_hour_of(
         np.minimum(np.asarray(intervals, dtype=np.float64), horizon),
-        st.curve,
+        _light(model, cond, gp, st, lights),
         costs.c_group,
         costs.c_spot,
         lamp_watts=st.watts,
         tariff_per_kwh=costs.energy_price_per_kwh,
         initial_lumens=st.lumens,
-        lumen_fraction=lambda u: model.lumen_curve.at(u, curve_life),
-        survival=gp.life.sf,
         max_interval_h=st.limit_h,
-        luminaire_factor=lambda t: luminaire_factor_in_cycle(dirt, t, weekly_h),
-        spot_luminaire_factor=spot_only_luminaire_factor(dirt, weekly_h),
+        spot_luminaire_factor=spot_only_luminaire_factor(cond.dirt, cond.weekly_burn_hours),
     )
 
 
@@ -153,13 +179,19 @@ def _best(mc: MegalumenCost, st: _Setup, safety_forced: bool) -> tuple[float | N
     return None, "spot_only", mc.spot_only_cost_per_mlmh
 
 
-def energy_view(model: LampModel, costs: CostInputs, cond: Conditions, gp: GroupPlan) -> EnergyView:
+def energy_view(
+    model: LampModel,
+    costs: CostInputs,
+    cond: Conditions,
+    gp: GroupPlan,
+    lights: Lights | None = None,
+) -> EnergyView:
     """Energy cost, mean light and cost per megalumen-hour at the plan's and the best interval."""
     st = _setup(model, cond, gp)
     cost_plan = gp.cost_plan or gp.plan
     chosen, cost_t = gp.plan.interval_h, cost_plan.interval_h
     probe = [v for v in (chosen, cost_t) if v is not None] or [float(st.curve.t[1])]
-    mc = _megalumen(model, costs, cond, gp, st, probe)
+    mc = _megalumen(model, costs, cond, gp, st, probe, lights)
     best_t, binding, best_c = _best(mc, st, gp.rupture_cap_h is not None)
     at = dict(zip(probe, range(len(probe)), strict=False))
 

@@ -24,7 +24,7 @@ from dataclasses import dataclass, replace
 from typing import TypeVar
 
 from service.catalogue.lamp_model import LampModel
-from service.planning.energy import EnergyView
+from service.planning.energy import EnergyView, Lights
 from service.planning.group_plan import Conditions, CostInputs, PlanCache
 from service.planning.light_view import FitBounds, MaintainedView, maintained_view, scale_bounds
 from service.planning.service import TypeGroup
@@ -95,7 +95,10 @@ def bounds_many(groups: Sequence[TypeGroup]) -> dict[int, FitBounds]:
 
     def bound(model: LampModel, scale_h: float) -> LampModel:
         # One bound model per (model, scale): plan_groups prepares each model's groups at once.
-        return models.setdefault((id(model), scale_h), replace(model, scale_h=scale_h))
+        key = (id(model), scale_h)
+        if key not in models:  # replace() only on a miss: it costs more than the lookup
+            models[key] = replace(model, scale_h=scale_h)
+        return models[key]
 
     items: list[tuple[LampModel, CostInputs, Conditions]] = []
     heads = []
@@ -122,9 +125,10 @@ class PlanViews:
     @classmethod
     def of(cls, groups: Sequence[TypeGroup]) -> PlanViews:
         """The views of these groups, alike groups computed once."""
+        lights: Lights = {}  # one convolution per delivered light, this body only
         return cls(
             tuple(groups),
-            _shared(groups, energy_key, lambda g: g.energy),
+            _shared(groups, energy_key, lambda g: g.energy_with(lights)),
             _shared(
                 groups,
                 maintained_key,

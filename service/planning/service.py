@@ -37,7 +37,7 @@ from service.db.base import utcnow
 from service.db.crud import get_or_404
 from service.forecasting.fit import load_fitted_types
 from service.planning.catch_up import Slot
-from service.planning.energy import MEGALUMEN, EnergyView, energy_view, megalumen_plan
+from service.planning.energy import MEGALUMEN, EnergyView, Lights, energy_view, megalumen_plan
 from service.planning.group_age import group_ages
 from service.planning.group_plan import (
     DEFAULT_RUPTURE_FRACTION,
@@ -83,8 +83,12 @@ class TypeGroup:
     @cached_property
     def energy(self) -> EnergyView | str:
         """The energy and megalumen view, or why it could not be computed (on first use)."""
+        return self.energy_with()
+
+    def energy_with(self, lights: Lights | None = None) -> EnergyView | str:
+        """The energy view, sharing delivered light with other views through lights."""
         try:
-            return energy_view(self.model, self.costs, self.cond, self.group)
+            return energy_view(self.model, self.costs, self.cond, self.group, lights)
         except ValueError as exc:  # e.g. a grid that cannot reach the interval
             return f"energy view not available: {exc}"
 

@@ -91,16 +91,45 @@ def _cumulative_light(curve: RenewalCurve, g: FloatArray, lmf: FloatArray) -> Fl
     return np.concatenate(([0.0], np.cumsum(0.5 * h * (light_frac[1:] + light_frac[:-1]))))
 
 
-def _spot_only(
-    c: _Costing, s_vals: FloatArray, g: FloatArray, lmf_spot: float
-) -> tuple[float, float]:
-    """Spot-only cost per megalumen-hour and mean light fraction."""
+@dataclass(frozen=True, eq=False)
+class DeliveredLight:
+    """What the cost per megalumen-hour reads of a life law, lumen curve and dirt (no costs)."""
+
+    curve: RenewalCurve
+    cum_light: FloatArray  # ∫_0^t E[light fraction] on the curve's grid, hours
+    int_s: float  # ∫ S over the grid, hours (the truncated mean life)
+    int_g: float  # ∫ S·L over the grid, hours
+
+
+def delivered_light(
+    renewal_curve: RenewalCurve,
+    *,
+    lumen_fraction: Callable[[FloatArray], FloatArray],
+    survival: Callable[[FloatArray], FloatArray],
+    luminaire_factor: Callable[[FloatArray], FloatArray] | None = None,
+) -> DeliveredLight:
+    """The renewal convolution and light integrals, shared by every cost set on this light."""
+    # Views differing only in prices, watts, lumens or caps read the same arrays, so one
+    # convolution serves them all (cost_per_megalumen_hour_of).
+    t = renewal_curve.t
+    s_vals = np.asarray(survival(t), dtype=np.float64)
+    g = s_vals * np.asarray(lumen_fraction(t), dtype=np.float64)
+    lmf = np.ones_like(t) if luminaire_factor is None else np.asarray(luminaire_factor(t), float)
     # Stationary age density S(u)/μ, so mean light = ∫ S L / ∫ S (both truncated at the
     # grid horizon, which should span several mean lives).
-    h = c.curve.step_h
-    int_s = float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1])))
-    int_g = float(np.sum(0.5 * h * (g[1:] + g[:-1])))
-    spot_light = float(maintained_light(int_g / int_s, 1.0, lmf_spot))
+    h = renewal_curve.step_h
+    return DeliveredLight(
+        curve=renewal_curve,
+        cum_light=_cumulative_light(renewal_curve, g, lmf),
+        int_s=float(np.sum(0.5 * h * (s_vals[1:] + s_vals[:-1]))),
+        int_g=float(np.sum(0.5 * h * (g[1:] + g[:-1]))),
+    )
+
+
+def _spot_only(c: _Costing, light: DeliveredLight, lmf_spot: float) -> tuple[float, float]:
+    """Spot-only cost per megalumen-hour and mean light fraction."""
+    int_s = light.int_s
+    spot_light = float(maintained_light(light.int_g / int_s, 1.0, lmf_spot))
     return (c.c_spot / int_s + c.energy_rate) / (c.initial_lumens * spot_light / 1e6), spot_light
 
 
@@ -145,20 +174,54 @@ def cost_per_megalumen_hour(
     # The best interval is searched in (0, max_interval_h] (a cap: light floor, burnout
     # ceiling, rupture cap), on the grid then by a bounded Brent step around the grid minimum.
     # `luminaire_factor` (burn hours since the group visit -> LMF) is the dirt; None = clean.
+    _check(lamp_watts, tariff_per_kwh, initial_lumens, spot_luminaire_factor)
+    light = delivered_light(
+        renewal_curve,
+        lumen_fraction=lumen_fraction,
+        survival=survival,
+        luminaire_factor=luminaire_factor,
+    )
+    return cost_per_megalumen_hour_of(
+        interval_h,
+        light,
+        c_group,
+        c_spot,
+        lamp_watts=lamp_watts,
+        tariff_per_kwh=tariff_per_kwh,
+        initial_lumens=initial_lumens,
+        max_interval_h=max_interval_h,
+        spot_luminaire_factor=spot_luminaire_factor,
+    )
+
+
+def _check(
+    lamp_watts: float, tariff_per_kwh: float, initial_lumens: float, spot_factor: float
+) -> None:
     if lamp_watts < 0 or tariff_per_kwh < 0 or not initial_lumens > 0:
         raise ValueError("watts and tariff must be >= 0 and initial lumens > 0")
-    if not 0 < spot_luminaire_factor <= 1:
+    if not 0 < spot_factor <= 1:
         raise ValueError("spot_luminaire_factor must be in (0, 1]")
+
+
+def cost_per_megalumen_hour_of(
+    interval_h: ArrayLike,
+    light: DeliveredLight,
+    c_group: float,
+    c_spot: float,
+    *,
+    lamp_watts: float,
+    tariff_per_kwh: float,
+    initial_lumens: float,
+    max_interval_h: float | None = None,
+    spot_luminaire_factor: float = 1.0,
+) -> MegalumenCost:
+    """cost_per_megalumen_hour on a light computed already (delivered_light)."""
+    _check(lamp_watts, tariff_per_kwh, initial_lumens, spot_luminaire_factor)
+    renewal_curve = light.curve
     t = renewal_curve.t
-    s_vals = np.asarray(survival(t), dtype=np.float64)
-    g = s_vals * np.asarray(lumen_fraction(t), dtype=np.float64)
     c = _Costing(
         curve=renewal_curve,
-        cum_light=_cumulative_light(
-            renewal_curve,
-            g,
-            np.ones_like(t) if luminaire_factor is None else np.asarray(luminaire_factor(t), float),
-        ),
+        cum_light=light.cum_light,
         c_group=c_group,
         c_spot=c_spot,
         energy_rate=tariff_per_kwh * lamp_watts / 1000.0,
@@ -167,7 +230,7 @@ def cost_per_megalumen_hour(
     tt = t[1:]
     num = c_group + c_spot * renewal_curve.m[1:] + c.energy_rate * tt
     grid_cost = num / (initial_lumens * c.cum_light[1:] / 1e6)  # per megalumen-hour
-    spot_cost, spot_light = _spot_only(c, s_vals, g, spot_luminaire_factor)
+    spot_cost, spot_light = _spot_only(c, light, spot_luminaire_factor)
     horizon = float(t[-1])
     limit = horizon if max_interval_h is None else min(float(max_interval_h), horizon)
     if not limit > 0:
