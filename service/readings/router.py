@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Depends, Query, Request, Response, status
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -36,19 +37,35 @@ BURN_SORT = {"id": BurnHourRecord.id, "period_end": BurnHourRecord.period_end}
 VOLT_SORT = {"id": VoltageReading.id, "measured_at": VoltageReading.measured_at}
 
 
-def _filters(model: Any, site_id: int | None, area_id: int | None, fixture_id: int | None) -> Any:
+@dataclass(frozen=True)
+class Scope:
+    """The site, area and fixture filters the reading lists share."""
+
+    site_id: int | None
+    area_id: int | None
+    fixture_id: int | None
+
+
+def _scope(site_id: IdQuery = None, area_id: IdQuery = None, fixture_id: IdQuery = None) -> Scope:
+    return Scope(site_id, area_id, fixture_id)
+
+
+ScopeDep = Annotated[Scope, Depends(_scope)]
+
+
+def _filters(model: Any, scope: Scope) -> Any:
     stmt = select(model)
-    if site_id is not None:
-        stmt = stmt.where(model.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(model.area_id == area_id)
-    if fixture_id is not None:
-        stmt = stmt.where(model.fixture_id == fixture_id)
+    if scope.site_id is not None:
+        stmt = stmt.where(model.site_id == scope.site_id)
+    if scope.area_id is not None:
+        stmt = stmt.where(model.area_id == scope.area_id)
+    if scope.fixture_id is not None:
+        stmt = stmt.where(model.fixture_id == scope.fixture_id)
     return stmt
 
 
 def _latest(session: Session, model: Any, body: BurnHourCreate | VoltageReadingCreate) -> Any:
-    stmt = _filters(model, None, body.area_id, body.fixture_id)
+    stmt = _filters(model, Scope(None, body.area_id, body.fixture_id))
     if body.area_id is None:
         stmt = stmt.where(model.area_id.is_(None))
     return session.scalars(stmt.order_by(model.id.desc()).limit(1)).one()
@@ -82,15 +99,10 @@ def upload_burn_hours(
 
 @router.get("/burn-hours", response_model=Page[BurnHourRead])
 def list_burn_hours(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: IdQuery = None,
-    area_id: IdQuery = None,
-    fixture_id: IdQuery = None,
+    scope: ScopeDep, session: SessionDep, _: ReadKey, page: PageDep
 ) -> Page[BurnHourRead]:
     """List burn-hour records (sort: id, period_end)."""
-    stmt = _filters(BurnHourRecord, site_id, area_id, fixture_id)
+    stmt = _filters(BurnHourRecord, scope)
     rows, total = paginate(session, stmt, page, BURN_SORT, BurnHourRecord.id)
     return page_of(BurnHourRead, rows, total, page)
 
@@ -129,15 +141,10 @@ def upload_voltage_readings(
 
 @router.get("/voltage-readings", response_model=Page[VoltageReadingRead])
 def list_voltage_readings(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: IdQuery = None,
-    area_id: IdQuery = None,
-    fixture_id: IdQuery = None,
+    scope: ScopeDep, session: SessionDep, _: ReadKey, page: PageDep
 ) -> Page[VoltageReadingRead]:
     """List voltage readings (sort: id, measured_at)."""
-    stmt = _filters(VoltageReading, site_id, area_id, fixture_id)
+    stmt = _filters(VoltageReading, scope)
     rows, total = paginate(session, stmt, page, VOLT_SORT, VoltageReading.id)
     return page_of(VoltageReadingRead, rows, total, page)
 
