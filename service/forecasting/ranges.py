@@ -22,9 +22,9 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
 
 from service.catalogue.resolved import CurveInUse, TypeTable
+from service.reliability.arrays import FloatArray, IntArray
 from service.reliability.credibility import SIGMA_LN_SCALE
 from service.reliability.mixture_batch import FleetCurves, count_mixtures
 from service.reliability.uncertainty import (
@@ -34,9 +34,6 @@ from service.reliability.uncertainty import (
     sd_from_bounds,
     window_gradients,
 )
-
-FloatArray = NDArray[np.float64]
-IntArray = NDArray[np.int64]
 
 LEVEL = 0.90
 METHOD_NOTE = (

@@ -77,25 +77,13 @@ def _summary(s: fc.Summary) -> SummaryRead:
     return SummaryRead(**s.__dict__)
 
 
-def _opt(v: float) -> float | None:
-    return None if math.isnan(v) else float(v)
-
-
 def _read(f: fc.Forecast, scope: str, scope_id: int, with_positions: bool) -> ForecastRead:
     positions = None
     if with_positions:
         p, a, r = f.positions, f.positions.ages, f.positions.fleet
         positions = [
             PositionForecastRead(
-                position_id=int(a.position_id[i]),
-                fixture_id=int(a.fixture_id[i]),
-                area_id=int(a.area_id[i]),
-                lamp_type_id=int(a.lamp_type_id[i]),
-                age_h=float(a.age_h[i]),
-                burned_out=bool(a.burned_out[i]),
-                voltage_v=float(a.voltage_v[i]),
-                voltage_source=str(a.voltage_source[i]),
-                hours_per_start=_opt(float(a.hours_per_start[i])),
+                **a.row(i),
                 life_factor=float(r.life_factor[i]),
                 scale_h=float(r.scale_h[i]),
                 survival=float(p.survival[i]),

@@ -25,6 +25,7 @@ Method (all vectorised; a handful of queries whatever the number of positions):
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from datetime import datetime
 from typing import Any
@@ -82,6 +83,21 @@ class PositionAges:
     def size(self) -> int:
         """Number of positions."""
         return int(self.position_id.size)
+
+    def row(self, i: int) -> dict[str, Any]:
+        """Position i's place, age and voltage as plain values (NaN hours per start: None)."""
+        hps = float(self.hours_per_start[i])
+        return {
+            "position_id": int(self.position_id[i]),
+            "fixture_id": int(self.fixture_id[i]),
+            "area_id": int(self.area_id[i]),
+            "lamp_type_id": int(self.lamp_type_id[i]),
+            "age_h": float(self.age_h[i]),
+            "hours_per_start": None if math.isnan(hps) else hps,
+            "voltage_v": float(self.voltage_v[i]),
+            "voltage_source": str(self.voltage_source[i]),
+            "burned_out": bool(self.burned_out[i]),
+        }
 
     def take(self, idx: Any) -> PositionAges:
         """The subset at an index or boolean mask."""

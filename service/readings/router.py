@@ -2,19 +2,22 @@
 
 from __future__ import annotations
 
-import math
+from collections.abc import Callable
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Query, Request, Response, status
+from fastapi import APIRouter, Depends, Query, Request, Response, status
+from pydantic import BaseModel
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from service.api.auth import ReadKey, SessionDep, WriteKey
-from service.api.bulk import UPLOAD_OPENAPI, RawBodyDep
+from service.api.bulk import UPLOAD_OPENAPI, RawBody, RawBodyDep
 from service.api.errors import Invalid
 from service.api.ids import IdQuery
 from service.api.pagination import OffsetPageDep, Page, PageDep, page_of, paginate
+from service.api.resource_routes import endpoint, param
 from service.api.times import Timestamp
 from service.readings import burn_hours, voltage_upload
 from service.readings.ages import position_ages
@@ -36,22 +39,98 @@ BURN_SORT = {"id": BurnHourRecord.id, "period_end": BurnHourRecord.period_end}
 VOLT_SORT = {"id": VoltageReading.id, "measured_at": VoltageReading.measured_at}
 
 
-def _filters(model: Any, site_id: int | None, area_id: int | None, fixture_id: int | None) -> Any:
+@dataclass(frozen=True)
+class Scope:
+    """The site, area and fixture filters the reading lists share."""
+
+    site_id: int | None
+    area_id: int | None
+    fixture_id: int | None
+
+
+def _scope(site_id: IdQuery = None, area_id: IdQuery = None, fixture_id: IdQuery = None) -> Scope:
+    return Scope(site_id, area_id, fixture_id)
+
+
+ScopeDep = Annotated[Scope, Depends(_scope)]
+
+
+def _scope_at(
+    site_id: IdQuery = None,
+    area_id: IdQuery = None,
+    fixture_id: IdQuery = None,
+    at: Annotated[Timestamp | None, Query(description="Moment (default now).")] = None,
+) -> tuple[Scope, datetime | None]:
+    return Scope(site_id, area_id, fixture_id), at
+
+
+ScopeAtDep = Annotated[tuple[Scope, datetime | None], Depends(_scope_at)]
+
+
+def _filters(model: Any, scope: Scope) -> Any:
     stmt = select(model)
-    if site_id is not None:
-        stmt = stmt.where(model.site_id == site_id)
-    if area_id is not None:
-        stmt = stmt.where(model.area_id == area_id)
-    if fixture_id is not None:
-        stmt = stmt.where(model.fixture_id == fixture_id)
+    if scope.site_id is not None:
+        stmt = stmt.where(model.site_id == scope.site_id)
+    if scope.area_id is not None:
+        stmt = stmt.where(model.area_id == scope.area_id)
+    if scope.fixture_id is not None:
+        stmt = stmt.where(model.fixture_id == scope.fixture_id)
     return stmt
 
 
 def _latest(session: Session, model: Any, body: BurnHourCreate | VoltageReadingCreate) -> Any:
-    stmt = _filters(model, None, body.area_id, body.fixture_id)
+    stmt = _filters(model, Scope(None, body.area_id, body.fixture_id))
     if body.area_id is None:
         stmt = stmt.where(model.area_id.is_(None))
     return session.scalars(stmt.order_by(model.id.desc()).limit(1)).one()
+
+
+def _reading_routes(
+    kind: tuple[str, str, Any, type[BaseModel]],
+    upload_doc: str,
+    list_doc: str,
+    ingest: tuple[Any, Callable[[Session, Any], int]],
+    sort: dict[str, Any],
+) -> None:
+    """POST <path>/bulk (upload_<name>) and GET <path> (list_<name>) for one reading kind.
+
+    kind is (path, name, ORM model, read schema); ingest is (upload spec, ingest function).
+    """
+    path, name, model, read = kind
+    spec, store = ingest
+
+    def upload(
+        body: RawBody, session: Session, request: Request, response: Response, **_: Any
+    ) -> Any:
+        cols = read_upload(body, spec)
+        response.headers["Location"] = str(request.url_for(f"list_{name}"))
+        return BulkResult(stored=store(session, cols))
+
+    def listing(scope: Scope, session: Session, page: Any, **_: Any) -> Any:
+        rows, total = paginate(session, _filters(model, scope), page, sort, model.id)
+        return page_of(read, rows, total, page)
+
+    writer = [param("body", RawBodyDep), param("session", SessionDep), param("_", WriteKey)]
+    router.add_api_route(
+        f"{path}/bulk",
+        endpoint(
+            f"upload_{name}",
+            upload_doc,
+            [*writer, param("request", Request), param("response", Response)],
+            upload,
+        ),
+        methods=["POST"],
+        response_model=BulkResult,
+        status_code=status.HTTP_201_CREATED,
+        openapi_extra=UPLOAD_OPENAPI,
+    )
+    reader = [param("scope", ScopeDep), param("session", SessionDep), param("_", ReadKey)]
+    router.add_api_route(
+        path,
+        endpoint(f"list_{name}", list_doc, [*reader, param("page", PageDep)], listing),
+        methods=["GET"],
+        response_model=Page[read],  # type: ignore[valid-type]
+    )
 
 
 @router.post("/burn-hours", response_model=BurnHourRead, status_code=status.HTTP_201_CREATED)
@@ -65,34 +144,13 @@ def create_burn_hours(
     return BurnHourRead.model_validate(_latest(session, BurnHourRecord, body))
 
 
-@router.post(
-    "/burn-hours/bulk",
-    response_model=BulkResult,
-    status_code=status.HTTP_201_CREATED,
-    openapi_extra=UPLOAD_OPENAPI,
+_reading_routes(
+    ("/burn-hours", "burn_hours", BurnHourRecord, BurnHourRead),
+    "Upload burn-hour rows as CSV or a JSON list (columns as in POST /burn-hours); all or none.",
+    "List burn-hour records (sort: id, period_end).",
+    (burn_hours.BURN_UPLOAD, burn_hours.ingest_burn_hours),
+    BURN_SORT,
 )
-def upload_burn_hours(
-    body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
-) -> BulkResult:
-    """Upload burn-hour rows as CSV or a JSON list (columns as in POST /burn-hours); all or none."""
-    cols = read_upload(body, burn_hours.BURN_UPLOAD)
-    response.headers["Location"] = str(request.url_for("list_burn_hours"))
-    return BulkResult(stored=burn_hours.ingest_burn_hours(session, cols))
-
-
-@router.get("/burn-hours", response_model=Page[BurnHourRead])
-def list_burn_hours(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: IdQuery = None,
-    area_id: IdQuery = None,
-    fixture_id: IdQuery = None,
-) -> Page[BurnHourRead]:
-    """List burn-hour records (sort: id, period_end)."""
-    stmt = _filters(BurnHourRecord, site_id, area_id, fixture_id)
-    rows, total = paginate(session, stmt, page, BURN_SORT, BurnHourRecord.id)
-    return page_of(BurnHourRead, rows, total, page)
 
 
 @router.post(
@@ -112,47 +170,22 @@ def create_voltage_reading(
     return VoltageReadingRead.model_validate(_latest(session, VoltageReading, body))
 
 
-@router.post(
-    "/voltage-readings/bulk",
-    response_model=BulkResult,
-    status_code=status.HTTP_201_CREATED,
-    openapi_extra=UPLOAD_OPENAPI,
+_reading_routes(
+    ("/voltage-readings", "voltage_readings", VoltageReading, VoltageReadingRead),
+    "Upload voltage readings as CSV or a JSON list (fixture_id or area_id, measured_at, volts).",
+    "List voltage readings (sort: id, measured_at).",
+    (voltage_upload.VOLTAGE_UPLOAD, voltage_upload.ingest_voltages),
+    VOLT_SORT,
 )
-def upload_voltage_readings(
-    body: RawBodyDep, session: SessionDep, _: WriteKey, request: Request, response: Response
-) -> BulkResult:
-    """Upload voltage readings as CSV or a JSON list (fixture_id or area_id, measured_at, volts)."""
-    cols = read_upload(body, voltage_upload.VOLTAGE_UPLOAD)
-    response.headers["Location"] = str(request.url_for("list_voltage_readings"))
-    return BulkResult(stored=voltage_upload.ingest_voltages(session, cols))
-
-
-@router.get("/voltage-readings", response_model=Page[VoltageReadingRead])
-def list_voltage_readings(
-    session: SessionDep,
-    _: ReadKey,
-    page: PageDep,
-    site_id: IdQuery = None,
-    area_id: IdQuery = None,
-    fixture_id: IdQuery = None,
-) -> Page[VoltageReadingRead]:
-    """List voltage readings (sort: id, measured_at)."""
-    stmt = _filters(VoltageReading, site_id, area_id, fixture_id)
-    rows, total = paginate(session, stmt, page, VOLT_SORT, VoltageReading.id)
-    return page_of(VoltageReadingRead, rows, total, page)
 
 
 @router.get("/position-ages", response_model=PositionAgesPage)
 def list_position_ages(
-    session: SessionDep,
-    _: ReadKey,
-    page: OffsetPageDep,
-    site_id: IdQuery = None,
-    area_id: IdQuery = None,
-    fixture_id: IdQuery = None,
-    at: Annotated[Timestamp | None, Query(description="Moment (default now).")] = None,
+    scope_at: ScopeAtDep, session: SessionDep, _: ReadKey, page: OffsetPageDep
 ) -> PositionAgesPage:
     """Each lamp position's age, starts and operating voltage (with its source), by id."""
+    scope, at = scope_at
+    site_id, area_id, fixture_id = scope.site_id, scope.area_id, scope.fixture_id
     if site_id is None and area_id is None and fixture_id is None:
         raise Invalid(
             "Give site_id, area_id or fixture_id.",
@@ -164,20 +197,10 @@ def list_position_ages(
     sl = slice(page.offset, page.offset + page.limit)
     items = [
         PositionAgeRead(
-            position_id=int(ages.position_id[i]),
-            fixture_id=int(ages.fixture_id[i]),
-            area_id=int(ages.area_id[i]),
+            **ages.row(i),
             site_id=int(ages.site_id[i]),
-            lamp_type_id=int(ages.lamp_type_id[i]),
             lamp_installed_at=datetime.fromtimestamp(float(ages.installed_at_s[i]), UTC),
-            age_h=float(ages.age_h[i]),
             starts=float(ages.starts[i]),
-            hours_per_start=None
-            if math.isnan(ages.hours_per_start[i])
-            else float(ages.hours_per_start[i]),
-            voltage_v=float(ages.voltage_v[i]),
-            voltage_source=str(ages.voltage_source[i]),
-            burned_out=bool(ages.burned_out[i]),
             burn_h_per_week=float(ages.burn_h_per_week[i]),
         )
         for i in range(ages.size)[sl]

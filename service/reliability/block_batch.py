@@ -19,6 +19,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from service.reliability.arrays import FloatArray
+from service.reliability.arrays import IndexArray as IntArray
 from service.reliability.bounded_search import bounded_minimum_many
 from service.reliability.renewal import RenewalCurve
 from service.reliability.replacement import (
@@ -31,8 +33,6 @@ from service.reliability.replacement import (
     _tightest,
 )
 
-FloatArray = NDArray[np.float64]
-IntArray = NDArray[np.intp]
 ROWS_PER_CHUNK = 64  # problems per grid chunk (64 x 2000 floats = 1 MB: stays in cache)
 
 

@@ -43,8 +43,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import ArrayLike
 
+from service.reliability.arrays import BoolArray, FloatArray
 from service.reliability.technologies import (
     BALLAST_POWER_GAIN,
     BALLAST_VOLTAGE_BAND,
@@ -54,9 +55,6 @@ from service.reliability.technologies import (
     TECHNOLOGY_DEFAULTS,
     TechnologyDefaults,
 )
-
-FloatArray = NDArray[np.float64]
-BoolArray = NDArray[np.bool_]
 
 # Lamp power ratio never goes below this (keeps P^-n finite far outside any valid band).
 MIN_POWER_RATIO: float = 0.05

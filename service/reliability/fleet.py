@@ -35,8 +35,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import ArrayLike
 
+from service.reliability.arrays import BoolArray, FloatArray
+from service.reliability.arrays import IndexArray as IntArray
 from service.reliability.conditions import (
     MIN_POWER_RATIO,
     SWITCHING_MAX_FACTOR,
@@ -57,10 +59,6 @@ from service.reliability.technologies import (
     TECHNOLOGY_DEFAULTS,
 )
 from service.reliability.weibull import scale_from_rated_life
-
-FloatArray = NDArray[np.float64]
-BoolArray = NDArray[np.bool_]
-IntArray = NDArray[np.intp]
 
 _LN2 = math.log(2.0)
 

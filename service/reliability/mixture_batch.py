@@ -31,6 +31,7 @@ from numpy.typing import NDArray
 
 from service.reliability import mixture as mx
 from service.reliability import mixture_batch_cdf as bc
+from service.reliability.arrays import FloatArray, IntArray
 from service.reliability.mixture_batch_bins import binned_quantiles
 from service.reliability.uncertainty import (
     FORECAST_EXACT_BUDGET,
@@ -38,9 +39,6 @@ from service.reliability.uncertainty import (
     CountRange,
     window_p,
 )
-
-FloatArray = NDArray[np.float64]
-IntArray = NDArray[np.int64]
 
 
 @dataclass(frozen=True)

@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from typing import Annotated
+from collections.abc import Callable
+from typing import Annotated, TypeVar
 
 from fastapi import APIRouter, Form, Request
 from fastapi.responses import HTMLResponse, Response
@@ -344,9 +345,19 @@ def order_complete(
         len(position_id) == len(position_outcome) == len(position_reason)
     ):
         return _order_page(request, session, visitor, order_id, 422, "The form is incomplete.")
-    outcomes, errors = _outcomes_from_form(fixture_id, outcome, reason)
-    positions, position_errors = _positions_from_form(
-        position_id, position_outcome, position_reason
+    outcomes, errors = _rows_from_form(
+        fixture_id,
+        outcome,
+        reason,
+        lambda f, o, r: FixtureOutcome(fixture_id=f, outcome=o, reason=r),
+        lambda n, f: f"Row {n} (fixture {f})",
+    )
+    positions, position_errors = _rows_from_form(
+        position_id,
+        position_outcome,
+        position_reason,
+        lambda p, o, r: PositionOutcome(position_id=p, outcome=o, reason=r),
+        lambda n, p: f"Position row {n} (position {p})",
     )
     errors += position_errors
     if errors:
@@ -364,37 +375,31 @@ def order_complete(
     return see_other(f"/app/work-orders/{order_id}")
 
 
-def _positions_from_form(
-    position_ids: list[int], outcomes: list[str], reasons: list[str]
-) -> tuple[list[PositionOutcome], list[str]]:
-    """The per-position rows, and a readable error naming each row the schema refuses."""
-    rows, errors = [], []
-    for i, (p, o, r) in enumerate(zip(position_ids, outcomes, reasons, strict=True)):
+R = TypeVar("R")
+
+
+def _rows_from_form(
+    ids: list[int],
+    outcomes: list[str],
+    reasons: list[str],
+    build: Callable[[int, str, str | None], R],
+    label: Callable[[int, int], str],
+) -> tuple[list[R], list[str]]:
+    """The form's rows built, and a readable error (led by label) naming each row refused."""
+    rows: list[R] = []
+    errors: list[str] = []
+    for i, (x, o, r) in enumerate(zip(ids, outcomes, reasons, strict=True)):
         try:
-            rows.append(PositionOutcome(position_id=p, outcome=o, reason=r.strip() or None))
+            rows.append(build(x, o, r.strip() or None))
         except ValidationError as exc:
             why = "; ".join(e["msg"].removeprefix("Value error, ") for e in exc.errors())
-            errors.append(f"Position row {i + 1} (position {p}): {why}")
+            errors.append(f"{label(i + 1, x)}: {why}")
     return rows, errors
 
 
 def _error_lines(exc: DomainError) -> list[str]:
     """The field messages a domain error carries, for the page."""
     return [str(e.get("message", "")) for e in exc.errors or []]
-
-
-def _outcomes_from_form(
-    fixture_ids: list[int], outcomes: list[str], reasons: list[str]
-) -> tuple[list[FixtureOutcome], list[str]]:
-    """The outcome rows, and a readable error naming each row the schema refuses."""
-    rows, errors = [], []
-    for i, (f, o, r) in enumerate(zip(fixture_ids, outcomes, reasons, strict=True)):
-        try:
-            rows.append(FixtureOutcome(fixture_id=f, outcome=o, reason=r.strip() or None))
-        except ValidationError as exc:
-            why = "; ".join(e["msg"].removeprefix("Value error, ") for e in exc.errors())
-            errors.append(f"Row {i + 1} (fixture {f}): {why}")
-    return rows, errors
 
 
 @router.post("/app/work-orders/{order_id}/cancel", response_class=HTMLResponse)
