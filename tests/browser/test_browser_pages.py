@@ -7,6 +7,7 @@ from itertools import pairwise
 from typing import Any
 
 import pytest
+from selenium.common.exceptions import StaleElementReferenceException, WebDriverException
 from selenium.webdriver.common.by import By
 from selenium.webdriver.support import expected_conditions as ec
 from selenium.webdriver.support.ui import Select, WebDriverWait
@@ -20,7 +21,13 @@ ROLES = {"vika": "viewer", "tamo": "technician", "pela": "planner", "ardo": "adm
 
 
 def _wait(driver: Any) -> WebDriverWait:  # type: ignore[type-arg]
-    return WebDriverWait(driver, 30)
+    # A form post replaces the page while the condition polls it: an element found in the old
+    # document is then stale, or Chromium reports "Node with given id does not belong to the
+    # document" (a plain WebDriverException). Both mean "not yet": keep polling until the
+    # condition holds or the 30 s run out (a TimeoutException then fails the test).
+    return WebDriverWait(
+        driver, 30, ignored_exceptions=(StaleElementReferenceException, WebDriverException)
+    )
 
 
 def _shot(driver: Any, name: str) -> None:
