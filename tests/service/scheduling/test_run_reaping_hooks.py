@@ -98,17 +98,20 @@ def test_cli_reap(
     assert "0 expired run(s)" in capsys.readouterr().out
 
 
-def test_due_week_skips_a_site_this_process_is_running(
-    db: Session, factory: sessionmaker[Session]
-) -> None:
-    if db.get_bind().dialect.name == "postgresql":
-        pytest.skip("PostgreSQL uses the row lock (test_replica_catch_up)")
-    s = plan_site(db, created_at=datetime.now(UTC) - timedelta(days=30))
-    db.commit()
+def test_due_week_skips_a_site_this_process_is_running(tmp_path: Path) -> None:
+    # The per-site thread lock is SQLite's guard (PostgreSQL's row lock is tested in
+    # test_replica_catch_up), so this runs on a SQLite file of its own in every pass.
+    engine = make_engine(f"sqlite:///{tmp_path / 'own.sqlite3'}")
+    migrate(engine)
+    factory = sessionmaker(bind=engine, expire_on_commit=False)
+    with factory() as db:
+        s = plan_site(db, created_at=datetime.now(UTC) - timedelta(days=30))
+        db.commit()
+        site_id = s.id
     held, release = threading.Event(), threading.Event()
 
     def other_thread() -> None:  # another scheduler thread mid-run on the same site
-        with runner._site_lock(s.id):
+        with runner._site_lock(site_id):
             held.set()
             release.wait(60)
 
@@ -116,13 +119,14 @@ def test_due_week_skips_a_site_this_process_is_running(
     t.start()
     try:
         assert held.wait(60)
-        assert run_due_week(factory, s.id) is None  # not awaited: skipped at once
+        assert run_due_week(factory, site_id) is None  # not awaited: skipped at once
     finally:
         release.set()
         t.join()
-    first = run_due_week(factory, s.id)
+    first = run_due_week(factory, site_id)
     assert first is not None and first.outcome == RunOutcome.SUCCEEDED
-    assert run_due_week(factory, s.id) is None  # the week succeeded: nothing to do
+    assert run_due_week(factory, site_id) is None  # the week succeeded: nothing to do
+    engine.dispose()
 
 
 def test_lease_migration_round_trip(tmp_path: Path) -> None:
