@@ -105,43 +105,87 @@ def voltage_factors(
     r = _arr(voltage_ratio)
     if np.any(~(r > 0)):
         raise ValueError("voltage ratio must be a positive number (volts > 0)")
-    n_life = _arr(life_exponent)
-    k_light = _arr(light_exponent)
-    m_power = _arr(power_exponent)
     gain = _arr(ballast_gain)
     filament = np.asarray(is_filament, dtype=bool) | np.isnan(gain)
-    floor = _arr(life_ratio_floor)
-    dmin = _arr(driver_min_ratio)
-    dmax = _arr(driver_max_ratio)
+    return voltage_factors_of(
+        r,
+        _arr(life_exponent),
+        _arr(light_exponent),
+        _arr(power_exponent),
+        np.where(filament, 0.0, gain),
+        filament,
+        band=_arr(band),
+        life_ratio_floor=_arr(life_ratio_floor),
+        driver_min_ratio=_arr(driver_min_ratio),
+        driver_max_ratio=_arr(driver_max_ratio),
+    )
 
+
+def voltage_factors_of(
+    r: FloatArray,
+    n_life: FloatArray,
+    k_light: FloatArray,
+    m_power: FloatArray,
+    gain: FloatArray,
+    filament: BoolArray,
+    *,
+    band: FloatArray,
+    life_ratio_floor: FloatArray | None,
+    driver_min_ratio: FloatArray | None,
+    driver_max_ratio: FloatArray | None,
+    has_driver_range: BoolArray | None = None,
+) -> tuple[FloatArray, FloatArray, FloatArray, BoolArray]:
+    """voltage_factors on checked arrays: gain 0 and filament True for filament lamps.
+
+    A fleet gathers the per-type columns once and passes None for a rule no type has (no
+    halogen floor, no driver range): the same results without that rule's work.
+    has_driver_range: where either bound is given (computed from them when None).
+    """
     # Ballasted lamps: lamp power ratio P from the line-voltage ratio through the ballast gain.
-    p_lamp = np.maximum(1.0 + np.where(filament, 0.0, gain) * (r - 1.0), MIN_POWER_RATIO)
+    dr = r - 1.0
+    p_lamp = np.maximum(1.0 + gain * dr, MIN_POWER_RATIO)
     base = np.where(filament, r, p_lamp)
-    life = _life(r, p_lamp, n_life, filament, floor)
+    floor = life_ratio_floor
+    life = _life(r, p_lamp, n_life, filament, floor, base)
     light = np.power(base, k_light)
     power = np.where(filament, np.power(base, m_power), p_lamp)
 
-    has_range = ~np.isnan(dmin) | ~np.isnan(dmax)
-    outside_range = (r < dmin) | (r > dmax)  # NaN bounds compare False
-    life = np.where(outside_range, 1.0, life)
-    light = np.where(outside_range, 1.0, light)
-    power = np.where(outside_range, 1.0, power)
-
-    out_band = np.abs(r - 1.0) > _arr(band) + _BAND_TOL
-    below_floor = filament & (r < floor)
-    out = np.where(has_range, outside_range, out_band) | below_floor
-    return life, light, power, np.asarray(out, dtype=bool)
+    out_band = np.abs(dr) > band + _BAND_TOL
+    if driver_min_ratio is not None and driver_max_ratio is not None:
+        has_range = has_driver_range
+        if has_range is None:
+            has_range = ~np.isnan(driver_min_ratio) | ~np.isnan(driver_max_ratio)
+        outside_range = (r < driver_min_ratio) | (r > driver_max_ratio)  # NaN compares False
+        if outside_range.any():
+            life = np.where(outside_range, 1.0, life)
+            light = np.where(outside_range, 1.0, light)
+            power = np.where(outside_range, 1.0, power)
+        out_band = np.where(has_range, outside_range, out_band)
+    if floor is not None:
+        out_band |= filament & (r < floor)
+    return life, light, power, np.asarray(out_band, dtype=bool)
 
 
 def _life(
-    r: FloatArray, p_lamp: FloatArray, n_life: FloatArray, filament: BoolArray, floor: FloatArray
+    r: FloatArray,
+    p_lamp: FloatArray,
+    n_life: FloatArray,
+    filament: BoolArray,
+    floor: FloatArray | None,
+    base: FloatArray | None = None,
 ) -> FloatArray:
-    """Life factor before the driver-range rule: filament r^-n, discharge P^-n capped at 1."""
-    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor).
-    life_base = np.where(filament, np.fmax(r, floor), p_lamp)
+    """Life factor before the driver-range rule: filament r^-n, discharge P^-n capped at 1.
+
+    base: where(filament, r, p_lamp) when the caller has it (the life base without a floor).
+    """
+    # Halogen: life gain frozen below the floor ratio (fmax ignores a NaN floor; None = none).
+    if floor is None:
+        life_base = np.where(filament, r, p_lamp) if base is None else base
+    else:
+        life_base = np.where(filament, np.fmax(r, floor), p_lamp)
     life = np.power(life_base, -n_life)
     # Under-powered discharge lamps: no life credit (a supply fault, not a bonus).
-    return np.asarray(np.where(~filament & (r < 1.0), np.minimum(life, 1.0), life))
+    return np.asarray(np.minimum(life, 1.0, out=life, where=~filament & (r < 1.0)))
 
 
 def voltage_life_factor(
@@ -434,19 +478,51 @@ def switching_life_factor(
     if np.any(h2 == hr):
         raise ValueError("second switching point must be at a different hours per start")
 
-    no_model = np.isnan(hr)
-    hr_safe = np.where(no_model, 1.0, hr)
-    h_eff = np.where(np.isnan(h), hr_safe, h)
-    has_second = ~np.isnan(h2)
+    slope, ln_rated = switching_slope(hr, h2, q2, slope0)
+    return switching_factor_at(h, slope, ln_rated, min_factor=min_factor, max_factor=max_factor)
+
+
+def switching_slope(
+    rated_hours_per_start: FloatArray,
+    second_hours_per_start: FloatArray,
+    second_life_ratio: FloatArray,
+    default_slope: FloatArray,
+) -> tuple[FloatArray, FloatArray]:
+    """(slope per unit ln(hours per start), ln(rated hours per start)) of switching models.
+
+    The constants of switching_life_factor, one per model (a fleet computes them once per
+    lamp type): the slope through the second point where there is one, else default_slope
+    (NaN = DEFAULT_SWITCHING_SLOPE); slope 0 and ln 0 where there is no model (NaN rated).
+    """
+    no_model = np.isnan(rated_hours_per_start)
+    ln_rated = np.log(np.where(no_model, 1.0, rated_hours_per_start))
+    has_second = ~np.isnan(second_hours_per_start)
     with np.errstate(divide="ignore", invalid="ignore"):
-        slope_2 = (q2 - 1.0) / (np.log(np.where(has_second, h2, 2.0)) - np.log(hr_safe))
-        slope = np.where(
-            has_second, slope_2, np.where(np.isnan(slope0), DEFAULT_SWITCHING_SLOPE, slope0)
+        slope_2 = (second_life_ratio - 1.0) / (
+            np.log(np.where(has_second, second_hours_per_start, 2.0)) - ln_rated
         )
-        x = np.log(h_eff) - np.log(hr_safe)  # ln of (operating / rated) hours per start
-        raw = np.where(slope == 0.0, 1.0, 1.0 + slope * x)  # 0*inf guard (continuous burning)
+    slope0 = np.where(np.isnan(default_slope), DEFAULT_SWITCHING_SLOPE, default_slope)
+    slope = np.where(no_model, 0.0, np.where(has_second, slope_2, slope0))
+    return np.asarray(slope, dtype=np.float64), np.asarray(ln_rated, dtype=np.float64)
+
+
+def switching_factor_at(
+    hours_per_start: FloatArray,
+    slope: FloatArray,
+    ln_rated: FloatArray,
+    *,
+    min_factor: float = SWITCHING_MIN_FACTOR,
+    max_factor: float = SWITCHING_MAX_FACTOR,
+) -> tuple[FloatArray, BoolArray]:
+    """Switching factor 1 + slope ln(h / h_rated), clipped, and where it was clipped.
+
+    NaN hours per start (the rated cycle) and slope 0 (no model, or continuous burning
+    against a flat model: 0 x inf) give 1.0.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        # ln of (operating / rated) hours per start, times the slope
+        raw = 1.0 + slope * (np.log(hours_per_start) - ln_rated)
+    raw = np.where(np.isnan(raw), 1.0, raw)
     factor = np.clip(raw, min_factor, max_factor)
     warn = (raw < min_factor - _BAND_TOL) | (raw > max_factor + _BAND_TOL)
-    factor = np.where(no_model, 1.0, factor)
-    warn = warn & ~no_model
-    return np.asarray(factor, dtype=np.float64), np.asarray(warn, dtype=bool)
+    return factor, warn

@@ -84,7 +84,8 @@ class LumenCurve:
                 raise ValueError("exponential lumen curve needs 0 < B <= 1.2 and alpha >= 0")
 
     @cached_property
-    def _knots(self) -> tuple[FloatArray, FloatArray]:
+    def knots(self) -> tuple[FloatArray, FloatArray]:
+        """The points interpolated, starting at x = 0 (full light before the first point)."""
         xs = np.asarray(self.x, dtype=np.float64)
         fs = np.asarray(self.fraction, dtype=np.float64)
         if xs[0] > 0:  # curve starts at full light (or the first value if above 1)
@@ -93,18 +94,19 @@ class LumenCurve:
         return xs, fs
 
     @cached_property
-    def _interp(self) -> PchipInterpolator | None:
-        xs, fs = self._knots
+    def interpolator(self) -> PchipInterpolator | None:
+        """scipy's PCHIP through the knots (None for a one-point, flat curve)."""
+        xs, fs = self.knots
         return PchipInterpolator(xs, fs, extrapolate=False) if xs.size >= 2 else None
 
     def _at_x(self, u: FloatArray) -> FloatArray:
         """Evaluate on the curve's own x axis (u >= 0)."""
-        xs, fs = self._knots
-        if self._interp is None:
+        xs, fs = self.knots
+        if self.interpolator is None:
             return np.full(u.shape, fs[0])
         out = np.empty(u.shape, dtype=np.float64)
         inside = u <= xs[-1]
-        out[inside] = self._interp(u[inside])
+        out[inside] = self.interpolator(u[inside])
         # Beyond the last point: last segment's slope, never rising, floored at 0.
         slope = min((fs[-1] - fs[-2]) / (xs[-1] - xs[-2]), 0.0)
         beyond = ~inside

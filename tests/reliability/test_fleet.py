@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import numpy as np
@@ -176,3 +177,45 @@ def test_empty_fleet() -> None:
     res = evaluate_fleet(table, np.array([], dtype=int), np.array([]), 120.0, math.nan, 100.0)
     assert res.expected_failures_horizon == 0.0
     assert res.survival.shape == (0,)
+
+
+@pytest.mark.parametrize("with_history", [False, True])
+def test_blocks_change_no_result(with_history: bool) -> None:
+    """A fleet longer than one block gives each row what that row gives alone in a short fleet."""
+    from service.reliability.exposure import ExposureHistory
+    from service.reliability.fleet import BLOCK, FleetResult
+
+    n = 2 * BLOCK + 123  # three blocks, the last one short
+    idx, age, volts, hps, horizon = _random_fleet(n, 11)
+    rng = np.random.default_rng(5)
+    lmf = rng.uniform(0.7, 1.0, n)
+    history = None
+    if with_history:
+        rows = np.sort(rng.integers(0, n, n // 2))
+        history = ExposureHistory(
+            rows, age[rows] / 3.0, volts[rows] * 1.02, np.full(rows.size, 50.0)
+        )
+    types = LampTypeTable.from_specs(SPECS)
+    whole = evaluate_fleet(
+        types, idx, age, volts, hps, horizon, history=history, luminaire_factor=lmf
+    )
+    # The same rows in pieces that cut across the block boundaries.
+    cuts = [0, 777, BLOCK - 1, BLOCK + 5, n]
+    for a, b in itertools.pairwise(cuts):
+        part_history = None
+        if history is not None:
+            part_history = history.take(np.arange(a, b), n)
+        part = evaluate_fleet(
+            types,
+            idx[a:b],
+            age[a:b],
+            volts[a:b],
+            hps[a:b],
+            horizon[a:b],
+            history=part_history,
+            luminaire_factor=lmf[a:b],
+        )
+        for field in FleetResult.__dataclass_fields__:
+            if field == "expected_failures_horizon":
+                continue
+            np.testing.assert_array_equal(getattr(whole, field)[a:b], getattr(part, field))
